@@ -1,0 +1,51 @@
+#include "app/cli.hpp"
+
+#include <iostream>
+
+#include <CLI/CLI.hpp>
+
+#include "app/demo.hpp"
+#include "app/inspect.hpp"
+
+namespace occulta::app {
+
+int run(int argc, char** argv) {
+  CLI::App cli{"occulta — measure coronal mass ejections in coronagraph frames"};
+  cli.set_version_flag("--version", std::string("occulta ") + OCCULTA_VERSION);
+  cli.require_subcommand(1);
+
+  InspectOptions inspect_options;
+  auto* inspect_cmd = cli.add_subcommand("inspect", "Report what each FITS file holds and whether it is usable");
+  inspect_cmd->add_option("paths", inspect_options.paths, "FITS files, or folders searched recursively")
+      ->required();
+  inspect_cmd->add_flag("--json", inspect_options.json, "Print a JSON array instead of a line per file");
+
+  DemoOptions demo_options;
+  auto* demo_cmd = cli.add_subcommand("demo", "Run the main job on the committed sample event");
+  demo_cmd->add_option("--out", demo_options.out_dir, "Folder for what the demo writes")->capture_default_str();
+  demo_cmd->add_option("--sample", demo_options.sample_dir, "The sample event's folder")->capture_default_str();
+
+  try {
+    cli.parse(argc, argv);
+  } catch (const CLI::CallForHelp& e) {
+    return cli.exit(e);
+  } catch (const CLI::CallForAllHelp& e) {
+    return cli.exit(e);
+  } catch (const CLI::CallForVersion& e) {
+    return cli.exit(e);
+  } catch (const CLI::ParseError& e) {
+    cli.exit(e);  // prints the reason and the usage
+    return 2;
+  }
+
+  try {
+    if (*inspect_cmd) return inspect(inspect_options, std::cout, std::cerr);
+    if (*demo_cmd) return demo(demo_options, std::cout, std::cerr);
+  } catch (const std::exception& e) {
+    std::cerr << "occulta: " << e.what() << '\n';
+    return 1;
+  }
+  return 2;
+}
+
+}  // namespace occulta::app

@@ -1,0 +1,20 @@
+# Debian 12 packages (./bootstrap installs them). Each becomes one imported target.
+find_package(PkgConfig REQUIRED)
+pkg_check_modules(CFITSIO REQUIRED IMPORTED_TARGET cfitsio)
+pkg_check_modules(WCSLIB REQUIRED IMPORTED_TARGET wcslib)
+find_package(Eigen3 3.4 REQUIRED NO_MODULE)
+find_package(Ceres REQUIRED)
+find_package(nlohmann_json 3.10 REQUIRED)
+find_package(CLI11 REQUIRED)
+find_package(doctest REQUIRED)
+find_package(Threads REQUIRED)
+
+# OpenCV: Debian's per-module -dev packages ship headers and libraries but the CMake
+# config only comes with the full meta-package, so the three modules we use are found here.
+find_path(OPENCV_INCLUDE_DIR opencv2/core.hpp PATH_SUFFIXES opencv4 REQUIRED)
+add_library(occulta_opencv INTERFACE)
+target_include_directories(occulta_opencv SYSTEM INTERFACE ${OPENCV_INCLUDE_DIR})
+foreach(module core imgproc imgcodecs)
+  find_library(OPENCV_${module}_LIBRARY opencv_${module} REQUIRED)
+  target_link_libraries(occulta_opencv INTERFACE ${OPENCV_${module}_LIBRARY})
+endforeach()

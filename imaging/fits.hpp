@@ -1,0 +1,95 @@
+// imaging/fits.hpp — FITS frames in and out (cfitsio).
+//
+// Reads the first image HDU that holds data — primary or extension, tile-compressed
+// included — for BITPIX 8, 16, 32, 64, −32, −64, applying BSCALE/BZERO and BLANK
+// (FITS Standard 4.0, §4.4.2 and §5.3), into a float32 cv::Mat with NaN where there is
+// no data. A 3-D cube with one plane is accepted; more planes are refused.
+//
+// Pixel convention (FITS Standard 4.0 §8.1 / WCS Paper I): FITS pixel (i, j), 1-based,
+// is our 0-based pixel (x, y) = (i − 1, j − 1), the centre of the pixel. In the cv::Mat,
+// column x is FITS axis 1 and row y is FITS axis 2, so row 0 is the first row stored in
+// the file — the bottom of the image as solar images are conventionally displayed.
+// Anything that draws a Mat for a person flips it vertically.
+//
+// Every failure is an InputError naming the file and the fault in one sentence.
+#pragma once
+
+#include <cstddef>
+#include <cstdint>
+#include <filesystem>
+#include <optional>
+#include <span>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include <opencv2/core.hpp>
+
+namespace occulta::imaging {
+
+// One header record ("card") with its value typed as FITS writes it.
+struct HeaderCard {
+  enum class Kind { Logical, Integer, Real, Text, Commentary, Undefined };
+  std::string key;       // upper case, e.g. "DATE-OBS"; COMMENT/HISTORY/"" for commentary
+  Kind kind = Kind::Undefined;
+  long long integer = 0; // Kind::Integer (also 0/1 for Logical)
+  double real = 0.0;     // Kind::Real, and Kind::Integer converted
+  std::string text;      // Kind::Text value without quotes; Commentary text
+  std::string comment;
+};
+
+// The keywords of one image, in file order. When the image sits in an extension, the
+// primary header's keywords that the extension lacks are inherited (structural keywords
+// such as SIMPLE, BITPIX, NAXISn, EXTEND excepted) — common practice for INHERIT = T
+// and what solar archives rely on.
+struct Header {
+  std::vector<HeaderCard> cards;
+
+  const HeaderCard* find(std::string_view key) const;     // first card with that key
+  std::optional<double> number(std::string_view key) const;  // Integer or Real cards only
+  std::optional<std::string> text(std::string_view key) const;  // Text cards only
+
+  // Replace the first card with this key, or append one.
+  void set_real(std::string_view key, double value, std::string_view comment = "");
+  void set_integer(std::string_view key, long long value, std::string_view comment = "");
+  void set_text(std::string_view key, std::string_view value, std::string_view comment = "");
+  void set_logical(std::string_view key, bool value, std::string_view comment = "");
+  void add_commentary(std::string_view key, std::string_view text);  // COMMENT / HISTORY
+};
+
+struct FitsImage {
+  std::string source;      // path (or name for in-memory data), used in messages
+  int hdu = 0;             // 0-based index of the HDU that held the image (0 = primary)
+  int bitpix = 0;          // as stored: BITPIX, or ZBITPIX for a tile-compressed image
+  bool compressed = false; // tile-compressed image extension
+  Header header;           // the image's header (with inherited primary keywords)
+  cv::Mat pixels;          // CV_32FC1, rows = NAXIS2, cols = NAXIS1, NaN where no data
+  std::size_t nonfinite_count = 0;  // pixels that are NaN/Inf after scaling (blank or stored so)
+};
+
+// Largest image we agree to allocate: refuses NAXISn products beyond this before any
+// allocation (a header can claim anything).
+inline constexpr std::size_t kMaxPixels = std::size_t{1} << 28;  // 268 M pixels, 1 GiB float32
+
+FitsImage read_fits(const std::filesystem::path& path);
+
+// The same, from bytes already in memory (used by the fuzzer and for files read whole).
+FitsImage read_fits_memory(std::span<const std::byte> bytes, std::string name);
+
+// Header only, without reading pixels (for quick listings). Same HDU choice as read_fits.
+Header read_fits_header(const std::filesystem::path& path);
+
+struct FitsWriteOptions {
+  enum class Pixels { Float32, ScaledInt16 };
+  Pixels pixels = Pixels::Float32;
+  // ScaledInt16: BSCALE/BZERO chosen from the finite data range so it spans the int16
+  // range; NaN is written as BLANK. Round trip is exact up to BSCALE/2.
+  bool rice = false;  // Rice tile compression (one row per tile), in an image extension
+};
+
+// Writes pixels (CV_32FC1, row 0 = FITS row 1) with the given header's non-structural
+// cards. The file appears whole or not at all (written beside it, then renamed).
+void write_fits(const std::filesystem::path& path, const cv::Mat& pixels, const Header& header,
+                const FitsWriteOptions& options = {});
+
+}  // namespace occulta::imaging

@@ -1,0 +1,55 @@
+#include "tests/support/support.hpp"
+
+#include <array>
+#include <cstdio>
+#include <cstdlib>
+#include <stdexcept>
+#include <sys/wait.h>
+
+namespace occulta::test {
+
+std::filesystem::path scratch_dir(const std::string& name) {
+  const char* root = std::getenv("OCCULTA_TEST_TMP");
+  std::filesystem::path base = root ? std::filesystem::path(root)
+                                    : std::filesystem::temp_directory_path() / "occulta-tests";
+  std::filesystem::path dir = base / name;
+  std::filesystem::remove_all(dir);
+  std::filesystem::create_directories(dir);
+  return dir;
+}
+
+std::filesystem::path source_path(const std::string& relative) {
+  return std::filesystem::path(OCCULTA_SOURCE_DIR) / relative;
+}
+
+std::filesystem::path occulta_binary() { return std::filesystem::path(OCCULTA_BINARY_DIR) / "occulta"; }
+
+std::string shell_quote(const std::string& text) {
+  std::string quoted = "'";
+  for (char c : text) {
+    if (c == '\'') quoted += "'\\''";
+    else quoted += c;
+  }
+  return quoted + "'";
+}
+
+CommandResult run_command(const std::string& command_line) {
+  CommandResult result;
+  FILE* pipe = popen((command_line + " 2>&1").c_str(), "r");
+  if (!pipe) throw std::runtime_error("could not start: " + command_line);
+  std::array<char, 4096> buffer{};
+  size_t n = 0;
+  while ((n = fread(buffer.data(), 1, buffer.size(), pipe)) > 0) result.output.append(buffer.data(), n);
+  const int status = pclose(pipe);
+  result.exit_code = WIFEXITED(status) ? WEXITSTATUS(status) : -1;
+  return result;
+}
+
+CommandResult run_python(const std::string& script_relative, const std::string& arguments) {
+  // Debian's python3 explicitly: another python3 earlier on PATH may lack astropy.
+  // PYTHONNOUSERSITE keeps user-installed packages out of the reference run.
+  return run_command("PYTHONNOUSERSITE=1 " + shell_quote(OCCULTA_PYTHON) + " " +
+                     shell_quote(source_path(script_relative).string()) + " " + arguments);
+}
+
+}  // namespace occulta::test

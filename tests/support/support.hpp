@@ -1,0 +1,35 @@
+// tests/support — what every suite needs: a scratch folder, a way to run a command
+// (Debian's python3 with astropy/numpy/scipy, fitsverify, the occulta binary) and read
+// what it printed, and paths into the source tree.
+#pragma once
+
+#include <filesystem>
+#include <string>
+
+namespace occulta::test {
+
+// A fresh, empty folder for one test case: $OCCULTA_TEST_TMP/<name> (or the system's
+// temporary folder), emptied when made. It is left behind afterwards to look at.
+std::filesystem::path scratch_dir(const std::string& name);
+
+// A path inside the source tree, e.g. source_path("tests/external/write_fits.py").
+std::filesystem::path source_path(const std::string& relative);
+
+// The built occulta executable.
+std::filesystem::path occulta_binary();
+
+struct CommandResult {
+  int exit_code = -1;
+  std::string output;  // stdout and stderr together
+};
+
+// Runs a shell command line; output captured.
+CommandResult run_command(const std::string& command_line);
+
+// Runs one of the tests/external/*.py scripts with Debian's python3.
+CommandResult run_python(const std::string& script_relative, const std::string& arguments);
+
+// Single-quotes a string for the shell.
+std::string shell_quote(const std::string& text);
+
+}  // namespace occulta::test
