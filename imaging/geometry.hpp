@@ -54,22 +54,26 @@ Eigen::Vector2d hpc_from_heeq(const Observer& observer, const Eigen::Vector3d& h
 double solar_angular_radius_rad(double dist_km);
 
 // Position angle (deg, CCW from solar north through east) and sky-plane height (R☉) of
-// a helioprojective direction: PA = atan2(−θx, θy); height = D☉ tan ρ / R☉ with ρ the
-// elongation from Sun centre (cos ρ = cos θx cos θy) — where the line of sight crosses
-// the plane of the sky (the plane through Sun centre normal to the observer's line).
+// a helioprojective direction, both taken where the line of sight crosses the plane of
+// the sky (the plane through Sun centre normal to the observer's line, HCC z = 0):
+// PA = atan2(−x, y) with (x, y) ∝ (cos θy sin θx, sin θy) (Thompson 2006 eq. 15), which
+// is atan2(−θx, θy) to first order near the Sun; height = D☉ tan ρ / R☉ with ρ the
+// elongation from Sun centre (cos ρ = cos θx cos θy).
 double position_angle_deg(const Eigen::Vector2d& hpc_rad);
 double sky_height_rs(const Observer& observer, const Eigen::Vector2d& hpc_rad);
 
 // The geometry of one frame, read from its header. Holds a wcslib wcsprm (shared,
 // immutable after set-up, so copies are cheap and transforms are safe across threads).
 struct ImageGeometry {
-  int width = 0, height = 0;
+  int width = 0, height = 0;                // NAXIS1/NAXIS2 (ZNAXISn when compressed); 0 if absent
   Observer observer;
   Eigen::Vector2d sun_center_px{0.0, 0.0};  // 0-based pixel of HPC (0, 0)
   double arcsec_per_px = 0.0;               // at the reference pixel (mean of both axes)
   double rs_per_px = 0.0;                   // solar radii per pixel at Sun centre, from DSUN_OBS and R☉
-  double roll_deg = 0.0;                    // angle of solar north from image +y toward +x
-                                            // (= CROTA2 for a CROTA2 header; 0 when north is up)
+  double roll_deg = 0.0;                    // angle of solar north from image +y toward +x, at
+                                            // Sun centre, in (−180, 180] (= CROTA2 for a CROTA2
+                                            // header with CDELTs > 0; 0 when north is up). Checked
+                                            // against WCS Paper II eq. 189 and astropy.wcs.
   std::vector<std::string> notes;           // warnings worth showing, e.g. RSUN_ARC disagreement
   std::shared_ptr<const wcsprm> wcs;
 };
@@ -80,6 +84,8 @@ struct ImageGeometry {
 ImageGeometry read_geometry(const Header& header, const std::string& source,
                             const std::optional<Observer>& observer_override = std::nullopt);
 
+// NaN (both components) where wcslib cannot map the point, e.g. a direction behind the
+// TAN projection's tangent plane.
 Eigen::Vector2d hpc_from_pixel(const ImageGeometry& geometry, const Eigen::Vector2d& pixel);
 Eigen::Vector2d pixel_from_hpc(const ImageGeometry& geometry, const Eigen::Vector2d& hpc_rad);
 
@@ -88,7 +94,10 @@ void hpc_from_pixels(const ImageGeometry& geometry, std::span<const Eigen::Vecto
                      std::span<Eigen::Vector2d> hpc_rad);
 
 // Header cards describing a frame's geometry: WCS (HPLN/HPLT-TAN, CDELT in arcsec, PC
-// from the roll), HGLN_OBS, HGLT_OBS, DSUN_OBS, RSUN_ARC. Used by the synthesiser and tests.
+// from the roll, CRVAL 0 at CRPIX = Sun centre + 1), HGLN_OBS, HGLT_OBS, DSUN_OBS (m),
+// RSUN_REF, RSUN_ARC, WCSNAME, and NAXIS/NAXIS1/NAXIS2 so that read_geometry() of the
+// result gives the spec back. CDi_j and CROTAn cards already there are removed (they
+// would compete with the PC matrix). Used by the synthesiser and tests.
 struct GeometrySpec {
   int width = 0, height = 0;
   Observer observer;
