@@ -272,6 +272,13 @@ ImageGeometry read_geometry(const Header& header, const std::string& source,
                                  " — occulta reads helioprojective HPLN-TAN/HPLT-TAN images");
   check_angle_unit(header, "CUNIT1", source);
   check_angle_unit(header, "CUNIT2", source);
+  // WCS Paper I lets CDELTi default to 1 (degree, here), which is never a coronagraph's
+  // scale: a header without any scale keyword is refused rather than read as 1°/pixel.
+  const bool has_scale = std::any_of(header.cards.begin(), header.cards.end(), [](const HeaderCard& card) {
+    return card.key == "CDELT1" || card.key == "CDELT2" || card.key.rfind("CD1_", 0) == 0 ||
+           card.key.rfind("CD2_", 0) == 0;
+  });
+  if (!has_scale) throw InputError(source, "its WCS gives no pixel scale (no CDELT1/CDELT2 or CDi_j keywords)");
 
   ImageGeometry geometry;
   geometry.wcs = wcs_from_header(header, source);

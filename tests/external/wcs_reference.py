@@ -6,6 +6,7 @@ Usage: wcs_reference.py REQUEST.json
        wcs_reference.py --solar-radius-at-1au
 
 REQUEST.json: {"header": [[keyword, value], ...],   the header's cards, in order
+               or "fits": path, "hdu": index        a FITS file's header (astropy.io.fits)
                "pixels": [[x, y], ...],             0-based pixel centres
                "world":  [[lon_deg, lat_deg], ...]} HPLN/HPLT in degrees
 Prints one JSON object: {"world": all_pix2world(pixels, origin 0) in degrees, with
@@ -36,9 +37,13 @@ def main(args):
         return
     with open(args[0]) as f:
         request = json.load(f)
-    header = fits.Header()
-    for key, value in request["header"]:
-        header[key] = value
+    if "fits" in request:
+        with fits.open(request["fits"]) as hdul:
+            header = hdul[request.get("hdu", 0)].header.copy()
+    else:
+        header = fits.Header()
+        for key, value in request["header"]:
+            header[key] = value
     wcs = WCS(header)
     out = {}
     if request.get("pixels"):

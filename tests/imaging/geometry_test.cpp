@@ -250,6 +250,48 @@ TEST_CASE("geometry: read_geometry(write_geometry(spec)) gives the spec back") {
   }
 }
 
+TEST_CASE("geometry: a FITS file written with write_geometry reads back, and astropy reads it alike") {
+  // Through the file: write_fits → read_fits → read_geometry gives the spec back, and
+  // astropy.io.fits + astropy.wcs (Debian python3-astropy) map its pixels as occulta does.
+  const oi::GeometrySpec spec = test_spec(-40.0);
+  oi::Header header;
+  oi::write_geometry(header, spec);
+  const cv::Mat pixels(spec.height, spec.width, CV_32FC1, cv::Scalar(0.0f));
+  const auto dir = occulta::test::scratch_dir("geometry-fits");
+  for (bool rice : {false, true}) {
+    CAPTURE(rice);
+    const auto path = dir / (rice ? "rice.fits" : "plain.fits");
+    oi::FitsWriteOptions options;
+    options.rice = rice;
+    oi::write_fits(path, pixels, header, options);
+    const oi::FitsImage image = oi::read_fits(path);
+    const oi::ImageGeometry g = oi::read_geometry(image.header, path.string());
+    CHECK(g.width == spec.width);
+    CHECK(g.height == spec.height);
+    CHECK(g.sun_center_px.x() == doctest::Approx(spec.sun_center_px.x()).epsilon(1e-12));
+    CHECK(g.sun_center_px.y() == doctest::Approx(spec.sun_center_px.y()).epsilon(1e-12));
+    CHECK(g.roll_deg == doctest::Approx(spec.roll_deg).epsilon(1e-9));
+    CHECK(g.arcsec_per_px == doctest::Approx(spec.arcsec_per_px).epsilon(1e-12));
+    CHECK(g.observer.dist_km == doctest::Approx(spec.observer.dist_km).epsilon(1e-12));
+
+    std::vector<Eigen::Vector2d> probe;
+    for (int k = 0; k < 30; ++k) probe.emplace_back(-5.0 + 22.0 * k, 470.0 - 16.0 * k);
+    nlohmann::json request{{"fits", path.string()}, {"hdu", image.hdu}, {"pixels", nlohmann::json::array()}};
+    for (const auto& p : probe) request["pixels"].push_back({p.x(), p.y()});
+    const auto request_path = dir / "request.json";
+    std::ofstream(request_path) << request.dump();
+    const auto result =
+        occulta::test::run_python("tests/external/wcs_reference.py", occulta::test::shell_quote(request_path));
+    REQUIRE_MESSAGE(result.exit_code == 0, result.output);
+    const auto ref = nlohmann::json::parse(result.output);
+    for (std::size_t i = 0; i < probe.size(); ++i) {
+      const Eigen::Vector2d hpc = oi::hpc_from_pixel(g, probe[i]);
+      CHECK(std::abs(hpc.x() * kDegPerRad - ref["world"][i][0].get<double>()) * 3600.0 < 1e-3);
+      CHECK(std::abs(hpc.y() * kDegPerRad - ref["world"][i][1].get<double>()) * 3600.0 < 1e-3);
+    }
+  }
+}
+
 TEST_CASE("geometry: an RSUN_ARC that disagrees with DSUN_OBS by more than 1 % gives a note") {
   const oi::GeometrySpec spec = test_spec(0.0);
   const double rsun_arcsec = std::asin(kSolarRadiusKm / spec.observer.dist_km) * kArcsecPerRad;
@@ -444,6 +486,11 @@ TEST_CASE("geometry: bad headers are refused with a sentence naming the fault") 
     TestHeader h = crota_header(0.0);
     h.real("DSUN_OBS", 1.496e8);  // kilometres, not metres
     CHECK(error_of(h.header).find("DSUN_OBS is") != std::string::npos);
+  }
+  SUBCASE("no pixel scale") {
+    oi::Header h = crota_header(0.0).header;
+    std::erase_if(h.cards, [](const oi::HeaderCard& c) { return c.key.rfind("CDELT", 0) == 0; });
+    CHECK(error_of(h) == "x.fits: its WCS gives no pixel scale (no CDELT1/CDELT2 or CDi_j keywords).");
   }
   SUBCASE("singular linear matrix") {
     TestHeader h = crota_header(0.0);
