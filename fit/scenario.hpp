@@ -1,0 +1,93 @@
+// fit/scenario.hpp — the synthetic-event scenario: who observes, what erupts, how the
+// detector records it. The scenario file (`*.scenario.json`) is occulta's own format,
+// documented in README.md ("Scenario file"); read_scenario checks every field and says
+// which one is wrong.
+//
+// Units as named: degrees and R☉ at the interface, seconds for durations, UTC ISO 8601
+// for times (seconds since 2000-01-01 inside, imaging/time.hpp). Brightness in units of
+// the mean solar brightness B☉ (fit/thomson.hpp); the detector turns it into DN.
+#pragma once
+
+#include <cstdint>
+#include <filesystem>
+#include <string>
+#include <vector>
+
+#include "fit/shell.hpp"
+
+namespace occulta::fit {
+
+// Apex height against time: h(t) = h₀ + v (t − t₀) + ½ a (t − t₀)² (linear when a = 0).
+struct ApexLaw {
+  double ref_time_s = 0.0;    // t₀
+  double height_rs = 0.0;     // h₀ at t₀
+  double speed_km_s = 0.0;    // v at t₀
+  double accel_m_s2 = 0.0;    // a
+  double height_at(double t_s) const;
+  double speed_at(double t_s) const;  // km/s
+};
+
+struct ScenarioObserver {
+  std::string name;           // also the view's folder name: letters, digits, '-', '_'
+  double lon_deg = 0.0, lat_deg = 0.0, dist_au = 1.0;  // Stonyhurst
+  double roll_deg = 0.0;      // as imaging::ImageGeometry::roll_deg
+};
+
+struct ScenarioShell {
+  double lon_deg = 0.0, lat_deg = 0.0, tilt_deg = 0.0;  // fit/shell.hpp conventions
+  double half_angle_deg = 20.0, aspect_ratio = 0.3;
+  ApexLaw apex;
+  // Electron density in the sheath when the apex is at 5 R☉; it falls as (5 R☉ / h)²
+  // as the shell expands, so the shell's brightness drops with distance as a real
+  // ejection's does (mass conserved over a sheath that grows as h² — common practice).
+  double density_cm3 = 1.0e5;
+  double sheath_fraction = 0.08;  // sheath thickness / apex height (self-similar)
+
+  ShellParams at(double t_s) const;  // the shell at time t
+};
+
+struct ScenarioBackground {
+  std::string k_corona = "saito";  // "saito", "baumbach-allen" or "none"
+  double f_corona = 1.0;           // scale of the smooth F-corona model (0 = none)
+};
+
+struct ScenarioDetector {
+  double dn_per_s_per_bsun = 1.0e12;  // DN per second for a brightness of 1 B☉
+  double electrons_per_dn = 4.0;      // gain: photon (shot) noise from the collected electrons
+  double read_noise_dn = 2.0;         // Gaussian read noise per pixel
+  std::string pixels = "int16";       // "int16" (scaled) or "float32"
+  bool compress = true;               // Rice tile compression
+};
+
+struct MissingBlock {
+  std::string view;
+  int frame = 0;                      // 0-based frame index
+  int x = 0, y = 0, width = 0, height = 0;  // pixels (0-based, FITS row order)
+};
+
+struct Scenario {
+  std::string id;
+  std::filesystem::path source;       // the scenario file, for messages
+  double start_s = 0.0;
+  double cadence_s = 600.0;
+  int frames = 16;
+  int size_px = 512;                  // square frames
+  double half_width_rs = 15.0;        // field of view: ±half_width at the Sun's distance
+  double occulter_inner_rs = 2.5, occulter_outer_rs = 14.5;
+  double exposure_s = 6.0;
+  std::vector<ScenarioObserver> observers;
+  ScenarioShell shell;
+  ScenarioBackground background;
+  ScenarioDetector detector;
+  double jitter_px = 0.0;             // pointing jitter, standard deviation per axis
+  int cosmic_rays_per_frame = 0;
+  std::vector<MissingBlock> missing_blocks;
+  std::uint64_t seed = 1;
+
+  double frame_time(int i) const { return start_s + cadence_s * i; }
+};
+
+// Reads and checks a scenario file; InputError(path, "…") names the field at fault.
+Scenario read_scenario(const std::filesystem::path& path);
+
+}  // namespace occulta::fit
