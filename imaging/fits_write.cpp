@@ -1,0 +1,313 @@
+// imaging/fits_write.cpp — writing one image as FITS with cfitsio: float32 or int16 with
+// BSCALE/BZERO, optionally Rice tile-compressed; the file appears whole or not at all.
+#include <atomic>
+#include <cmath>
+#include <cstdio>
+#include <cstdlib>
+#include <limits>
+#include <system_error>
+#include <vector>
+
+#include <unistd.h>
+
+#include "imaging/fits.hpp"
+#include "imaging/fits_cfitsio.hpp"
+#include "imaging/input_error.hpp"
+
+namespace occulta::imaging {
+
+namespace {
+
+using fits_detail::FitsHandle;
+
+// The temporary file beside the target: removed unless the write got as far as renaming.
+class PendingFile {
+ public:
+  explicit PendingFile(std::filesystem::path path) : path_(std::move(path)) {}
+  PendingFile(const PendingFile&) = delete;
+  PendingFile& operator=(const PendingFile&) = delete;
+  ~PendingFile() {
+    if (!done_) {
+      std::error_code ignored;
+      std::filesystem::remove(path_, ignored);
+    }
+  }
+  const std::filesystem::path& path() const { return path_; }
+  void done() { done_ = true; }
+
+ private:
+  std::filesystem::path path_;
+  bool done_ = false;
+};
+
+std::filesystem::path pending_path(const std::filesystem::path& target) {
+  static std::atomic<unsigned> counter{0};
+  // Hidden, and unique per process and call, so concurrent writers never share one.
+  std::string name(1, '.');
+  name.append(target.filename().string());
+  name.append(".part-");
+  name.append(std::to_string(::getpid()));
+  name.push_back('-');
+  name.append(std::to_string(counter++));
+  return target.parent_path() / name;
+}
+
+// The shortest of 15–17 significant digits that reads back as the same double, so a
+// header value survives a round trip exactly (FITS Standard 4.0 §4.2.4 real values).
+std::string format_real(double value) {
+  char text[40];
+  for (int digits = 15; digits <= 17; ++digits) {
+    std::snprintf(text, sizeof text, "%.*G", digits, value);
+    if (std::strtod(text, nullptr) == value) break;
+  }
+  std::string result(text);
+  // A real keeps a decimal point or exponent, or it would read back as an integer.
+  if (result.find_first_of(".E") == std::string::npos) result += ".0";
+  return result;
+}
+
+// Header comments must be printable ASCII (§4.1.2.3); anything else becomes '?'.
+std::string ascii(std::string_view text) {
+  std::string result(text);
+  for (char& c : result)
+    if (c < 0x20 || c > 0x7e) c = '?';
+  return result;
+}
+
+// The comment cards cfitsio writes in every new primary header: not copied again.
+bool is_cfitsio_banner(const HeaderCard& card) {
+  return card.key == "COMMENT" &&
+         (card.text.starts_with("  FITS (Flexible Image Transport System) format is defined in") ||
+          card.text.starts_with("  and Astrophysics', volume 376, page 359"));
+}
+
+class Writer {
+ public:
+  Writer(fitsfile* file, std::string source) : file_(file), source_(std::move(source)) {}
+
+  void check(int status, const std::string& what) const {
+    if (status != 0) throw InputError(source_, "it cannot be written: " + what + " failed, " + fits_detail::describe_status(status));
+  }
+
+  void card(const HeaderCard& card) {
+    if (fits_detail::is_structural(card.key) || card.key == "DATE" || is_cfitsio_banner(card)) return;
+    int status = 0;
+    const std::string comment = ascii(card.comment);
+    using Kind = HeaderCard::Kind;
+    if (card.kind == Kind::Commentary) {
+      const std::string text = ascii(card.text);
+      if (card.key == "COMMENT") fits_write_comment(file_, text.c_str(), &status);
+      else if (card.key == "HISTORY") fits_write_history(file_, text.c_str(), &status);
+      else if (card.key == "CONTINUE") return;  // a continuation with nothing to continue
+      else {
+        std::string record = (card.key + std::string(8, ' ')).substr(0, 8) + text;
+        record.resize(std::min<std::size_t>(record.size(), 80));
+        fits_write_record(file_, record.c_str(), &status);
+      }
+      check(status, "writing a " + (card.key.empty() ? std::string("blank-keyword") : card.key) + " card");
+      return;
+    }
+    // §4.1.2.1: a keyword is up to 8 of A–Z, 0–9, '-' and '_' (longer names go out under
+    // the HIERARCH convention, which cfitsio writes itself).
+    if (card.key.size() <= 8) {
+      fits_test_keyword(card.key.c_str(), &status);
+      if (status != 0 || card.key.empty()) {
+        fits_clear_errmsg();
+        throw InputError(source_, "it cannot be written: \"" + card.key +
+                                      "\" is not a FITS keyword (up to 8 upper-case letters, digits, '-' or '_', "
+                                      "FITS Standard 4.0 §4.1.2.1)");
+      }
+    }
+    const char* key = card.key.c_str();
+    switch (card.kind) {
+      case Kind::Logical: fits_write_key_log(file_, key, card.integer != 0, comment.c_str(), &status); break;
+      case Kind::Integer: fits_write_key_lng(file_, key, card.integer, comment.c_str(), &status); break;
+      case Kind::Real: {
+        if (!std::isfinite(card.real))
+          throw InputError(source_, "it cannot be written: " + card.key + " is " + std::to_string(card.real) +
+                                        ", and a FITS header holds finite numbers only (FITS Standard 4.0 §4.2.4)");
+        std::string value = format_real(card.real);
+        char record[FLEN_CARD] = {};
+        fits_make_key(key, value.data(), comment.c_str(), record, &status);
+        if (status == 0) fits_write_record(file_, record, &status);
+        break;
+      }
+      case Kind::Text:
+        // Long values continue on CONTINUE cards (§4.2.1.2); cfitsio splits them. LONGSTRN
+        // announces the convention to older readers (HEASARC convention; fitsverify asks).
+        if (card.text.size() > 68 && !announced_long_strings_) {
+          fits_write_key_longwarn(file_, &status);
+          announced_long_strings_ = true;
+        }
+        fits_write_key_longstr(file_, key, card.text.c_str(), comment.c_str(), &status);
+        break;
+      default: fits_write_key_null(file_, key, comment.c_str(), &status); break;
+    }
+    if (status != 0) {
+      const std::string reason = fits_detail::describe_status(status);
+      throw InputError(source_, "it cannot be written: the value of " + card.key +
+                                    " cannot go into a FITS header (" + reason + ")");
+    }
+  }
+
+ private:
+  fitsfile* file_;
+  std::string source_;
+  bool announced_long_strings_ = false;
+};
+
+struct Quantised {
+  std::vector<short> stored;
+  double bscale = 1.0, bzero = 0.0;
+};
+
+constexpr short kBlank = std::numeric_limits<short>::min();
+
+// int16 with BSCALE/BZERO (FITS Standard 4.0 §4.4.2.5, physical = BZERO + BSCALE·stored):
+// the finite range maps onto −32767…32767, leaving −32768 for BLANK, which NaN and ±Inf
+// become (an int16 cannot hold them). Each value is off by at most BSCALE/2.
+Quantised quantise(const cv::Mat& pixels) {
+  Quantised result;
+  double lo = std::numeric_limits<double>::infinity(), hi = -lo;
+  const float* data = pixels.ptr<float>();
+  const std::size_t count = pixels.total();
+  for (std::size_t i = 0; i < count; ++i)
+    if (std::isfinite(data[i])) {
+      lo = std::min<double>(lo, data[i]);
+      hi = std::max<double>(hi, data[i]);
+    }
+  if (lo <= hi) {
+    result.bzero = 0.5 * (lo + hi);
+    result.bscale = hi > lo ? (hi - lo) / 65534.0 : 1.0;
+  }
+  result.stored.resize(count);
+  for (std::size_t i = 0; i < count; ++i) {
+    if (!std::isfinite(data[i])) {
+      result.stored[i] = kBlank;
+      continue;
+    }
+    const double scaled = std::round((data[i] - result.bzero) / result.bscale);
+    result.stored[i] = static_cast<short>(std::clamp(scaled, -32767.0, 32767.0));
+  }
+  return result;
+}
+
+void write_real(fitsfile* file, const char* key, double value, const char* comment, const Writer& writer) {
+  int status = 0;
+  std::string text = format_real(value);
+  char record[FLEN_CARD] = {};
+  fits_make_key(key, text.data(), comment, record, &status);
+  if (status == 0) fits_write_record(file, record, &status);
+  writer.check(status, std::string("writing ") + key);
+}
+
+void write_into(fitsfile* file, const cv::Mat& pixels, const Header& header, const FitsWriteOptions& options,
+                const std::string& source) {
+  Writer writer(file, source);
+  int status = 0;
+  const bool int16 = options.pixels == FitsWriteOptions::Pixels::ScaledInt16;
+  long axes[2] = {pixels.cols, pixels.rows};
+
+  if (options.rice) {
+    // Tiled image compression (Pence, Seaman & White 2009): the image lives in a
+    // compressed binary-table extension after an empty primary HDU.
+    fits_create_img(file, BYTE_IMG, 0, nullptr, &status);
+    fits_write_comment(file, "The image is in the tile-compressed extension that follows.", &status);
+    fits_write_date(file, &status);
+    fits_write_chksum(file, &status);
+    writer.check(status, "writing the primary header");
+    long tile[2] = {pixels.cols, 1};  // one row per tile
+    fits_set_compression_type(file, RICE_1, &status);
+    fits_set_tile_dim(file, 2, tile, &status);
+    if (!int16) {
+      // Floats are quantised before Rice coding (the convention's §4.1): steps of 1/16 of
+      // each tile's noise, the convention's subtractive dithering (SUBTRACTIVE_DITHER_1,
+      // which every reader knows: astropy 5.2 misreads nulls under SUBTRACTIVE_DITHER_2),
+      // and a fixed seed so that the same pixels make the same file.
+      fits_set_quantize_level(file, 16.0f, &status);
+      fits_set_quantize_method(file, SUBTRACTIVE_DITHER_1, &status);
+      fits_set_dither_seed(file, 1, &status);
+    }
+    writer.check(status, "setting up Rice compression");
+  }
+  fits_create_img(file, int16 ? SHORT_IMG : FLOAT_IMG, 2, axes, &status);
+  writer.check(status, "creating the image");
+
+  Quantised quantised;
+  if (int16) {
+    quantised = quantise(pixels);
+    write_real(file, "BSCALE", quantised.bscale, "physical value = BZERO + BSCALE * stored value", writer);
+    write_real(file, "BZERO", quantised.bzero, "physical value of stored value 0", writer);
+    fits_write_key_lng(file, "BLANK", kBlank, "stored value of pixels with no data", &status);
+    writer.check(status, "writing BLANK");
+  }
+  for (const HeaderCard& card : header.cards) writer.card(card);
+  fits_write_date(file, &status);
+  writer.check(status, "writing DATE");
+
+  const LONGLONG count = static_cast<LONGLONG>(pixels.total());
+  if (int16) {
+    // The values are scaled already: cfitsio must store them as they are.
+    fits_set_bscale(file, 1.0, 0.0, &status);
+    fits_write_img(file, TSHORT, 1, count, quantised.stored.data(), &status);
+  } else if (options.rice) {
+    // Quantised tiles hold no NaN or ±Inf: cfitsio must be told which pixels have no
+    // data, or a tile holding one is lost whole. They get a marker value absent from the
+    // data, passed as the null value, which cfitsio stores as the convention's null.
+    float marker = -std::numeric_limits<float>::max();
+    cv::Mat marked = pixels.clone();
+    while (cv::countNonZero(marked == marker) > 0) marker = std::nextafter(marker, 0.0f);
+    for (float& value : cv::Mat_<float>(marked))
+      if (!std::isfinite(value)) value = marker;
+    fits_write_imgnull(file, TFLOAT, 1, count, marked.ptr<float>(), &marker, &status);
+  } else {
+    fits_write_img(file, TFLOAT, 1, count, const_cast<float*>(pixels.ptr<float>()), &status);
+  }
+  writer.check(status, "writing the pixels");
+  // CHECKSUM and DATASUM (FITS Standard 4.0 §4.4.2.7) let any reader detect damage.
+  fits_write_chksum(file, &status);
+  writer.check(status, "writing the checksums");
+}
+
+}  // namespace
+
+void write_fits(const std::filesystem::path& path, const cv::Mat& pixels, const Header& header,
+                const FitsWriteOptions& options) {
+  const std::string source = path.string();
+  if (pixels.empty() || pixels.dims != 2 || pixels.type() != CV_32FC1)
+    throw InputError(source, "it cannot be written: the pixels given are not a non-empty single-channel float32 image");
+  const cv::Mat data = pixels.isContinuous() ? pixels : pixels.clone();
+
+  const std::filesystem::path folder = path.parent_path().empty() ? std::filesystem::path(".") : path.parent_path();
+  std::error_code error;
+  if (!std::filesystem::is_directory(folder, error))
+    throw InputError(source, "it cannot be written: the folder \"" + folder.string() + "\" does not exist");
+  if (path.filename().empty() || std::filesystem::is_directory(path, error))
+    throw InputError(source, "it cannot be written: the path names a folder, not a file");
+
+  PendingFile pending(pending_path(path));
+  std::filesystem::remove(pending.path(), error);
+  fitsfile* raw = nullptr;
+  int status = 0;
+  // The disk-file entry point takes the name literally (no extended file-name syntax).
+  fits_create_diskfile(&raw, pending.path().c_str(), &status);
+  if (status != 0) {
+    if (raw) fits_detail::Closer{}(raw);
+    throw InputError(source, "it cannot be written: a file cannot be created in \"" + folder.string() + "\" (" +
+                                 fits_detail::describe_status(status) + ")");
+  }
+  {
+    FitsHandle file(raw);
+    write_into(file.get(), data, header, options, source);
+    status = 0;
+    fits_close_file(file.release(), &status);
+    if (status != 0)
+      throw InputError(source, "it cannot be written: finishing the file failed, " + fits_detail::describe_status(status));
+  }
+  std::filesystem::rename(pending.path(), path, error);
+  if (error)
+    throw InputError(source, "it cannot be written: moving the finished file into place failed (" + error.message() + ")");
+  pending.done();
+}
+
+}  // namespace occulta::imaging
