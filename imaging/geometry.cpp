@@ -53,7 +53,7 @@ std::optional<std::string> fits_record(const HeaderCard& card) {
     case HeaderCard::Kind::Text: {
       std::string text = "'";
       for (char c : card.text) text += (c == '\'') ? std::string("''") : std::string(1, c);
-      while (text.size() < 9) text += ' ';  // strings are at least 8 characters (§4.2.1.1)
+      while (text.size() < 9) text += ' ';  // strings are at least 8 characters (FITS Standard 4.0 §4.2.1)
       text += "'";
       if (text.size() > 70) return std::nullopt;  // WCS strings are short; skip long prose
       std::snprintf(value, sizeof value, "%s", text.c_str());
@@ -138,7 +138,7 @@ Observer observer_from_header(const Header& header, const std::string& source) {
   if (!std::isfinite(lon_deg) || !std::isfinite(lat_deg) || std::abs(lat_deg) > 90.0)
     throw InputError(source, "HGLN_OBS/HGLT_OBS are " + std::to_string(lon_deg) + "/" + std::to_string(lat_deg) +
                                  " — not a heliographic longitude and latitude in degrees");
-  // DSUN_OBS is in metres (Thompson 2006 §7); a value inside the Sun is a unit mistake.
+  // DSUN_OBS is in metres (Thompson 2006); a value inside the Sun is a unit mistake.
   if (!std::isfinite(dsun_m) || dsun_m <= kSolarRadiusKm * 1000.0)
     throw InputError(source, "DSUN_OBS is " + std::to_string(dsun_m) +
                                  " — the observer's distance in metres must exceed the solar radius (6.957e8 m)");
@@ -194,7 +194,7 @@ std::shared_ptr<const wcsprm> wcs_from_header(const Header& header, const std::s
 }  // namespace
 
 Eigen::Vector3d Observer::heeq_p_obs_km() const {
-  // Spherical → Cartesian in HEEQ; Stonyhurst longitude/latitude are its angles (Thompson 2006 §3).
+  // Spherical → Cartesian in HEEQ; Stonyhurst longitude/latitude are its angles (Thompson 2006).
   return dist_km * Eigen::Vector3d(std::cos(lat_rad) * std::cos(lon_rad), std::cos(lat_rad) * std::sin(lon_rad),
                                    std::sin(lat_rad));
 }
@@ -204,7 +204,9 @@ Observer observer_from_degrees(double lon_deg, double lat_deg, double dist_km) {
 }
 
 Eigen::Matrix3d hcc_R_heeq(const Observer& observer) {
-  // Thompson (2006) eq. 11, heliographic → heliocentric with observer at (Φ0, B0):
+  // Thompson (2006), heliographic → heliocentric with the observer at (Φ0, B0) (from memory
+  // of the paper; geometry_test checks the result is a rotation taking the observer to
+  // (0, 0, D), with solar north up and x̂ west):
   //   x = r cos Θ sin(Φ−Φ0)
   //   y = r [sin Θ cos B0 − cos Θ cos(Φ−Φ0) sin B0]
   //   z = r [sin Θ sin B0 + cos Θ cos(Φ−Φ0) cos B0]
@@ -297,7 +299,7 @@ ImageGeometry read_geometry(const Header& header, const std::string& source,
 
   // Scale at the reference pixel: the columns of the linear matrix CDELTi·PCi_j (wcsset()
   // has folded CD or CROTA into PC and converted arcsec to degrees) are the world steps,
-  // in the TAN projection plane, of one pixel along x and along y (WCS Paper I eq. 1–3).
+  // in the TAN projection plane, of one pixel along x and along y (WCS Paper I §2).
   const wcsprm& w = *geometry.wcs;
   const auto column_norm = [&](int j) {
     return std::hypot(w.cdelt[0] * w.pc[0 * 2 + j], w.cdelt[1] * w.pc[1 * 2 + j]);
@@ -395,7 +397,8 @@ void write_geometry(Header& header, const GeometrySpec& spec) {
   header.set_real("CRVAL2", 0.0);
   header.set_real("CDELT1", spec.arcsec_per_px, "arcsec per pixel");
   header.set_real("CDELT2", spec.arcsec_per_px, "arcsec per pixel");
-  // With equal CDELTs, PC for a rotation ρ (WCS Paper II eq. 189, the CROTA2 → PC rule):
+  // With equal CDELTs, PC for a rotation ρ (the CROTA2 → PC rule of WCS Paper II §6.1, from
+  // memory; geometry_test checks the sign against astropy.wcs and a hand TAN formula):
   //   PC1_1 = cos ρ, PC1_2 = −sin ρ, PC2_1 = sin ρ, PC2_2 = cos ρ.
   // Solar north (intermediate x = 0, y > 0) then lies along pixel (sin ρ, cos ρ): at ρ
   // from +y toward +x, which is roll_deg's meaning.

@@ -73,7 +73,7 @@ struct ImageGeometry {
   double roll_deg = 0.0;                    // angle of solar north from image +y toward +x, at
                                             // Sun centre, in (−180, 180] (= CROTA2 for a CROTA2
                                             // header with CDELTs > 0; 0 when north is up). Checked
-                                            // against WCS Paper II eq. 189 and astropy.wcs.
+                                            // against WCS Paper II §6.1 and astropy.wcs.
   std::vector<std::string> notes;           // warnings worth showing, e.g. RSUN_ARC disagreement
   std::shared_ptr<const wcsprm> wcs;
 };

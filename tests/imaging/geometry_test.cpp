@@ -61,7 +61,7 @@ TestHeader pc_header_arcsec() {
   h.text("CUNIT1", "arcsec").text("CUNIT2", "arcsec");
   h.real("CRPIX1", 500.25).real("CRPIX2", 530.75).real("CRVAL1", 15.0).real("CRVAL2", -30.0);
   h.real("CDELT1", 11.9).real("CDELT2", 12.1);
-  // WCS Paper II eq. 189 with unequal CDELTs: PC1_2 = −(CDELT2/CDELT1) sin ρ, PC2_1 = (CDELT1/CDELT2) sin ρ.
+  // CROTA2 → PC rule of WCS Paper II §6.1 (from memory) with unequal CDELTs: PC1_2 = −(CDELT2/CDELT1) sin ρ, PC2_1 = (CDELT1/CDELT2) sin ρ.
   h.real("PC1_1", std::cos(r)).real("PC1_2", -std::sin(r) * 12.1 / 11.9);
   h.real("PC2_1", std::sin(r) * 11.9 / 12.1).real("PC2_2", std::cos(r));
   return h;
@@ -188,8 +188,8 @@ TEST_CASE("geometry: pixel → HPC and back match astropy.wcs on rotated TAN hea
 }
 
 TEST_CASE("geometry: a CROTA2 header follows the TAN formulas of WCS Paper II worked by hand") {
-  // Independent of wcslib. WCS Paper II (Calabretta & Greisen 2002) eq. 189 turns CROTA2 = ρ
-  // with CDELT c into PC; eq. 1–3 of Paper I give intermediate coordinates
+  // Independent of wcslib. WCS Paper II (Calabretta & Greisen 2002) §6.1 turns CROTA2 = ρ
+  // with CDELT c into PC (from memory); Paper I §2 gives intermediate coordinates
   //   x = c (cos ρ · u − sin ρ · v),  y = c (sin ρ · u + cos ρ · v),   (u, v) = p − CRPIX (1-based),
   // and for TAN with the reference point at (0, 0) (Paper II §5.1.3, R_θ = cot θ), the
   // direction is (x, y, 1)/|·| in (west, north, toward the Sun): θx = atan x, θy = atan(y / √(1 + x²)).
@@ -322,7 +322,7 @@ TEST_CASE("geometry: the Sun's angular radius at 1 au from the IAU values") {
 }
 
 TEST_CASE("geometry: hcc_R_heeq is a rotation taking the observer to (0, 0, D)") {
-  // Thompson (2006) §3: HCC z toward the observer, y in the plane of z and solar north, x = y × z.
+  // Thompson (2006): HCC z toward the observer, y in the plane of z and solar north, x = y × z.
   for (const auto& [lon, lat] : std::vector<std::pair<double, double>>{{0, 0}, {30, 5}, {-100, -7.25}, {170, 89}}) {
     CAPTURE(lon);
     const oi::Observer obs = oi::observer_from_degrees(lon, lat, 0.93 * kAuKm);
@@ -337,7 +337,7 @@ TEST_CASE("geometry: hcc_R_heeq is a rotation taking the observer to (0, 0, D)")
     const Eigen::Vector3d north = R * Eigen::Vector3d::UnitZ();
     CHECK(std::abs(north.x()) < 1e-15);
     CHECK(north.y() == doctest::Approx(std::cos(lat * kRadPerDeg)));
-    // Stonyhurst longitude grows westward (Thompson 2006 §2.1): HCC x̂ is HEEQ's direction
+    // Stonyhurst longitude grows westward (Thompson 2006): HCC x̂ is HEEQ's direction
     // at longitude Φ0 + 90° on the equator.
     const Eigen::Vector3d west = R.transpose() * Eigen::Vector3d::UnitX();
     CHECK((west - Eigen::Vector3d(std::cos((lon + 90) * kRadPerDeg), std::sin((lon + 90) * kRadPerDeg), 0)).norm() <
