@@ -35,8 +35,12 @@ std::string summary_line(const nlohmann::json& r) {
   if (!r["width"].is_null())
     line << r["width"].get<int>() << "×" << r["height"].get<int>() << " BITPIX " << r["bitpix"].get<int>();
   if (!r["ok"].get<bool>()) {
+    // The problem sentence begins with the path already; the line shows it once.
+    std::string problem = r["problem"].get<std::string>();
+    const std::string prefix = r["path"].get<std::string>() + ": ";
+    if (problem.rfind(prefix, 0) == 0) problem.erase(0, prefix.size());
     if (!r["width"].is_null()) line << " — ";
-    line << "NOT USABLE: " << r["problem"].get<std::string>();
+    line << "NOT USABLE: " << problem;
     return line.str();
   }
   line << std::fixed;
@@ -48,7 +52,8 @@ std::string summary_line(const nlohmann::json& r) {
   line << std::setprecision(2) << ", Sun centre (" << r["sun_center_px"][0].get<double>() << ", "
        << r["sun_center_px"][1].get<double>() << ") px";
   line << std::setprecision(5) << ", " << r["rs_per_px"].get<double>() << " R☉/px";
-  line << std::setprecision(2) << ", roll " << r["roll_deg"].get<double>() << "°";
+  const double roll = r["roll_deg"].get<double>();
+  line << std::setprecision(2) << ", roll " << (std::abs(roll) < 0.005 ? 0.0 : roll) << "°";  // no "-0.00"
   line << std::setprecision(1) << ", " << 100.0 * r["finite_fraction"].get<double>() << " % finite";
   return line.str();
 }

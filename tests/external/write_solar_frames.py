@@ -121,7 +121,7 @@ for key in ("CTYPE1", "CTYPE2", "CUNIT1", "CUNIT2", "CRPIX1", "CRPIX2", "CRVAL1"
     del h[key]
 fits.PrimaryHDU(np.zeros((32, 32), np.float32), header=h).writeto(os.path.join(out, "no_wcs.fits"),
                                                                   overwrite=True)
-expected["no_wcs.fits"] = {"ok": False, "phrase": "WCS"}
+expected["no_wcs.fits"] = {"ok": False, "phrase": "world coordinate system"}
 
 with open(os.path.join(out, "not_fits.fits"), "w") as f:
     f.write("this is a text file, not FITS\n")
