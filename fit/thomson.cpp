@@ -78,7 +78,8 @@ RayGeometry ray_geometry(const Ray& ray, double outer_radius_rs) {
 // s = s₀ + p′ tan θ with p′ = max(p, 1)), plus the fine spans (composite 3-point rule).
 // f(point, s) returns the integrand's value(s) accumulated into Acc.
 template <typename Acc, typename F>
-Acc integrate_ray(const Ray& ray, const LineOfSightOptions& options, std::span<const RaySpan> fine_in, F&& f) {
+Acc integrate_ray(const Ray& ray, const LineOfSightOptions& options, std::span<const RaySpan> fine_in, F&& f,
+                  bool spans_only = false) {
   Acc sum{};
   const RayGeometry g = ray_geometry(ray, options.outer_radius_rs);
   if (!(g.to > g.from)) return sum;
@@ -96,7 +97,7 @@ Acc integrate_ray(const Ray& ray, const LineOfSightOptions& options, std::span<c
   fine = merge_spans(std::move(fine));
 
   const auto smooth_piece = [&](double a, double b) {
-    if (!(b > a)) return;
+    if (spans_only || !(b > a)) return;
     const double ta = theta_of(a), tb = theta_of(b);
     const int n = std::max(8, static_cast<int>(std::ceil(options.smooth_nodes * (tb - ta) / theta_total)));
     const GaussLegendre& gl = rule(n);
@@ -202,10 +203,12 @@ std::vector<RaySpan> merge_spans(std::vector<RaySpan> spans) {
   return merged;
 }
 
-Brightness integrate_brightness(const Ray& ray, const DensityField& density_m3, const LineOfSightOptions& options,
-                                std::span<const RaySpan> fine) {
+namespace {
+
+Brightness brightness_along(const Ray& ray, const DensityField& density_m3, const LineOfSightOptions& options,
+                            std::span<const RaySpan> fine, bool spans_only) {
   const double u = options.limb_darkening;
-  Brightness b = integrate_ray<Brightness>(ray, options, fine, [&](Brightness& acc, const Eigen::Vector3d& p, double ds) {
+  const auto add = [&](Brightness& acc, const Eigen::Vector3d& p, double ds) {
     const double n = density_m3(p);
     if (n == 0.0) return;
     const double r = p.norm();
@@ -213,11 +216,24 @@ Brightness integrate_brightness(const Ray& ray, const DensityField& density_m3, 
     const Scattering sc = scattering_per_electron(r, 1.0 - cos_chi * cos_chi, u);
     acc.total_bsun += n * ds * sc.total();
     acc.polarized_bsun += n * ds * sc.polarized();
-  });
+  };
+  Brightness b = integrate_ray<Brightness>(ray, options, fine, add, spans_only);
   // N_e (m⁻³) · ds (R☉ → m) · σ_e (m²): brightness in B☉.
   b.total_bsun *= kMetresPerRs * kElectronCrossSectionM2;
   b.polarized_bsun *= kMetresPerRs * kElectronCrossSectionM2;
   return b;
+}
+
+}  // namespace
+
+Brightness integrate_brightness(const Ray& ray, const DensityField& density_m3, const LineOfSightOptions& options,
+                                std::span<const RaySpan> fine) {
+  return brightness_along(ray, density_m3, options, fine, false);
+}
+
+Brightness integrate_brightness_in_spans(const Ray& ray, const DensityField& density_m3, std::span<const RaySpan> spans,
+                                         const LineOfSightOptions& options) {
+  return brightness_along(ray, density_m3, options, spans, true);
 }
 
 double integrate_column_m2(const Ray& ray, const DensityField& density_m3, const LineOfSightOptions& options,

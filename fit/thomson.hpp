@@ -101,6 +101,11 @@ Brightness integrate_brightness(const Ray& ray, const DensityField& density_m3, 
 double integrate_column_m2(const Ray& ray, const DensityField& density_m3, const LineOfSightOptions& options = {},
                            std::span<const RaySpan> fine = {});
 
+// B and pB from the fine spans alone, for a density that is zero elsewhere (a shell
+// sheath): the smooth part is skipped. Same clipping to the outer sphere and the disc.
+Brightness integrate_brightness_in_spans(const Ray& ray, const DensityField& density_m3, std::span<const RaySpan> spans,
+                                         const LineOfSightOptions& options = {});
+
 // Fine spans merged and clipped: overlapping or touching spans join (taking the smaller
 // step), and the result is sorted. Used by integrate_* and by callers combining hints.
 std::vector<RaySpan> merge_spans(std::vector<RaySpan> spans);
