@@ -55,8 +55,9 @@ double sheath_density_m3(const ShellSheathField& field, const Eigen::Vector3d& h
 // bound each piece of the shell grown by the cut-off — the front (centre (0, 0, b) in the
 // shell frame, radius apex height − b: no front point is farther, as X₀ and r both grow
 // with sin β) and each leg (centre at mid-axis, radius √((h/2)² + (h tan δ)²)). Each
-// chord carries max_step = σ, i.e. three Gauss–Legendre nodes per σ, which integrates a
-// Gaussian of width σ to ~1e-9 (tested in thomson_test.cpp).
+// chord carries max_step = σ, i.e. three Gauss–Legendre nodes per σ: within 1e-6 of a
+// brute-force sum for rays through the front (thomson_test.cpp), ~1e-3 where a ray meets
+// the small step in the distance measure at a leg top (render_test.cpp).
 std::vector<RaySpan> sheath_spans(const ShellSheathField& field, const Ray& ray);
 
 }  // namespace occulta::fit
