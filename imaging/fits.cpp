@@ -4,10 +4,13 @@
 
 #include <algorithm>
 #include <array>
+#include <charconv>
+#include <functional>
 #include <cmath>
 #include <cstring>
 #include <fstream>
 #include <limits>
+#include <optional>
 #include <system_error>
 
 #include "imaging/fits_cfitsio.hpp"
@@ -66,16 +69,125 @@ long long raw_integer(fitsfile* file, const char* key, const std::string& source
   return value;
 }
 
+// The file's bytes at an offset (fewer at its end): the disk file or the memory copy.
+using ByteReader = std::function<std::string(long long offset, std::size_t count)>;
+
+// FITS Standard 4.0 §4.4.1: an HDU begins with SIMPLE or XTENSION, BITPIX, NAXIS,
+// NAXIS1…NAXISn, then (extensions) PCOUNT, GCOUNT and (tables) TFIELDS, all integers.
+// Checked here before cfitsio parses a header, because cfitsio 4.2 goes on to allocate
+// by a value it failed to read when one of them is not an integer.
+void check_mandatory_cards(const ByteReader& read, long long offset, int hdu_number, const std::string& source) {
+  const std::string bytes = read(offset, 80 * (6 + 999));
+  auto card = [&](std::size_t index) {
+    return index * 80 + 80 <= bytes.size() ? std::string_view(bytes).substr(index * 80, 80) : std::string_view();
+  };
+  // The integer value of card `index` if its keyword is `key`; nothing to check otherwise
+  // (a missing or misplaced keyword is cfitsio's to report).
+  auto integer = [&](std::size_t index, const std::string& key) -> std::optional<long long> {
+    const std::string_view text = card(index);
+    if (text.size() < 10 || text.substr(0, 8) != (key + std::string(8, ' ')).substr(0, 8) || text[8] != '=')
+      return std::nullopt;
+    std::string_view value = text.substr(10);
+    value = value.substr(0, value.find('/'));
+    while (!value.empty() && value.front() == ' ') value.remove_prefix(1);
+    while (!value.empty() && value.back() == ' ') value.remove_suffix(1);
+    long long number = 0;
+    const char* begin = value.data() + (!value.empty() && (value[0] == '+' || value[0] == '-') ? 1 : 0);
+    const auto [end, error] = std::from_chars(begin, value.data() + value.size(), number);
+    if (value.empty() || error != std::errc() || end != value.data() + value.size())
+      throw InputError(source, "the header of HDU " + std::to_string(hdu_number) + " is malformed: " + key + " is \"" +
+                                   std::string(value) + "\", not an integer (FITS Standard 4.0 §4.4.1)");
+    return value[0] == '-' ? -number : number;
+  };
+  // The tiled convention's image axes and tile sizes (Pence et al. 2009 §4) are positive
+  // integers; cfitsio 4.2 divides by them on entering the HDU, before checking them.
+  for (std::size_t index = 1; index < bytes.size() / 80 && card(index).substr(0, 3) != "END"; ++index) {
+    const std::string_view text = card(index);
+    std::string key(text.substr(0, 8));
+    while (!key.empty() && key.back() == ' ') key.pop_back();
+    const bool tiled = (key.starts_with("ZNAXIS") || key.starts_with("ZTILE")) &&
+                       std::all_of(key.begin() + (key[1] == 'N' ? 6 : 5), key.end(),
+                                   [](char c) { return c >= '0' && c <= '9'; });
+    if (tiled && integer(index, key).value_or(1) < 1)
+      throw InputError(source, "the header of HDU " + std::to_string(hdu_number) + " is malformed: " + key +
+                                   " is not a positive integer (tiled image convention, Pence et al. 2009 §4)");
+  }
+  const bool extension = card(0).substr(0, 8) == "XTENSION";
+  integer(1, "BITPIX");
+  const long long naxis = integer(2, "NAXIS").value_or(0);
+  if (naxis < 0 || naxis > 999) return;  // cfitsio refuses it (BAD_NAXIS)
+  for (long long axis = 1; axis <= naxis; ++axis) integer(2 + axis, "NAXIS" + std::to_string(axis));
+  if (!extension) return;
+  integer(3 + naxis, "PCOUNT");
+  integer(4 + naxis, "GCOUNT");
+  // §7.2.1, §7.3.1: a table has 0–999 fields (cfitsio allocates one record per field).
+  const long long fields = integer(5 + naxis, "TFIELDS").value_or(0);
+  if (fields < 0 || fields > 999)
+    throw InputError(source, "the header of HDU " + std::to_string(hdu_number) + " is malformed: TFIELDS is " +
+                                 std::to_string(fields) + ", outside 0–999 (FITS Standard 4.0 §7.3.1)");
+}
+
+// An optional integer keyword of the current HDU's own header.
+std::optional<long long> raw_optional(fitsfile* file, const char* key) {
+  long long value = 0;
+  int status = 0;
+  fits_read_key(file, TLONGLONG, key, &value, nullptr, &status);
+  if (status != 0) {
+    fits_clear_errmsg();
+    return std::nullopt;
+  }
+  return value;
+}
+
+// A compressed image's table promises tiles of ZTILE1 × ZTILE2 pixels (Pence et al. 2009
+// §4; default one row per tile) whose bytes lie in the heap the descriptors point into
+// (FITS Standard 4.0 §7.3.5). cfitsio allocates by both before checking either, so both
+// are checked here against the image and the heap.
+void check_tiles(fitsfile* file, long long width, long long height, long long rows, long long row_bytes,
+                 long long heap, const std::string& source, const std::string& where) {
+  const long long tile_x = raw_optional(file, "ZTILE1").value_or(width);
+  const long long tile_y = raw_optional(file, "ZTILE2").value_or(1);
+  if (tile_x < 1 || tile_y < 1 || tile_x > width || tile_y > height)
+    throw InputError(source, where + " has tiles of " + std::to_string(tile_x) + " × " + std::to_string(tile_y) +
+                                 " pixels, which do not fit its " + std::to_string(width) + " × " +
+                                 std::to_string(height) + " image");
+  // §7.3.5: the heap starts THEAP bytes after the table's start (default: right after it).
+  const long long heap_start = raw_optional(file, "THEAP").value_or(row_bytes * rows);
+  const long long heap_bytes = heap - (heap_start - row_bytes * rows);
+  int status = 0, columns = 0;
+  fits_get_num_cols(file, &columns, &status);
+  if (status != 0) fail(source, where + " has a compressed table whose columns cannot be read", status);
+  for (int column = 1; column <= columns; ++column) {
+    int type = 0;
+    LONGLONG repeat = 0, element_bytes = 0;
+    fits_get_coltypell(file, column, &type, &repeat, &element_bytes, &status);
+    if (status != 0) fail(source, where + " has a compressed table column that cannot be read", status);
+    if (type >= 0) continue;  // fixed-length column, inside the rows already checked
+    element_bytes = std::max<LONGLONG>(element_bytes, 1);
+    for (long long row = 1; row <= rows; ++row) {
+      LONGLONG length = 0, offset = 0;
+      fits_read_descriptll(file, column, row, &length, &offset, &status);
+      if (status != 0) fail(source, where + " has a compressed tile whose place cannot be read", status);
+      if (length < 0 || offset < 0 || length > heap_bytes / element_bytes || offset > heap_bytes - length * element_bytes)
+        throw InputError(source, "the file is damaged: tile " + std::to_string(row) + " of " + where +
+                                     " lies outside the compressed data the file holds");
+    }
+  }
+}
+
 // The image HDU occulta reads (FITS Standard 4.0 §3.3 primary array, §7.1 IMAGE
 // extension, tiled convention Pence et al. 2009): the first one whose axes hold data.
 // Refuses what it cannot read before anything is allocated, and leaves `file` there.
 // `file_size` is the number of bytes the file really has.
-Choice choose_image(fitsfile* file, long long file_size, const std::string& source) {
+Choice choose_image(fitsfile* file, long long file_size, const ByteReader& read, const std::string& source) {
   std::string skipped;  // what came before, for a message when there is no image
   bool saw_table = false;
   for (int index = 0;; ++index) {
     int status = 0;
     if (index > 0) {
+      LONGLONG header_start = 0, data_start = 0, data_end = 0;
+      fits_get_hduaddrll(file, &header_start, &data_start, &data_end, &status);
+      if (status == 0 && data_end < file_size) check_mandatory_cards(read, data_end, index + 1, source);
       fits_movrel_hdu(file, 1, nullptr, &status);
       if (status == END_OF_FILE) {
         fits_clear_errmsg();
@@ -141,6 +253,7 @@ Choice choose_image(fitsfile* file, long long file_size, const std::string& sour
       if (row_bytes < 0 || rows < 0 || heap < 0 || (row_bytes > 0 && rows > kHuge / row_bytes) || heap > kHuge)
         throw InputError(source, where + " is a compressed table whose size cannot be right");
       needed = row_bytes * rows + heap;
+      if (needed <= file_size - data_start) check_tiles(file, width, height, rows, row_bytes, heap, source, where);
     } else {
       needed = static_cast<LONGLONG>(std::abs(bitpix) / 8) * width * height;
     }
@@ -179,8 +292,8 @@ Header read_header(fitsfile* file, const Choice& choice, const std::string& sour
   return header;
 }
 
-FitsImage read_open(fitsfile* file, long long file_size, const std::string& source) {
-  const Choice choice = choose_image(file, file_size, source);
+FitsImage read_open(fitsfile* file, long long file_size, const ByteReader& read, const std::string& source) {
+  const Choice choice = choose_image(file, file_size, read, source);
   FitsImage image;
   image.source = source;
   image.hdu = choice.hdu;
@@ -222,6 +335,25 @@ std::string read_start(const std::filesystem::path& path, std::uintmax_t& size) 
   return head;
 }
 
+ByteReader disk_reader(const std::filesystem::path& path) {
+  return [path](long long offset, std::size_t count) {
+    std::ifstream in(path, std::ios::binary);
+    std::string bytes(count, '\0');
+    in.seekg(offset);
+    in.read(bytes.data(), static_cast<std::streamsize>(count));
+    bytes.resize(in ? count : static_cast<std::size_t>(std::max<std::streamsize>(in.gcount(), 0)));
+    return bytes;
+  };
+}
+
+ByteReader memory_reader(std::span<const std::byte> bytes) {
+  return [bytes](long long offset, std::size_t count) {
+    if (offset < 0 || static_cast<std::size_t>(offset) >= bytes.size()) return std::string();
+    const std::size_t n = std::min(count, bytes.size() - static_cast<std::size_t>(offset));
+    return std::string(reinterpret_cast<const char*>(bytes.data()) + offset, n);
+  };
+}
+
 // The bytes a disk file holds: cfitsio's count (public in fitsio.h), which for a
 // gzip-compressed file is the size uncompressed.
 long long disk_size(fitsfile* file) { return file->Fptr->logfilesize; }
@@ -231,6 +363,7 @@ FitsHandle open_disk(const std::filesystem::path& path) {
   std::uintmax_t size = 0;
   const std::string head = read_start(path, size);
   check_start(head, size, source);
+  check_mandatory_cards(disk_reader(path), 0, 1, source);
   fitsfile* raw = nullptr;
   int status = 0;
   // The disk-file entry point: file names are taken literally, without cfitsio's
@@ -247,12 +380,12 @@ FitsHandle open_disk(const std::filesystem::path& path) {
 
 FitsImage read_fits(const std::filesystem::path& path) {
   FitsHandle file = open_disk(path);
-  return read_open(file.get(), disk_size(file.get()), path.string());
+  return read_open(file.get(), disk_size(file.get()), disk_reader(path), path.string());
 }
 
 Header read_fits_header(const std::filesystem::path& path) {
   FitsHandle file = open_disk(path);
-  const Choice choice = choose_image(file.get(), disk_size(file.get()), path.string());
+  const Choice choice = choose_image(file.get(), disk_size(file.get()), disk_reader(path), path.string());
   return read_header(file.get(), choice, path.string());
 }
 
@@ -267,6 +400,7 @@ FitsImage read_fits_memory(std::span<const std::byte> bytes, std::string name) {
   std::copy(bytes.begin(), bytes.end(), copy.begin());
   void* buffer = copy.data();
   std::size_t buffer_size = copy.size();
+  check_mandatory_cards(memory_reader(bytes), 0, 1, name);
   fitsfile* raw = nullptr;
   int status = 0;
   fits_open_memfile(&raw, name.c_str(), READONLY, &buffer, &buffer_size, 0, nullptr, &status);
@@ -275,7 +409,7 @@ FitsImage read_fits_memory(std::span<const std::byte> bytes, std::string name) {
     fail(name, "it cannot be read as FITS", status);
   }
   FitsHandle file(raw);
-  return read_open(file.get(), static_cast<long long>(bytes.size()), name);
+  return read_open(file.get(), static_cast<long long>(bytes.size()), memory_reader(bytes), name);
 }
 
 }  // namespace occulta::imaging

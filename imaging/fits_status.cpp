@@ -20,6 +20,7 @@ std::string describe_status(int status) {
     case BAD_BITPIX: return "BITPIX is not one of 8, 16, 32, 64, -32, -64 (FITS Standard 4.0 Table 8)";
     case BAD_NAXIS: return "NAXIS is missing or outside 0–999 (FITS Standard 4.0 §4.4.1.1)";
     case BAD_NAXES: return "an NAXISn keyword is missing or not a non-negative integer";
+    case NOT_POS_INT: return "a header value that must be a positive integer is not one";
     case BAD_PCOUNT: return "an extension has an invalid PCOUNT";
     case BAD_GCOUNT: return "an extension has an invalid GCOUNT";
     case BAD_SIMPLE: return "SIMPLE is not T, so the file does not claim to follow the FITS Standard";

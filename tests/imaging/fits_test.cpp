@@ -263,7 +263,10 @@ TEST_CASE("fits: astropy-written images read back with astropy's values") {
     CHECK(image.pixels.rows == expected["height"].get<int>());
     CHECK(image.nonfinite_count == expected["nonfinite"].get<std::size_t>());
     check_pixels(image.pixels, expected["pixels"]);
-    for (const auto& [key, value] : expected["keywords"].items()) {
+    for (const auto& item : expected["keywords"].items()) {
+      // Named copies, not a structured binding: clang 14 cannot capture those in CAPTURE.
+      const std::string key = item.key();
+      const nlohmann::json value = item.value();
       CAPTURE(key);
       const HeaderCard* found = image.header.find(key);
       REQUIRE(found != nullptr);
