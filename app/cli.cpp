@@ -6,6 +6,7 @@
 
 #include "app/demo.hpp"
 #include "app/inspect.hpp"
+#include "app/synth.hpp"
 
 namespace occulta::app {
 
@@ -19,6 +20,12 @@ int run(int argc, char** argv) {
   inspect_cmd->add_option("paths", inspect_options.paths, "FITS files, or folders searched recursively")
       ->required();
   inspect_cmd->add_flag("--json", inspect_options.json, "Print a JSON array instead of a line per file");
+
+  SynthOptions synth_options;
+  auto* synth_cmd = cli.add_subcommand("synth", "Make synthetic frames, an event file and a truth file from a scenario");
+  synth_cmd->add_option("scenario", synth_options.scenario, "Scenario file (*.scenario.json)")->required();
+  synth_cmd->add_option("--out", synth_options.out_dir, "Folder to write into (made if missing)")->required();
+  synth_cmd->add_flag("--quiet", synth_options.quiet, "No progress line");
 
   DemoOptions demo_options;
   auto* demo_cmd = cli.add_subcommand("demo", "Run the main job on the committed sample event");
@@ -40,6 +47,7 @@ int run(int argc, char** argv) {
 
   try {
     if (*inspect_cmd) return inspect(inspect_options, std::cout, std::cerr);
+    if (*synth_cmd) return synth(synth_options, std::cout, std::cerr);
     if (*demo_cmd) return demo(demo_options, std::cout, std::cerr);
   } catch (const std::exception& e) {
     std::cerr << "occulta: " << e.what() << '\n';

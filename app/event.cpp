@@ -1,0 +1,130 @@
+#include "app/event.hpp"
+
+#include <algorithm>
+#include <fstream>
+#include <glob.h>
+
+#include "imaging/constants.hpp"
+#include "imaging/input_error.hpp"
+#include "imaging/time.hpp"
+
+namespace occulta::app {
+namespace fs = std::filesystem;
+using nlohmann::json;
+using imaging::InputError;
+
+namespace {
+
+// POSIX glob(3): the shell's own pattern rules, sorted matches.
+std::vector<fs::path> expand(const fs::path& base, const std::string& pattern) {
+  const fs::path full = fs::path(pattern).is_absolute() ? fs::path(pattern) : base / pattern;
+  glob_t found{};
+  std::vector<fs::path> files;
+  if (glob(full.c_str(), 0, nullptr, &found) == 0)
+    for (size_t i = 0; i < found.gl_pathc; ++i)
+      if (fs::is_regular_file(found.gl_pathv[i])) files.emplace_back(found.gl_pathv[i]);
+  globfree(&found);
+  return files;
+}
+
+double time_field(const json& object, const char* key, const std::string& where, const std::string& file) {
+  if (!object.contains(key) || !object[key].is_string())
+    throw InputError(file, where + key + " must be an ISO 8601 time in quotes");
+  const std::string text = object[key].get<std::string>();
+  try {
+    return imaging::utc_seconds_from_iso(text);
+  } catch (const std::invalid_argument& e) {
+    throw InputError(file, where + key + " is \"" + text + "\" — " + e.what());
+  }
+}
+
+std::array<double, 2> pair_field(const json& value, const std::string& name, const std::string& file) {
+  if (!value.is_array() || value.size() != 2 || !value[0].is_number() || !value[1].is_number())
+    throw InputError(file, name + " must be a pair of numbers [a, b]");
+  return {value[0].get<double>(), value[1].get<double>()};
+}
+
+double number_field(const json& object, const char* key, const std::string& where, const std::string& file) {
+  if (!object.contains(key) || !object[key].is_number())
+    throw InputError(file, where + key + " must be a number");
+  return object[key].get<double>();
+}
+
+}  // namespace
+
+Event read_event(const fs::path& path) {
+  const std::string file = path.string();
+  std::ifstream in(path);
+  if (!in) throw InputError(file, "cannot be opened");
+  json doc;
+  try {
+    doc = json::parse(in);
+  } catch (const json::parse_error& e) {
+    throw InputError(file, std::string("is not valid JSON (") + e.what() + ")");
+  }
+  if (!doc.is_object()) throw InputError(file, "must hold one JSON object");
+
+  Event event;
+  event.path = path;
+  if (!doc.contains("id") || !doc["id"].is_string() || doc["id"].get<std::string>().empty())
+    throw InputError(file, "id must be a non-empty string");
+  event.id = doc["id"].get<std::string>();
+  if (!doc.contains("views") || !doc["views"].is_array() || doc["views"].empty())
+    throw InputError(file, "views must be a non-empty list");
+
+  const fs::path base = path.parent_path().empty() ? fs::path(".") : path.parent_path();
+  for (size_t i = 0; i < doc["views"].size(); ++i) {
+    const json& v = doc["views"][i];
+    const std::string where = "views[" + std::to_string(i) + "].";
+    if (!v.is_object()) throw InputError(file, where.substr(0, where.size() - 1) + " must be an object");
+    EventView view;
+    if (!v.contains("name") || !v["name"].is_string() || v["name"].get<std::string>().empty())
+      throw InputError(file, where + "name must be a non-empty string");
+    view.name = v["name"].get<std::string>();
+    for (const auto& other : event.views)
+      if (other.name == view.name) throw InputError(file, where + "name \"" + view.name + "\" is used twice");
+    if (!v.contains("files")) throw InputError(file, where + "files is missing");
+    const json files = v["files"].is_string() ? json::array({v["files"]}) : v["files"];
+    if (!files.is_array() || files.empty()) throw InputError(file, where + "files must be a glob or a list of globs");
+    for (const json& g : files) {
+      if (!g.is_string()) throw InputError(file, where + "files must hold strings");
+      view.globs.push_back(g.get<std::string>());
+      for (auto& f : expand(base, view.globs.back())) view.files.push_back(std::move(f));
+    }
+    std::sort(view.files.begin(), view.files.end());
+    view.files.erase(std::unique(view.files.begin(), view.files.end()), view.files.end());
+    if (v.contains("observer")) {
+      const json& o = v["observer"];
+      const std::string ow = where + "observer.";
+      if (!o.is_object()) throw InputError(file, ow + " must be an object");
+      const double dist_au = number_field(o, "dist_au", ow, file);
+      if (!(dist_au > 0.0)) throw InputError(file, ow + "dist_au must be positive");
+      view.observer = imaging::observer_from_degrees(number_field(o, "lon_deg", ow, file),
+                                                     number_field(o, "lat_deg", ow, file), dist_au * kAuKm);
+    }
+    if (v.contains("occulter_rs")) {
+      view.occulter_rs = pair_field(v["occulter_rs"], where + "occulter_rs", file);
+      if (!((*view.occulter_rs)[0] >= 1.0 && (*view.occulter_rs)[1] > (*view.occulter_rs)[0]))
+        throw InputError(file, where + "occulter_rs must be [inner, outer] with 1 ≤ inner < outer (R☉)");
+    }
+    event.views.push_back(std::move(view));
+  }
+
+  if (doc.contains("window")) {
+    const json& w = doc["window"];
+    if (!w.is_object()) throw InputError(file, "window must be an object {start, end}");
+    event.window_s = std::array<double, 2>{time_field(w, "start", "window.", file), time_field(w, "end", "window.", file)};
+    if ((*event.window_s)[1] < (*event.window_s)[0]) throw InputError(file, "window.end comes before window.start");
+  }
+  if (doc.contains("base_time")) event.base_time_s = time_field(doc, "base_time", "", file);
+  if (doc.contains("source")) {
+    const json& s = doc["source"];
+    if (!s.is_object()) throw InputError(file, "source must be an object {lon_deg, lat_deg}");
+    event.source_deg = std::array<double, 2>{number_field(s, "lon_deg", "source.", file),
+                                             number_field(s, "lat_deg", "source.", file)};
+  }
+  if (doc.contains("forecast")) event.forecast = doc["forecast"];
+  return event;
+}
+
+}  // namespace occulta::app

@@ -1,0 +1,278 @@
+#include "fit/synth.hpp"
+
+#include <cmath>
+#include <cstdio>
+#include <fstream>
+#include <random>
+
+#include "fit/render.hpp"
+#include "imaging/constants.hpp"
+#include "imaging/fits.hpp"
+#include "imaging/input_error.hpp"
+#include "imaging/time.hpp"
+
+namespace occulta::fit {
+namespace fs = std::filesystem;
+using nlohmann::json;
+
+namespace {
+
+// One reproducible random stream per (scenario seed, view, frame, purpose): the files
+// of a view do not change when another view or a later frame is added.
+std::mt19937_64 stream(const Scenario& s, int view, int frame, std::uint32_t purpose) {
+  std::seed_seq seq{std::uint32_t(s.seed), std::uint32_t(s.seed >> 32), std::uint32_t(view), std::uint32_t(frame),
+                    purpose};
+  return std::mt19937_64(seq);
+}
+enum Purpose : std::uint32_t { kJitter = 1, kNoise = 2, kCosmics = 3 };
+
+imaging::Observer observer_of(const ScenarioObserver& o) {
+  return imaging::observer_from_degrees(o.lon_deg, o.lat_deg, o.dist_au * kAuKm);
+}
+
+// Sheath density at the time of a frame: (5 R☉ / h)² of the scenario's value at 5 R☉.
+double peak_density_cm3(const ScenarioShell& shell, const ShellParams& at) {
+  const double ratio = 5.0 / at.apex_height_rs;
+  return shell.density_cm3 * ratio * ratio;
+}
+
+// The F corona (dust-scattered light): smooth and unpolarised, modelled as a power law
+// in sky-plane height, B_F = f · 1e-8 · r^−2.5 B☉. That puts it level with the K corona
+// near 3–5 R☉ and above it farther out, as the trade knows it (common practice; the
+// coefficients are ours, from memory of its general behaviour, not a published fit).
+void add_f_corona(cv::Mat& brightness, const imaging::ImageGeometry& geometry, double factor) {
+  for (int y = 0; y < brightness.rows; ++y) {
+    float* row = brightness.ptr<float>(y);
+    for (int x = 0; x < brightness.cols; ++x) {
+      const double r = std::max(1.0, std::hypot(x - geometry.sun_center_px.x(), y - geometry.sun_center_px.y()) *
+                                         geometry.rs_per_px);
+      row[x] += float(factor * 1e-8 * std::pow(r, -2.5));
+    }
+  }
+}
+
+// Detector: shot noise from the electrons collected (σ² = DN / gain, in DN²) and
+// Gaussian read noise, both drawn as Gaussians — with thousands of electrons per pixel
+// Poisson is Gaussian to well under a per cent (common practice).
+void expose(cv::Mat& image_dn, const Scenario& s, std::mt19937_64& rng) {
+  std::normal_distribution<float> unit(0.0f, 1.0f);
+  const double gain = s.detector.electrons_per_dn, read = s.detector.read_noise_dn;
+  for (int y = 0; y < image_dn.rows; ++y) {
+    float* row = image_dn.ptr<float>(y);
+    for (int x = 0; x < image_dn.cols; ++x) {
+      const double dn = row[x];
+      const double shot2 = gain > 0.0 ? std::max(dn, 0.0) / gain : 0.0;
+      row[x] = float(dn + std::sqrt(shot2 + read * read) * unit(rng));
+    }
+  }
+}
+
+// Cosmic-ray hits: short straight tracks of 1–4 pixels, each a few thousand DN above
+// the scene (common practice for CCD frames).
+void add_cosmic_rays(cv::Mat& image_dn, int count, std::mt19937_64& rng) {
+  std::uniform_int_distribution<int> px(0, image_dn.cols - 1), py(0, image_dn.rows - 1), len(1, 4), dir(0, 7);
+  std::uniform_real_distribution<float> amp(2000.0f, 12000.0f);
+  static const int dx[8] = {1, 1, 0, -1, -1, -1, 0, 1}, dy[8] = {0, 1, 1, 1, 0, -1, -1, -1};
+  for (int k = 0; k < count; ++k) {
+    int x = px(rng), y = py(rng);
+    const int n = len(rng), d = dir(rng);
+    const float a = amp(rng);
+    for (int j = 0; j < n && x >= 0 && y >= 0 && x < image_dn.cols && y < image_dn.rows; ++j, x += dx[d], y += dy[d])
+      image_dn.at<float>(y, x) += a;
+  }
+}
+
+// Whole or not at all: written beside the target, then renamed over it.
+void write_json(const fs::path& path, const json& doc) {
+  const fs::path tmp = path.string() + ".part";
+  {
+    std::ofstream out(tmp);
+    if (!out) throw imaging::InputError(path.string(), "cannot be written");
+    out << doc.dump(2) << '\n';
+    if (!out) throw imaging::InputError(path.string(), "could not be written in full");
+  }
+  fs::rename(tmp, path);
+}
+
+BackgroundCorona background_model(const std::string& name) {
+  if (name == "saito") return BackgroundCorona::saito;
+  if (name == "baumbach-allen") return BackgroundCorona::baumbach_allen;
+  return BackgroundCorona::none;
+}
+
+}  // namespace
+
+imaging::GeometrySpec frame_geometry(const Scenario& s, int view, int frame) {
+  const ScenarioObserver& o = s.observers.at(view);
+  imaging::GeometrySpec spec;
+  spec.width = spec.height = s.size_px;
+  spec.observer = observer_of(o);
+  // ±half_width R☉ at the Sun's distance across the frame's half width.
+  const double half_angle = std::atan(s.half_width_rs * kSolarRadiusKm / spec.observer.dist_km);
+  spec.arcsec_per_px = half_angle * kArcsecPerRad / (0.5 * s.size_px);
+  spec.roll_deg = o.roll_deg;
+  const double centre = 0.5 * (s.size_px - 1);
+  spec.sun_center_px = {centre, centre};
+  if (s.jitter_px > 0.0) {
+    auto rng = stream(s, view, frame, kJitter);
+    std::normal_distribution<double> jitter(0.0, s.jitter_px);
+    spec.sun_center_px += Eigen::Vector2d(jitter(rng), jitter(rng));
+  }
+  return spec;
+}
+
+SkyTruth sky_truth(const ShellParams& shell, const imaging::Observer& observer) {
+  const ShellMesh mesh = make_mesh(shell, MeshResolution{24, 96, 48});
+  const SkyOutline outline = sky_outline(mesh, shell, observer, 1.0);
+  SkyTruth t;
+  t.apex_pa_deg = outline.apex_pa_deg;
+  t.pa_from_deg = outline.pa_from_deg;
+  t.pa_to_deg = outline.pa_to_deg;
+  const int bins = int(outline.max_height_rs.size());
+  const int apex_bin = std::min(bins - 1, int(t.apex_pa_deg / outline.bin_deg));
+  for (int i = 0; i < bins; ++i) {
+    const double h = outline.max_height_rs[i];
+    if (std::isnan(h)) continue;
+    t.leading_edge_rs = std::max(t.leading_edge_rs, h);
+    const int d = std::min((i - apex_bin + bins) % bins, (apex_bin - i + bins) % bins);
+    if (d <= 1) t.leading_edge_at_apex_pa_rs = std::max(t.leading_edge_at_apex_pa_rs, h);
+  }
+  return t;
+}
+
+SynthResult synthesize(const Scenario& s, const fs::path& out_dir, const SynthProgress& progress) {
+  SynthResult result;
+  std::error_code ec;
+  fs::create_directories(out_dir, ec);
+  if (ec) throw imaging::InputError(out_dir.string(), "cannot be made as a folder (" + ec.message() + ")");
+
+  const int views = int(s.observers.size());
+  const int total = views * s.frames;
+  int done = 0;
+
+  // Truth per frame: the apex height, and what each view sees of the projected shell.
+  json truth_frames = json::array();
+  for (int i = 0; i < s.frames; ++i) {
+    const double t = s.frame_time(i);
+    const ShellParams shell = s.shell.at(t);
+    json per_view = json::object();
+    for (int v = 0; v < views; ++v) {
+      const SkyTruth st = sky_truth(shell, observer_of(s.observers[v]));
+      per_view[s.observers[v].name] = {{"apex_pa_deg", st.apex_pa_deg},
+                                       {"pa_span_deg", {st.pa_from_deg, st.pa_to_deg}},
+                                       {"sky_leading_edge_rs", st.leading_edge_rs},
+                                       {"sky_leading_edge_at_apex_pa_rs", st.leading_edge_at_apex_pa_rs}};
+    }
+    truth_frames.push_back({{"index", i},
+                            {"time", imaging::iso_from_utc_seconds(t, 3)},
+                            {"apex_height_rs", shell.apex_height_rs},
+                            {"apex_speed_km_s", s.shell.apex.speed_at(t)},
+                            {"views", per_view}});
+  }
+
+  json event_views = json::array();
+  for (int v = 0; v < views; ++v) {
+    const ScenarioObserver& o = s.observers[v];
+    const fs::path view_dir = out_dir / o.name;
+    fs::create_directories(view_dir, ec);
+    if (ec) throw imaging::InputError(view_dir.string(), "cannot be made as a folder (" + ec.message() + ")");
+
+    for (int i = 0; i < s.frames; ++i) {
+      const double t = s.frame_time(i);
+      const imaging::GeometrySpec spec = frame_geometry(s, v, i);
+      imaging::Header header;
+      imaging::write_geometry(header, spec);
+      const imaging::ImageGeometry geometry = imaging::read_geometry(header, o.name);
+
+      // Brightness (B☉) → DN: detector response × exposure.
+      const ShellParams shell = s.shell.at(t);
+      RenderScene scene;
+      scene.background = background_model(s.background.k_corona);
+      scene.sheaths.push_back(ShellSheath{shell, peak_density_cm3(s.shell, shell), s.shell.sheath_fraction});
+      cv::Mat dn;
+      render_frame(geometry, scene).total_bsun.convertTo(dn, CV_32F);
+      if (s.background.f_corona > 0.0) add_f_corona(dn, geometry, s.background.f_corona);
+      dn *= s.detector.dn_per_s_per_bsun * s.exposure_s;
+
+      auto noise_rng = stream(s, v, i, kNoise);
+      expose(dn, s, noise_rng);
+      auto cosmic_rng = stream(s, v, i, kCosmics);
+      add_cosmic_rays(dn, s.cosmic_rays_per_frame, cosmic_rng);
+      // Occulter and field stop: no data inside the inner radius or beyond the outer one.
+      for (int y = 0; y < dn.rows; ++y)
+        for (int x = 0; x < dn.cols; ++x) {
+          const double r = std::hypot(x - spec.sun_center_px.x(), y - spec.sun_center_px.y()) * geometry.rs_per_px;
+          if (r < s.occulter_inner_rs || r > s.occulter_outer_rs) dn.at<float>(y, x) = NAN;
+        }
+      for (const MissingBlock& m : s.missing_blocks)
+        if (m.view == o.name && m.frame == i)
+          dn(cv::Rect(m.x, m.y, m.width, m.height) & cv::Rect(0, 0, dn.cols, dn.rows)).setTo(NAN);
+
+      header.set_text("DATE-OBS", imaging::iso_from_utc_seconds(t, 3), "start of exposure, UTC");
+      header.set_real("EXPTIME", s.exposure_s, "exposure time, s");
+      header.set_text("BUNIT", "DN", "detector counts");
+      header.set_text("OBSRVTRY", o.name, "invented observer (synthetic)");
+      header.set_text("TELESCOP", "occulta synth", "synthetic coronagraph frame");
+      header.set_text("OBJECT", s.id, "scenario id");
+      header.set_real("OCC_IN", s.occulter_inner_rs, "occulter radius, R_sun");
+      header.set_real("OCC_OUT", s.occulter_outer_rs, "field-stop radius, R_sun");
+      header.add_commentary("COMMENT", "Synthetic frame made by occulta synth: Thomson-scattered K corona,");
+      header.add_commentary("COMMENT", "F corona and a graduated cylindrical shell sheath. Not an observation.");
+
+      char name[96];
+      std::snprintf(name, sizeof name, "%s_%03d.fits", o.name.c_str(), i);
+      const fs::path path = view_dir / name;
+      imaging::FitsWriteOptions options;
+      options.pixels = s.detector.pixels == "int16" ? imaging::FitsWriteOptions::Pixels::ScaledInt16
+                                                    : imaging::FitsWriteOptions::Pixels::Float32;
+      options.rice = s.detector.compress;
+      imaging::write_fits(path, dn, header, options);
+      result.frames.push_back(path);
+      truth_frames[i]["views"][o.name]["file"] = (fs::path(o.name) / name).generic_string();
+      if (progress) progress(++done, total);
+    }
+    event_views.push_back({{"name", o.name},
+                           {"files", {o.name + "/*.fits"}},
+                           {"occulter_rs", {s.occulter_inner_rs, s.occulter_outer_rs}}});
+  }
+
+  const json event = {{"id", s.id},
+                      {"views", event_views},
+                      {"window", {{"start", imaging::iso_from_utc_seconds(s.frame_time(0), 3)},
+                                  {"end", imaging::iso_from_utc_seconds(s.frame_time(s.frames - 1), 3)}}},
+                      {"base_time", imaging::iso_from_utc_seconds(s.frame_time(0), 3)}};
+  result.event_file = out_dir / (s.id + ".event.json");
+  write_json(result.event_file, event);
+
+  json observers = json::array();
+  for (const auto& o : s.observers)
+    observers.push_back({{"name", o.name}, {"lon_deg", o.lon_deg}, {"lat_deg", o.lat_deg}, {"dist_au", o.dist_au},
+                         {"roll_deg", o.roll_deg}});
+  const ShellParams ref = s.shell.at(s.shell.apex.ref_time_s);
+  const json truth = {
+      {"schema", "occulta.truth/1"},
+      {"id", s.id},
+      {"scenario", s.source.filename().string()},
+      {"observers", observers},
+      {"shell",
+       {{"lon_deg", s.shell.lon_deg},
+        {"lat_deg", s.shell.lat_deg},
+        {"tilt_deg", s.shell.tilt_deg},
+        {"half_angle_deg", s.shell.half_angle_deg},
+        {"aspect_ratio", s.shell.aspect_ratio},
+        {"ref_time", imaging::iso_from_utc_seconds(s.shell.apex.ref_time_s, 3)},
+        {"apex_height_rs", s.shell.apex.height_rs},
+        {"speed_km_s", s.shell.apex.speed_km_s},
+        {"accel_m_s2", s.shell.apex.accel_m_s2},
+        {"leg_height_rs", leg_height_from_apex_height(ref.apex_height_rs, ref.half_angle, ref.aspect_ratio)},
+        {"face_on_width_deg", face_on_width(ref.half_angle, ref.aspect_ratio) * kDegPerRad},
+        {"edge_on_width_deg", edge_on_width(ref.aspect_ratio) * kDegPerRad},
+        {"density_cm3_at_5rs", s.shell.density_cm3},
+        {"sheath_fraction", s.shell.sheath_fraction}}},
+      {"frames", truth_frames}};
+  result.truth_file = out_dir / (s.id + ".truth.json");
+  write_json(result.truth_file, truth);
+  return result;
+}
+
+}  // namespace occulta::fit
