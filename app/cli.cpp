@@ -29,7 +29,6 @@ int run(int argc, char** argv) {
 
   DemoOptions demo_options;
   auto* demo_cmd = cli.add_subcommand("demo", "Run the main job on the committed sample event");
-  demo_cmd->add_option("--out", demo_options.out_dir, "Folder for what the demo writes")->capture_default_str();
   demo_cmd->add_option("--sample", demo_options.sample_dir, "The sample event's folder")->capture_default_str();
 
   try {

@@ -1,13 +1,15 @@
 #include "app/demo.hpp"
 
+#include <algorithm>
 #include <cmath>
 #include <filesystem>
+#include <iomanip>
 #include <ostream>
+#include <sstream>
 
+#include "app/event.hpp"
 #include "app/inspect.hpp"
-#include "imaging/constants.hpp"
-#include "imaging/fits.hpp"
-#include "imaging/geometry.hpp"
+#include "imaging/input_error.hpp"
 #include "imaging/time.hpp"
 
 namespace occulta::app {
@@ -15,47 +17,63 @@ namespace fs = std::filesystem;
 
 namespace {
 
-// A stand-in frame while there is no committed sample: a radially falling corona
-// (∝ r⁻³, roughly the K corona's brightness fall-off — common practice) between an
-// occulter at 2.5 R☉ and a field stop at 15 R☉, seen from 1 au on the Sun–Earth line.
-fs::path write_standin_frame(const fs::path& dir) {
-  imaging::GeometrySpec spec;
-  spec.width = spec.height = 256;
-  spec.observer = imaging::observer_from_degrees(0.0, 0.0, kAuKm);
-  spec.sun_center_px = {127.5, 127.5};
-  const double rsun_arcsec = imaging::solar_angular_radius_rad(kAuKm) * kArcsecPerRad;
-  spec.arcsec_per_px = 2.0 * 16.0 * rsun_arcsec / spec.width;  // ±16 R☉ across
-  cv::Mat pixels(spec.height, spec.width, CV_32F);
-  for (int y = 0; y < spec.height; ++y)
-    for (int x = 0; x < spec.width; ++x) {
-      const double r_rs = std::hypot(x - spec.sun_center_px.x(), y - spec.sun_center_px.y()) *
-                          spec.arcsec_per_px / rsun_arcsec;
-      pixels.at<float>(y, x) = (r_rs < 2.5 || r_rs > 15.0) ? NAN : float(1e4 * std::pow(r_rs, -3.0));
-    }
-  imaging::Header header;
-  imaging::write_geometry(header, spec);
-  header.set_text("DATE-OBS", imaging::iso_from_utc_seconds(imaging::utc_seconds_from_iso("2031-03-14T06:00:00"), 3),
-                  "start of exposure, UTC");
-  header.set_real("EXPTIME", 10.0, "exposure time, s");
-  header.set_text("OBSRVTRY", "occulta stand-in", "invented observer");
-  fs::create_directories(dir);
-  const fs::path path = dir / "standin.fits";
-  imaging::write_fits(path, pixels, header, {imaging::FitsWriteOptions::Pixels::ScaledInt16, true});
-  return path;
+fs::path find_event_file(const fs::path& dir) {
+  std::vector<fs::path> found;
+  std::error_code ec;
+  for (const auto& entry : fs::directory_iterator(dir, ec))
+    if (entry.path().filename().string().ends_with(".event.json")) found.push_back(entry.path());
+  if (found.empty()) throw imaging::InputError(dir.string(), "holds no *.event.json file");
+  std::sort(found.begin(), found.end());
+  return found.front();
 }
 
 }  // namespace
 
 int demo(const DemoOptions& options, std::ostream& out, std::ostream& err) {
-  std::vector<std::string> paths;
-  if (fs::is_directory(options.sample_dir)) {
-    out << "demo: inspecting the sample event in " << options.sample_dir << "\n";
-    paths.push_back(options.sample_dir);
-  } else {
-    out << "demo: no " << options.sample_dir << "/ yet — writing a frame of our own and inspecting it\n";
-    paths.push_back(write_standin_frame(options.out_dir).string());
+  const Event event = read_event(find_event_file(options.sample_dir));
+  out << "occulta demo — sample event \"" << event.id << "\" (" << event.path.string() << ")\n"
+      << "Synthetic frames of an invented scenario (occulta synth), not observations.\n\n";
+
+  bool all_ok = true;
+  out << std::left << std::setw(8) << "view" << std::right << std::setw(7) << "frames" << std::setw(7) << "usable"
+      << "  " << std::left << std::setw(25) << "first frame (UTC)" << std::setw(10) << "cadence" << std::right
+      << std::setw(10) << "obs lon" << std::setw(9) << "obs lat" << std::setw(9) << "dist" << std::setw(10)
+      << "R☉/px" << '\n';
+  for (const EventView& view : event.views) {
+    std::vector<std::string> notes, problems;
+    std::vector<double> times;
+    nlohmann::json last;
+    for (const auto& file : view.files) {
+      nlohmann::json r = inspect_file(file, notes);
+      if (!r["ok"].get<bool>()) {
+        problems.push_back(r["problem"].get<std::string>());
+        continue;
+      }
+      times.push_back(imaging::utc_seconds_from_iso(r["time"].get<std::string>()));
+      last = std::move(r);
+    }
+    all_ok = all_ok && problems.empty() && !view.files.empty();
+    std::sort(times.begin(), times.end());
+    out << std::left << std::setw(8) << view.name << std::right << std::setw(7) << view.files.size() << std::setw(7)
+        << times.size() << "  ";
+    if (times.empty()) {
+      out << "no usable frames\n";
+    } else {
+      const double cadence_min = times.size() > 1 ? (times.back() - times.front()) / (times.size() - 1) / 60.0 : 0.0;
+      std::ostringstream cadence;
+      cadence << std::fixed << std::setprecision(1) << cadence_min << " min";
+      const auto& o = last["observer"];
+      out << std::left << std::setw(25) << imaging::iso_from_utc_seconds(times.front(), 0) << std::setw(10)
+          << cadence.str() << std::right << std::fixed << std::setprecision(1) << std::setw(9)
+          << o["lon_deg"].get<double>() << "°" << std::setw(8) << o["lat_deg"].get<double>() << "°"
+          << std::setprecision(3) << std::setw(6) << o["dist_au"].get<double>() << " au" << std::setprecision(4)
+          << std::setw(10) << last["rs_per_px"].get<double>() << '\n';
+    }
+    for (const auto& p : problems) err << "  problem: " << p << '\n';
+    for (const auto& n : notes) err << "  note: " << n << '\n';
   }
-  return inspect({paths, false}, out, err);
+  out << "\nEvery frame: `occulta inspect " << options.sample_dir << "`.\n";
+  return all_ok ? 0 : 1;
 }
 
 }  // namespace occulta::app

@@ -1,7 +1,6 @@
 // app/demo.hpp — `occulta demo`: the main job on the committed sample event, as far as
-// occulta goes today. Until sample_frames/ exists it writes a frame of its own (a
-// smooth model corona behind an occulter, with full WCS and observer keywords) and
-// inspects that.
+// occulta goes today: it reads the sample's event file and inspects every frame of every
+// view, then prints a summary per view (frames, time span, cadence, observer, scale).
 #pragma once
 
 #include <iosfwd>
@@ -10,8 +9,7 @@
 namespace occulta::app {
 
 struct DemoOptions {
-  std::string out_dir = "demo-out";
-  std::string sample_dir = "sample_frames";
+  std::string sample_dir = "sample_frames";  // holds one *.event.json and its views' folders
 };
 
 int demo(const DemoOptions& options, std::ostream& out, std::ostream& err);
