@@ -1,0 +1,103 @@
+// imaging/difference.cpp — differences, MAD noise, normalisation, median filter.
+#include "imaging/difference.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+
+#include <opencv2/imgproc.hpp>
+
+namespace occulta::imaging {
+
+namespace {
+
+constexpr float kNaN = std::numeric_limits<float>::quiet_NaN();
+constexpr int kMinSamples = 8;
+
+// 1.4826 · median |v − median v| of `values` (reordered in place).
+float mad_sigma(std::vector<float>& values) {
+  if (values.size() < kMinSamples) return kNaN;
+  const auto mid = values.begin() + values.size() / 2;
+  std::nth_element(values.begin(), mid, values.end());
+  const float median = *mid;
+  for (float& v : values) v = std::abs(v - median);
+  std::nth_element(values.begin(), mid, values.end());
+  return 1.4826f * *mid;  // common practice: Gaussian σ = MAD / Φ⁻¹(3/4)
+}
+
+}  // namespace
+
+void difference(const cv::Mat& current, const cv::Mat& previous, double scale, cv::Mat& out) {
+  CV_Assert(current.type() == CV_32FC1 && previous.type() == CV_32FC1 && current.size() == previous.size());
+  cv::addWeighted(current, scale, previous, -scale, 0.0, out);
+}
+
+float robust_sigma(const cv::Mat& image, int stride) {
+  CV_Assert(image.type() == CV_32FC1 && stride >= 1);
+  std::vector<float> values;
+  values.reserve(std::size_t(image.rows / stride + 1) * std::size_t(image.cols / stride + 1));
+  for (int y = 0; y < image.rows; y += stride) {
+    const float* p = image.ptr<float>(y);
+    for (int x = 0; x < image.cols; x += stride)
+      if (std::isfinite(p[x])) values.push_back(p[x]);
+  }
+  return mad_sigma(values);
+}
+
+std::vector<float> ring_sigma(const cv::Mat& polar, int smooth_rings, int pa_stride) {
+  CV_Assert(polar.type() == CV_32FC1 && smooth_rings >= 0 && pa_stride >= 1);
+  std::vector<float> per_row(polar.rows, kNaN);
+  cv::parallel_for_(cv::Range(0, polar.rows), [&](const cv::Range& rows) {
+    std::vector<float> values;
+    for (int i = rows.start; i < rows.end; ++i) {
+      values.clear();
+      const float* p = polar.ptr<float>(i);
+      for (int j = 0; j < polar.cols; j += pa_stride)
+        if (std::isfinite(p[j])) values.push_back(p[j]);
+      per_row[i] = mad_sigma(values);
+    }
+  });
+  if (smooth_rings == 0) return per_row;
+  std::vector<float> smooth(polar.rows, kNaN), window;
+  for (int i = 0; i < polar.rows; ++i) {
+    if (!std::isfinite(per_row[i])) continue;  // a ring without data stays without σ
+    window.clear();
+    for (int k = std::max(0, i - smooth_rings); k <= std::min(polar.rows - 1, i + smooth_rings); ++k)
+      if (std::isfinite(per_row[k])) window.push_back(per_row[k]);
+    const auto mid = window.begin() + window.size() / 2;
+    std::nth_element(window.begin(), mid, window.end());
+    smooth[i] = *mid;
+  }
+  return smooth;
+}
+
+void divide_by(cv::Mat& image, float sigma) {
+  CV_Assert(image.type() == CV_32FC1);
+  if (std::isnan(sigma)) {
+    image.setTo(kNaN);
+    return;
+  }
+  // 0 · NaN stays NaN, so no-data pixels survive a zero σ.
+  image.convertTo(image, CV_32F, sigma > 0.0f ? 1.0 / sigma : 0.0);
+}
+
+void divide_by_rows(cv::Mat& polar, const std::vector<float>& sigma) {
+  CV_Assert(polar.type() == CV_32FC1 && int(sigma.size()) == polar.rows);
+  cv::parallel_for_(cv::Range(0, polar.rows), [&](const cv::Range& rows) {
+    for (int i = rows.start; i < rows.end; ++i) {
+      cv::Mat row = polar.row(i);
+      divide_by(row, sigma[i]);
+    }
+  });
+}
+
+void median_filter(cv::Mat& image, int size) {
+  CV_Assert(image.type() == CV_32FC1 && (size == 3 || size == 5));
+  cv::Mat no_data = image != image;  // NaN is the only value unequal to itself
+  cv::Mat filtered;
+  cv::medianBlur(image, filtered, size);
+  filtered.setTo(kNaN, no_data);
+  image = filtered;
+}
+
+}  // namespace occulta::imaging

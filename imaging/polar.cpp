@@ -1,0 +1,91 @@
+// imaging/polar.cpp — (PA, height) tables, unwrapping, NRGF.
+#include "imaging/polar.hpp"
+
+#include <cmath>
+#include <limits>
+
+#include <opencv2/imgproc.hpp>
+
+#include "imaging/constants.hpp"
+
+namespace occulta::imaging {
+
+PolarGrid make_polar_grid(const RegisteredGrid& grid, double inner_rs, double outer_rs, double pa_step_deg,
+                          double height_step_rs) {
+  CV_Assert(pa_step_deg > 0.0 && outer_rs > inner_rs && grid.rs_per_px > 0.0);
+  PolarGrid polar;
+  polar.pa_count = std::max(1, int(std::lround(360.0 / pa_step_deg)));
+  polar.pa_step_deg = 360.0 / polar.pa_count;
+  polar.height_step_rs = height_step_rs > 0.0 ? height_step_rs : grid.rs_per_px;
+  polar.height_min_rs = inner_rs;
+  polar.height_count = int(std::floor((outer_rs - inner_rs) / polar.height_step_rs)) + 1;
+  return polar;
+}
+
+cv::Point2d grid_pixel(const RegisteredGrid& grid, double pa_deg, double height_rs) {
+  // PA counter-clockwise from north (+y) through east (−x): see polar.hpp.
+  const double pa = pa_deg * kRadPerDeg, r = height_rs / grid.rs_per_px;
+  return {grid.sun_center_px.x() - r * std::sin(pa), grid.sun_center_px.y() + r * std::cos(pa)};
+}
+
+double grid_pa_deg(const RegisteredGrid& grid, cv::Point2d pixel) {
+  const double east = -(pixel.x - grid.sun_center_px.x()), north = pixel.y - grid.sun_center_px.y();
+  double pa = std::atan2(east, north) * kDegPerRad;
+  if (pa < 0.0) pa += 360.0;
+  return pa >= 360.0 ? 0.0 : pa;
+}
+
+double grid_height_rs(const RegisteredGrid& grid, cv::Point2d pixel) {
+  return std::hypot(pixel.x - grid.sun_center_px.x(), pixel.y - grid.sun_center_px.y()) * grid.rs_per_px;
+}
+
+PolarMaps make_polar_maps(const RegisteredGrid& grid, const PolarGrid& polar) {
+  PolarMaps maps{grid, polar, {}, {}};
+  cv::Mat map(polar.height_count, polar.pa_count, CV_32FC2);
+  std::vector<double> sin_pa(polar.pa_count), cos_pa(polar.pa_count);
+  for (int j = 0; j < polar.pa_count; ++j) {
+    sin_pa[j] = std::sin(polar.pa_deg(j) * kRadPerDeg);
+    cos_pa[j] = std::cos(polar.pa_deg(j) * kRadPerDeg);
+  }
+  for (int i = 0; i < polar.height_count; ++i) {
+    const double r = polar.height_rs(i) / grid.rs_per_px;
+    auto* m = map.ptr<cv::Vec2f>(i);
+    for (int j = 0; j < polar.pa_count; ++j)
+      m[j] = {float(grid.sun_center_px.x() - r * sin_pa[j]), float(grid.sun_center_px.y() + r * cos_pa[j])};
+  }
+  cv::convertMaps(map, cv::noArray(), maps.map_xy, maps.map_frac, CV_16SC2);
+  return maps;
+}
+
+void to_polar(const cv::Mat& registered, const PolarMaps& maps, cv::Mat& out) {
+  CV_Assert(registered.type() == CV_32FC1 && registered.rows == maps.grid.height && registered.cols == maps.grid.width);
+  out.create(maps.map_xy.size(), CV_32FC1);
+  cv::remap(registered, out, maps.map_xy, maps.map_frac, cv::INTER_LINEAR, cv::BORDER_CONSTANT,
+            cv::Scalar(std::numeric_limits<double>::quiet_NaN()));
+}
+
+cv::Mat nrgf(const cv::Mat& polar) {
+  CV_Assert(polar.type() == CV_32FC1);
+  cv::Mat out(polar.size(), CV_32FC1);
+  constexpr float kNaN = std::numeric_limits<float>::quiet_NaN();
+  for (int i = 0; i < polar.rows; ++i) {
+    const float* p = polar.ptr<float>(i);
+    float* o = out.ptr<float>(i);
+    double sum = 0.0, sum2 = 0.0;
+    int n = 0;
+    for (int j = 0; j < polar.cols; ++j)
+      if (std::isfinite(p[j])) {
+        sum += p[j];
+        ++n;
+      }
+    const double mean = n > 0 ? sum / n : 0.0;
+    for (int j = 0; j < polar.cols; ++j)
+      if (std::isfinite(p[j])) sum2 += (p[j] - mean) * (p[j] - mean);
+    const double sd = n > 1 ? std::sqrt(sum2 / (n - 1)) : 0.0;
+    for (int j = 0; j < polar.cols; ++j)
+      o[j] = (sd > 0.0 && std::isfinite(p[j])) ? float((p[j] - mean) / sd) : kNaN;
+  }
+  return out;
+}
+
+}  // namespace occulta::imaging

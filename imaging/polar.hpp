@@ -1,0 +1,63 @@
+// imaging/polar.hpp — a registered frame unwrapped onto a (position angle, height) grid,
+// and the normalising-radial-graded filter for display.
+//
+// Position angle (PA): degrees counter-clockwise from solar north through east, [0, 360)
+// (Thompson 2006; common practice). Heights: R☉ from Sun centre in the plane of the sky.
+// On the registered grid (register.hpp) north is +y and west is +x, so east is −x and
+//   x = cx − (h / s) sin PA,   y = cy + (h / s) cos PA      (s = rs_per_px)
+// i.e. PA 0 is up (north), PA 90 to the left (east) when row 0 is drawn at the bottom.
+//
+// A polar image is CV_32FC1 with one ROW per height and one COLUMN per PA:
+//   row i    ↔ height_rs = height_min_rs + i · height_step_rs   (row 0 lowest)
+//   column j ↔ pa_deg   = j · pa_step_deg                        (column 0 = north)
+// Bilinear sampling (cv::remap) with tables built once per (registered grid, polar grid)
+// and reused for every frame; NaN where the registered frame has no data.
+#pragma once
+
+#include <vector>
+
+#include <opencv2/core.hpp>
+
+#include "imaging/register.hpp"
+
+namespace occulta::imaging {
+
+struct PolarGrid {
+  double pa_step_deg = 0.5;
+  int pa_count = 720;              // covers 360° exactly: pa_count · pa_step_deg = 360
+  double height_min_rs = 0.0;
+  double height_step_rs = 0.0;
+  int height_count = 0;
+
+  double pa_deg(int column) const { return column * pa_step_deg; }
+  double height_rs(int row) const { return height_min_rs + row * height_step_rs; }
+};
+
+// From inner to outer height; height step 0 means the registered grid's R☉ per pixel.
+// pa_step_deg must divide 360 (rounded to the nearest step that does).
+PolarGrid make_polar_grid(const RegisteredGrid& grid, double inner_rs, double outer_rs, double pa_step_deg = 0.5,
+                          double height_step_rs = 0.0);
+
+// Registered-grid pixel of a (PA, height) point (the formula above).
+cv::Point2d grid_pixel(const RegisteredGrid& grid, double pa_deg, double height_rs);
+// And back: PA in [0, 360), height in R☉.
+double grid_pa_deg(const RegisteredGrid& grid, cv::Point2d pixel);
+double grid_height_rs(const RegisteredGrid& grid, cv::Point2d pixel);
+
+struct PolarMaps {
+  RegisteredGrid grid;
+  PolarGrid polar;
+  cv::Mat map_xy, map_frac;  // cv::remap tables, fixed point
+};
+PolarMaps make_polar_maps(const RegisteredGrid& grid, const PolarGrid& polar);
+
+// `out` reallocated only when its size or type differ.
+void to_polar(const cv::Mat& registered, const PolarMaps& maps, cv::Mat& out);
+
+// Normalising-radial-graded filter, Morgan, Habbal & Woo (2006, Sol. Phys. 236, 263):
+//   I′(h, PA) = (I(h, PA) − ⟨I(h)⟩_PA) / σ_PA(h)
+// mean and standard deviation over the finite PAs of each height row. A row with fewer
+// than two finite values, or no spread, becomes NaN. A display filter: returns a new image.
+cv::Mat nrgf(const cv::Mat& polar);
+
+}  // namespace occulta::imaging

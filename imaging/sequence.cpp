@@ -1,0 +1,114 @@
+// imaging/sequence.cpp — reading, checking, sorting and de-duplicating one view's frames.
+#include "imaging/sequence.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+#include <exception>
+
+#include "imaging/constants.hpp"
+#include "imaging/input_error.hpp"
+#include "imaging/time.hpp"
+
+namespace occulta::imaging {
+
+namespace {
+
+constexpr double kSameTimeS = 1e-3;
+constexpr double kMaxObserverAngleDeg = 3.0;
+constexpr double kMaxObserverDistanceRatio = 0.03;
+
+std::string identity(const Header& header) {
+  std::string id;
+  for (const char* key : {"OBSRVTRY", "TELESCOP"})
+    if (auto text = header.text(key)) id += std::string(key) + "=" + *text + " ";
+  return id;
+}
+
+std::string join(const std::vector<std::string>& sentences) {
+  std::string text;
+  for (const auto& s : sentences) text += (text.empty() ? "" : " ") + s;
+  return text;
+}
+
+}  // namespace
+
+ViewSequence scan_view(const std::string& view, const std::vector<std::filesystem::path>& paths,
+                       const std::optional<Observer>& observer) {
+  ViewSequence sequence;
+  sequence.view = view;
+  std::vector<std::string> identities;
+  for (const auto& path : paths) {
+    try {
+      const Header header = read_fits_header(path);
+      SequenceFrame frame;
+      frame.path = path;
+      const FrameTime time = read_frame_time(header, path.string());
+      frame.utc_s = time.utc_s;
+      frame.exposure_s = time.exposure_s;
+      if (frame.exposure_s && !(*frame.exposure_s > 0.0))
+        throw InputError(path.string(), "its exposure time is not positive");
+      frame.geometry = read_geometry(header, path.string(), observer);
+      if (frame.geometry.width <= 0 || frame.geometry.height <= 0)
+        throw InputError(path.string(), "its header gives no image size");
+      frame.header_radii = header_occulter_radii(header);
+      if (!frame.exposure_s)
+        sequence.problems.push_back(path.string() + ": it has no EXPTIME or XPOSURE; its pixels are taken as "
+                                                    "already per second.");
+      sequence.frames.push_back(std::move(frame));
+      identities.push_back(identity(header));
+    } catch (const std::exception& e) {
+      sequence.problems.push_back(std::string(e.what()) + " The frame is skipped.");
+    }
+  }
+
+  // Two observers in one view: the instrument names first, then where they are.
+  for (std::size_t k = 1; k < sequence.frames.size(); ++k) {
+    const auto& a = sequence.frames.front();
+    const auto& b = sequence.frames[k];
+    const bool named_apart = !identities[0].empty() && !identities[k].empty() && identities[0] != identities[k];
+    const Eigen::Vector3d pa = a.geometry.observer.heeq_p_obs_km(), pb = b.geometry.observer.heeq_p_obs_km();
+    const double angle_deg = std::acos(std::clamp(pa.normalized().dot(pb.normalized()), -1.0, 1.0)) * kDegPerRad;
+    const double distance_ratio = std::abs(pb.norm() / pa.norm() - 1.0);
+    if (named_apart || angle_deg > kMaxObserverAngleDeg || distance_ratio > kMaxObserverDistanceRatio) {
+      char what[400];
+      if (named_apart) {
+        std::snprintf(what, sizeof what, "holds frames of two observers (%s is %sbut %s is %s)", a.path.c_str(),
+                      identities[0].c_str(), b.path.c_str(), identities[k].c_str());
+      } else {
+        std::snprintf(what, sizeof what,
+                      "holds frames of two observers: %s and %s were seen from places %.1f° apart around the Sun "
+                      "and %.1f%% apart in distance; give each observer its own view",
+                      a.path.c_str(), b.path.c_str(), angle_deg, 100.0 * distance_ratio);
+      }
+      throw InputError("view " + view, what);
+    }
+  }
+
+  // Time order; equal times keep the first given (stable sort), the rest are reported.
+  std::stable_sort(sequence.frames.begin(), sequence.frames.end(),
+                   [](const SequenceFrame& a, const SequenceFrame& b) { return a.utc_s < b.utc_s; });
+  std::vector<SequenceFrame> unique;
+  for (auto& frame : sequence.frames) {
+    if (!unique.empty() && std::abs(frame.utc_s - unique.back().utc_s) <= kSameTimeS) {
+      sequence.problems.push_back(frame.path.string() + ": it has the same time (" +
+                                  iso_from_utc_seconds(frame.utc_s) + ") as " + unique.back().path.string() +
+                                  "; only the latter is used.");
+      continue;
+    }
+    unique.push_back(std::move(frame));
+  }
+  sequence.frames = std::move(unique);
+
+  if (sequence.frames.size() < kMinimumFrames) {
+    throw InputError("view " + view, "it has " + std::to_string(sequence.frames.size()) + " usable frame" +
+                                         (sequence.frames.size() == 1 ? "" : "s") + " of " +
+                                         std::to_string(paths.size()) +
+                                         "; running differences need at least three" +
+                                         (sequence.problems.empty() ? std::string()
+                                                                    : " (" + join(sequence.problems) + ")"));
+  }
+  return sequence;
+}
+
+}  // namespace occulta::imaging

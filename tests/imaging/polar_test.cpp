@@ -1,0 +1,118 @@
+// tests/imaging/polar_test.cpp — imaging/polar: rings become flat lines, PA counts
+// counter-clockwise from solar north through east whatever the roll, and the NRGF.
+#include <cmath>
+#include <limits>
+#include <vector>
+
+#include <doctest/doctest.h>
+
+#include "imaging/polar.hpp"
+#include "imaging/register.hpp"
+#include "tests/imaging/frame_maker.hpp"
+
+namespace oi = occulta::imaging;
+using occulta::test::frame_spec;
+using occulta::test::gaussian;
+using occulta::test::hand_rs_per_px;
+using occulta::test::paint;
+
+namespace {
+
+// A frame of `spec` through registration (grid from a north-up reference) to polar form.
+cv::Mat polar_of(const oi::GeometrySpec& spec, const cv::Mat& pixels, oi::RegisteredGrid& grid, oi::PolarGrid& polar,
+                 double inner_rs, double outer_rs, double pa_step_deg) {
+  grid = {spec.width, spec.height, {0.5 * (spec.width - 1), 0.5 * (spec.height - 1)}, hand_rs_per_px(spec)};
+  oi::Header header;
+  oi::write_geometry(header, spec);
+  cv::Mat registered, out;
+  oi::register_frame(pixels, oi::make_registration(oi::read_geometry(header, "t"), grid), registered);
+  polar = oi::make_polar_grid(grid, inner_rs, outer_rs, pa_step_deg);
+  oi::to_polar(registered, oi::make_polar_maps(grid, polar), out);
+  return out;
+}
+
+// Column of the largest value in a polar image.
+int brightest_column(const cv::Mat& polar) {
+  cv::Point at;
+  cv::minMaxLoc(polar, nullptr, nullptr, nullptr, &at);
+  return at.x;
+}
+
+}  // namespace
+
+TEST_CASE("polar: a ring of radius R drawn at a known centre becomes a flat line at R") {
+  // Ring drawn about the frame's Sun centre (off the frame centre, rolled frame).
+  const auto spec = frame_spec(400, 207.3, 193.6, 60.0, 14.0);
+  const double ring_rs = 4.0, width_rs = 0.08;
+  const cv::Mat pixels = paint(spec, [&](double w, double n) {
+    const double d = std::hypot(w, n) - ring_rs;
+    return std::exp(-d * d / (2 * width_rs * width_rs));
+  });
+  oi::RegisteredGrid grid;
+  oi::PolarGrid polar;
+  const cv::Mat p = polar_of(spec, pixels, grid, polar, 2.0, 6.0, 1.0);
+  REQUIRE(polar.pa_count == 360);
+  double worst = 0, sum = 0;
+  for (int j = 0; j < polar.pa_count; ++j) {
+    int best = 1;
+    for (int i = 1; i + 1 < polar.height_count; ++i)
+      if (p.at<float>(i, j) > p.at<float>(best, j)) best = i;
+    // Parabola through the peak and its neighbours (common practice for a sub-bin peak).
+    const double a = p.at<float>(best - 1, j), b = p.at<float>(best, j), c = p.at<float>(best + 1, j);
+    const double h = polar.height_rs(best) + 0.5 * (a - c) / (a - 2 * b + c) * polar.height_step_rs;
+    worst = std::max(worst, std::abs(h - ring_rs));
+    sum += h;
+  }
+  MESSAGE("ring: worst |h − R| = " << worst << " R☉ (" << worst / grid.rs_per_px << " px), mean " << sum / 360);
+  CHECK(worst < 0.1 * grid.rs_per_px);
+}
+
+TEST_CASE("polar: a sky point due east lands at PA 90° and keeps it when the header rolls by 30°") {
+  // PA counter-clockwise from solar north through east (Thompson 2006; common practice):
+  // north 0°, east 90°, south 180°, west 270°. East is −θx (solar west is +θx).
+  struct Case {
+    double west_rs, north_rs, pa_deg;
+  };
+  for (const Case& point : {Case{-5.0, 0.0, 90.0}, Case{0.0, 5.0, 0.0}, Case{0.0, -5.0, 180.0}, Case{5.0, 0.0, 270.0},
+                            Case{-5.0 * std::sin(0.5), 5.0 * std::cos(0.5), 0.5 * occulta::kDegPerRad}}) {
+    for (double roll : {0.0, 30.0}) {
+      CAPTURE(point.pa_deg);
+      CAPTURE(roll);
+      const auto spec = frame_spec(400, 199.5, 199.5, 60.0, roll);
+      const cv::Mat pixels =
+          paint(spec, [&](double w, double n) { return gaussian(w - point.west_rs, n - point.north_rs, 0.15); });
+      oi::RegisteredGrid grid;
+      oi::PolarGrid polar;
+      const cv::Mat p = polar_of(spec, pixels, grid, polar, 2.0, 7.0, 0.5);
+      const double found = polar.pa_deg(brightest_column(p));
+      CHECK(std::abs(std::remainder(found - point.pa_deg, 360.0)) <= 0.5 * polar.pa_step_deg + 1e-9);
+    }
+  }
+  // On the north-up grid, east is to the left (−x) and north up (+y, row 0 at the bottom).
+  const oi::RegisteredGrid grid{101, 101, {50.0, 50.0}, 0.1};
+  CHECK(oi::grid_pixel(grid, 90.0, 2.0).x == doctest::Approx(30.0));
+  CHECK(oi::grid_pixel(grid, 0.0, 2.0).y == doctest::Approx(70.0));
+  CHECK(oi::grid_pa_deg(grid, {30.0, 50.0}) == doctest::Approx(90.0));
+  CHECK(oi::grid_pa_deg(grid, {50.0, 70.0}) == doctest::Approx(0.0));
+  CHECK(oi::grid_pa_deg(grid, {70.0, 50.0}) == doctest::Approx(270.0));
+}
+
+TEST_CASE("polar: NRGF gives every height zero mean and unit spread over PA") {
+  // Morgan, Habbal & Woo (2006): I′ = (I − ⟨I⟩_PA) / σ_PA at each height. A brightness
+  // a(h) + b(h)·g(PA) therefore filters to the standardised g, whatever a and b are.
+  cv::Mat polar(50, 360, CV_32FC1);
+  std::vector<double> g(360);
+  double gm = 0;
+  for (int j = 0; j < 360; ++j) gm += (g[j] = std::sin(3 * j * occulta::kRadPerDeg) + 0.3 * std::cos(j * 0.05));
+  gm /= 360;
+  double gs = 0;
+  for (double v : g) gs += (v - gm) * (v - gm);
+  gs = std::sqrt(gs / 359);
+  for (int i = 0; i < 50; ++i)
+    for (int j = 0; j < 360; ++j) polar.at<float>(i, j) = float(1e3 / std::pow(2.0 + i * 0.1, 3) * (1 + 0.2 * g[j]) + i);
+  polar.at<float>(7, 11) = std::numeric_limits<float>::quiet_NaN();
+  const cv::Mat f = oi::nrgf(polar);
+  CHECK(std::isnan(f.at<float>(7, 11)));
+  for (int i : {0, 20, 49})
+    for (int j : {0, 90, 200}) CHECK(f.at<float>(i, j) == doctest::Approx((g[j] - gm) / gs).epsilon(1e-3));
+}
