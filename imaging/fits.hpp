@@ -92,4 +92,20 @@ struct FitsWriteOptions {
 void write_fits(const std::filesystem::path& path, const cv::Mat& pixels, const Header& header,
                 const FitsWriteOptions& options = {});
 
+// One column of a binary-table extension: numbers (TFORM D) or texts (TFORM nA), one
+// value per row.
+struct FitsTableColumn {
+  std::string name;                // TTYPEn
+  std::string unit;                // TUNITn ("" for none)
+  std::vector<double> numbers;     // either numbers …
+  std::vector<std::string> texts;  // … or texts (fixed width: the longest)
+};
+
+// A cube of equal-size CV_32FC1 planes (NAXIS1 = cols, NAXIS2 = rows, NAXIS3 = plane),
+// float32, with the header's non-structural cards, then — when columns are given — a
+// binary-table extension EXTNAME = table_name with one row per plane. Written whole or
+// not at all, like write_fits.
+void write_fits_cube(const std::filesystem::path& path, const std::vector<cv::Mat>& planes, const Header& header,
+                     const std::string& table_name = "", const std::vector<FitsTableColumn>& columns = {});
+
 }  // namespace occulta::imaging

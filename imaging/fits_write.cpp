@@ -4,6 +4,7 @@
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
+#include <functional>
 #include <limits>
 #include <system_error>
 #include <vector>
@@ -269,15 +270,10 @@ void write_into(fitsfile* file, const cv::Mat& pixels, const Header& header, con
   writer.check(status, "writing the checksums");
 }
 
-}  // namespace
-
-void write_fits(const std::filesystem::path& path, const cv::Mat& pixels, const Header& header,
-                const FitsWriteOptions& options) {
+// Opens a hidden temporary beside `path`, lets `fill` write into it, then renames it into
+// place: the target appears whole or not at all.
+void write_atomically(const std::filesystem::path& path, const std::function<void(fitsfile*)>& fill) {
   const std::string source = path.string();
-  if (pixels.empty() || pixels.dims != 2 || pixels.type() != CV_32FC1)
-    throw InputError(source, "it cannot be written: the pixels given are not a non-empty single-channel float32 image");
-  const cv::Mat data = pixels.isContinuous() ? pixels : pixels.clone();
-
   const std::filesystem::path folder = path.parent_path().empty() ? std::filesystem::path(".") : path.parent_path();
   std::error_code error;
   if (!std::filesystem::is_directory(folder, error))
@@ -298,7 +294,7 @@ void write_fits(const std::filesystem::path& path, const cv::Mat& pixels, const 
   }
   {
     FitsHandle file(raw);
-    write_into(file.get(), data, header, options, source);
+    fill(file.get());
     status = 0;
     fits_close_file(file.release(), &status);
     if (status != 0)
@@ -308,6 +304,87 @@ void write_fits(const std::filesystem::path& path, const cv::Mat& pixels, const 
   if (error)
     throw InputError(source, "it cannot be written: moving the finished file into place failed (" + error.message() + ")");
   pending.done();
+}
+
+}  // namespace
+
+void write_fits(const std::filesystem::path& path, const cv::Mat& pixels, const Header& header,
+                const FitsWriteOptions& options) {
+  const std::string source = path.string();
+  if (pixels.empty() || pixels.dims != 2 || pixels.type() != CV_32FC1)
+    throw InputError(source, "it cannot be written: the pixels given are not a non-empty single-channel float32 image");
+  const cv::Mat data = pixels.isContinuous() ? pixels : pixels.clone();
+  write_atomically(path, [&](fitsfile* file) { write_into(file, data, header, options, source); });
+}
+
+void write_fits_cube(const std::filesystem::path& path, const std::vector<cv::Mat>& planes, const Header& header,
+                     const std::string& table_name, const std::vector<FitsTableColumn>& columns) {
+  const std::string source = path.string();
+  if (planes.empty()) throw InputError(source, "it cannot be written: the cube has no planes");
+  for (const cv::Mat& plane : planes)
+    if (plane.type() != CV_32FC1 || plane.size() != planes.front().size() || plane.empty())
+      throw InputError(source, "it cannot be written: the cube's planes are not equal-size float32 images");
+  for (const FitsTableColumn& column : columns)
+    if (std::max(column.numbers.size(), column.texts.size()) != planes.size() ||
+        (!column.numbers.empty() && !column.texts.empty()))
+      throw InputError(source, "it cannot be written: table column " + column.name + " needs one value per plane");
+
+  write_atomically(path, [&](fitsfile* file) {
+    Writer writer(file, source);
+    int status = 0;
+    long axes[3] = {planes.front().cols, planes.front().rows, static_cast<long>(planes.size())};
+    fits_create_img(file, FLOAT_IMG, 3, axes, &status);
+    writer.check(status, "creating the cube");
+    for (const HeaderCard& card : header.cards) writer.card(card);
+    fits_write_date(file, &status);
+    writer.check(status, "writing DATE");
+    const LONGLONG per_plane = static_cast<LONGLONG>(planes.front().total());
+    for (size_t k = 0; k < planes.size(); ++k) {
+      const cv::Mat plane = planes[k].isContinuous() ? planes[k] : planes[k].clone();
+      // FITS pixels are numbered from 1; plane k starts after k whole planes.
+      fits_write_img(file, TFLOAT, 1 + static_cast<LONGLONG>(k) * per_plane, per_plane,
+                     const_cast<float*>(plane.ptr<float>()), &status);
+    }
+    writer.check(status, "writing the cube's pixels");
+    fits_write_chksum(file, &status);
+    writer.check(status, "writing the checksums");
+    if (columns.empty()) return;
+
+    // Binary table (FITS Standard 4.0 §7.3): TFORM D for numbers, nA for texts.
+    std::vector<std::string> names, forms, units;
+    for (const FitsTableColumn& column : columns) {
+      names.push_back(column.name);
+      units.push_back(column.unit);
+      size_t width = 1;
+      for (const auto& t : column.texts) width = std::max(width, t.size());
+      forms.push_back(column.texts.empty() ? "D" : std::to_string(width) + "A");
+    }
+    std::vector<char*> ttype, tform, tunit;
+    for (size_t i = 0; i < columns.size(); ++i) {
+      ttype.push_back(names[i].data());
+      tform.push_back(forms[i].data());
+      tunit.push_back(units[i].data());
+    }
+    std::string extname = table_name.empty() ? std::string("TABLE") : table_name;
+    fits_create_tbl(file, BINARY_TBL, static_cast<LONGLONG>(planes.size()), static_cast<int>(columns.size()),
+                    ttype.data(), tform.data(), tunit.data(), extname.c_str(), &status);
+    writer.check(status, "creating the table " + extname);
+    for (size_t i = 0; i < columns.size(); ++i) {
+      const int column = static_cast<int>(i) + 1;
+      if (columns[i].texts.empty()) {
+        fits_write_col(file, TDOUBLE, column, 1, 1, static_cast<LONGLONG>(planes.size()),
+                       const_cast<double*>(columns[i].numbers.data()), &status);
+      } else {
+        std::vector<char*> texts;
+        std::vector<std::string> copies = columns[i].texts;
+        for (auto& t : copies) texts.push_back(t.data());
+        fits_write_col(file, TSTRING, column, 1, 1, static_cast<LONGLONG>(planes.size()), texts.data(), &status);
+      }
+    }
+    writer.check(status, "writing the table " + extname);
+    fits_write_chksum(file, &status);
+    writer.check(status, "writing the table's checksums");
+  });
 }
 
 }  // namespace occulta::imaging
