@@ -31,34 +31,77 @@ std::string trimmed(std::string_view text) {
   return std::string(text);
 }
 
-// One header card as the 80-character FITS record wcspih() parses (FITS Standard 4.0
-// §4.1–4.2): keyword in columns 1–8, "= " in 9–10, the value after it. Only value
-// cards with standard 8-character keywords are needed for the WCS; commentary,
-// HIERARCH-style long keywords and non-finite reals (which FITS cannot hold) are left out.
+// The keywords of the primary WCS description that occulta's transforms use (WCS Paper I
+// §2–3, Paper II §2): CTYPEi, CUNITi, CRPIXi, CRVALi, CDELTi, CROTAi, PCi_j, CDi_j, PVi_m,
+// LONPOLE, LATPOLE. Only these reach wcspih(): its generated scanner is fragile on card
+// text it was not written for — a byte outside ASCII in a keyword, value or comment makes
+// it read outside its tables (a crash found by fits_fuzz), and WCSAXES = 100000 makes it
+// allocate and index that many axes — so a whitelist of what the WCS needs is safer than
+// guessing which inputs it mishandles. Axis numbers are 1–9, which keeps the linear
+// matrix small yet lets wcssub() see (and refuse) a third axis coupled into axes 1 and 2;
+// PVi_m keeps the 0–99 range of Paper II. Alternate descriptions (a letter after the
+// keyword) are not read: occulta uses the primary one only.
+bool is_axis_number(std::string_view digits, int first, int last) {
+  if (digits.empty() || digits.size() > 2 || (digits.size() == 2 && digits[0] == '0')) return false;
+  int n = 0;
+  for (char c : digits) {
+    if (c < '0' || c > '9') return false;
+    n = 10 * n + (c - '0');
+  }
+  return n >= first && n <= last;
+}
+
+bool is_wcs_keyword(std::string_view key) {
+  if (key == "LONPOLE" || key == "LATPOLE") return true;
+  for (std::string_view stem : {"CTYPE", "CUNIT", "CRPIX", "CRVAL", "CDELT", "CROTA"})
+    if (key.size() == stem.size() + 1 && key.substr(0, stem.size()) == stem)
+      return is_axis_number(key.substr(stem.size()), 1, 9);
+  // PCi_j, CDi_j, PVi_m: "i_j" after the two-letter stem.
+  for (std::string_view stem : {"PC", "CD", "PV"}) {
+    if (key.size() < 5 || key.substr(0, 2) != stem) continue;
+    const std::size_t underscore = key.find('_', 2);
+    if (underscore == std::string_view::npos) return false;
+    const bool pv = stem == "PV";
+    return is_axis_number(key.substr(2, underscore - 2), 1, 9) &&
+           is_axis_number(key.substr(underscore + 1), pv ? 0 : 1, pv ? 99 : 9);
+  }
+  return false;
+}
+
+// FITS Standard 4.0 §4.2.1.1: string values hold printable ASCII only (32–126).
+bool is_printable_ascii(std::string_view text) {
+  return std::all_of(text.begin(), text.end(), [](char c) { return c >= ' ' && c <= '~'; });
+}
+
+// One WCS card as the 80-character FITS record wcspih() parses (FITS Standard 4.0
+// §4.1–4.2): keyword in columns 1–8, "= " in 9–10, the value after it, no comment.
+// Values wcspih() could not be given faithfully are left out, so the keyword takes its
+// default or read_geometry() refuses the header as it would without it: non-finite reals
+// (which FITS cannot hold), strings with characters outside printable ASCII or too long
+// for a WCS string (Paper I: at most 68 characters), and logical or undefined values.
 std::optional<std::string> fits_record(const HeaderCard& card) {
-  if (card.key.empty() || card.key.size() > 8) return std::nullopt;
+  if (!is_wcs_keyword(card.key)) return std::nullopt;
   char value[80] = {};
   switch (card.kind) {
-    case HeaderCard::Kind::Logical:
-      std::snprintf(value, sizeof value, "%20s", card.integer ? "T" : "F");
-      break;
     case HeaderCard::Kind::Integer:
       std::snprintf(value, sizeof value, "%20lld", card.integer);
       break;
     case HeaderCard::Kind::Real:
       if (!std::isfinite(card.real)) return std::nullopt;
-      // 17 significant digits round-trip any double; a "." or "E" marks it as real.
+      // 17 significant digits round-trip any double.
       std::snprintf(value, sizeof value, "%20.17G", card.real);
       break;
     case HeaderCard::Kind::Text: {
+      if (!is_printable_ascii(card.text)) return std::nullopt;
       std::string text = "'";
       for (char c : card.text) text += (c == '\'') ? std::string("''") : std::string(1, c);
       while (text.size() < 9) text += ' ';  // strings are at least 8 characters (FITS Standard 4.0 §4.2.1)
       text += "'";
-      if (text.size() > 70) return std::nullopt;  // WCS strings are short; skip long prose
+      if (text.size() > 70) return std::nullopt;
       std::snprintf(value, sizeof value, "%s", text.c_str());
       break;
     }
+    case HeaderCard::Kind::Logical:
     case HeaderCard::Kind::Commentary:
     case HeaderCard::Kind::Undefined:
       return std::nullopt;
@@ -98,6 +141,10 @@ void check_angle_unit(const Header& header, const std::string& key, const std::s
     throw InputError(source, key + " is not a text value — it should be \"arcsec\" or \"deg\"");
   std::string unit = trimmed(card->text);
   if (unit.empty()) return;
+  // wcsutrne() and wcsunitse() are generated scanners too, as fragile as wcspih() on
+  // bytes outside ASCII; FITS strings hold printable ASCII only (FITS Standard 4.0 §4.2.1.1).
+  if (!is_printable_ascii(unit))
+    throw InputError(source, key + " holds characters outside printable ASCII, which a FITS string cannot");
   std::vector<char> buffer(unit.begin(), unit.end());
   buffer.push_back('\0');
   wcsutrne(0, buffer.data(), nullptr);

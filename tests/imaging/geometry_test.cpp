@@ -156,7 +156,10 @@ TEST_CASE("geometry: pixel → HPC and back match astropy.wcs on rotated TAN hea
       {"pc-deg", pc_header_deg()}};
   const auto pixels = test_pixels();
   for (const auto& [name, h] : headers) {
-    CAPTURE(name);
+    // doctest's CAPTURE takes its argument into a lambda, and clang 14 cannot capture a
+    // structured binding (allowed only from C++20's P1091R3 on, which it lacks): a named copy.
+    const std::string header_name = name;
+    CAPTURE(header_name);
     const oi::ImageGeometry g = oi::read_geometry(h.header, name);
     std::vector<Eigen::Vector2d> hpc(pixels.size());
     oi::hpc_from_pixels(g, pixels, hpc);
@@ -324,7 +327,8 @@ TEST_CASE("geometry: the Sun's angular radius at 1 au from the IAU values") {
 TEST_CASE("geometry: hcc_R_heeq is a rotation taking the observer to (0, 0, D)") {
   // Thompson (2006): HCC z toward the observer, y in the plane of z and solar north, x = y × z.
   for (const auto& [lon, lat] : std::vector<std::pair<double, double>>{{0, 0}, {30, 5}, {-100, -7.25}, {170, 89}}) {
-    CAPTURE(lon);
+    const double observer_lon = lon;  // a named copy for CAPTURE, as above
+    CAPTURE(observer_lon);
     const oi::Observer obs = oi::observer_from_degrees(lon, lat, 0.93 * kAuKm);
     const Eigen::Matrix3d R = oi::hcc_R_heeq(obs);
     CHECK((R * R.transpose() - Eigen::Matrix3d::Identity()).norm() < 1e-14);
@@ -496,5 +500,48 @@ TEST_CASE("geometry: bad headers are refused with a sentence naming the fault") 
     TestHeader h = crota_header(0.0);
     h.real("CDELT1", 0.0);
     CHECK(error_of(h.header).find("WCS could not be set up") != std::string::npos);
+  }
+}
+
+TEST_CASE("geometry: header cards that once crashed wcslib's parser are kept away from it") {
+  // Regression cases from fits_fuzz. wcspih() reads past its scanner tables on a byte
+  // outside ASCII (here a keyword "CRPIX" + 0xB2 followed by any other card: a SEGV in
+  // libwcs), and allocates WCSAXES axes however many there are; wcsutrne() is a scanner
+  // of the same kind. Each header must read as the clean one does, or be refused with a
+  // sentence — never crash (the suite runs under AddressSanitizer in build-asan/).
+  const TestHeader clean = crota_header(12.0);
+  const oi::ImageGeometry expected = oi::read_geometry(clean.header, "clean");
+  const auto with_card = [&](const std::string& key, auto set) {
+    oi::Header h = clean.header;
+    oi::Header extra;
+    set(extra, key);
+    h.cards.insert(h.cards.begin(), extra.cards.front());  // before the WCS cards, as in the crash
+    return h;
+  };
+  const auto same_geometry = [&](const oi::Header& h) {
+    const oi::ImageGeometry g = oi::read_geometry(h, "x.fits");
+    CHECK(g.sun_center_px.x() == expected.sun_center_px.x());
+    CHECK(g.sun_center_px.y() == expected.sun_center_px.y());
+    CHECK(g.arcsec_per_px == expected.arcsec_per_px);
+    CHECK(g.roll_deg == expected.roll_deg);
+  };
+  SUBCASE("a keyword with a byte outside ASCII (the fuzzer's crash)") {
+    same_geometry(with_card("CRPIX\xb2", [](oi::Header& h, const std::string& k) { h.set_real(k, 6.5); }));
+    same_geometry(with_card("CT\x80PE3", [](oi::Header& h, const std::string& k) { h.set_text(k, "HPLN-TAN"); }));
+  }
+  SUBCASE("a WCS string value with bytes outside ASCII is not given to wcspih") {
+    same_geometry(with_card("CTYPE3", [](oi::Header& h, const std::string& k) { h.set_text(k, "FR\x80Q-\xb2OG"); }));
+    same_geometry(with_card("CTYPE3", [](oi::Header& h, const std::string& k) { h.set_text(k, std::string("A\0B", 3)); }));
+  }
+  SUBCASE("an enormous WCSAXES, axis number or parameter index is not given to wcspih") {
+    same_geometry(with_card("WCSAXES", [](oi::Header& h, const std::string& k) { h.set_integer(k, 100000); }));
+    same_geometry(with_card("NAXIS", [](oi::Header& h, const std::string& k) { h.set_integer(k, 99999999); }));
+    same_geometry(with_card("PV1_99999", [](oi::Header& h, const std::string& k) { h.set_real(k, 1.0); }));
+    same_geometry(with_card("CRPIX99", [](oi::Header& h, const std::string& k) { h.set_real(k, 1.0); }));
+  }
+  SUBCASE("a CUNIT with bytes outside ASCII is refused by name") {
+    TestHeader h = clean;
+    h.text("CUNIT1", "arc\xb2sec");
+    CHECK(error_of(h.header) == "x.fits: CUNIT1 holds characters outside printable ASCII, which a FITS string cannot.");
   }
 }
