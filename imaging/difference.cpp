@@ -20,9 +20,16 @@ float mad_sigma(std::vector<float>& values) {
   const auto mid = values.begin() + values.size() / 2;
   std::nth_element(values.begin(), mid, values.end());
   const float median = *mid;
-  for (float& v : values) v = std::abs(v - median);
+  double sum2 = 0.0;
+  for (float& v : values) {
+    v = std::abs(v - median);
+    sum2 += double(v) * v;
+  }
   std::nth_element(values.begin(), mid, values.end());
-  return 1.4826f * *mid;  // common practice: Gaussian σ = MAD / Φ⁻¹(3/4)
+  if (*mid > 0.0f) return 1.4826f * *mid;  // common practice: Gaussian σ = MAD / Φ⁻¹(3/4)
+  // More than half the values equal (quantised data, a change confined to few pixels):
+  // the MAD says nothing, the RMS deviation from the median still measures the spread.
+  return float(std::sqrt(sum2 / values.size()));
 }
 
 }  // namespace

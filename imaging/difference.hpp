@@ -6,6 +6,8 @@
 // in a coronagraph difference falls with height (photon noise of a brightness ∝ h⁻²…h⁻³),
 // so on polar images σ̂ is taken per ring of height (one row) and smoothed over ±n rings;
 // a CME covering a minority of a ring's PAs barely moves its MAD (breakdown point 50%).
+// Where more than half the values are equal the MAD is 0 (quantised data with little
+// noise); σ̂ then falls back to the RMS deviation from the median.
 //
 // All images CV_32FC1, NaN = no data (propagates: a difference with no data on either side
 // has none).

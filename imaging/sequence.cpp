@@ -73,11 +73,11 @@ ViewSequence scan_view(const std::string& view, const std::vector<std::filesyste
     if (named_apart || angle_deg > kMaxObserverAngleDeg || distance_ratio > kMaxObserverDistanceRatio) {
       char what[400];
       if (named_apart) {
-        std::snprintf(what, sizeof what, "holds frames of two observers (%s is %sbut %s is %s)", a.path.c_str(),
+        std::snprintf(what, sizeof what, "it holds frames of two observers (%s is %sbut %s is %s)", a.path.c_str(),
                       identities[0].c_str(), b.path.c_str(), identities[k].c_str());
       } else {
         std::snprintf(what, sizeof what,
-                      "holds frames of two observers: %s and %s were seen from places %.1f° apart around the Sun "
+                      "it holds frames of two observers: %s and %s were seen from places %.1f° apart around the Sun "
                       "and %.1f%% apart in distance; give each observer its own view",
                       a.path.c_str(), b.path.c_str(), angle_deg, 100.0 * distance_ratio);
       }
