@@ -73,20 +73,24 @@ long long raw_integer(fitsfile* file, const char* key, const std::string& source
 using ByteReader = std::function<std::string(long long offset, std::size_t count)>;
 
 // FITS Standard 4.0 §4.4.1: an HDU begins with SIMPLE or XTENSION, BITPIX, NAXIS,
-// NAXIS1…NAXISn, then (extensions) PCOUNT, GCOUNT and (tables) TFIELDS, all integers.
-// Checked here before cfitsio parses a header, because cfitsio 4.2 goes on to allocate
-// by a value it failed to read when one of them is not an integer.
+// NAXIS1…NAXISn, then (extensions) PCOUNT, GCOUNT and (tables, §7.2.1 and §7.3.1)
+// TFIELDS, in this order, all integers. Checked here before cfitsio parses a header:
+// cfitsio 4.2 goes on to allocate by a value it failed to read when one of them is not
+// an integer, and when one is missing or its card cannot be parsed (a keyword with bytes
+// outside ASCII, found by fits_fuzz: ffgttb() fails, and the table set-up then callocs
+// by an uninitialised field count, as valgrind shows).
 void check_mandatory_cards(const ByteReader& read, long long offset, int hdu_number, const std::string& source) {
   const std::string bytes = read(offset, 80 * (6 + 999));
   auto card = [&](std::size_t index) {
     return index * 80 + 80 <= bytes.size() ? std::string_view(bytes).substr(index * 80, 80) : std::string_view();
   };
-  // The integer value of card `index` if its keyword is `key`; nothing to check otherwise
-  // (a missing or misplaced keyword is cfitsio's to report).
-  auto integer = [&](std::size_t index, const std::string& key) -> std::optional<long long> {
+  const std::string hdu = "the header of HDU " + std::to_string(hdu_number) + " is malformed: ";
+  // The integer value of card `index`, which must have keyword `key`.
+  auto integer = [&](std::size_t index, const std::string& key) -> long long {
     const std::string_view text = card(index);
     if (text.size() < 10 || text.substr(0, 8) != (key + std::string(8, ' ')).substr(0, 8) || text[8] != '=')
-      return std::nullopt;
+      throw InputError(source, hdu + "card " + std::to_string(index + 1) + " should be " + key +
+                                   " (FITS Standard 4.0 §4.4.1 fixes the order of the first keywords)");
     std::string_view value = text.substr(10);
     value = value.substr(0, value.find('/'));
     while (!value.empty() && value.front() == ' ') value.remove_prefix(1);
@@ -94,9 +98,12 @@ void check_mandatory_cards(const ByteReader& read, long long offset, int hdu_num
     long long number = 0;
     const char* begin = value.data() + (!value.empty() && (value[0] == '+' || value[0] == '-') ? 1 : 0);
     const auto [end, error] = std::from_chars(begin, value.data() + value.size(), number);
+    // Bytes outside printable ASCII are shown as '?' so the sentence stays readable text.
+    std::string shown(value);
+    for (char& c : shown)
+      if (c < ' ' || c > '~') c = '?';
     if (value.empty() || error != std::errc() || end != value.data() + value.size())
-      throw InputError(source, "the header of HDU " + std::to_string(hdu_number) + " is malformed: " + key + " is \"" +
-                                   std::string(value) + "\", not an integer (FITS Standard 4.0 §4.4.1)");
+      throw InputError(source, hdu + key + " is \"" + shown + "\", not an integer (FITS Standard 4.0 §4.4.1)");
     return value[0] == '-' ? -number : number;
   };
   // The tiled convention's image axes and tile sizes (Pence et al. 2009 §4) are positive
@@ -108,23 +115,33 @@ void check_mandatory_cards(const ByteReader& read, long long offset, int hdu_num
     const bool tiled = (key.starts_with("ZNAXIS") || key.starts_with("ZTILE")) &&
                        std::all_of(key.begin() + (key[1] == 'N' ? 6 : 5), key.end(),
                                    [](char c) { return c >= '0' && c <= '9'; });
-    if (tiled && integer(index, key).value_or(1) < 1)
-      throw InputError(source, "the header of HDU " + std::to_string(hdu_number) + " is malformed: " + key +
-                                   " is not a positive integer (tiled image convention, Pence et al. 2009 §4)");
+    if (tiled && text.size() >= 10 && text[8] == '=' && integer(index, key) < 1)
+      throw InputError(source, hdu + key + " is not a positive integer (tiled image convention, Pence et al. 2009 §4)");
   }
-  const bool extension = card(0).substr(0, 8) == "XTENSION";
+  // Bytes after the last HDU that do not begin an extension are cfitsio's to judge
+  // (it stops there, as §3.5 allows special records); SIMPLE was checked by check_start().
+  const std::string_view first = card(0);
+  const bool extension = first.substr(0, 8) == "XTENSION";
+  if (!extension && first.substr(0, 8) != "SIMPLE  ") return;
+  // §7.2.1, §7.3.1: XTENSION = 'TABLE   ' or 'BINTABLE'. The standard puts the value in
+  // column 11; cfitsio also reads it further right, so this does too.
+  std::string_view kind = first.size() > 10 ? first.substr(10) : std::string_view();
+  while (!kind.empty() && kind.front() == ' ') kind.remove_prefix(1);
+  const bool table = extension && (kind.starts_with("'BINTABLE") || kind.starts_with("'TABLE ") ||
+                                   kind.starts_with("'TABLE'"));
   integer(1, "BITPIX");
-  const long long naxis = integer(2, "NAXIS").value_or(0);
-  if (naxis < 0 || naxis > 999) return;  // cfitsio refuses it (BAD_NAXIS)
+  const long long naxis = integer(2, "NAXIS");
+  if (naxis < 0 || naxis > 999)
+    throw InputError(source, hdu + "NAXIS is " + std::to_string(naxis) + ", outside 0–999 (FITS Standard 4.0 §4.4.1)");
   for (long long axis = 1; axis <= naxis; ++axis) integer(2 + axis, "NAXIS" + std::to_string(axis));
   if (!extension) return;
   integer(3 + naxis, "PCOUNT");
   integer(4 + naxis, "GCOUNT");
-  // §7.2.1, §7.3.1: a table has 0–999 fields (cfitsio allocates one record per field).
-  const long long fields = integer(5 + naxis, "TFIELDS").value_or(0);
+  if (!table) return;
+  // A table has 0–999 fields (cfitsio allocates one record per field).
+  const long long fields = integer(5 + naxis, "TFIELDS");
   if (fields < 0 || fields > 999)
-    throw InputError(source, "the header of HDU " + std::to_string(hdu_number) + " is malformed: TFIELDS is " +
-                                 std::to_string(fields) + ", outside 0–999 (FITS Standard 4.0 §7.3.1)");
+    throw InputError(source, hdu + "TFIELDS is " + std::to_string(fields) + ", outside 0–999 (FITS Standard 4.0 §7.3.1)");
 }
 
 // An optional integer keyword of the current HDU's own header.

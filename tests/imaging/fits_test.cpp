@@ -378,6 +378,31 @@ TEST_CASE("fits: bad input is refused with one sentence naming the file") {
   spit(dir / "no_end.fits", no_end);
   check_refused(dir / "no_end.fits", "truncated");
 
+  // The first keywords of an HDU, in their fixed order (FITS Standard 4.0 §4.4.1, §7.3.1),
+  // are checked before cfitsio reads them. Regression case from fits_fuzz: a binary
+  // table whose PCOUNT card begins with bytes outside ASCII made cfitsio's table set-up
+  // allocate by an uninitialised field count (a calloc overflow under AddressSanitizer).
+  const std::string primary = fits_file(image_cards(8, {}), 0);
+  std::vector<std::string> table = {card("XTENSION", "'BINTABLE'"), card("BITPIX", "8"), card("NAXIS", "2"),
+                                    card("NAXIS1", "8"), card("NAXIS2", "12"), card("PCOUNT", "0"),
+                                    card("GCOUNT", "1"), card("TFIELDS", "1"), "TFORM1  = '1PB(35) '"};
+  std::vector<std::string> bad_keyword = table;
+  bad_keyword[5] = std::string(4, '\xff') + bad_keyword[5];
+  spit(dir / "table_bad_pcount.fits", primary + fits_file(bad_keyword, 2880));
+  check_refused(dir / "table_bad_pcount.fits", "HDU 2 is malformed: card 6 should be PCOUNT");
+  std::vector<std::string> no_tfields = table;
+  no_tfields.erase(no_tfields.begin() + 7);
+  spit(dir / "table_no_tfields.fits", primary + fits_file(no_tfields, 2880));
+  check_refused(dir / "table_no_tfields.fits", "card 8 should be TFIELDS");
+  std::vector<std::string> many_fields = table;
+  many_fields[7] = card("TFIELDS", "5000");
+  spit(dir / "table_many_fields.fits", primary + fits_file(many_fields, 2880));
+  check_refused(dir / "table_many_fields.fits", "TFIELDS is 5000, outside 0–999");
+  std::vector<std::string> odd_bitpix = image_cards(-32, {2, 2});
+  odd_bitpix[1] = card("BITPIX", "-3\x80");
+  spit(dir / "bitpix_text.fits", fits_file(odd_bitpix, 2880));
+  check_refused(dir / "bitpix_text.fits", "BITPIX is \"-3?\", not an integer");
+
   check_refused(dir / "missing.fits", "does not exist", false);
   check_refused(dir, "folder", false);
 }
