@@ -37,8 +37,10 @@ OcculterRadii estimate_occulter_radii(const cv::Mat& registered, const Registere
   std::vector<int> total(rings, 0), with_data(rings, 0);
   for (int y = 0; y < registered.rows; ++y) {
     const float* p = registered.ptr<float>(y);
+    const float dy2 = float((y - cy) * (y - cy));
     for (int x = 0; x < registered.cols; ++x) {
-      const int ring = int(std::lround(std::hypot(x - cx, y - cy)));
+      const float dx = float(x - cx);
+      const int ring = int(std::sqrt(dx * dx + dy2) + 0.5f);  // nearest 1-px ring
       ++total[ring];
       if (std::isfinite(p[x]) && p[x] != 0.0f) ++with_data[ring];
     }
@@ -60,11 +62,12 @@ cv::Mat annulus_keep_mask(const RegisteredGrid& grid, const OcculterRadii& radii
   cv::Mat keep(grid.height, grid.width, CV_8UC1);
   const double cx = grid.sun_center_px.x(), cy = grid.sun_center_px.y();
   const double in_px = radii.inner_rs / grid.rs_per_px, out_px = radii.outer_rs / grid.rs_per_px;
+  const double in2 = in_px * in_px, out2 = out_px * out_px;
   for (int y = 0; y < grid.height; ++y) {
     auto* k = keep.ptr<std::uint8_t>(y);
     for (int x = 0; x < grid.width; ++x) {
-      const double d = std::hypot(x - cx, y - cy);
-      k[x] = (d >= in_px && d <= out_px) ? 255 : 0;
+      const double d2 = (x - cx) * (x - cx) + (y - cy) * (y - cy);
+      k[x] = (d2 >= in2 && d2 <= out2) ? 255 : 0;
     }
   }
   return keep;

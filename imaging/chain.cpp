@@ -3,6 +3,9 @@
 
 #include <cstdio>
 #include <exception>
+#include <future>
+#include <optional>
+#include <limits>
 
 #include "imaging/difference.hpp"
 #include "imaging/fits.hpp"
@@ -22,9 +25,9 @@ struct FrameLoader {
   std::vector<bool> failed;
   cv::Mat background;  // empty: none
 
-  // false (reported) when the frame cannot be read.
-  bool load(std::size_t k, cv::Mat& out) {
-    if (failed[k]) return false;
+  // The frame's pixels; nullopt (reported) when the frame cannot be read.
+  std::optional<FitsImage> read(std::size_t k) {
+    if (failed[k]) return std::nullopt;
     const SequenceFrame& frame = sequence.frames[k];
     try {
       FitsImage image = read_fits(frame.path);
@@ -33,21 +36,32 @@ struct FrameLoader {
                                                   std::to_string(image.pixels.rows) + " but its header says " +
                                                   std::to_string(frame.geometry.width) + "×" +
                                                   std::to_string(frame.geometry.height));
-      register_frame(image.pixels, cache.for_geometry(frame.geometry), out);
+      return image;
     } catch (const std::exception& e) {
       failed[k] = true;
       problems.push_back(std::string(e.what()) + " The frame is skipped.");
-      return false;
+      return std::nullopt;
     }
+  }
+
+  void process(std::size_t k, const FitsImage& image, cv::Mat& out) {
+    const SequenceFrame& frame = sequence.frames[k];
+    register_frame(image.pixels, cache.for_geometry(frame.geometry), out);
     // Scaling commutes with the (linear) resampling, so DN/s is applied on the grid.
     if (frame.exposure_s) to_rate(out, *frame.exposure_s);
     if (options.median_filter) median_filter(out, options.median_filter);
     if (!background.empty()) subtract_background(out, background);
-    return true;
+  }
+
+  // false (reported) when the frame cannot be read.
+  bool load(std::size_t k, cv::Mat& out) {
+    const auto image = read(k);
+    if (image) process(k, *image, out);
+    return bool(image);
   }
 };
 
-int pa_stride(const PolarGrid& polar) { return std::max(1, polar.pa_count / 360); }
+int pa_stride(const PolarGrid& polar) { return std::max(1, polar.pa_count / 240); }
 
 }  // namespace
 
@@ -62,22 +76,26 @@ ViewRun run_view(const std::string& view, const std::vector<std::filesystem::pat
   // Occulter and field-stop radii: event file, else header, else the first readable frame.
   FrameLoader loader{sequence, options, RegistrationCache(run.grid), run.problems,
                      std::vector<bool>(sequence.frames.size(), false), {}};
+  cv::Mat first_registered;  // kept when the radii come from the data: the stream starts with it
+  std::size_t first_index = sequence.frames.size();
   if (options.occulter_rs) {
     run.radii = {options.occulter_rs->first, options.occulter_rs->second, OcculterRadii::Origin::Caller};
   } else if (sequence.frames.front().header_radii) {
     run.radii = *sequence.frames.front().header_radii;
   } else {
-    cv::Mat first;
     std::size_t k = 0;
-    while (k < sequence.frames.size() && !loader.load(k, first)) ++k;
+    while (k < sequence.frames.size() && !loader.load(k, first_registered)) ++k;
     if (k == sequence.frames.size()) throw InputError("view " + view, "none of its frames could be read");
-    run.radii = estimate_occulter_radii(first, run.grid, sequence.frames[k].path.string());
+    first_index = k;
+    run.radii = estimate_occulter_radii(first_registered, run.grid, sequence.frames[k].path.string());
   }
   char note[300];
   std::snprintf(note, sizeof note, "view %s: data are used from %.2f to %.2f R☉ (occulter and field stop, from the %s).",
                 view.c_str(), run.radii.inner_rs, run.radii.outer_rs, origin_name(run.radii.origin));
   run.notes.emplace_back(note);
-  loader.cache = RegistrationCache(run.grid, annulus_keep_mask(run.grid, run.radii));
+  const cv::Mat keep = annulus_keep_mask(run.grid, run.radii);
+  loader.cache = RegistrationCache(run.grid, keep);
+  if (!first_registered.empty()) first_registered.setTo(std::numeric_limits<float>::quiet_NaN(), keep == 0);
 
   run.polar = make_polar_grid(run.grid, run.radii.inner_rs, run.radii.outer_rs, options.pa_step_deg,
                               options.height_step_rs);
@@ -117,8 +135,24 @@ ViewRun run_view(const std::string& view, const std::vector<std::filesystem::pat
   cv::Mat current, previous, current_polar, previous_polar, running, base_diff;
   std::vector<float> sigma, base_sigma;
   const SequenceFrame* last = nullptr;
+  if (!loader.background.empty()) first_index = sequence.frames.size();  // the background changes it: read again
+  // cfitsio reads (and decompresses) frame k + 1 on a second thread while frame k is
+  // processed; only that thread calls cfitsio meanwhile. Costs one raw frame of memory.
+  const auto read_ahead = [&](std::size_t k) {
+    return std::async(std::launch::async, [&loader, k] { return loader.read(k); });
+  };
+  std::future<std::optional<FitsImage>> next;
+  if (first_index != 0 && !sequence.frames.empty()) next = read_ahead(0);
   for (std::size_t k = 0; k < sequence.frames.size(); ++k) {
-    if (!loader.load(k, current)) continue;
+    if (k == first_index) {
+      if (k + 1 < sequence.frames.size()) next = read_ahead(k + 1);
+      std::swap(current, first_registered);
+    } else {
+      std::optional<FitsImage> image = next.get();
+      if (k + 1 < sequence.frames.size() && k + 1 != first_index) next = read_ahead(k + 1);
+      if (!image) continue;
+      loader.process(k, *image, current);
+    }
     ++run.frames_used;
     to_polar(current, polar_maps, current_polar);
     const SequenceFrame& frame = sequence.frames[k];

@@ -82,32 +82,17 @@ Registration make_registration(const ImageGeometry& source, const RegisteredGrid
   const Eigen::MatrixXd residual = design * coef - rhs;
   r.max_fit_residual_px = residual.rowwise().norm().maxCoeff();
 
-  // Float tables from the affine, masked pixels sent far outside the frame (→ border NaN),
-  // then the fixed-point form cv::remap uses without per-call conversion.
-  cv::Mat map(grid.height, grid.width, CV_32FC2);
-  const cv::Matx23d A = r.grid_to_source;
-  cv::parallel_for_(cv::Range(0, grid.height), [&](const cv::Range& rows) {
-    for (int y = rows.start; y < rows.end; ++y) {
-      auto* m = map.ptr<cv::Vec2f>(y);
-      const std::uint8_t* k = keep.empty() ? nullptr : keep.ptr<std::uint8_t>(y);
-      for (int x = 0; x < grid.width; ++x) {
-        if (k && !k[x]) {
-          m[x] = {-10000.0f, -10000.0f};
-        } else {
-          m[x] = {float(A(0, 0) * x + A(0, 1) * y + A(0, 2)), float(A(1, 0) * x + A(1, 1) * y + A(1, 2))};
-        }
-      }
-    }
-  });
-  cv::convertMaps(map, cv::noArray(), r.map_xy, r.map_frac, CV_16SC2);
+  if (!keep.empty()) r.drop = keep == 0;
+  r.size = cv::Size(grid.width, grid.height);
   return r;
 }
 
 void register_frame(const cv::Mat& source_pixels, const Registration& registration, cv::Mat& out) {
   CV_Assert(source_pixels.type() == CV_32FC1);
-  out.create(registration.map_xy.size(), CV_32FC1);
-  cv::remap(source_pixels, out, registration.map_xy, registration.map_frac, cv::INTER_LINEAR, cv::BORDER_CONSTANT,
-            cv::Scalar(std::numeric_limits<double>::quiet_NaN()));
+  constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+  cv::warpAffine(source_pixels, out, registration.grid_to_source, registration.size,
+                 cv::INTER_LINEAR | cv::WARP_INVERSE_MAP, cv::BORDER_CONSTANT, cv::Scalar(kNaN));
+  if (!registration.drop.empty()) out.setTo(kNaN, registration.drop);
 }
 
 const Registration& RegistrationCache::for_geometry(const ImageGeometry& source) {

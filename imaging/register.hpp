@@ -16,12 +16,14 @@
 // y (row) to solar north. Mat row 0 is the first FITS row, the bottom of the displayed
 // image, so displayed with row 0 at the bottom north is up and east is to the LEFT (−x).
 //
-// Resampling is bilinear (cv::remap with fixed-point tables built once per source
-// geometry by cv::convertMaps, reused while frames keep that geometry). No-data (NaN)
+// Resampling is bilinear (cv::warpAffine with the inverse map; the affine and the mask are
+// built once per source geometry and reused while frames keep that geometry — measured
+// faster than cv::remap with stored fixed-point tables, whose 6 MB per 1024² frame cost
+// more memory traffic than warpAffine's on-the-fly coordinates). No-data (NaN)
 // pixels propagate through the interpolation, so no-data regions stay NaN — they grow by
 // at most one pixel at their edge — and never smear into data; grid pixels that fall
 // outside the frame are NaN. A keep-mask (the occulter/field-stop annulus of calibrate.hpp)
-// is folded into the tables: masked grid pixels cost nothing and come out NaN.
+// is applied to every registered frame: masked grid pixels come out NaN.
 #pragma once
 
 #include <optional>
@@ -54,10 +56,11 @@ struct Registration {
   ImageGeometry source;          // the geometry the tables were built for
   cv::Matx23d grid_to_source;    // source pixel = A · (grid x, grid y, 1)
   double max_fit_residual_px = 0.0;  // worst wcslib-vs-affine difference on a 7×7 lattice
-  cv::Mat map_xy, map_frac;      // cv::remap tables (CV_16SC2 + CV_16UC1)
+  cv::Size size;                 // the grid's
+  cv::Mat drop;                  // CV_8UC1 on the grid, non-zero = set to NaN (empty: none)
 };
 
-// Builds the tables; `keep` (CV_8UC1 on the grid, non-zero = keep) may be empty.
+// Builds the affine; `keep` (CV_8UC1 on the grid, non-zero = keep) may be empty.
 Registration make_registration(const ImageGeometry& source, const RegisteredGrid& grid, const cv::Mat& keep = {});
 
 // Resamples `source_pixels` (CV_32FC1, the frame `registration` was built for) onto the

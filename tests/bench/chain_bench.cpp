@@ -1,0 +1,196 @@
+// tests/bench/chain_bench.cpp — the imaging chain per frame against cfitsio alone.
+//
+// Budget (DESIGN.md, issue 4): per 1024² int16 Rice-compressed frame, the whole chain
+// (imaging/chain.hpp: read, register, calibrate, polar, running difference in σ) costs
+// ≤ 1.5 × what imaging::read_fits (cfitsio read + decompress + scaling) needs alone; and
+// memory per view does not grow with the number of frames beyond the polar cube.
+//
+// Writes N synthetic frames (a corona falling off with height, noise, an occulter and
+// field stop, a bright front moving out) into a temporary folder, then prints, for one
+// OpenCV thread and for all (the chain reads the next frame on a thread of its own either
+// way): read time per frame, chain time per frame, their ratio; and the
+// peak resident memory (getrusage ru_maxrss) of a fresh process streaming N/2 and N
+// frames, with and without keeping the polar cube. Not a timed test: `--short` (what
+// ./bootstrap test runs) uses few frames and only fails when the chain does.
+#include <sys/resource.h>
+#include <unistd.h>
+
+#include <chrono>
+#include <cmath>
+#include <cstdio>
+#include <cstdlib>
+#include <cstring>
+#include <filesystem>
+#include <limits>
+#include <string>
+#include <vector>
+
+#include <opencv2/core.hpp>
+
+#include "imaging/chain.hpp"
+#include "imaging/constants.hpp"
+#include "imaging/fits.hpp"
+#include "imaging/geometry.hpp"
+#include "imaging/time.hpp"
+
+namespace fs = std::filesystem;
+namespace oi = occulta::imaging;
+
+namespace {
+
+constexpr int kSize = 1024;
+constexpr double kT0 = 9.7e8;  // an invented time in 2030
+
+double seconds_since(std::chrono::steady_clock::time_point start) {
+  return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+}
+
+std::vector<fs::path> write_frames(const fs::path& dir, int count) {
+  oi::GeometrySpec spec;
+  spec.width = spec.height = kSize;
+  spec.observer = oi::observer_from_degrees(0.0, 3.0, 0.99 * occulta::kAuKm);
+  spec.sun_center_px = {511.7, 514.2};
+  const double rs_arcsec = oi::solar_angular_radius_rad(spec.observer.dist_km) * occulta::kArcsecPerRad;
+  const double rs_per_px = 16.0 / 512.0;
+  spec.arcsec_per_px = rs_per_px * rs_arcsec;
+  spec.roll_deg = 1.5;
+  cv::RNG rng(424242);
+  std::vector<fs::path> paths;
+  cv::Mat pixels(kSize, kSize, CV_32FC1), noise(kSize, kSize, CV_32FC1);
+  for (int k = 0; k < count; ++k) {
+    rng.fill(noise, cv::RNG::NORMAL, 0.0, 1.0);
+    const double front_rs = 3.0 + 0.6 * k;
+    for (int y = 0; y < kSize; ++y)
+      for (int x = 0; x < kSize; ++x) {
+        const double dx = (x - spec.sun_center_px.x()) * rs_per_px, dy = (y - spec.sun_center_px.y()) * rs_per_px;
+        const double h = std::hypot(dx, dy);
+        if (h < 2.2 || h > 15.5) {
+          pixels.at<float>(y, x) = std::numeric_limits<float>::quiet_NaN();
+          continue;
+        }
+        const double pa = std::atan2(-dx, dy);
+        double v = 4e4 / (h * h * h) * (1.0 + 0.3 * std::cos(2 * pa));
+        if (std::abs(pa - 1.2) < 0.4 && std::abs(h - front_rs) < 0.4) v *= 1.3;
+        // DN for a 10 s exposure; noise ∝ √signal as photon noise is.
+        pixels.at<float>(y, x) = float(10.0 * (v + std::sqrt(v) * noise.at<float>(y, x)));
+      }
+    oi::Header header;
+    oi::write_geometry(header, spec);
+    header.set_text("DATE-OBS", oi::iso_from_utc_seconds(kT0 + 720.0 * k));
+    header.set_real("EXPTIME", 10.0);
+    paths.push_back(dir / ("frame" + std::to_string(1000 + k) + ".fits"));
+    oi::FitsWriteOptions options;
+    options.pixels = oi::FitsWriteOptions::Pixels::ScaledInt16;
+    options.rice = true;
+    oi::write_fits(paths.back(), pixels, header, options);
+  }
+  return paths;
+}
+
+// Seconds per frame, best of `passes`.
+double read_time(const std::vector<fs::path>& paths, int passes) {
+  double best = 1e30;
+  for (int p = 0; p < passes; ++p) {
+    const auto start = std::chrono::steady_clock::now();
+    for (const auto& path : paths) {
+      const auto image = oi::read_fits(path);
+      if (image.pixels.empty()) std::abort();
+    }
+    best = std::min(best, seconds_since(start) / paths.size());
+  }
+  return best;
+}
+
+double chain_time(const std::vector<fs::path>& paths, int passes, oi::ViewRun* last) {
+  double best = 1e30;
+  for (int p = 0; p < passes; ++p) {
+    double checksum = 0;
+    const auto start = std::chrono::steady_clock::now();
+    *last = oi::run_view("bench", paths, {}, [&](const oi::ChainFrame& f) { checksum += f.polar_running.at<float>(10, 10); });
+    best = std::min(best, seconds_since(start) / paths.size());
+    if (std::isinf(checksum)) std::printf(" ");
+  }
+  return best;
+}
+
+long child_peak_rss_kb(const fs::path& dir, int frames, bool keep_cube) {
+  char command[1024];
+  std::snprintf(command, sizeof command, "/proc/%d/exe --rss-child %d %s '%s'", int(::getpid()), frames,
+                keep_cube ? "cube" : "stream", dir.c_str());
+  FILE* pipe = popen(command, "r");
+  long kb = -1;
+  if (pipe) {
+    if (std::fscanf(pipe, "%ld", &kb) != 1) kb = -1;
+    pclose(pipe);
+  }
+  return kb;
+}
+
+int rss_child(int frames, const std::string& mode, const fs::path& dir) {
+  std::vector<fs::path> paths;
+  for (int k = 0; k < frames; ++k) paths.push_back(dir / ("frame" + std::to_string(1000 + k) + ".fits"));
+  if (mode == "cube") {
+    const auto run = oi::polar_running_differences("bench", paths);
+    if (run.running.frames.empty()) return 1;
+  } else {
+    oi::run_view("bench", paths, {}, [](const oi::ChainFrame&) {});
+  }
+  rusage usage{};
+  getrusage(RUSAGE_SELF, &usage);
+  std::printf("%ld\n", usage.ru_maxrss);  // kilobytes on Linux
+  return 0;
+}
+
+}  // namespace
+
+int main(int argc, char** argv) {
+  if (argc == 5 && std::strcmp(argv[1], "--rss-child") == 0) return rss_child(std::atoi(argv[2]), argv[3], argv[4]);
+  const bool short_mode = argc > 1 && std::strcmp(argv[1], "--short") == 0;
+  const int frames = short_mode ? 6 : 24;
+  const int passes = short_mode ? 1 : 3;
+
+  const fs::path dir = fs::temp_directory_path() / ("occulta-chain-bench-" + std::to_string(::getpid()));
+  fs::create_directories(dir);
+  int status = 0;
+  try {
+    std::printf("chain_bench: writing %d frames %d² int16 Rice-compressed into %s\n", frames, kSize, dir.c_str());
+    const auto paths = write_frames(dir, frames);
+    std::printf("  file size %.2f MB per frame\n", fs::file_size(paths.front()) / 1e6);
+    const int all = cv::getNumberOfCPUs();
+    double cube_frame_mb = 0;
+    for (int threads : {1, all}) {
+      cv::setNumThreads(threads);
+      oi::ViewRun run;
+      const double read_s = read_time(paths, passes);
+      const double chain_s = chain_time(paths, passes, &run);
+      const auto scan_start = std::chrono::steady_clock::now();
+      const auto sequence = oi::scan_view("bench", paths);
+      const double scan_s = seconds_since(scan_start) / paths.size();
+      std::printf("  %d OpenCV thread%s: read_fits %.2f ms/frame, whole chain %.2f ms/frame, ratio %.2f (budget 1.5)\n",
+                  threads, threads == 1 ? " " : "s", 1e3 * read_s, 1e3 * chain_s, chain_s / read_s);
+      std::printf("    of which the header scan (imaging/sequence) %.2f ms/frame\n", 1e3 * scan_s);
+      cube_frame_mb = run.polar.pa_count * double(run.polar.height_count) * sizeof(float) / (1024.0 * 1024.0);
+      if (threads == 1)
+        std::printf("  polar grid %d PA × %d heights (%.2f–%.2f R☉); remap tables built %d time(s)\n",
+                    run.polar.pa_count, run.polar.height_count, run.radii.inner_rs, run.radii.outer_rs,
+                    run.registration_builds);
+      if (threads == all) break;
+    }
+    cv::setNumThreads(all);
+    const int half = frames / 2;
+    const long s1 = child_peak_rss_kb(dir, half, false), s2 = child_peak_rss_kb(dir, frames, false);
+    const long c1 = child_peak_rss_kb(dir, half, true), c2 = child_peak_rss_kb(dir, frames, true);
+    std::printf("  peak memory, streaming: %d frames %.1f MB, %d frames %.1f MB (growth %.1f MB)\n", half, s1 / 1024.0,
+                frames, s2 / 1024.0, (s2 - s1) / 1024.0);
+    std::printf("  peak memory, keeping the polar cube: %d frames %.1f MB, %d frames %.1f MB (growth %.1f MB; "
+                "the cube itself grows by %.1f MB)\n",
+                half, c1 / 1024.0, frames, c2 / 1024.0, (c2 - c1) / 1024.0, (frames - half) * cube_frame_mb);
+    if (s1 < 0 || s2 < 0 || c1 < 0 || c2 < 0) status = 1;
+  } catch (const std::exception& e) {
+    std::fprintf(stderr, "chain_bench: %s\n", e.what());
+    status = 1;
+  }
+  std::error_code ignored;
+  fs::remove_all(dir, ignored);
+  return status;
+}
