@@ -14,6 +14,7 @@
 #include <system_error>
 
 #include "imaging/fits_cfitsio.hpp"
+#include "imaging/fits_rice_check.hpp"
 #include "imaging/input_error.hpp"
 
 namespace occulta::imaging {
@@ -85,12 +86,18 @@ void check_mandatory_cards(const ByteReader& read, long long offset, int hdu_num
     return index * 80 + 80 <= bytes.size() ? std::string_view(bytes).substr(index * 80, 80) : std::string_view();
   };
   const std::string hdu = "the header of HDU " + std::to_string(hdu_number) + " is malformed: ";
-  // The integer value of card `index`, which must have keyword `key`.
+  // The integer value of card `index`, which must have keyword `key` and the value
+  // indicator "= " in bytes 9–10 (§4.1.2.2). cfitsio reads a card with "=" and no space
+  // in its own ways (fits_fuzz: "NAXIS1  =#  8" in a table led to a calloc by an
+  // uninitialised field count, "ZTILE1  =0  16" to a division by zero), so it is refused.
   auto integer = [&](std::size_t index, const std::string& key) -> long long {
     const std::string_view text = card(index);
     if (text.size() < 10 || text.substr(0, 8) != (key + std::string(8, ' ')).substr(0, 8) || text[8] != '=')
       throw InputError(source, hdu + "card " + std::to_string(index + 1) + " should be " + key +
                                    " (FITS Standard 4.0 §4.4.1 fixes the order of the first keywords)");
+    if (text[9] != ' ')
+      throw InputError(source, hdu + key + " has \"=\" without the space after it that makes a value indicator "
+                                   "(FITS Standard 4.0 §4.1.2.2)");
     std::string_view value = text.substr(10);
     value = value.substr(0, value.find('/'));
     while (!value.empty() && value.front() == ' ') value.remove_prefix(1);
@@ -322,6 +329,11 @@ FitsImage read_open(fitsfile* file, long long file_size, const ByteReader& read,
   // cfitsio applies BSCALE/BZERO (§4.4.2.5: physical = BZERO + BSCALE × stored) and turns
   // integers equal to BLANK (§4.4.2.5) into the null value given, NaN. Uncompressed
   // floats are read with no null value, so NaN and ±Inf arrive as stored (§5.3).
+  // cfitsio's tile decoders trust the bytes they are given (fits_rice_check.hpp): every
+  // tile is traced first, so that a damaged one is refused rather than read past.
+  if (choice.compressed)
+    fits_detail::check_compressed_tiles(
+        file, source, choice.hdu == 0 ? "its primary image" : "its image in HDU " + std::to_string(choice.hdu + 1));
   float nan = std::numeric_limits<float>::quiet_NaN();
   const bool stored_float = choice.bitpix < 0 && !choice.compressed;
   int any_null = 0, status = 0;

@@ -1,0 +1,280 @@
+// imaging/fits_rice_check.cpp — traces the tiles of a tile-compressed image before
+// cfitsio decodes them (why: imaging/fits_rice_check.hpp).
+//
+// The Rice stream (Pence, Seaman & White 2009, "Lossless Astronomical Image Compression
+// and the Effects of Noise", PASP 121, 414 — §3 and the tiled-image convention; the layout
+// is the one cfitsio writes and reads): the first value stored raw, big-endian, in BYTEPIX
+// bytes; then, bits most significant first, for each block of BLOCKSIZE values (the last
+// block of a tile shorter) a code of fsbits = 3, 4 or 5 bits (8-, 16-, 32-bit data) that
+// holds fs + 1:
+//   fs = −1          low-entropy block: every difference is zero, no further bits;
+//   fs = fsmax       high-entropy block (fsmax = 6, 14, 25): every mapped difference is
+//                    stored raw in 8, 16 or 32 bits;
+//   0 ≤ fs < fsmax   each mapped difference d is coded as d >> fs in unary (that many 0
+//                    bits, then a 1) followed by the fs low bits of d.
+// A mapped difference is the zig-zag map of one value minus the one before (first value
+// included), so it always fits the data's width: a longer unary code is damage. Nothing
+// is written: the trace only counts bits, and checks each read against the tile's end.
+#include "imaging/fits_rice_check.hpp"
+
+#include <algorithm>
+#include <array>
+#include <bit>
+#include <cstdint>
+#include <cstring>
+
+#include "imaging/fits_cfitsio.hpp"
+#include "imaging/input_error.hpp"
+
+namespace occulta::imaging::fits_detail {
+
+namespace {
+
+// Bits of a byte string, most significant first, with the count of those left.
+class BitReader {
+ public:
+  BitReader(const unsigned char* data, std::size_t size) : data_(data), size_(size), end_(std::uint64_t{size} * 8) {}
+
+  std::uint64_t position() const { return bit_; }
+  std::uint64_t left() const { return end_ - bit_; }
+  void skip(std::uint64_t count) { bit_ += count; }
+
+  // The next bits, left-aligned in 64: at least 57 of them are the stream's when
+  // left() ≥ 64; past the end they are zeros (callers check left() before trusting them).
+  std::uint64_t peek() const {
+    const std::size_t byte = static_cast<std::size_t>(bit_ >> 3);
+    std::uint64_t word = 0;
+    if (byte + 8 <= size_) {
+      std::memcpy(&word, data_ + byte, 8);
+      if constexpr (std::endian::native == std::endian::little) word = __builtin_bswap64(word);
+    } else {
+      for (std::size_t i = 0; i < 8; ++i) word = word << 8 | (byte + i < size_ ? data_[byte + i] : 0u);
+    }
+    return word << (bit_ & 7);
+  }
+
+ private:
+  const unsigned char* data_;
+  std::size_t size_;
+  std::uint64_t end_;
+  std::uint64_t bit_ = 0;
+};
+
+std::string count_of(long long n, const char* one, const char* many) {
+  return std::to_string(n) + " " + (n == 1 ? one : many);
+}
+
+}  // namespace
+
+RiceTrace trace_rice(std::span<const unsigned char> bytes, long long pixels, int blocksize, int bytepix) {
+  // cfitsio's decoders: fits_rdecomp_byte for BYTEPIX 1, fits_rdecomp_short for 2, and
+  // fits_rdecomp (32-bit) for anything else; the code widths and fsmax are the paper's.
+  int fsbits = 5, fsmax = 25, bbits = 32;
+  if (bytepix == 1) {
+    fsbits = 3, fsmax = 6, bbits = 8;
+  } else if (bytepix == 2) {
+    fsbits = 4, fsmax = 14, bbits = 16;
+  } else {
+    bytepix = 4;
+  }
+  RiceTrace trace;
+  const std::size_t first = static_cast<std::size_t>(bytepix);
+  if (bytes.size() < first) {
+    trace.bytes_used = first;
+    trace.problem = "it has " + count_of(static_cast<long long>(bytes.size()), "byte", "bytes") +
+                    ", fewer than the " + std::to_string(bytepix) + " of its first value";
+    return trace;
+  }
+  BitReader bits(bytes.data() + first, bytes.size() - first);
+  const std::uint64_t widest = (std::uint64_t{1} << bbits) - 1;  // largest mapped difference
+  long long done = 0;                                              // values traced so far
+  auto fail = [&](std::string problem) {
+    trace.bytes_used = first + static_cast<std::size_t>((bits.position() + 7) / 8);
+    trace.problem = std::move(problem);
+    return trace;
+  };
+  auto past_end = [&] {
+    return fail("its codes run past the end of its " + count_of(static_cast<long long>(bytes.size()), "byte", "bytes") +
+                " at pixel " + std::to_string(done + 1) + " of " + std::to_string(pixels));
+  };
+  auto too_wide = [&](long long index) {
+    return fail("pixel " + std::to_string(index + 1) + " has a difference wider than the " + std::to_string(bbits) +
+                " bits of its data");
+  };
+
+  while (done < pixels) {
+    const long long block = std::min<long long>(blocksize, pixels - done);
+    if (bits.left() < static_cast<std::uint64_t>(fsbits)) return past_end();
+    const int fs = static_cast<int>(bits.peek() >> (64 - fsbits)) - 1;
+    bits.skip(fsbits);
+    if (fs < 0) {
+      // Low-entropy block: no bits follow.
+    } else if (fs == fsmax) {
+      const std::uint64_t raw = static_cast<std::uint64_t>(block) * static_cast<std::uint64_t>(bbits);
+      if (bits.left() < raw) return past_end();
+      bits.skip(raw);
+    } else if (fs > fsmax) {
+      // Only 32-bit codes have room for this (5 bits hold up to 30).
+      return fail("the block at pixel " + std::to_string(done + 1) + " asks for " + std::to_string(fs) +
+                  " low bits, more than the " + std::to_string(fsmax) + " a Rice code of " + std::to_string(bbits) +
+                  "-bit data can have");
+    } else {
+      const std::uint64_t most_zeros = widest >> fs;  // (zeros << fs) | low bits ≤ widest
+      const std::uint64_t tail = static_cast<std::uint64_t>(fs) + 1;
+      for (long long i = 0; i < block; ++i) {
+        std::uint64_t word = bits.peek();
+        // Common case: the unary code and the low bits lie within the next 57 bits.
+        if (bits.left() >= 64 && word != 0) {
+          const auto zeros = static_cast<std::uint64_t>(std::countl_zero(word));
+          if (zeros + tail <= 57) {
+            if (zeros > most_zeros) return too_wide(done + i);
+            bits.skip(zeros + tail);
+            continue;
+          }
+        }
+        // Long unary codes and the tile's last bytes: count zeros word by word.
+        std::uint64_t zeros = 0;
+        for (;;) {
+          const std::uint64_t left = bits.left();
+          if (left == 0) return past_end();
+          word = bits.peek();
+          const std::uint64_t span = std::min<std::uint64_t>(left, 57);
+          const auto leading = static_cast<std::uint64_t>(std::countl_zero(word));  // 64 when word is 0
+          if (leading < span) {
+            zeros += leading;
+            bits.skip(leading + 1);
+            break;
+          }
+          zeros += span;
+          bits.skip(span);
+          if (zeros > most_zeros) break;
+        }
+        if (zeros > most_zeros) return too_wide(done + i);
+        if (bits.left() < static_cast<std::uint64_t>(fs)) return past_end();
+        bits.skip(static_cast<std::uint64_t>(fs));
+      }
+    }
+    done += block;
+  }
+  trace.bytes_used = first + static_cast<std::size_t>((bits.position() + 7) / 8);
+  return trace;
+}
+
+namespace {
+
+[[noreturn]] void fail(const std::string& source, const std::string& what, int status) {
+  throw InputError(source, what + ": " + describe_status(status));
+}
+
+// A header text as part of a sentence: bytes outside printable ASCII shown as '?'.
+std::string printable(std::string text) {
+  for (char& c : text)
+    if (c < ' ' || c > '~') c = '?';
+  return text;
+}
+
+}  // namespace
+
+std::vector<TileCheck> check_compressed_tiles(fitsfile* file, const std::string& source, const std::string& where) {
+  // What cfitsio parsed on entering the HDU (public in fitsio.h) is what its decoders
+  // will use, so the check takes the same values rather than reading the keywords again:
+  // the compression type (ZCMPTYPE, RICE_ONE taken as RICE_1), image and tile axes
+  // (ZNAXISn, ZTILEn with their defaults), BLOCKSIZE and BYTEPIX (ZNAMEn/ZVALn, default
+  // 32 and 4 — cfitsio keeps 4 for 16-bit data written without BYTEPIX, and decodes such
+  // a tile as 32-bit), and the columns it reads tiles from.
+  const FITSfile& layout = *file->Fptr;
+  const int type = layout.compress_type;
+  if (type != RICE_1 && type != GZIP_1 && type != GZIP_2) {
+    // HCOMPRESS_1 and PLIO_1 have hand-written decoders in cfitsio that trust their input
+    // like its Rice decoder does; tracing them is a decoder's work, so they are refused.
+    char name[FLEN_VALUE] = "";
+    int status = 0;
+    fits_read_key(file, TSTRING, "ZCMPTYPE", name, nullptr, &status);
+    if (status != 0) fits_clear_errmsg();
+    throw InputError(source, where + " is tile-compressed with " + (name[0] ? printable(name) : std::string("an unnamed method")) +
+                                 ", which occulta does not read (it reads RICE_1, GZIP_1 and GZIP_2 tiles)");
+  }
+  const int dims = layout.zndim;
+  if (dims < 1 || dims > MAX_COMPRESS_DIM)
+    throw InputError(source, where + " has " + std::to_string(dims) + " axes, which the tiled image convention does not allow");
+  std::array<long long, MAX_COMPRESS_DIM> across{};  // tiles along each axis
+  long long tiles = 1;
+  for (int d = 0; d < dims; ++d) {
+    const long long axis = layout.znaxis[d], tile = layout.tilesize[d];
+    if (axis < 1 || tile < 1)
+      throw InputError(source, where + " has a ZNAXIS" + std::to_string(d + 1) + " or ZTILE" + std::to_string(d + 1) +
+                                   " that is not a positive integer (tiled image convention, Pence et al. 2009 §4)");
+    across[d] = (axis + tile - 1) / tile;
+    tiles *= across[d];  // at most the pixel count, which choose_image() bounded
+  }
+  int status = 0;
+  LONGLONG rows = 0;
+  fits_get_num_rowsll(file, &rows, &status);
+  if (status != 0) fail(source, where + " has a compressed table whose rows cannot be counted", status);
+  if (rows < tiles)
+    throw InputError(source, "the file is damaged: " + where + " is made of " + std::to_string(tiles) +
+                                 " tiles, and its compressed table holds only " + std::to_string(rows));
+  const int blocksize = layout.rice_blocksize, bytepix = layout.rice_bytepix;
+  if (type == RICE_1 && blocksize < 1)
+    throw InputError(source, where + " has a Rice BLOCKSIZE of " + std::to_string(blocksize) +
+                                 ", not a positive number of pixels");
+  if (layout.cn_compressed < 1) throw InputError(source, where + " has no COMPRESSED_DATA column");
+
+  std::vector<TileCheck> checks;
+  checks.reserve(static_cast<std::size_t>(tiles));
+  std::vector<unsigned char> bytes;
+  for (long long row = 1; row <= tiles; ++row) {
+    // Tiles are numbered along axis 1 first (Pence et al. 2009 §4); those at the far edge
+    // of an axis are cut short by it.
+    TileCheck check;
+    check.pixels = 1;
+    for (long long d = 0, index = row - 1; d < dims; ++d) {
+      const long long at = index % across[d];
+      index /= across[d];
+      check.pixels *= std::min<long long>(layout.tilesize[d], layout.znaxis[d] - at * layout.tilesize[d]);
+    }
+    const std::string tile = "tile " + std::to_string(row) + " of " + where;
+    LONGLONG length = 0, offset = 0;
+    fits_read_descriptll(file, layout.cn_compressed, row, &length, &offset, &status);
+    if (status != 0) fail(source, "the place of " + tile + " cannot be read", status);
+    check.stored_bytes = length;
+    if (length > 0) {
+      if (type == RICE_1) {
+        // The bytes cfitsio will hand its decoder, read the way it reads them.
+        bytes.resize(static_cast<std::size_t>(length));
+        unsigned char null = 0;
+        int any_null = 0;
+        fits_read_col(file, TBYTE, layout.cn_compressed, row, 1, length, &null, bytes.data(), &any_null, &status);
+        if (status != 0) fail(source, "the compressed bytes of " + tile + " cannot be read", status);
+        const RiceTrace trace = trace_rice(bytes, check.pixels, blocksize, bytepix);
+        if (!trace.problem.empty())
+          throw InputError(source, "tile " + std::to_string(row) + " of the Rice-compressed image is damaged: " +
+                                       trace.problem);
+        check.traced_bytes = static_cast<long long>(trace.bytes_used);
+      }
+      // GZIP_1/GZIP_2 tiles go to zlib, which checks its own bounds and cfitsio the size.
+    } else if (layout.cn_uncompressed > 0) {
+      // A tile the writer could not compress, stored as plain values (the convention's
+      // UNCOMPRESSED_DATA); cfitsio copies as many as the descriptor says into the
+      // tile's place, so there must be exactly one per pixel.
+      fits_read_descriptll(file, layout.cn_uncompressed, row, &length, &offset, &status);
+      if (status != 0) fail(source, "the place of " + tile + " cannot be read", status);
+      if (length != check.pixels)
+        throw InputError(source, "the file is damaged: " + tile + " is stored uncompressed with " +
+                                     std::to_string(length) + " values for its " + std::to_string(check.pixels) +
+                                     " pixels");
+    } else if (layout.cn_gzip_data > 0) {
+      // Stored gzip-compressed instead (GZIP_COMPRESSED_DATA, for tiles that cannot be
+      // quantised); zlib checks the stream, cfitsio the size it unpacks to.
+      fits_read_descriptll(file, layout.cn_gzip_data, row, &length, &offset, &status);
+      if (status != 0) fail(source, "the place of " + tile + " cannot be read", status);
+      if (length < 1) throw InputError(source, "the file is damaged: " + tile + " holds no data in any column");
+    } else {
+      throw InputError(source, "the file is damaged: " + tile + " holds no data in any column");
+    }
+    checks.push_back(check);
+  }
+  return checks;
+}
+
+}  // namespace occulta::imaging::fits_detail

@@ -1,0 +1,51 @@
+// imaging/fits_rice_check.hpp — private to imaging/fits*.cpp and their tests: checks the
+// tiles of a tile-compressed image before cfitsio decodes them.
+//
+// cfitsio 4.2's Rice decoder (fits_rdecomp*) reads ahead of a tile's compressed bytes
+// within a block — a run of zero bytes in a unary code, a high-entropy block cut short —
+// and checks for the end of the stream only after the tile, so a damaged tile makes it
+// read (and crash) outside its buffer. Its HCOMPRESS and PLIO decoders are hand-written
+// too; occulta does not read those. So every tile is traced here first.
+#pragma once
+
+#include <cstddef>
+#include <span>
+#include <string>
+#include <vector>
+
+#include <fitsio.h>
+
+namespace occulta::imaging::fits_detail {
+
+// What tracing one tile's Rice stream found.
+struct RiceTrace {
+  std::size_t bytes_used = 0;  // bytes the decoder reads: the first value and every code up
+                               // to the last bit of the last pixel (a whole stream: its
+                               // stored length)
+  std::string problem;         // empty when the stream codes exactly `pixels` values
+                               // within its bytes; otherwise the fault, as a phrase
+};
+
+// Follows a Rice stream (Pence, Seaman & White 2009, §3 and Appendix; the layout cfitsio
+// writes and reads) through `pixels` values without writing any: the first value raw in
+// `bytepix` bytes, then per block of `blocksize` values a code of 3/4/5 bits (for
+// bytepix 1/2/else 4, as cfitsio's decoders choose) giving fs + 1. Every bit read is
+// checked against the end of `bytes` and every value against the width of the data.
+// Takes blocksize ≥ 1 and pixels ≥ 1.
+RiceTrace trace_rice(std::span<const unsigned char> bytes, long long pixels, int blocksize, int bytepix);
+
+// One tile of a compressed image as checked (for tests and diagnostics).
+struct TileCheck {
+  long long pixels = 0;        // pixels in the tile (smaller at the image's far edges)
+  long long stored_bytes = 0;  // length of its COMPRESSED_DATA (0: stored another way)
+  long long traced_bytes = -1; // Rice tiles: what trace_rice() read; −1 otherwise
+};
+
+// Checks every tile of the tile-compressed image in the current HDU of `file`, with the
+// parameters cfitsio parsed from its header (compression type, ZTILEn, ZNAXISn,
+// BLOCKSIZE, BYTEPIX, the columns it will read), reading each tile's bytes through
+// cfitsio. Throws InputError(source, …) naming the first damaged tile; refuses the
+// compression types occulta does not read. `where` names the image ("its image in HDU 2").
+std::vector<TileCheck> check_compressed_tiles(fitsfile* file, const std::string& source, const std::string& where);
+
+}  // namespace occulta::imaging::fits_detail
