@@ -390,6 +390,20 @@ TEST_CASE("fits: bad input is refused with one sentence naming the file") {
   bad_keyword[5] = std::string(4, '\xff') + bad_keyword[5];
   spit(dir / "table_bad_pcount.fits", primary + fits_file(bad_keyword, 2880));
   check_refused(dir / "table_bad_pcount.fits", "HDU 2 is malformed: card 6 should be PCOUNT");
+  // Regression cases from fits_fuzz: "=" not followed by a space is no value indicator
+  // (FITS Standard 4.0 §4.1.2.2). cfitsio then set a table up by an uninitialised field
+  // count (NAXIS1), or divided by a tile size of 0 (ZTILE1 "=0  16").
+  std::vector<std::string> no_indicator = table;
+  no_indicator[3] = "NAXIS1  =#                   8";
+  spit(dir / "table_naxis1_no_indicator.fits", primary + fits_file(no_indicator, 2880));
+  check_refused(dir / "table_naxis1_no_indicator.fits",
+                "HDU 2 is malformed: NAXIS1 has \"=\" without the space after it that makes a value indicator");
+  std::vector<std::string> tile_no_indicator = table;
+  tile_no_indicator.insert(tile_no_indicator.end(), {card("ZIMAGE", "T"), card("ZBITPIX", "16"), card("ZNAXIS", "2"),
+                                                     card("ZNAXIS1", "16"), card("ZNAXIS2", "12"),
+                                                     "ZTILE1  =0                  16", card("ZCMPTYPE", "'RICE_1'")});
+  spit(dir / "tile_no_indicator.fits", primary + fits_file(tile_no_indicator, 2880));
+  check_refused(dir / "tile_no_indicator.fits", "ZTILE1 has \"=\" without the space after it");
   std::vector<std::string> no_tfields = table;
   no_tfields.erase(no_tfields.begin() + 7);
   spit(dir / "table_no_tfields.fits", primary + fits_file(no_tfields, 2880));
