@@ -6,6 +6,7 @@
 
 #include "app/demo.hpp"
 #include "app/inspect.hpp"
+#include "app/maps.hpp"
 #include "app/synth.hpp"
 
 namespace occulta::app {
@@ -27,6 +28,19 @@ int run(int argc, char** argv) {
   synth_cmd->add_option("--out", synth_options.out_dir, "Folder to write into (made if missing)")->required();
   synth_cmd->add_flag("--quiet", synth_options.quiet, "No progress line");
 
+  MapsOptions maps_options;
+  auto* maps_cmd = cli.add_subcommand("maps", "Polar running differences and time-height maps of an event's views");
+  maps_cmd->add_option("event", maps_options.event, "Event file (*.event.json)")->required();
+  maps_cmd->add_option("--out", maps_options.out_dir, "Folder to write into (made if missing)")->required();
+  maps_cmd->add_option("--pa", maps_options.pa_deg, "Time-height maps at these position angles (deg)");
+  maps_cmd->add_option("--pa-step", maps_options.pa_step_deg, "Position-angle step of the polar grid (deg)")
+      ->capture_default_str()->check(CLI::Range(0.05, 10.0));
+  maps_cmd->add_option("--height-step", maps_options.height_step_rs, "Height step of the polar grid (R_sun; 0 = pixel)")
+      ->capture_default_str()->check(CLI::Range(0.0, 2.0));
+  maps_cmd->add_option("--median", maps_options.median, "Median filter size against cosmic rays (0, 3 or 5)")
+      ->capture_default_str()->check(CLI::IsMember({0, 3, 5}));
+  maps_cmd->add_flag("--nrgf", maps_options.nrgf, "Also write an NRGF-filtered polar frame (Morgan et al. 2006)");
+
   DemoOptions demo_options;
   auto* demo_cmd = cli.add_subcommand("demo", "Run the main job on the committed sample event");
   demo_cmd->add_option("--sample", demo_options.sample_dir, "The sample event's folder")->capture_default_str();
@@ -47,6 +61,7 @@ int run(int argc, char** argv) {
   try {
     if (*inspect_cmd) return inspect(inspect_options, std::cout, std::cerr);
     if (*synth_cmd) return synth(synth_options, std::cout, std::cerr);
+    if (*maps_cmd) return maps(maps_options, std::cout, std::cerr);
     if (*demo_cmd) return demo(demo_options, std::cout, std::cerr);
   } catch (const std::exception& e) {
     std::cerr << "occulta: " << e.what() << '\n';

@@ -12,15 +12,6 @@ namespace occulta::fit {
 
 namespace {
 
-// Background brightness as a function of (position angle, closest approach p). For a
-// symmetric density one PA row suffices. Values are log B and log pB, linear in log p.
-struct BackgroundTable {
-  int n_pa = 1, n_p = 0;
-  double log_p0 = 0.0, dlog_p = 1.0, dpa = 2.0 * kPi;
-  std::vector<double> log_b, log_pb;  // [pa][p]
-  bool empty() const { return n_p == 0; }
-};
-
 // The ray of the observer that passes Sun centre at distance p (R☉) toward position angle
 // pa (rad, CCW from north through east). In HCC (x west, y north, z toward the observer at
 // distance D) it aims at the plane-of-sky point q (−sin pa, cos pa, 0); the line from
@@ -55,7 +46,55 @@ void parallel_rows(int rows, int threads, Body&& body) {
   for (auto& t : pool) t.join();
 }
 
+DensityField background_density(const RenderScene& scene) {
+  const double factor = scene.background_factor;
+  if (scene.background == BackgroundCorona::baumbach_allen)
+    return [factor](const Eigen::Vector3d& p) { return factor * baumbach_allen_m3(p); };
+  if (scene.background == BackgroundCorona::saito)
+    return [factor](const Eigen::Vector3d& p) { return factor * saito_m3(p); };
+  return {};
+}
+
 }  // namespace
+
+bool BackgroundTable::covers(const imaging::Observer& o, const RenderScene& scene, double p_min_rs,
+                             double p_max_rs) const {
+  // The observer as a header gives it back may differ in the last bits from the one the
+  // table was made for (degrees ↔ radians, metres ↔ km): equal to 1e-9 is the same place.
+  const auto same = [](double a, double b) { return std::abs(a - b) <= 1e-9 * std::max(1.0, std::abs(a)); };
+  return !empty() && background == scene.background && factor == scene.background_factor &&
+         same(observer.lon_rad, o.lon_rad) && same(observer.lat_rad, o.lat_rad) && same(observer.dist_km, o.dist_km) &&
+         std::log(p_min_rs) >= log_p0 && std::log(p_max_rs) <= log_p0 + dlog_p * (n_p - 1);
+}
+
+BackgroundTable tabulate_background(const imaging::Observer& observer, const RenderScene& scene, double p_min_rs,
+                                    double p_max_rs, int threads) {
+  if (threads <= 0) threads = std::max(1u, std::thread::hardware_concurrency());
+  BackgroundTable table;
+  table.observer = observer;
+  table.background = scene.background;
+  table.factor = scene.background_factor;
+  const DensityField background = background_density(scene);
+  if (!background) return table;
+  const bool symmetric = scene.background == BackgroundCorona::baumbach_allen;
+  table.n_pa = symmetric ? 1 : 180;
+  table.n_p = symmetric ? 1024 : 384;
+  table.dpa = 2.0 * kPi / table.n_pa;
+  table.log_p0 = std::log(std::max(1.0, p_min_rs));
+  table.dlog_p = std::max(1e-9, std::log(p_max_rs * 1.000001) - table.log_p0) / (table.n_p - 1);
+  table.log_b.resize(static_cast<size_t>(table.n_pa) * table.n_p);
+  table.log_pb.resize(table.log_b.size());
+  parallel_rows(table.n_pa, threads, [&](int a) {
+    for (int k = 0; k < table.n_p; ++k) {
+      const Ray ray = ray_at(observer, std::exp(table.log_p0 + k * table.dlog_p), a * table.dpa);
+      const Brightness b = integrate_brightness(ray, background, scene.line_of_sight);
+      const size_t i = static_cast<size_t>(a) * table.n_p + k;
+      table.log_b[i] = std::log(std::max(b.total_bsun, 1e-300));
+      table.log_pb[i] = std::log(std::max(b.polarized_bsun, 1e-300));
+    }
+  });
+  return table;
+}
 
 RenderedFrame render_frame(const imaging::ImageGeometry& geometry, const RenderScene& scene, int threads) {
   if (threads <= 0) threads = std::max(1u, std::thread::hardware_concurrency());
@@ -78,38 +117,23 @@ RenderedFrame render_frame(const imaging::ImageGeometry& geometry, const RenderS
     }
   });
 
-  // Background table over the frame's range of p (rays meeting the disc are integrated directly).
-  const double factor = scene.background_factor;
-  DensityField background;
-  if (scene.background == BackgroundCorona::baumbach_allen)
-    background = [factor](const Eigen::Vector3d& p) { return factor * baumbach_allen_m3(p); };
-  else if (scene.background == BackgroundCorona::saito)
-    background = [factor](const Eigen::Vector3d& p) { return factor * saito_m3(p); };
-  BackgroundTable table;
+  // Background table over the frame's range of p (rays meeting the disc are integrated
+  // directly): the scene's own when it covers this frame, else one made now.
+  const DensityField background = background_density(scene);
+  BackgroundTable own;
+  const BackgroundTable* table = &own;
   if (background) {
     double p_min = 1e300, p_max = 0.0;
     for (const double p : p_of)
       if (p >= 1.0) p_min = std::min(p_min, p), p_max = std::max(p_max, p);
     if (p_max > 0.0) {
-      const bool symmetric = scene.background == BackgroundCorona::baumbach_allen;
-      table.n_pa = symmetric ? 1 : 180;
-      table.n_p = symmetric ? 1024 : 384;
-      table.dpa = 2.0 * kPi / table.n_pa;
-      table.log_p0 = std::log(p_min);
-      table.dlog_p = std::max(1e-9, std::log(p_max * 1.000001) - table.log_p0) / (table.n_p - 1);
-      table.log_b.resize(static_cast<size_t>(table.n_pa) * table.n_p);
-      table.log_pb.resize(table.log_b.size());
-      parallel_rows(table.n_pa, threads, [&](int a) {
-        for (int k = 0; k < table.n_p; ++k) {
-          const Ray ray = ray_at(observer, std::exp(table.log_p0 + k * table.dlog_p), a * table.dpa);
-          const Brightness b = integrate_brightness(ray, background, scene.line_of_sight);
-          const size_t i = static_cast<size_t>(a) * table.n_p + k;
-          table.log_b[i] = std::log(std::max(b.total_bsun, 1e-300));
-          table.log_pb[i] = std::log(std::max(b.polarized_bsun, 1e-300));
-        }
-      });
+      if (scene.background_table && scene.background_table->covers(observer, scene, p_min, p_max))
+        table = scene.background_table.get();
+      else
+        own = tabulate_background(observer, scene, p_min, p_max, threads);
     }
   }
+  const BackgroundTable& bg = *table;
 
   std::vector<ShellSheathField> fields;
   for (const ShellSheath& sheath : scene.sheaths) fields.push_back(make_sheath_field(sheath));
@@ -123,19 +147,19 @@ RenderedFrame render_frame(const imaging::ImageGeometry& geometry, const RenderS
       if (background && p_of[i] < 1.0) {
         const Brightness b = integrate_brightness(ray, background, scene.line_of_sight);
         total[x] += b.total_bsun, pol[x] += b.polarized_bsun;
-      } else if (!table.empty()) {
-        const double fk = std::clamp((std::log(p_of[i]) - table.log_p0) / table.dlog_p, 0.0, table.n_p - 1.000001);
+      } else if (!bg.empty()) {
+        const double fk = std::clamp((std::log(p_of[i]) - bg.log_p0) / bg.dlog_p, 0.0, bg.n_p - 1.000001);
         const int k = static_cast<int>(fk);
         const double tk = fk - k;
-        double fa = table.n_pa == 1 ? 0.0 : pa_of[i] / table.dpa;
-        const int a0 = static_cast<int>(fa) % table.n_pa, a1 = (a0 + 1) % table.n_pa;
+        double fa = bg.n_pa == 1 ? 0.0 : pa_of[i] / bg.dpa;
+        const int a0 = static_cast<int>(fa) % bg.n_pa, a1 = (a0 + 1) % bg.n_pa;
         fa -= std::floor(fa);
         const auto at = [&](const std::vector<double>& v, int a) {
-          const size_t j = static_cast<size_t>(a) * table.n_p + k;
+          const size_t j = static_cast<size_t>(a) * bg.n_p + k;
           return (1.0 - tk) * v[j] + tk * v[j + 1];
         };
-        total[x] += std::exp((1.0 - fa) * at(table.log_b, a0) + fa * at(table.log_b, a1));
-        pol[x] += std::exp((1.0 - fa) * at(table.log_pb, a0) + fa * at(table.log_pb, a1));
+        total[x] += std::exp((1.0 - fa) * at(bg.log_b, a0) + fa * at(bg.log_b, a1));
+        pol[x] += std::exp((1.0 - fa) * at(bg.log_pb, a0) + fa * at(bg.log_pb, a1));
       }
       for (const ShellSheathField& field : fields) {
         const std::vector<RaySpan> spans = sheath_spans(field, ray);

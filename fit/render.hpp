@@ -16,6 +16,7 @@
 // pixels whose rays meet them. Rows are shared among threads.
 #pragma once
 
+#include <memory>
 #include <vector>
 
 #include <opencv2/core.hpp>
@@ -28,12 +29,36 @@ namespace occulta::fit {
 
 enum class BackgroundCorona { none, baumbach_allen, saito };
 
+struct BackgroundTable;
+
 struct RenderScene {
   BackgroundCorona background = BackgroundCorona::baumbach_allen;
   double background_factor = 1.0;  // multiplies the background density
   std::vector<ShellSheath> sheaths;
   LineOfSightOptions line_of_sight;
+  // Optional: a table made by tabulate_background() for this scene and observer. It does
+  // not depend on the pixel grid, so one table serves every frame of a view; used when it
+  // covers the frame's range of p, else the frame makes its own.
+  std::shared_ptr<const BackgroundTable> background_table;
 };
+
+// Background brightness against (position angle, closest approach p) for one observer:
+// log B and log pB, linear in log p (one PA row for a symmetric density).
+struct BackgroundTable {
+  imaging::Observer observer;
+  BackgroundCorona background = BackgroundCorona::none;
+  double factor = 1.0;
+  int n_pa = 1, n_p = 0;
+  double log_p0 = 0.0, dlog_p = 1.0, dpa = 2.0 * kPi;
+  std::vector<double> log_b, log_pb;  // [pa][p]
+  bool empty() const { return n_p == 0; }
+  bool covers(const imaging::Observer& o, const RenderScene& scene, double p_min_rs, double p_max_rs) const;
+};
+
+// The table over p ∈ [p_min_rs, p_max_rs] (p_min_rs ≥ 1: rays meeting the disc are
+// integrated directly). threads ≤ 0: std::thread::hardware_concurrency().
+BackgroundTable tabulate_background(const imaging::Observer& observer, const RenderScene& scene, double p_min_rs,
+                                    double p_max_rs, int threads = 0);
 
 struct RenderedFrame {
   cv::Mat total_bsun, polarized_bsun;  // CV_64F, geometry.height × geometry.width

@@ -5,6 +5,8 @@
 #include <fstream>
 #include <random>
 
+#include <opencv2/imgproc.hpp>
+
 #include "fit/render.hpp"
 #include "imaging/constants.hpp"
 #include "imaging/fits.hpp"
@@ -177,6 +179,13 @@ SynthResult synthesize(const Scenario& s, const fs::path& out_dir, const SynthPr
     fs::create_directories(view_dir, ec);
     if (ec) throw imaging::InputError(view_dir.string(), "cannot be made as a folder (" + ec.message() + ")");
 
+    // The background corona seen from this observer, tabulated once for all its frames
+    // (out to 1.5 × the half width: the corners at √2, with room for jitter).
+    RenderScene scene;
+    scene.background = background_model(s.background.k_corona);
+    scene.background_table = std::make_shared<const BackgroundTable>(
+        tabulate_background(observer_of(o), scene, 1.0, 1.5 * s.half_width_rs));
+
     for (int i = 0; i < s.frames; ++i) {
       const double t = s.frame_time(i);
       const imaging::GeometrySpec spec = frame_geometry(s, v, i);
@@ -186,12 +195,14 @@ SynthResult synthesize(const Scenario& s, const fs::path& out_dir, const SynthPr
 
       // Brightness (B☉) → DN: detector response × exposure.
       const ShellParams shell = s.shell.at(t);
-      RenderScene scene;
-      scene.background = background_model(s.background.k_corona);
-      scene.sheaths.push_back(ShellSheath{shell, peak_density_cm3(s.shell, shell), s.shell.sheath_fraction});
+      scene.sheaths.assign(1, ShellSheath{shell, peak_density_cm3(s.shell, shell), s.shell.sheath_fraction});
       cv::Mat dn;
       render_frame(geometry, scene).total_bsun.convertTo(dn, CV_32F);
       if (s.background.f_corona > 0.0) add_f_corona(dn, geometry, s.background.f_corona);
+      // The telescope's point-spread function: a Gaussian of 0.7 px σ, so that the scene is
+      // sampled as a real detector samples it — without it, structure sharper than a pixel
+      // (Saito's cusp at the equator) aliases differently at each pointing (common practice).
+      cv::GaussianBlur(dn, dn, cv::Size(0, 0), 0.7, 0.7, cv::BORDER_REPLICATE);
       dn *= s.detector.dn_per_s_per_bsun * s.exposure_s;
 
       auto noise_rng = stream(s, v, i, kNoise);

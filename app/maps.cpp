@@ -1,0 +1,162 @@
+#include "app/maps.hpp"
+
+#include <cmath>
+#include <cstdio>
+#include <ostream>
+
+#include "app/event.hpp"
+#include "app/quicklook.hpp"
+#include "imaging/chain.hpp"
+#include "imaging/input_error.hpp"
+#include "imaging/time.hpp"
+
+namespace occulta::app {
+namespace fs = std::filesystem;
+
+namespace {
+
+// The PA where the sequence brightens most: per PA column, the sum over frames and
+// heights of the positive running differences above 3σ (outward-moving material leaves
+// a bright leading edge in each running difference — common practice), smoothed over
+// ±5°. A first look only; imaging/front finds the CME properly.
+double strongest_change_pa(const imaging::PolarSequence& s) {
+  const int n = s.polar.pa_count;
+  std::vector<double> score(n, 0.0);
+  for (const cv::Mat& f : s.frames)
+    for (int y = 0; y < f.rows; ++y) {
+      const float* row = f.ptr<float>(y);
+      for (int x = 0; x < n; ++x)
+        if (row[x] > 3.0f) score[x] += row[x];
+    }
+  const int half = std::max(1, int(std::lround(5.0 / s.polar.pa_step_deg)));
+  int best = 0;
+  double best_score = -1.0;
+  for (int x = 0; x < n; ++x) {
+    double sum = 0.0;
+    for (int k = -half; k <= half; ++k) sum += score[(x + k + n) % n];
+    if (sum > best_score) best_score = sum, best = x;
+  }
+  return s.polar.pa_deg(best);
+}
+
+imaging::Header cube_header(const imaging::PolarGrid& g, const std::string& view, const std::string& event_id) {
+  imaging::Header h;
+  // Linear world axes (WCS Paper I): world = CRVAL + CDELT (pixel − CRPIX), 1-based pixels.
+  h.set_text("CTYPE1", "PA", "position angle, CCW from solar north via east");
+  h.set_text("CUNIT1", "deg");
+  h.set_real("CRPIX1", 1.0);
+  h.set_real("CRVAL1", g.pa_deg(0));
+  h.set_real("CDELT1", g.pa_step_deg);
+  h.set_text("CTYPE2", "HEIGHT", "plane-of-sky distance from Sun centre");
+  h.set_text("CUNIT2", "solRad", "R_sun = 695700 km (IAU 2015 B3)");
+  h.set_real("CRPIX2", 1.0);
+  h.set_real("CRVAL2", g.height_rs(0));
+  h.set_real("CDELT2", g.height_step_rs);
+  h.set_text("CTYPE3", "FRAME", "index into the FRAMES table");
+  h.set_real("CRPIX3", 1.0);
+  h.set_real("CRVAL3", 0.0);
+  h.set_real("CDELT3", 1.0);
+  h.set_text("BUNIT", "sigma", "running difference / noise at that height");
+  h.set_text("OBJECT", event_id, "event id");
+  h.set_text("VIEW", view, "view name in the event file");
+  h.add_commentary("COMMENT", "Noise-normalised running differences on a (PA, height) grid, written by occulta maps.");
+  return h;
+}
+
+std::string pa_label(double pa) {
+  char text[16];
+  std::snprintf(text, sizeof text, "%03d", int(std::lround(pa)) % 360);
+  return text;
+}
+
+// One view: the chain, the cube and the pictures. Returns a one-line summary.
+std::string map_view(const Event& event, const EventView& view, const MapsOptions& o, const fs::path& dir,
+                     std::vector<std::string>& problems) {
+  imaging::ChainOptions chain;
+  chain.observer = view.observer;
+  if (view.occulter_rs) chain.occulter_rs = std::make_pair((*view.occulter_rs)[0], (*view.occulter_rs)[1]);
+  chain.base_time_utc_s = event.base_time_s;
+  chain.pa_step_deg = o.pa_step_deg;
+  chain.height_step_rs = o.height_step_rs;
+  chain.median_filter = o.median;
+
+  imaging::PolarSequence polar;
+  cv::Mat last_difference, last_registered;
+  const imaging::ViewRun run = imaging::run_view(view.name, view.files, chain, [&](const imaging::ChainFrame& f) {
+    polar.utc_s.push_back(f.frame.utc_s);
+    polar.frames.push_back(f.polar_running.clone());
+    last_difference = imaging::sigma_difference(f.registered, f.previous_registered);
+    last_registered = f.registered.clone();
+  });
+  polar.polar = run.polar;
+  for (const auto& p : run.problems) problems.push_back(view.name + ": " + p);
+
+  fs::create_directories(dir);
+  std::vector<std::string> iso;
+  std::vector<double> steps;
+  for (size_t i = 0; i < polar.utc_s.size(); ++i) {
+    iso.push_back(imaging::iso_from_utc_seconds(polar.utc_s[i], 3));
+    steps.push_back(i == 0 ? NAN : polar.utc_s[i] - polar.utc_s[i - 1]);
+  }
+  steps[0] = steps.size() > 1 ? steps[1] : 0.0;  // the first difference's step is not known here: its neighbour's
+  imaging::write_fits_cube(dir / "polar.fits", polar.frames, cube_header(polar.polar, view.name, event.id), "FRAMES",
+                           {{"TIME", "", {}, iso}, {"UTC_S", "s", polar.utc_s, {}}});
+
+  const std::string when = iso.back().substr(0, 16);
+  write_png(dir / "running_difference.png",
+            with_caption(grey_picture(last_difference, 4.0), view.name + " " + when + " running difference, +-4 sigma, north up"));
+  write_png(dir / "polar_running_difference.png",
+            with_caption(grey_picture(polar.frames.back(), 4.0),
+                         view.name + " " + when + " PA 0-360 across, height up, +-4 sigma"));
+
+  std::vector<double> pas = o.pa_deg;
+  if (pas.empty()) pas.push_back(strongest_change_pa(polar));
+  const double t0 = polar.utc_s.front(), t1 = polar.utc_s.back();
+  const int columns = std::max<int>(360, int(polar.utc_s.size()) * 16);  // real time across, gaps kept
+  for (double pa : pas) {
+    const imaging::TimeMap th = imaging::time_height(polar, pa, 2.0);
+    const cv::Mat picture = imaging::render_on_time_axis(th, t0, t1, columns);
+    char caption[160];
+    std::snprintf(caption, sizeof caption, "%s PA %.0f: height %.1f-%.1f Rs up, time across, +-4 sigma",
+                  view.name.c_str(), pa, th.axis_start, th.axis_start + th.axis_step * (th.values.rows - 1));
+    write_png(dir / ("time_height_pa" + pa_label(pa) + ".png"), with_caption(grey_picture(picture, 4.0), caption));
+  }
+  if (o.nrgf) {
+    const imaging::PolarMaps maps = imaging::make_polar_maps(run.grid, run.polar);
+    cv::Mat polar_frame;
+    imaging::to_polar(last_registered, maps, polar_frame);
+    write_png(dir / "nrgf.png", with_caption(grey_picture(imaging::nrgf(polar_frame), 3.0),
+                                             view.name + " " + when + " NRGF (Morgan et al. 2006), PA across, height up"));
+  }
+
+  char line[200];
+  std::snprintf(line, sizeof line, "%-8s %3d frames  %3zu differences  heights %.2f-%.2f Rs  strongest change at PA %.0f",
+                view.name.c_str(), run.frames_used, polar.frames.size(), polar.polar.height_rs(0),
+                polar.polar.height_rs(polar.polar.height_count - 1), strongest_change_pa(polar));
+  return line;
+}
+
+}  // namespace
+
+int maps(const MapsOptions& o, std::ostream& out, std::ostream& err) {
+  const Event event = read_event(o.event);
+  std::vector<std::string> problems;
+  int mapped = 0;
+  for (const EventView& view : event.views) {
+    if (view.files.empty()) {
+      problems.push_back(view.name + ": no files match " + view.globs.front() + ".");
+      continue;
+    }
+    try {
+      out << map_view(event, view, o, fs::path(o.out_dir) / view.name, problems) << '\n';
+      ++mapped;
+    } catch (const imaging::InputError& e) {
+      problems.push_back(view.name + ": " + e.what());
+    }
+  }
+  out << "maps written under " << o.out_dir << "/<view>/\n";
+  for (const auto& p : problems) err << "problem: " << p << '\n';
+  return problems.empty() && mapped > 0 ? 0 : 1;
+}
+
+}  // namespace occulta::app

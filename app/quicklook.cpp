@@ -1,0 +1,55 @@
+#include "app/quicklook.hpp"
+
+#include <cmath>
+
+#include <opencv2/imgcodecs.hpp>
+#include <opencv2/imgproc.hpp>
+
+#include "imaging/input_error.hpp"
+
+namespace occulta::app {
+
+cv::Mat grey_picture(const cv::Mat& values, double limit, int min_size) {
+  cv::Mat picture(values.rows, values.cols, CV_8UC1);
+  for (int y = 0; y < values.rows; ++y) {
+    const float* in = values.ptr<float>(y);
+    uchar* out = picture.ptr<uchar>(values.rows - 1 - y);  // row 0 at the bottom
+    for (int x = 0; x < values.cols; ++x) {
+      const double v = in[x];
+      if (!std::isfinite(v)) {
+        out[x] = 0;
+        continue;
+      }
+      const double u = std::clamp((v + limit) / (2.0 * limit), 0.0, 1.0);
+      out[x] = static_cast<uchar>(16.0 + u * 239.0 + 0.5);
+    }
+  }
+  const int shorter = std::max(1, std::min(picture.rows, picture.cols));
+  const int factor = std::max(1, (min_size + shorter - 1) / shorter);
+  if (factor > 1) cv::resize(picture, picture, cv::Size(), factor, factor, cv::INTER_NEAREST);
+  return picture;
+}
+
+cv::Mat with_caption(const cv::Mat& picture, const std::string& caption) {
+  const int band = 26;
+  int baseline = 0;
+  const cv::Size text = cv::getTextSize(caption, cv::FONT_HERSHEY_SIMPLEX, 0.5, 1, &baseline);
+  // A caption wider than the picture widens the canvas (black margins) rather than being cut.
+  const int width = std::max(picture.cols, text.width + 12);
+  cv::Mat framed(picture.rows + band, width, picture.type(), cv::Scalar::all(0));
+  picture.copyTo(framed(cv::Rect((width - picture.cols) / 2, band, picture.cols, picture.rows)));
+  cv::putText(framed, caption, cv::Point(6, 18), cv::FONT_HERSHEY_SIMPLEX, 0.5, cv::Scalar::all(255), 1, cv::LINE_AA);
+  return framed;
+}
+
+void write_png(const std::filesystem::path& path, const cv::Mat& picture) {
+  bool written = false;
+  try {
+    written = cv::imwrite(path.string(), picture);
+  } catch (const cv::Exception& e) {
+    throw imaging::InputError(path.string(), std::string("cannot be written as PNG (") + e.what() + ")");
+  }
+  if (!written) throw imaging::InputError(path.string(), "cannot be written as PNG");
+}
+
+}  // namespace occulta::app

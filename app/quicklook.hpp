@@ -1,0 +1,28 @@
+// app/quicklook.hpp — PNG pictures for a person: difference images, polar images and
+// time maps, as 8-bit grey with a one-line caption.
+//
+// Images in occulta keep FITS row order (row 0 = the bottom of the picture); every
+// function here flips them so that north (or height, or the later PA) is up on screen.
+// Values are shown linearly between −limit and +limit (in σ for differences), no data
+// as black. Captions are plain ASCII (OpenCV's Hershey font has no other glyphs).
+#pragma once
+
+#include <filesystem>
+#include <string>
+
+#include <opencv2/core.hpp>
+
+namespace occulta::app {
+
+// Grey 8-bit picture of a float image: −limit → 16, +limit → 255, NaN → 0; flipped so
+// that row 0 is at the bottom; enlarged (nearest neighbour) by an integer factor until it
+// is at least min_size pixels on its shorter side.
+cv::Mat grey_picture(const cv::Mat& values, double limit, int min_size = 360);
+
+// Adds a caption band above the picture (white text on black).
+cv::Mat with_caption(const cv::Mat& picture, const std::string& caption);
+
+// Writes a PNG (cv::imwrite); InputError naming the file when it cannot.
+void write_png(const std::filesystem::path& path, const cv::Mat& picture);
+
+}  // namespace occulta::app
