@@ -279,6 +279,15 @@ Choice choose_image(fitsfile* file, long long file_size, const ByteReader& read,
       needed = row_bytes * rows + heap;
       if (needed <= file_size - data_start) check_tiles(file, width, height, rows, row_bytes, heap, source, where);
     } else {
+      // An image has PCOUNT = 0 and GCOUNT = 1 (FITS Standard 4.0 §7.1.1; in a primary
+      // header they belong to random groups, §6). cfitsio honours other values in any
+      // HDU, placing the pixels after PCOUNT parameters — beyond the data this check
+      // measures (fits_fuzz: a heap overflow reading a memory file past its end).
+      const long long pcount = raw_optional(file, "PCOUNT").value_or(0);
+      const long long gcount = raw_optional(file, "GCOUNT").value_or(1);
+      if (pcount != 0 || gcount != 1)
+        throw InputError(source, where + " has PCOUNT = " + std::to_string(pcount) + " and GCOUNT = " +
+                                     std::to_string(gcount) + ", where an image has 0 and 1 (FITS Standard 4.0 §7.1.1)");
       needed = static_cast<LONGLONG>(std::abs(bitpix) / 8) * width * height;
     }
     const LONGLONG available = file_size > data_start ? file_size - data_start : 0;

@@ -417,6 +417,13 @@ TEST_CASE("fits: bad input is refused with one sentence naming the file") {
   spit(dir / "bitpix_text.fits", fits_file(odd_bitpix, 2880));
   check_refused(dir / "bitpix_text.fits", "BITPIX is \"-3?\", not an integer");
 
+  // Regression case from fits_fuzz: cfitsio places an image's pixels after PCOUNT
+  // parameters even in a primary header, and read a memory file past its end.
+  std::vector<std::string> with_pcount = image_cards(-32, {16, 12});
+  with_pcount.insert(with_pcount.end(), {card("PCOUNT", "840"), card("GCOUNT", "1")});
+  spit(dir / "image_pcount.fits", fits_file(with_pcount, 2880));
+  check_refused(dir / "image_pcount.fits", "its primary image has PCOUNT = 840 and GCOUNT = 1, where an image has 0 and 1");
+
   check_refused(dir / "missing.fits", "does not exist", false);
   check_refused(dir, "folder", false);
 }
