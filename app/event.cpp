@@ -1,9 +1,9 @@
 #include "app/event.hpp"
 
 #include <algorithm>
-#include <fstream>
 #include <glob.h>
 
+#include "fit/json_file.hpp"
 #include "imaging/constants.hpp"
 #include "imaging/input_error.hpp"
 #include "imaging/time.hpp"
@@ -54,14 +54,7 @@ double number_field(const json& object, const char* key, const std::string& wher
 
 Event read_event(const fs::path& path) {
   const std::string file = path.string();
-  std::ifstream in(path);
-  if (!in) throw InputError(file, "cannot be opened");
-  json doc;
-  try {
-    doc = json::parse(in);
-  } catch (const json::parse_error& e) {
-    throw InputError(file, std::string("is not valid JSON (") + e.what() + ")");
-  }
+  const json doc = fit::read_json_file(path);
   if (!doc.is_object()) throw InputError(file, "must hold one JSON object");
 
   Event event;

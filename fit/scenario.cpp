@@ -1,12 +1,12 @@
 #include "fit/scenario.hpp"
 
 #include <cmath>
-#include <fstream>
 #include <regex>
 #include <sstream>
 
 #include <nlohmann/json.hpp>
 
+#include "fit/json_file.hpp"
 #include "imaging/constants.hpp"
 #include "imaging/input_error.hpp"
 #include "imaging/time.hpp"
@@ -111,14 +111,7 @@ ShellParams ScenarioShell::at(double t_s) const {
 
 Scenario read_scenario(const std::filesystem::path& path) {
   const std::string file = path.string();
-  std::ifstream in(path);
-  if (!in) throw InputError(file, "cannot be opened");
-  json doc;
-  try {
-    doc = json::parse(in);
-  } catch (const json::parse_error& e) {
-    throw InputError(file, std::string("is not valid JSON (") + e.what() + ")");
-  }
+  const json doc = read_json_file(path);
 
   const Fields top(doc, "", file);
   Scenario s;

@@ -2,11 +2,11 @@
 
 #include <cmath>
 #include <cstdio>
-#include <fstream>
 #include <random>
 
 #include <opencv2/imgproc.hpp>
 
+#include "fit/json_file.hpp"
 #include "fit/render.hpp"
 #include "imaging/constants.hpp"
 #include "imaging/fits.hpp"
@@ -82,18 +82,6 @@ void add_cosmic_rays(cv::Mat& image_dn, int count, std::mt19937_64& rng) {
     for (int j = 0; j < n && x >= 0 && y >= 0 && x < image_dn.cols && y < image_dn.rows; ++j, x += dx[d], y += dy[d])
       image_dn.at<float>(y, x) += a;
   }
-}
-
-// Whole or not at all: written beside the target, then renamed over it.
-void write_json(const fs::path& path, const json& doc) {
-  const fs::path tmp = path.string() + ".part";
-  {
-    std::ofstream out(tmp);
-    if (!out) throw imaging::InputError(path.string(), "cannot be written");
-    out << doc.dump(2) << '\n';
-    if (!out) throw imaging::InputError(path.string(), "could not be written in full");
-  }
-  fs::rename(tmp, path);
 }
 
 BackgroundCorona background_model(const std::string& name) {
@@ -253,7 +241,7 @@ SynthResult synthesize(const Scenario& s, const fs::path& out_dir, const SynthPr
                                   {"end", imaging::iso_from_utc_seconds(s.frame_time(s.frames - 1), 3)}}},
                       {"base_time", imaging::iso_from_utc_seconds(s.frame_time(0), 3)}};
   result.event_file = out_dir / (s.id + ".event.json");
-  write_json(result.event_file, event);
+  write_json_file(result.event_file, event);
 
   json observers = json::array();
   for (const auto& o : s.observers)
@@ -282,7 +270,7 @@ SynthResult synthesize(const Scenario& s, const fs::path& out_dir, const SynthPr
         {"sheath_fraction", s.shell.sheath_fraction}}},
       {"frames", truth_frames}};
   result.truth_file = out_dir / (s.id + ".truth.json");
-  write_json(result.truth_file, truth);
+  write_json_file(result.truth_file, truth);
   return result;
 }
 

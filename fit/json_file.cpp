@@ -1,0 +1,32 @@
+#include "fit/json_file.hpp"
+
+#include <fstream>
+
+#include "imaging/input_error.hpp"
+
+namespace occulta::fit {
+
+nlohmann::json read_json_file(const std::filesystem::path& path) {
+  std::ifstream in(path);
+  if (!in) throw imaging::InputError(path.string(), "cannot be opened");
+  try {
+    return nlohmann::json::parse(in);
+  } catch (const nlohmann::json::parse_error& e) {
+    throw imaging::InputError(path.string(), std::string("is not valid JSON (") + e.what() + ")");
+  }
+}
+
+void write_json_file(const std::filesystem::path& path, const nlohmann::json& doc) {
+  const std::filesystem::path pending = path.string() + ".part";
+  {
+    std::ofstream out(pending);
+    if (!out) throw imaging::InputError(path.string(), "cannot be written");
+    out << doc.dump(2) << '\n';
+    if (!out) throw imaging::InputError(path.string(), "could not be written in full");
+  }
+  std::error_code error;
+  std::filesystem::rename(pending, path, error);
+  if (error) throw imaging::InputError(path.string(), "could not be moved into place (" + error.message() + ")");
+}
+
+}  // namespace occulta::fit

@@ -1,0 +1,15 @@
+// fit/json_file.hpp — occulta's JSON files (scenario, truth, event, result) in and out.
+// Reading: an InputError naming the file when it cannot be opened or parsed. Writing:
+// the file appears whole or not at all (written beside it, then renamed).
+#pragma once
+
+#include <filesystem>
+
+#include <nlohmann/json.hpp>
+
+namespace occulta::fit {
+
+nlohmann::json read_json_file(const std::filesystem::path& path);
+void write_json_file(const std::filesystem::path& path, const nlohmann::json& doc);
+
+}  // namespace occulta::fit
