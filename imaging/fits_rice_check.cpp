@@ -30,34 +30,48 @@ namespace occulta::imaging::fits_detail {
 
 namespace {
 
-// Bits of a byte string, most significant first, with the count of those left.
+// Bits of a byte string, most significant first, through a 64-bit buffer refilled a
+// word at a time (a decoder's usual reader; the trace runs on every compressed read).
 class BitReader {
  public:
-  BitReader(const unsigned char* data, std::size_t size) : data_(data), size_(size), end_(std::uint64_t{size} * 8) {}
+  BitReader(const unsigned char* data, std::size_t size) : data_(data), size_(size) {}
 
-  std::uint64_t position() const { return bit_; }
-  std::uint64_t left() const { return end_ - bit_; }
-  void skip(std::uint64_t count) { bit_ += count; }
+  std::uint64_t position() const { return std::uint64_t{next_} * 8 - static_cast<std::uint64_t>(available_); }
 
-  // The next bits, left-aligned in 64: at least 57 of them are the stream's when
-  // left() ≥ 64; past the end they are zeros (callers check left() before trusting them).
-  std::uint64_t peek() const {
-    const std::size_t byte = static_cast<std::size_t>(bit_ >> 3);
-    std::uint64_t word = 0;
-    if (byte + 8 <= size_) {
-      std::memcpy(&word, data_ + byte, 8);
+  // Makes at least 56 bits available, or all that remain.
+  void refill() {
+    if (next_ + 8 <= size_) {
+      std::uint64_t word = 0;
+      std::memcpy(&word, data_ + next_, 8);
       if constexpr (std::endian::native == std::endian::little) word = __builtin_bswap64(word);
+      // Bits past the available ones are already the stream's next bits or zeros, so
+      // OR-ing the word in again is harmless; only whole bytes are counted as taken.
+      buffer_ |= word >> available_;
+      next_ += static_cast<std::size_t>(63 - available_) >> 3;
+      available_ |= 56;
     } else {
-      for (std::size_t i = 0; i < 8; ++i) word = word << 8 | (byte + i < size_ ? data_[byte + i] : 0u);
+      while (available_ < 56 && next_ < size_) {  // at most 63 after: consume() < 64
+        buffer_ |= std::uint64_t{data_[next_++]} << (56 - available_);
+        available_ += 8;
+      }
     }
-    return word << (bit_ & 7);
+  }
+
+  // The buffer, left-aligned: available() bits are the stream's, those after them the
+  // stream's next bits or zeros.
+  std::uint64_t bits() const { return buffer_; }
+  int available() const { return available_; }
+  void consume(int count) {  // count ≤ available() < 64
+    buffer_ <<= count;
+    available_ -= count;
   }
 
  private:
   const unsigned char* data_;
   std::size_t size_;
-  std::uint64_t end_;
-  std::uint64_t bit_ = 0;
+  std::size_t next_ = 0;  // next byte to load
+  std::uint64_t buffer_ = 0;
+  int available_ = 0;
 };
 
 std::string count_of(long long n, const char* one, const char* many) {
@@ -102,17 +116,28 @@ RiceTrace trace_rice(std::span<const unsigned char> bytes, long long pixels, int
                 " bits of its data");
   };
 
+  // Skips `count` bits, or says they are not there.
+  auto skip = [&](std::uint64_t count) {
+    while (count > 0) {
+      bits.refill();
+      const int take = static_cast<int>(std::min<std::uint64_t>(count, static_cast<std::uint64_t>(bits.available())));
+      if (take == 0) return false;
+      bits.consume(take);
+      count -= static_cast<std::uint64_t>(take);
+    }
+    return true;
+  };
+
   while (done < pixels) {
     const long long block = std::min<long long>(blocksize, pixels - done);
-    if (bits.left() < static_cast<std::uint64_t>(fsbits)) return past_end();
-    const int fs = static_cast<int>(bits.peek() >> (64 - fsbits)) - 1;
-    bits.skip(fsbits);
+    bits.refill();
+    if (bits.available() < fsbits) return past_end();
+    const int fs = static_cast<int>(bits.bits() >> (64 - fsbits)) - 1;
+    bits.consume(fsbits);
     if (fs < 0) {
       // Low-entropy block: no bits follow.
     } else if (fs == fsmax) {
-      const std::uint64_t raw = static_cast<std::uint64_t>(block) * static_cast<std::uint64_t>(bbits);
-      if (bits.left() < raw) return past_end();
-      bits.skip(raw);
+      if (!skip(static_cast<std::uint64_t>(block) * static_cast<std::uint64_t>(bbits))) return past_end();
     } else if (fs > fsmax) {
       // Only 32-bit codes have room for this (5 bits hold up to 30).
       return fail("the block at pixel " + std::to_string(done + 1) + " asks for " + std::to_string(fs) +
@@ -120,38 +145,36 @@ RiceTrace trace_rice(std::span<const unsigned char> bytes, long long pixels, int
                   "-bit data can have");
     } else {
       const std::uint64_t most_zeros = widest >> fs;  // (zeros << fs) | low bits ≤ widest
-      const std::uint64_t tail = static_cast<std::uint64_t>(fs) + 1;
+      const int tail = fs + 1;                         // the unary code's 1, then fs bits
       for (long long i = 0; i < block; ++i) {
-        std::uint64_t word = bits.peek();
-        // Common case: the unary code and the low bits lie within the next 57 bits.
-        if (bits.left() >= 64 && word != 0) {
-          const auto zeros = static_cast<std::uint64_t>(std::countl_zero(word));
-          if (zeros + tail <= 57) {
-            if (zeros > most_zeros) return too_wide(done + i);
-            bits.skip(zeros + tail);
+        if (bits.available() < 32) bits.refill();
+        // Common case: the unary code and the low bits are in the buffer.
+        if (const std::uint64_t word = bits.bits(); word != 0) {
+          const int zeros = std::countl_zero(word);
+          if (zeros + tail <= bits.available()) {
+            if (static_cast<std::uint64_t>(zeros) > most_zeros) return too_wide(done + i);
+            bits.consume(zeros + tail);
             continue;
           }
         }
-        // Long unary codes and the tile's last bytes: count zeros word by word.
+        // A long unary code, or the tile's last bits: count zeros buffer by buffer.
         std::uint64_t zeros = 0;
         for (;;) {
-          const std::uint64_t left = bits.left();
-          if (left == 0) return past_end();
-          word = bits.peek();
-          const std::uint64_t span = std::min<std::uint64_t>(left, 57);
-          const auto leading = static_cast<std::uint64_t>(std::countl_zero(word));  // 64 when word is 0
-          if (leading < span) {
-            zeros += leading;
-            bits.skip(leading + 1);
+          bits.refill();
+          const int available = bits.available();
+          if (available == 0) return past_end();
+          const int leading = std::countl_zero(bits.bits());  // 64 when the buffer is 0
+          if (leading < available) {
+            zeros += static_cast<std::uint64_t>(leading);
+            bits.consume(leading + 1);
             break;
           }
-          zeros += span;
-          bits.skip(span);
-          if (zeros > most_zeros) break;
+          zeros += static_cast<std::uint64_t>(available);
+          bits.consume(available);
+          if (zeros > most_zeros) return too_wide(done + i);
         }
         if (zeros > most_zeros) return too_wide(done + i);
-        if (bits.left() < static_cast<std::uint64_t>(fs)) return past_end();
-        bits.skip(static_cast<std::uint64_t>(fs));
+        if (!skip(static_cast<std::uint64_t>(fs))) return past_end();
       }
     }
     done += block;

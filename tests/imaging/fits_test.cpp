@@ -424,6 +424,18 @@ TEST_CASE("fits: bad input is refused with one sentence naming the file") {
   spit(dir / "image_pcount.fits", fits_file(with_pcount, 2880));
   check_refused(dir / "image_pcount.fits", "its primary image has PCOUNT = 840 and GCOUNT = 1, where an image has 0 and 1");
 
+  // Regression cases from fits_fuzz: an unquoted column name of 70 characters overflowed
+  // cfitsio's 70-byte field (ffgtbp); a ZTENSION cfitsio could not rebuild the image
+  // header from leaked the header text.
+  std::vector<std::string> long_name = table;
+  long_name.push_back("TTYPE1  = " + std::string(70, 'x'));
+  spit(dir / "table_unquoted_ttype.fits", primary + fits_file(long_name, 2880));
+  check_refused(dir / "table_unquoted_ttype.fits", "HDU 2 is malformed: TTYPE1 is not a quoted text value");
+  std::vector<std::string> no_space_name = table;
+  no_space_name.push_back("TTYPE1  =" + std::string(71, '\xda'));
+  spit(dir / "table_ttype_no_indicator.fits", primary + fits_file(no_space_name, 2880));
+  check_refused(dir / "table_ttype_no_indicator.fits", "TTYPE1 is not a quoted text value");
+
   check_refused(dir / "missing.fits", "does not exist", false);
   check_refused(dir, "folder", false);
 }
@@ -464,6 +476,21 @@ TEST_CASE("fits: float32 round trip is exact and the file passes fitsverify") {
   CHECK(reference["header"]["NOTE"] == std::string(90, 'x') + " end");
   CHECK(reference["header"]["DSUN_OBS"].get<double>() == header.number("DSUN_OBS"));
   CHECK(reference["header"]["NSUM"].get<long long>() == 9007199254740993LL);
+}
+
+TEST_CASE("fits: a compressed image whose header cfitsio cannot rebuild is refused without a leak") {
+  // Regression case from fits_fuzz: an unquoted 70-character ZTENSION in a Rice frame's
+  // table makes cfitsio fail to rebuild the image header, and the text it had allocated
+  // leaked (LeakSanitizer) because it was freed with the failed status.
+  const fs::path dir = scratch_dir("fits-ztension");
+  write_fits(dir / "frame.fits", cv::Mat(4, 6, CV_32FC1, cv::Scalar(3.0f)), test_header(),
+             FitsWriteOptions{FitsWriteOptions::Pixels::ScaledInt16, true});
+  std::string bytes = slurp(dir / "frame.fits");
+  const std::size_t date = bytes.find("DATE-OBS=", 2880);
+  REQUIRE(date != std::string::npos);
+  bytes.replace(date, 80, "ZTENSION= " + std::string(70, 'x'));
+  spit(dir / "bad_ztension.fits", bytes);
+  check_refused(dir / "bad_ztension.fits", "");
 }
 
 TEST_CASE("fits: scaled int16 round trip is within BSCALE/2") {
