@@ -7,6 +7,7 @@
 #include "app/demo.hpp"
 #include "app/inspect.hpp"
 #include "app/maps.hpp"
+#include "app/measure.hpp"
 #include "app/synth.hpp"
 
 namespace occulta::app {
@@ -41,9 +42,21 @@ int run(int argc, char** argv) {
       ->capture_default_str()->check(CLI::IsMember({0, 3, 5}));
   maps_cmd->add_flag("--nrgf", maps_options.nrgf, "Also write an NRGF-filtered polar frame (Morgan et al. 2006)");
 
+  MeasureOptions measure_options;
+  auto* measure_cmd = cli.add_subcommand("measure", "Find the CME in each view and fit its sky-plane kinematics");
+  measure_cmd->add_option("input", measure_options.input, "Event file (*.event.json) or a folder of FITS frames")
+      ->required();
+  measure_cmd->add_option("--out", measure_options.out_dir, "Folder to write into (made if missing)")->required();
+  measure_cmd->add_option("--track", measure_options.track, "Track file whose points replace the automatic ones")
+      ->check(CLI::ExistingFile);
+  measure_cmd->add_option("--median", measure_options.median, "Median filter size against cosmic rays (0, 3 or 5)")
+      ->capture_default_str()->check(CLI::IsMember({0, 3, 5}));
+  measure_cmd->add_flag("--quiet", measure_options.quiet, "No summary table");
+
   DemoOptions demo_options;
   auto* demo_cmd = cli.add_subcommand("demo", "Run the main job on the committed sample event");
   demo_cmd->add_option("--sample", demo_options.sample_dir, "The sample event's folder")->capture_default_str();
+  demo_cmd->add_option("--out", demo_options.out_dir, "Folder for what the demo measures")->capture_default_str();
 
   try {
     cli.parse(argc, argv);
@@ -62,6 +75,7 @@ int run(int argc, char** argv) {
     if (*inspect_cmd) return inspect(inspect_options, std::cout, std::cerr);
     if (*synth_cmd) return synth(synth_options, std::cout, std::cerr);
     if (*maps_cmd) return maps(maps_options, std::cout, std::cerr);
+    if (*measure_cmd) return measure(measure_options, std::cout, std::cerr);
     if (*demo_cmd) return demo(demo_options, std::cout, std::cerr);
   } catch (const std::exception& e) {
     std::cerr << "occulta: " << e.what() << '\n';

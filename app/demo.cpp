@@ -1,6 +1,7 @@
 #include "app/demo.hpp"
 
 #include <algorithm>
+#include <cstdio>
 #include <cmath>
 #include <filesystem>
 #include <iomanip>
@@ -9,6 +10,9 @@
 
 #include "app/event.hpp"
 #include "app/inspect.hpp"
+#include "app/measure.hpp"
+#include "fit/json_file.hpp"
+#include "fit/truth.hpp"
 #include "imaging/input_error.hpp"
 #include "imaging/time.hpp"
 
@@ -72,8 +76,34 @@ int demo(const DemoOptions& options, std::ostream& out, std::ostream& err) {
     for (const auto& p : problems) err << "  problem: " << p << '\n';
     for (const auto& n : notes) err << "  note: " << n << '\n';
   }
-  out << "\nEvery frame: `occulta inspect " << options.sample_dir << "`.\n";
-  return all_ok ? 0 : 1;
+  out << "\nEvery frame: `occulta inspect " << options.sample_dir << "`.\n\n";
+
+  // Measure, and compare with the scenario's truth where the sample has one.
+  MeasureOptions m;
+  m.input = event.path.string();
+  m.out_dir = options.out_dir;
+  const nlohmann::json result = run_measure(m, err);
+  out << "Measured (occulta measure " << m.input << " --out " << m.out_dir << "): " << result["status"].get<std::string>()
+      << "\n";
+  print_result_table(result, out);
+  const fs::path truth_path = fs::path(options.sample_dir) / (event.id + ".truth.json");
+  if (fs::exists(truth_path)) {
+    const nlohmann::json truth = fit::read_json_file(truth_path);
+    out << "\nTruth of the scenario (" << truth_path.string() << "), as each view should see it:\n";
+    for (const EventView& view : event.views) {
+      const double lo = view.occulter_rs ? (*view.occulter_rs)[0] + 0.5 : 3.0;
+      const double hi = view.occulter_rs ? (*view.occulter_rs)[1] - 0.5 : 14.0;
+      const fit::ViewTruth t = fit::view_truth(truth, view.name, lo, hi);
+      char line[200];
+      std::snprintf(line, sizeof line, "%-9s      %9.1f°  %.0f–%.0f°       %8.1f°  %7.0f sky-plane leading edge; apex PA %.1f°",
+                    view.name.c_str(), t.central_pa_deg, std::fmod(t.pa_from_deg + 360.0, 360.0),
+                    std::fmod(t.pa_to_deg + 360.0, 360.0), t.width_deg, t.sky_speed_km_s, t.apex_pa_deg);
+      out << line << '\n';
+    }
+  }
+  out << "\nQuicklooks: " << options.out_dir << "/<view>/time_height.png (track and fit), " << options.out_dir
+      << "/<view>/front.png (front and PA span); result: " << options.out_dir << "/result.json\n";
+  return all_ok && result["status"] == "ok" ? 0 : 1;
 }
 
 }  // namespace occulta::app

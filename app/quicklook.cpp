@@ -24,10 +24,18 @@ cv::Mat grey_picture(const cv::Mat& values, double limit, int min_size) {
       out[x] = static_cast<uchar>(16.0 + u * 239.0 + 0.5);
     }
   }
-  const int shorter = std::max(1, std::min(picture.rows, picture.cols));
-  const int factor = std::max(1, (min_size + shorter - 1) / shorter);
+  const int factor = picture_scale(values, min_size);
   if (factor > 1) cv::resize(picture, picture, cv::Size(), factor, factor, cv::INTER_NEAREST);
   return picture;
+}
+
+int picture_scale(const cv::Mat& values, int min_size) {
+  const int shorter = std::max(1, std::min(values.rows, values.cols));
+  return std::max(1, (min_size + shorter - 1) / shorter);
+}
+
+cv::Point2d picture_point(double x, double y, int rows, int scale) {
+  return {(x + 0.5) * scale, (rows - 1 - y + 0.5) * scale};
 }
 
 cv::Mat with_caption(const cv::Mat& picture, const std::string& caption) {

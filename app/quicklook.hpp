@@ -19,7 +19,14 @@ namespace occulta::app {
 // is at least min_size pixels on its shorter side.
 cv::Mat grey_picture(const cv::Mat& values, double limit, int min_size = 360);
 
-// Adds a caption band above the picture (white text on black).
+// The integer enlargement grey_picture applies to an image of this size.
+int picture_scale(const cv::Mat& values, int min_size = 360);
+
+// Where a value pixel (x, y) of the image — FITS row order, row 0 at the bottom — lands in
+// its picture (pixel centres, after the flip and the enlargement by `scale`).
+cv::Point2d picture_point(double x, double y, int rows, int scale);
+
+// Adds a caption band above the picture (white text on black, or on the colour picture).
 cv::Mat with_caption(const cv::Mat& picture, const std::string& caption);
 
 // Writes a PNG (cv::imwrite); InputError naming the file when it cannot.

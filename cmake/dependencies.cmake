@@ -8,6 +8,7 @@ find_package(nlohmann_json 3.10 REQUIRED)
 find_package(CLI11 REQUIRED)
 find_package(doctest REQUIRED)
 find_package(Threads REQUIRED)
+find_package(OpenSSL REQUIRED)  # SHA-256 of the inputs, for a result's provenance
 
 # OpenCV: Debian's per-module -dev packages ship headers and libraries but the CMake
 # config only comes with the full meta-package, so the three modules we use are found here.

@@ -1,0 +1,37 @@
+// app/measure.hpp — `occulta measure EVENT|DIR --out DIR [--track FILE]`: per view, where
+// the CME is (central PA, PA span, sky width), how its leading edge moves on the sky
+// (speed, acceleration, with σ), when it started (onset at 1 R☉) and when it passes
+// 21.5 R☉ on the sky plane. Writes DIR/result.json (schemas/result.schema.json),
+// DIR/result.csv (one row), DIR/track.json (the points used) and per view quicklooks
+// DIR/<view>/time_height.png (track and fit over the data) and
+// DIR/<view>/front.png (the last running difference with the front and the PA span).
+//
+// Input: an event file, or a folder of FITS frames grouped into views by observer
+// (OBSRVTRY, else TELESCOP, else the observer's position to 1°).
+#pragma once
+
+#include <iosfwd>
+#include <string>
+
+#include <nlohmann/json.hpp>
+
+namespace occulta::app {
+
+struct MeasureOptions {
+  std::string input;      // event file or folder
+  std::string out_dir;
+  std::string track;      // optional track file: its points replace the automatic ones
+  int median = 5;         // median filter against cosmic-ray tracks (0, 3, 5)
+  bool quiet = false;     // no summary table
+};
+
+// Runs the measurement; returns the result document it wrote (also for the demo).
+nlohmann::json run_measure(const MeasureOptions& options, std::ostream& err);
+
+// The verb: run_measure, then a summary table. Exit 0 for "ok", 1 otherwise.
+int measure(const MeasureOptions& options, std::ostream& out, std::ostream& err);
+
+// The summary table of a result (one line per view).
+void print_result_table(const nlohmann::json& result, std::ostream& out);
+
+}  // namespace occulta::app
