@@ -142,6 +142,29 @@ void check_mandatory_cards(const ByteReader& read, long long offset, int hdu_num
         throw InputError(source, hdu + key + " is not a quoted text value (FITS Standard 4.0 §7.3.2)");
     }
   }
+  // The Rice parameters of the tiled convention (Pence et al. 2009 §4: ZNAMEn =
+  // 'BLOCKSIZE' or 'BYTEPIX' names ZVALn) are positive integers: cfitsio 4.2 divides by
+  // the block size on entering the HDU (fits_fuzz: ZVAL1 = "0   32", read as 0).
+  std::vector<std::string> rice_values;
+  for (std::size_t index = 1; index < bytes.size() / 80 && card(index).substr(0, 3) != "END"; ++index) {
+    const std::string_view text = card(index);
+    if (!text.starts_with("ZNAME") || text.size() < 11 || text[8] != '=') continue;
+    std::string_view value = text.substr(10);
+    while (!value.empty() && (value.front() == ' ' || value.front() == '\'')) value.remove_prefix(1);
+    if (value.starts_with("BLOCKSIZE") || value.starts_with("BYTEPIX")) {
+      std::string number(text.substr(5, 3));
+      while (!number.empty() && number.back() == ' ') number.pop_back();
+      rice_values.push_back("ZVAL" + number);
+    }
+  }
+  for (std::size_t index = 1; !rice_values.empty() && index < bytes.size() / 80 && card(index).substr(0, 3) != "END";
+       ++index) {
+    std::string key(card(index).substr(0, 8));
+    while (!key.empty() && key.back() == ' ') key.pop_back();
+    if (std::find(rice_values.begin(), rice_values.end(), key) != rice_values.end() && card(index)[8] == '=' &&
+        integer(index, key) < 1)
+      throw InputError(source, hdu + key + " is not a positive integer (tiled image convention, Pence et al. 2009 §4)");
+  }
   // Bytes after the last HDU that do not begin an extension are cfitsio's to judge
   // (it stops there, as §3.5 allows special records); SIMPLE was checked by check_start().
   const std::string_view first = card(0);

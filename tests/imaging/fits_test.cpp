@@ -404,6 +404,16 @@ TEST_CASE("fits: bad input is refused with one sentence naming the file") {
                                                      "ZTILE1  =0                  16", card("ZCMPTYPE", "'RICE_1'")});
   spit(dir / "tile_no_indicator.fits", primary + fits_file(tile_no_indicator, 2880));
   check_refused(dir / "tile_no_indicator.fits", "ZTILE1 has \"=\" without the space after it");
+  // Regression case from fits_fuzz: cfitsio read a Rice block size "0   32" as 0 and
+  // divided by it on entering the HDU.
+  std::vector<std::string> zero_block = tile_no_indicator;
+  zero_block[14] = card("ZTILE1", "16");
+  zero_block.insert(zero_block.end(), {card("ZNAME1", "'BLOCKSIZE'"), card("ZVAL1", "0   32")});
+  spit(dir / "rice_block_text.fits", primary + fits_file(zero_block, 2880));
+  check_refused(dir / "rice_block_text.fits", "ZVAL1 is \"0   32\", not an integer");
+  zero_block.back() = card("ZVAL1", "0");
+  spit(dir / "rice_block_zero.fits", primary + fits_file(zero_block, 2880));
+  check_refused(dir / "rice_block_zero.fits", "ZVAL1 is not a positive integer");
   std::vector<std::string> no_tfields = table;
   no_tfields.erase(no_tfields.begin() + 7);
   spit(dir / "table_no_tfields.fits", primary + fits_file(no_tfields, 2880));
