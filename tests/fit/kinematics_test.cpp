@@ -344,7 +344,8 @@ TEST_CASE("kinematics: onset and 21.5 Rs times invert the fitted law exactly") {
     REQUIRE(fit.boundary.found);
     const double v = fit.law.speed_km_s * kRsPerKm;  // R☉/s
     for (const auto& [crossing, height] : {std::pair{fit.onset, kOnsetHeightRs}, std::pair{fit.boundary, kBoundaryHeightRs}}) {
-      CAPTURE(height);
+      const double target_rs = height;  // named copy: clang 14 cannot capture a structured binding
+      CAPTURE(target_rs);
       const double tau = (height - fit.law.height_rs) / v;  // exact inverse of h = h₀ + v τ
       CHECK(crossing.time_s == doctest::Approx(fit.law.ref_time_s + tau).epsilon(1e-12));
       CHECK(fit.law.height_at(crossing.time_s) == doctest::Approx(height).epsilon(1e-9));
@@ -365,7 +366,8 @@ TEST_CASE("kinematics: onset and 21.5 Rs times invert the fitted law exactly") {
     REQUIRE(fit.onset.found);
     const double v = fit.law.speed_km_s * kRsPerKm, a = fit.law.accel_m_s2 * kRsPerKm / 1000.0;
     for (const auto& [crossing, height] : {std::pair{fit.onset, kOnsetHeightRs}, std::pair{fit.boundary, kBoundaryHeightRs}}) {
-      CAPTURE(height);
+      const double target_rs = height;  // named copy: clang 14 cannot capture a structured binding
+      CAPTURE(target_rs);
       REQUIRE(crossing.found);
       // Textbook quadratic formula, both roots of ½ a τ² + v τ + (h₀ − H) = 0.
       const double c = fit.law.height_rs - height;
