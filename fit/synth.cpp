@@ -111,7 +111,7 @@ imaging::GeometrySpec frame_geometry(const Scenario& s, int view, int frame) {
   return spec;
 }
 
-SkyTruth sky_truth(const ShellParams& shell, const imaging::Observer& observer) {
+SkyTruth sky_truth(const ShellParams& shell, const imaging::Observer& observer, double visible_from_rs) {
   const ShellMesh mesh = make_mesh(shell, MeshResolution{24, 96, 48});
   const SkyOutline outline = sky_outline(mesh, shell, observer, 1.0);
   SkyTruth t;
@@ -126,6 +126,24 @@ SkyTruth sky_truth(const ShellParams& shell, const imaging::Observer& observer) 
     t.leading_edge_rs = std::max(t.leading_edge_rs, h);
     const int d = std::min((i - apex_bin + bins) % bins, (apex_bin - i + bins) % bins);
     if (d <= 1) t.leading_edge_at_apex_pa_rs = std::max(t.leading_edge_at_apex_pa_rs, h);
+  }
+  // Visible span: walk out from the apex bin both ways while bins show the shell above
+  // the occulter (a gap of up to 2 bins is bridged: the mesh is sampled, not continuous).
+  const auto visible = [&](int i) {
+    const double h = outline.max_height_rs[((i % bins) + bins) % bins];
+    return !std::isnan(h) && h >= visible_from_rs;
+  };
+  t.visible_pa_from_deg = t.visible_pa_to_deg = NAN;
+  int lo = apex_bin, hi = apex_bin, gap = 0;
+  bool any = visible(apex_bin);
+  for (int k = 1; k < bins && gap <= 2; ++k) gap = visible(apex_bin - k) ? (lo = apex_bin - k, any = true, 0) : gap + 1;
+  gap = 0;
+  for (int k = 1; k < bins && gap <= 2 && hi - lo < bins; ++k)
+    gap = visible(apex_bin + k) ? (hi = apex_bin + k, any = true, 0) : gap + 1;
+  if (any) {
+    const double apex_bin_start = apex_bin * outline.bin_deg;
+    t.visible_pa_from_deg = t.apex_pa_deg + (lo * outline.bin_deg - apex_bin_start) - (t.apex_pa_deg - apex_bin_start);
+    t.visible_pa_to_deg = t.apex_pa_deg + ((hi + 1) * outline.bin_deg - apex_bin_start) - (t.apex_pa_deg - apex_bin_start);
   }
   return t;
 }
@@ -147,9 +165,12 @@ SynthResult synthesize(const Scenario& s, const fs::path& out_dir, const SynthPr
     const ShellParams shell = s.shell.at(t);
     json per_view = json::object();
     for (int v = 0; v < views; ++v) {
-      const SkyTruth st = sky_truth(shell, observer_of(s.observers[v]));
+      const SkyTruth st = sky_truth(shell, observer_of(s.observers[v]), s.occulter_inner_rs);
       per_view[s.observers[v].name] = {{"apex_pa_deg", st.apex_pa_deg},
                                        {"pa_span_deg", {st.pa_from_deg, st.pa_to_deg}},
+                                       {"visible_pa_span_deg", std::isnan(st.visible_pa_from_deg)
+                                                                   ? json(nullptr)
+                                                                   : json({st.visible_pa_from_deg, st.visible_pa_to_deg})},
                                        {"sky_leading_edge_rs", st.leading_edge_rs},
                                        {"sky_leading_edge_at_apex_pa_rs", st.leading_edge_at_apex_pa_rs}};
     }

@@ -32,8 +32,12 @@ struct SkyTruth {
   double pa_from_deg = 0.0, pa_to_deg = 0.0;  // extreme PAs of the projection (unwrapped)
   double leading_edge_rs = 0.0;          // largest plane-of-sky height of the projection
   double leading_edge_at_apex_pa_rs = 0.0;  // the same within ±1° of the apex PA
+  // The PAs where some of the shell shows above the occulter (sky height ≥ visible_from_rs),
+  // unwrapped about the apex PA like pa_from/pa_to; NaN when none does. What a view can
+  // measure as the CME's span.
+  double visible_pa_from_deg = 0.0, visible_pa_to_deg = 0.0;
 };
-SkyTruth sky_truth(const ShellParams& shell, const imaging::Observer& observer);
+SkyTruth sky_truth(const ShellParams& shell, const imaging::Observer& observer, double visible_from_rs);
 
 struct SynthResult {
   std::filesystem::path event_file, truth_file;
