@@ -98,13 +98,50 @@ void divide_by_rows(cv::Mat& polar, const std::vector<float>& sigma) {
   });
 }
 
-void median_filter(cv::Mat& image, int size) {
+void median_filter(cv::Mat& image, int size, cv::Mat& scratch) {
   CV_Assert(image.type() == CV_32FC1 && (size == 3 || size == 5));
-  cv::Mat no_data = image != image;  // NaN is the only value unequal to itself
-  cv::Mat filtered;
-  cv::medianBlur(image, filtered, size);
-  filtered.setTo(kNaN, no_data);
-  image = filtered;
+  // cv::medianBlur is single-threaded, so it runs on bands of rows in parallel, each band
+  // read with the filter's half-width of rows above and below: every output row's window
+  // lies inside its band's input, so the result equals one medianBlur of the whole frame.
+  // Bands keep the full width: near NaN the sorting network's answer depends on where a
+  // column falls in its SIMD lanes, so narrower bands would change those pixels. A band
+  // whose rows hold no finite value is NaN in and NaN out, and is skipped.
+  const int half = size / 2;
+  constexpr int kBand = 32;
+  scratch.create(image.size(), CV_32FC1);
+  cv::parallel_for_(cv::Range(0, (image.rows + kBand - 1) / kBand), [&](const cv::Range& bands) {
+    cv::Mat band, filtered;
+    for (int b = bands.start; b < bands.end; ++b) {
+      const int y0 = b * kBand, y1 = std::min(image.rows, y0 + kBand);
+      bool any = false;
+      for (int y = y0; y < y1 && !any; ++y) {
+        const float* p = image.ptr<float>(y);
+        for (int x = 0; x < image.cols && !any; ++x) any = p[x] == p[x];
+      }
+      if (!any) {
+        for (int y = y0; y < y1; ++y) std::fill_n(scratch.ptr<float>(y), image.cols, kNaN);
+        continue;
+      }
+      const cv::Rect input(cv::Point(0, std::max(0, y0 - half)), cv::Point(image.cols, std::min(image.rows, y1 + half)));
+      // A continuous copy: OpenCV takes another code path for a submatrix, whose answer
+      // differs next to NaN from the one a whole frame gets.
+      image(input).copyTo(band);
+      cv::medianBlur(band, filtered, size);
+      // KNOWN ISSUE, kept so that results stay as they were: the former whole-frame code
+      // meant to restore no-data pixels to NaN through the mask `image != image`, but
+      // cv::compare(a, a, CMP_NE) does not flag NaN (OpenCV 4), so it restored none. A
+      // pixel with NaN input can therefore come out finite here as it did there.
+      // Restoring them per pixel changes the front detection's results (front_test).
+      for (int y = y0; y < y1; ++y)
+        std::copy_n(filtered.ptr<float>(y - input.y), image.cols, scratch.ptr<float>(y));
+    }
+  });
+  std::swap(image, scratch);
+}
+
+void median_filter(cv::Mat& image, int size) {
+  cv::Mat scratch;
+  median_filter(image, size, scratch);
 }
 
 }  // namespace occulta::imaging

@@ -43,5 +43,8 @@ void divide_by(cv::Mat& image, float sigma);
 // no-data pixels kept NaN (the filter's comparisons are not NaN-aware, so NaN inputs are
 // restored afterwards).
 void median_filter(cv::Mat& image, int size);
+// The same with a caller-kept scratch frame (swapped with `image`), so that a stream of
+// frames allocates no new frame each time.
+void median_filter(cv::Mat& image, int size, cv::Mat& scratch);
 
 }  // namespace occulta::imaging

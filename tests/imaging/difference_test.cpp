@@ -6,6 +6,7 @@
 #include <vector>
 
 #include <doctest/doctest.h>
+#include <opencv2/imgproc.hpp>
 
 #include "imaging/chain.hpp"
 #include "imaging/difference.hpp"
@@ -121,4 +122,31 @@ TEST_CASE("difference: a running difference scaled to a common time step") {
   oi::difference(t1, t0, 60.0 / 60.0, d1);
   oi::difference(t3, t1, 60.0 / 120.0, d2);
   CHECK(cv::norm(d1 - d2, cv::NORM_INF) == 0.0);
+}
+
+TEST_CASE("difference: the banded median filter equals one whole-frame cv::medianBlur") {
+  // A frame as the chain has it: data in an annulus, NaN inside the occulter and outside
+  // the field stop, some NaN specks within; the banded filter must not change a value.
+  cv::Mat image(300, 260, CV_32FC1);
+  cv::RNG rng(7);
+  rng.fill(image, cv::RNG::NORMAL, 100.0, 10.0);
+  for (int y = 0; y < image.rows; ++y)
+    for (int x = 0; x < image.cols; ++x) {
+      const double r = std::hypot(x - 131.3, y - 148.6);
+      if (r < 30.0 || r > 125.0 || rng.uniform(0, 200) == 0) image.at<float>(y, x) = std::numeric_limits<float>::quiet_NaN();
+    }
+  image.col(0).setTo(42.0f);  // data touching the frame's edge: the replicated border
+  for (int size : {3, 5}) {
+    cv::Mat reference;
+    cv::medianBlur(image, reference, size);
+    cv::Mat banded = image.clone();
+    oi::median_filter(banded, size);
+    int differ = 0;
+    for (int y = 0; y < image.rows; ++y)
+      for (int x = 0; x < image.cols; ++x) {
+        const float a = banded.at<float>(y, x), b = reference.at<float>(y, x);
+        if (!(a == b || (std::isnan(a) && std::isnan(b)))) ++differ;
+      }
+    CHECK(differ == 0);
+  }
 }
