@@ -1,0 +1,93 @@
+// imaging/front.hpp — the CME in one view's polar running differences: where it is
+// (PA span, central PA, sky width), when it starts (onset frame), its leading edge per PA
+// per frame, and a track of its front over time along the central PA.
+//
+// Input: a PolarSequence (timeheight.hpp) of running differences in units of σ̂ per ring
+// of height (difference.hpp, chain.hpp): rows = heights in R☉ from Sun centre in the plane
+// of the sky (row 0 lowest), columns = PA in degrees counter-clockwise from solar north
+// through east, times UTC seconds since 2000-01-01 (the later frame of each difference).
+// NaN = no data (occulter, field stop, missing blocks); such pixels are never significant.
+//
+// Method (ours, built from common practice):
+//  1. Each frame is smoothed (Gaussian, a few rows × ~1° of PA, wrapping through north)
+//     and renormalised per ring, so one threshold in σ holds at every height; pixels above
+//     `threshold_sigma` (positive only: a front's new position brightens) form regions
+//     (cv::connectedComponentsWithStats, 8-connected, joined across the 0/360 seam). Rows
+//     within `inner_margin_rs` of the occulter edge or `outer_margin_rs` of the field stop
+//     are left out: registration residuals of the steep inner corona live there.
+//  2. A region counts in a frame when it spans ≥ min_height_extent_rs, ≥ min_pa_extent_deg
+//     and ≥ min_pixels — cosmic-ray residuals and noise specks do not.
+//  3. Regions of consecutive frames are linked when their PA ranges overlap and the later
+//     one's outer edge is not lower (within one row); the best-scoring chain (Σ σ over its
+//     pixels) of ≥ min_frames frames whose outer edge rises by ≥ min_rise_rs is the CME.
+//     Static streamers cancel in running differences; a single-frame blob has no chain.
+//  4. Leading edge per PA per frame: the outermost row of the chain's region in each PA.
+//  5. Track: dynamic programming over the time–height profile (band_profile median over
+//     ±track_half_width_deg about the central PA) from the onset frame on; a point's score
+//     is its σ, heights never fall from one frame to the next, and speeds above
+//     jump_free_km_s cost jump_penalty_per_1000_km_s (per 1000 km/s above), those above
+//     max_speed_km_s are impossible. The path runs along the front's bright band; each
+//     point is then moved to the band's outer side, where it falls to edge_fraction × its
+//     peak, and dropped where the band has no data there (a missing block).
+// Every threshold below is our choice, tuned on `occulta synth` events (front_test.cpp).
+#pragma once
+
+#include <string>
+#include <vector>
+
+#include "imaging/timeheight.hpp"
+
+namespace occulta::imaging {
+
+struct FrontOptions {
+  double threshold_sigma = 3.5;        // significance of the smoothed, renormalised difference
+  double smooth_rows = 1.0;            // Gaussian σ across heights, in rows
+  double smooth_pa_deg = 1.0;          // Gaussian σ across PA, in degrees
+  double inner_margin_rs = 0.3;        // left out above the lowest height with data
+  double outer_margin_rs = 0.2;        // left out below the highest height with data
+  double min_height_extent_rs = 0.5;   // a region's radial extent
+  double min_pa_extent_deg = 6.0;      // a region's PA extent
+  int min_pixels = 40;                 // a region's area, polar pixels
+  int min_frames = 3;                  // consecutive frames in a chain
+  double min_rise_rs = 0.3;            // rise of the outer edge over the chain
+  double track_half_width_deg = 2.0;   // PA band of the time–height profile
+  double jump_free_km_s = 3000.0;      // jumps up to this speed cost nothing
+  double jump_penalty_per_1000_km_s = 5.0;  // σ per 1000 km/s above jump_free_km_s
+  double max_speed_km_s = 5000.0;      // faster is not a CME front
+  double edge_fraction = 0.75;         // the leading edge: where the front's band falls to this × its peak
+};
+
+struct TrackPoint {
+  int frame = 0;             // index into the sequence
+  double utc_s = 0.0;
+  double pa_deg = 0.0;
+  double height_rs = 0.0;
+  double sigma = 0.0;        // the band-median running difference there, σ
+};
+
+struct Front {
+  bool found = false;
+  std::string why_not;       // one sentence when not found
+  int onset_frame = -1;      // first frame where the region is significant
+  double onset_utc_s = 0.0;
+  int last_frame = -1;       // last frame of the chain
+  // PA span, counter-clockwise from pa_from_deg to pa_to_deg, both in [0, 360); across
+  // north pa_to_deg < pa_from_deg (e.g. 350 → 20).
+  double pa_from_deg = 0.0, pa_to_deg = 0.0;
+  double width_deg = 0.0;          // sky width: the span's extent
+  double central_pa_deg = 0.0;     // the middle of the span
+  double outermost_pa_deg = 0.0;   // PA of the highest leading edge in the chain's frames
+  // [frame][PA column]: height in R☉ of the region's outermost significant pixel, NaN where
+  // the region is absent (all NaN outside onset_frame..last_frame).
+  std::vector<std::vector<float>> leading_edge_rs;
+  std::vector<TrackPoint> track;   // significant points only, from the onset frame on
+};
+
+// The whole analysis (steps 1–5). Expects ≥ 2 frames, all on sequence.polar.
+Front find_front(const PolarSequence& sequence, const FrontOptions& options = {});
+
+// Step 5 alone, e.g. at a PA the analyst chose: frames from_frame.. of the sequence.
+std::vector<TrackPoint> follow_track(const PolarSequence& sequence, double pa_deg, int from_frame,
+                                     const FrontOptions& options = {});
+
+}  // namespace occulta::imaging
