@@ -150,7 +150,7 @@ ViewOutcome measure_view(const Event& event, const EventView& view, const Track*
        {"central_pa_deg", nullptr}, {"pa_span_deg", nullptr}, {"sky_width_deg", nullptr},
        {"sky_speed_km_s", nullptr}, {"sky_speed_sigma_km_s", nullptr}, {"sky_accel_m_s2", nullptr},
        {"sky_accel_sigma_m_s2", nullptr}, {"kinematic_model", nullptr}, {"onset_time", nullptr},
-       {"onset_sigma_s", nullptr}, {"time_at_21_5_rs", nullptr}, {"track_points", 0}, {"residual_rms_rs", nullptr}};
+       {"onset_sigma_s", nullptr}, {"first_seen_time", nullptr}, {"time_at_21_5_rs", nullptr}, {"track_points", 0}, {"residual_rms_rs", nullptr}};
 
   // The points: the analyst's for this view when given, else the automatic track.
   std::vector<TrackPoint>& points = outcome.used;
@@ -169,6 +169,7 @@ ViewOutcome measure_view(const Event& event, const EventView& view, const Track*
     v["central_pa_deg"] = front.central_pa_deg;
     v["pa_span_deg"] = {front.pa_from_deg, front.pa_to_deg};
     v["sky_width_deg"] = front.width_deg;
+    v["first_seen_time"] = imaging::iso_from_utc_seconds(front.onset_utc_s, 0);
   } else {
     problems.push_back("no CME found in view " + view.name + ": " + front.why_not);
   }
