@@ -6,12 +6,15 @@
 // memory per view does not grow with the number of frames beyond the polar cube.
 //
 // Writes N synthetic frames (a corona falling off with height, noise, an occulter and
-// field stop, a bright front moving out) into a temporary folder, then prints, for one
-// OpenCV thread and for all (the chain reads the next frame on a thread of its own either
-// way): read time per frame, chain time per frame, their ratio; and the
-// peak resident memory (getrusage ru_maxrss) of a fresh process streaming N/2 and N
-// frames, with and without keeping the polar cube. Not a timed test: `--short` (what
-// ./bootstrap test runs) uses few frames and only fails when the chain does.
+// field stop, a bright front moving out) into a temporary folder, then prints, pinned to
+// one core and on all cores (the chain reads the next frame on a thread of its own either
+// way): the load average, read time per frame, chain time per frame without and with the
+// 5×5 median filter (occulta maps' default), their ratios to the read, each stage's time
+// alone; and the peak resident memory (getrusage ru_maxrss) of a fresh process streaming
+// N/2 and N frames, with and without keeping the polar cube. All times are the best of a
+// few passes. Not a timed test: `--short` (what ./bootstrap test runs) uses few frames and
+// only fails when the chain does.
+#include <sched.h>
 #include <sys/resource.h>
 #include <unistd.h>
 
@@ -27,8 +30,10 @@
 
 #include <opencv2/core.hpp>
 
+#include "imaging/calibrate.hpp"
 #include "imaging/chain.hpp"
 #include "imaging/constants.hpp"
+#include "imaging/difference.hpp"
 #include "imaging/fits.hpp"
 #include "imaging/geometry.hpp"
 #include "imaging/time.hpp"
@@ -101,16 +106,66 @@ double read_time(const std::vector<fs::path>& paths, int passes) {
   return best;
 }
 
-double chain_time(const std::vector<fs::path>& paths, int passes, oi::ViewRun* last) {
+double chain_time(const std::vector<fs::path>& paths, int passes, const oi::ChainOptions& options, oi::ViewRun* last) {
   double best = 1e30;
   for (int p = 0; p < passes; ++p) {
     double checksum = 0;
     const auto start = std::chrono::steady_clock::now();
-    *last = oi::run_view("bench", paths, {}, [&](const oi::ChainFrame& f) { checksum += f.polar_running.at<float>(10, 10); });
+    *last = oi::run_view("bench", paths, options, [&](const oi::ChainFrame& f) { checksum += f.polar_running.at<float>(10, 10); });
     best = std::min(best, seconds_since(start) / paths.size());
     if (std::isinf(checksum)) std::printf(" ");
   }
   return best;
+}
+
+// Each stage of the chain on its own, serially on the calling thread, in ms per frame
+// (best of `passes`): where the time goes.
+void print_stage_times(const std::vector<fs::path>& paths, int passes) {
+  const auto sequence = oi::scan_view("bench", paths);
+  const oi::RegisteredGrid grid = oi::grid_for_view(sequence.frames.front().geometry);
+  cv::Mat first;  // the radii from the data, as the chain finds them for these frames
+  oi::register_frame(oi::read_fits(paths.front()).pixels,
+                     oi::make_registration(sequence.frames.front().geometry, grid), first);
+  const oi::OcculterRadii radii = oi::estimate_occulter_radii(first, grid, paths.front().string());
+  oi::RegistrationCache cache(grid, oi::annulus_keep_mask(grid, radii));
+  const oi::PolarGrid polar = oi::make_polar_grid(grid, radii.inner_rs, radii.outer_rs);
+  const oi::PolarMaps maps = oi::make_polar_maps(grid, polar);
+  enum { kRead, kRegister, kRate, kMedian, kPolar, kDifference, kSigma, kDivide, kStages };
+  const char* names[kStages] = {"read_fits", "register", "DN/s", "median 5", "polar", "difference", "ring σ", "÷σ"};
+  std::vector<double> best(kStages, 1e30);
+  for (int p = 0; p < passes; ++p) {
+    std::vector<double> sum(kStages, 0.0);
+    cv::Mat registered, current, previous, running, median_scratch;
+    for (std::size_t k = 0; k < paths.size(); ++k) {
+      auto t = std::chrono::steady_clock::now();
+      const auto lap = [&](int stage) {
+        sum[stage] += seconds_since(t);
+        t = std::chrono::steady_clock::now();
+      };
+      const auto image = oi::read_fits(paths[k]);
+      lap(kRead);
+      oi::register_frame(image.pixels, cache.for_geometry(sequence.frames[k].geometry), registered);
+      lap(kRegister);
+      oi::to_rate(registered, *sequence.frames[k].exposure_s);
+      lap(kRate);
+      oi::median_filter(registered, 5, median_scratch);
+      lap(kMedian);
+      oi::to_polar(registered, maps, current);
+      lap(kPolar);
+      if (!previous.empty()) {
+        oi::difference(current, previous, 1.0, running);
+        lap(kDifference);
+        const auto sigma = oi::ring_sigma(running, 2, std::max(1, polar.pa_count / 240));
+        lap(kSigma);
+        oi::divide_by_rows(running, sigma);
+        lap(kDivide);
+      }
+      std::swap(current, previous);
+    }
+    for (int s = 0; s < kStages; ++s) best[s] = std::min(best[s], sum[s] / paths.size());
+  }
+  std::printf("    stages alone, ms/frame:");
+  for (int s = 0; s < kStages; ++s) std::printf(" %s %.2f%s", names[s], 1e3 * best[s], s + 1 < kStages ? "," : "\n");
 }
 
 long child_peak_rss_kb(const fs::path& dir, int frames, bool keep_cube) {
@@ -157,26 +212,55 @@ int main(int argc, char** argv) {
     const auto paths = write_frames(dir, frames);
     std::printf("  file size %.2f MB per frame\n", fs::file_size(paths.front()) / 1e6);
     const int all = cv::getNumberOfCPUs();
+    cpu_set_t every;
+    sched_getaffinity(0, sizeof every, &every);
+    double load[3] = {0, 0, 0};
+    if (getloadavg(load, 3) < 0) load[0] = load[1] = -1;
+    std::printf("  load average before timing %.2f (1 min), %.2f (5 min): others' work on these cores inflates "
+                "both figures\n", load[0], load[1]);
+    // occulta maps filters with a 5×5 median by default; the bench times the chain both ways.
+    oi::ChainOptions plain, median;
+    median.median_filter = 5;
     double cube_frame_mb = 0;
-    for (int threads : {1, all}) {
+    // All cores first: once the process has been pinned to one CPU, OpenCV's TBB pool
+    // keeps no workers after the pin is lifted (TBB warns so), which would time "all
+    // cores" on one.
+    for (const bool one_core : {false, true}) {
+      // One core: the whole process pinned to one CPU, one OpenCV thread, so the chain's
+      // read-ahead thread shares the core (the ratio is then (read + the rest) / read).
+      // All cores: unpinned, read-ahead and OpenCV threads spread over them. read_fits is
+      // timed the same way each time.
+      if (one_core) {
+        cpu_set_t one;
+        CPU_ZERO(&one);
+        for (int c = 0; c < CPU_SETSIZE; ++c)
+          if (CPU_ISSET(c, &every)) {
+            CPU_SET(c, &one);
+            break;
+          }
+        sched_setaffinity(0, sizeof one, &one);
+      }
+      const int threads = one_core ? 1 : all;
       cv::setNumThreads(threads);
       oi::ViewRun run;
       const double read_s = read_time(paths, passes);
-      const double chain_s = chain_time(paths, passes, &run);
+      const double plain_s = chain_time(paths, passes, plain, &run);
+      const double median_s = chain_time(paths, passes, median, &run);
       const auto scan_start = std::chrono::steady_clock::now();
       const auto sequence = oi::scan_view("bench", paths);
       const double scan_s = seconds_since(scan_start) / paths.size();
-      std::printf("  %d OpenCV thread%s: read_fits %.2f ms/frame, whole chain %.2f ms/frame, ratio %.2f (budget 1.5)\n",
-                  threads, threads == 1 ? " " : "s", 1e3 * read_s, 1e3 * chain_s, chain_s / read_s);
+      std::printf("  %s (%d OpenCV thread%s): read_fits %.2f ms/frame; whole chain %.2f ms/frame, ratio %.2f; "
+                  "with the 5×5 median %.2f ms/frame, ratio %.2f (budget 1.5)\n",
+                  one_core ? "1 core " : "all cores", threads, threads == 1 ? "" : "s", 1e3 * read_s, 1e3 * plain_s,
+                  plain_s / read_s, 1e3 * median_s, median_s / read_s);
       std::printf("    of which the header scan (imaging/sequence) %.2f ms/frame\n", 1e3 * scan_s);
+      print_stage_times(paths, passes);
       cube_frame_mb = run.polar.pa_count * double(run.polar.height_count) * sizeof(float) / (1024.0 * 1024.0);
-      if (threads == 1)
+      if (one_core)
         std::printf("  polar grid %d PA × %d heights (%.2f–%.2f R☉); remap tables built %d time(s)\n",
                     run.polar.pa_count, run.polar.height_count, run.radii.inner_rs, run.radii.outer_rs,
                     run.registration_builds);
-      if (threads == all) break;
     }
-    cv::setNumThreads(all);
     const int half = frames / 2;
     const long s1 = child_peak_rss_kb(dir, half, false), s2 = child_peak_rss_kb(dir, frames, false);
     const long c1 = child_peak_rss_kb(dir, half, true), c2 = child_peak_rss_kb(dir, frames, true);
