@@ -49,10 +49,12 @@ std::span<const std::byte> as_bytes(const std::string& text) {
   return std::as_bytes(std::span<const char>(text.data(), text.size()));
 }
 
-// The reference files, written once per test run by astropy (tests/external/write_fits.py).
-const fs::path& reference_folder() {
-  static const fs::path folder = [] {
-    const fs::path dir = scratch_dir("fits-astropy");
+// The reference files, written by astropy (tests/external/write_fits.py) once per test
+// process, into a folder of the caller's own: CTest runs test cases as parallel
+// processes, and a shared folder was emptied by one while another read it.
+const fs::path& reference_folder(const std::string& user) {
+  static const fs::path folder = [&] {
+    const fs::path dir = scratch_dir("fits-astropy-" + user);
     const auto result = run_python("tests/external/write_fits.py", shell_quote(dir.string()));
     REQUIRE_MESSAGE(result.exit_code == 0, result.output);
     return dir;
@@ -245,7 +247,7 @@ TEST_CASE("fits: astropy-written images read back with astropy's values") {
   // scaling physical = BZERO + BSCALE × stored and BLANK → no data: FITS Standard 4.0
   // §4.4.2.5; unsigned 16-bit by BZERO = 32768: §5.2.5; NaN/Inf floats: §5.3;
   // IMAGE extension: §7.1; Rice tile compression: Pence, Seaman & White (2009).
-  const fs::path folder = reference_folder();
+  const fs::path folder = reference_folder("read");
   const auto manifest = nlohmann::json::parse(slurp(folder / "manifest.json"));
   REQUIRE(manifest["images"].size() >= 10);
   for (const auto& expected : manifest["images"]) {
@@ -296,7 +298,7 @@ TEST_CASE("fits: astropy-written images read back with astropy's values") {
 TEST_CASE("fits: an image in an extension inherits the primary's keywords") {
   // extension.fits (astropy): the primary has DSUN_OBS, OBSRVTRY and a DATE-OBS; the
   // IMAGE extension has its own DATE-OBS, which must win.
-  const fs::path path = reference_folder() / "extension.fits";
+  const fs::path path = reference_folder("inherit") / "extension.fits";
   const Header header = read_fits_header(path);
   CHECK(header.text("DATE-OBS") == "2031-03-04T07:12:00");
   CHECK(header.number("DSUN_OBS") == 1.5e11);
@@ -313,7 +315,7 @@ TEST_CASE("fits: an image in an extension inherits the primary's keywords") {
 }
 
 TEST_CASE("fits: read_fits_header matches read_fits without reading pixels") {
-  const fs::path path = reference_folder() / "rice_int16.fits";
+  const fs::path path = reference_folder("header") / "rice_int16.fits";
   const Header header = read_fits_header(path);
   const FitsImage image = read_fits(path);
   REQUIRE(header.cards.size() == image.header.cards.size());
@@ -326,7 +328,7 @@ TEST_CASE("fits: read_fits_header matches read_fits without reading pixels") {
 
 TEST_CASE("fits: bad input is refused with one sentence naming the file") {
   const fs::path dir = scratch_dir("fits-bad-input");
-  const fs::path folder = reference_folder();
+  const fs::path folder = reference_folder("refused");
 
   spit(dir / "empty.fits", "");
   check_refused(dir / "empty.fits", "empty");
@@ -452,7 +454,7 @@ TEST_CASE("fits: bad input is refused with one sentence naming the file") {
 
 TEST_CASE("fits: non-finite pixels are accepted and counted") {
   // float32.fits (astropy) holds NaN, +Inf and −Inf, kept as stored (FITS Standard 4.0 §5.3).
-  const FitsImage image = read_fits(reference_folder() / "float32.fits");
+  const FitsImage image = read_fits(reference_folder("nonfinite") / "float32.fits");
   CHECK(image.nonfinite_count == 3);
   CHECK(std::isnan(image.pixels.at<float>(0, 0)));
   CHECK(image.pixels.at<float>(2, 3) == INFINITY);
