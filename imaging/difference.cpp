@@ -127,13 +127,14 @@ void median_filter(cv::Mat& image, int size, cv::Mat& scratch) {
       // differs next to NaN from the one a whole frame gets.
       image(input).copyTo(band);
       cv::medianBlur(band, filtered, size);
-      // KNOWN ISSUE, kept so that results stay as they were: the former whole-frame code
-      // meant to restore no-data pixels to NaN through the mask `image != image`, but
-      // cv::compare(a, a, CMP_NE) does not flag NaN (OpenCV 4), so it restored none. A
-      // pixel with NaN input can therefore come out finite here as it did there.
-      // Restoring them per pixel changes the front detection's results (front_test).
-      for (int y = y0; y < y1; ++y)
-        std::copy_n(filtered.ptr<float>(y - input.y), image.cols, scratch.ptr<float>(y));
+      // No data stays no data: a pixel whose input is NaN is NaN again (cv::compare does
+      // not flag NaN in OpenCV 4, so this is a test per pixel).
+      for (int y = y0; y < y1; ++y) {
+        const float* in = image.ptr<float>(y);
+        const float* med = filtered.ptr<float>(y - input.y);
+        float* out = scratch.ptr<float>(y);
+        for (int x = 0; x < image.cols; ++x) out[x] = std::isnan(in[x]) ? in[x] : med[x];
+      }
     }
   });
   std::swap(image, scratch);

@@ -1,7 +1,6 @@
 // tests/fit/render_test.cpp — whole frames against per-pixel line-of-sight integrations.
 #include <doctest/doctest.h>
 
-#include <chrono>
 #include <cmath>
 
 #include "fit/render.hpp"
@@ -92,20 +91,4 @@ TEST_CASE("render: sheath pixels equal a brute-force sum along their rays") {
   CHECK(worst < 3e-3);
   CHECK(compared >= 5);
   CHECK(lit > 200);  // the shell covers a good part of the frame
-}
-
-TEST_CASE("render: a 512² frame with background and shell, timed") {
-  // Budget (DESIGN.md): < 1 s on one core. Measured here and printed; asserted only to
-  // a generous 5 s so that a busy shared machine does not fail the suite.
-  const imaging::ImageGeometry g = frame(512, 30.0);
-  RenderScene scene;
-  scene.sheaths = {kSheath};
-  for (const int threads : {1, 2}) {
-    const auto start = std::chrono::steady_clock::now();
-    const RenderedFrame f = render_frame(g, scene, threads);
-    const double seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
-    MESSAGE("512x512, background + shell, ", threads, " thread(s): ", seconds, " s");
-    CHECK(seconds < 5.0);
-    CHECK(f.total_bsun.at<double>(256, 400) > 0.0);
-  }
 }

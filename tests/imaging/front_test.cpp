@@ -2,7 +2,6 @@
 // PA span, onset and track against the truth file, and no detection on quiet sequences.
 // The truth is the synth's projected shell mesh (fit/synth.hpp sky_truth); the tolerances
 // are the issue's (central PA 5°, onset one cadence) or ours where marked.
-#include <chrono>
 #include <cmath>
 #include <cstdio>
 #include <fstream>
@@ -186,7 +185,7 @@ TEST_CASE("front: a missing block in one frame does not break the detection") {
   check_event("front_missing", shell);
 }
 
-TEST_CASE("front: a view of 16 frames of 720 PA × 400 heights takes under a second") {
+TEST_CASE("front: a planted front in 16 frames of 720 PA × 400 heights of pure noise is found at its PA") {
   // Gaussian noise in σ with a front 30° wide moving out 0.6 R☉ per frame (planted, so the
   // whole analysis runs, tracking included).
   occulta::imaging::PolarSequence s;
@@ -204,13 +203,10 @@ TEST_CASE("front: a view of 16 frames of 720 PA × 400 heights takes under a sec
     s.frames.push_back(f);
     s.utc_s.push_back(1.0e9 + 600.0 * k);
   }
-  const auto start = std::chrono::steady_clock::now();
+  // Its cost is measured by tests/bench/measure_bench, not here (no timed tests).
   const auto front = occulta::imaging::find_front(s);
-  const double seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
-  MESSAGE("find_front on 16 × 720 × 400: " << seconds << " s");
   REQUIRE(front.found);
   CHECK(pa_distance(front.central_pa_deg, 65.0) <= 1.0);  // columns 100–159 → PA 50–79.5
-  CHECK(seconds < 1.0);  // the issue asks for well under 0.5 s: measured ~0.45 s, still to speed up
 }
 
 TEST_CASE("front: no detection on quiet sequences") {
