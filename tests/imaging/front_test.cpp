@@ -162,8 +162,6 @@ TEST_CASE("front: finds the CME, its span, onset and track on synthetic events")
     check_event("front_slow", shell);
   }
   SUBCASE("wide and fast") {
-    // 2000 km/s moves the front 1.7 R☉ between frames: the running difference's bright band
-    // is that wide and its outer side less sharp, so 0.4 R☉ here (our tolerance).
     Shell shell = make_shell(-40, -5, 2000, 0);
     shell.half_angle = 40;
     shell.height = 1.0;
