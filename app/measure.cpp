@@ -100,6 +100,26 @@ void draw_time_height(const imaging::PolarSequence& polar, double pa_deg, const 
   write_png(path, with_caption(picture, caption));
 }
 
+// A polar image back on the registered grid (bilinear in PA and height; no data outside
+// the polar grid): the Cartesian picture of any running difference, without keeping the
+// Cartesian frames of the whole sequence in memory.
+cv::Mat cartesian_from_polar(const cv::Mat& polar_image, const imaging::RegisteredGrid& grid,
+                             const imaging::PolarGrid& polar) {
+  cv::Mat map_x(grid.height, grid.width, CV_32FC1), map_y(grid.height, grid.width, CV_32FC1);
+  for (int y = 0; y < grid.height; ++y)
+    for (int x = 0; x < grid.width; ++x) {
+      const cv::Point2d p(x, y);
+      map_x.at<float>(y, x) = float(imaging::grid_pa_deg(grid, p) / polar.pa_step_deg);
+      map_y.at<float>(y, x) = float((imaging::grid_height_rs(grid, p) - polar.height_min_rs) / polar.height_step_rs);
+    }
+  // PA wraps through north: one column of the far side appended lets the remap interpolate across.
+  cv::Mat wrapped;
+  cv::hconcat(polar_image, polar_image.col(0), wrapped);
+  cv::Mat out;
+  cv::remap(wrapped, out, map_x, map_y, cv::INTER_LINEAR, cv::BORDER_CONSTANT, cv::Scalar(NAN));
+  return out;
+}
+
 // Quicklook: the last running difference of the CME with its leading edge (yellow) and
 // the two PAs that bound it (green), north up.
 void draw_front(const cv::Mat& difference, const imaging::RegisteredGrid& grid, const imaging::PolarGrid& polar,
@@ -133,12 +153,9 @@ ViewOutcome measure_view(const Event& event, const EventView& view, const Track*
   chain.median_filter = o.median;
 
   imaging::PolarSequence polar;
-  std::vector<cv::Mat> differences;  // Cartesian, for the front quicklook (kept small: last few)
-  cv::Mat last_difference;
   const imaging::ViewRun run = imaging::run_view(view.name, view.files, chain, [&](const imaging::ChainFrame& f) {
     polar.utc_s.push_back(f.frame.utc_s);
     polar.frames.push_back(f.polar_running.clone());
-    differences.push_back(imaging::sigma_difference(f.registered, f.previous_registered));
   });
   polar.polar = run.polar;
   for (const auto& p : run.problems) problems.push_back(view.name + ": " + p);
@@ -215,10 +232,12 @@ ViewOutcome measure_view(const Event& event, const EventView& view, const Track*
   std::snprintf(caption, sizeof caption, "%s PA %.0f: height up, time across; %s track, fit line", view.name.c_str(), pa,
                 by_analyst ? "analyst" : "auto");
   draw_time_height(polar, pa, points, have_fit ? &chosen : nullptr, caption, dir / "time_height.png");
-  const int shown = front.found ? std::min<int>(front.last_frame, int(differences.size()) - 1) : int(differences.size()) - 1;
+  const int last = int(polar.frames.size()) - 1;
+  const int shown = front.found ? std::min(front.last_frame, last) : last;
   std::snprintf(caption, sizeof caption, "%s %s running difference, +-4 sigma, north up; front and PA span",
                 view.name.c_str(), imaging::iso_from_utc_seconds(polar.utc_s[shown], 0).substr(0, 16).c_str());
-  draw_front(differences[shown], run.grid, polar.polar, front, shown, caption, dir / "front.png");
+  draw_front(cartesian_from_polar(polar.frames[shown], run.grid, polar.polar), run.grid, polar.polar, front, shown,
+             caption, dir / "front.png");
   return outcome;
 }
 
