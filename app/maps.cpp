@@ -79,15 +79,15 @@ std::string map_view(const Event& event, const EventView& view, const MapsOption
   chain.pa_step_deg = o.pa_step_deg;
   chain.height_step_rs = o.height_step_rs;
   chain.median_filter = o.median;
+  chain.cartesian = imaging::ChainOptions::Cartesian::Last;  // the quicklooks below need the last frames only
 
   imaging::PolarSequence polar;
-  cv::Mat last_difference, last_registered;
   const imaging::ViewRun run = imaging::run_view(view.name, view.files, chain, [&](const imaging::ChainFrame& f) {
     polar.utc_s.push_back(f.frame.utc_s);
     polar.frames.push_back(f.polar_running.clone());
-    last_difference = imaging::sigma_difference(f.registered, f.previous_registered);
-    last_registered = f.registered.clone();
   });
+  const cv::Mat last_difference = imaging::sigma_difference(run.last_registered, run.last_previous_registered);
+  const cv::Mat& last_registered = run.last_registered;
   polar.polar = run.polar;
   for (const auto& p : run.problems) problems.push_back(view.name + ": " + p);
 

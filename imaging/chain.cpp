@@ -15,16 +15,20 @@ namespace occulta::imaging {
 
 namespace {
 
-// Reads and calibrates frames of one view onto its grid; remembers frames that failed so
-// that a second pass skips them without a second report.
+// Reads and calibrates frames of one view onto its polar grid (and, when asked, its
+// registered grid); remembers frames that failed so that a second pass skips them without
+// a second report.
 struct FrameLoader {
   const ViewSequence& sequence;
   const ChainOptions& options;
   RegistrationCache cache;
   std::vector<std::string>& problems;
   std::vector<bool> failed;
-  cv::Mat background;  // empty: none
-  cv::Mat median_scratch;  // reused frame to frame: no new 4 MB allocation per frame
+  PolarGrid polar;         // set before the first to_polar_frame
+  PolarMaps source_maps;   // raw frame → polar grid, for the cache's current registration
+  int maps_built_for = 0;  // cache.builds() when source_maps were made
+  cv::Mat background, grid_background;  // polar and registered grid; empty: none
+  cv::Mat median_scratch;  // read()'s only, reused frame to frame: no new 4 MB allocation per frame
 
   // The frame's pixels; nullopt (reported) when the frame cannot be read.
   std::optional<FitsImage> read(std::size_t k) {
@@ -37,6 +41,14 @@ struct FrameLoader {
                                                   std::to_string(image.pixels.rows) + " but its header says " +
                                                   std::to_string(frame.geometry.width) + "×" +
                                                   std::to_string(frame.geometry.height));
+      // The median filter runs on the raw frame, where cosmic-ray hits lie (a few detector
+      // pixels long), before any resampling; so it runs on the read-ahead thread too. On
+      // the polar grid it would not be equivalent: near the occulter a 0.5° PA step is a
+      // fraction of a pixel, a 4-pixel track spans many PA columns and survives a 5×5
+      // window (tried: front_test's quiet sequences then show false detections). Only
+      // read() uses median_scratch, and only one read runs at a time; the swap leaves the
+      // scratch holding the buffer this image gave up, which nothing else refers to.
+      if (options.median_filter) median_filter(image.pixels, options.median_filter, median_scratch);
       return image;
     } catch (const std::exception& e) {
       failed[k] = true;
@@ -45,20 +57,28 @@ struct FrameLoader {
     }
   }
 
-  void process(std::size_t k, const FitsImage& image, cv::Mat& out) {
+  // Straight from the raw frame to the polar grid: one remap whose tables compose the
+  // registration's affine with the unwrapping (polar.hpp), rebuilt only when the cache
+  // builds a new registration (the frame's geometry changed).
+  void to_polar_frame(std::size_t k, const FitsImage& image, cv::Mat& out) {
     const SequenceFrame& frame = sequence.frames[k];
-    register_frame(image.pixels, cache.for_geometry(frame.geometry), out);
-    // Scaling commutes with the (linear) resampling, so DN/s is applied on the grid.
+    const Registration& registration = cache.for_geometry(frame.geometry);
+    if (cache.builds() != maps_built_for) {
+      source_maps = make_polar_maps(registration, cache.grid(), polar);
+      maps_built_for = cache.builds();
+    }
+    to_polar(image.pixels, source_maps, out);
+    // Scaling commutes with the (linear) resampling, so DN/s is applied on the polar grid.
     if (frame.exposure_s) to_rate(out, *frame.exposure_s);
-    if (options.median_filter) median_filter(out, options.median_filter, median_scratch);
     if (!background.empty()) subtract_background(out, background);
   }
 
-  // false (reported) when the frame cannot be read.
-  bool load(std::size_t k, cv::Mat& out) {
-    const auto image = read(k);
-    if (image) process(k, *image, out);
-    return bool(image);
+  // The same frame on the registered grid (quicklooks only).
+  void to_grid(std::size_t k, const FitsImage& image, cv::Mat& out) {
+    const SequenceFrame& frame = sequence.frames[k];
+    register_frame(image.pixels, cache.for_geometry(frame.geometry), out);
+    if (frame.exposure_s) to_rate(out, *frame.exposure_s);
+    if (!grid_background.empty()) subtract_background(out, grid_background);
   }
 };
 
@@ -68,94 +88,115 @@ int pa_stride(const PolarGrid& polar) { return std::max(1, polar.pa_count / 240)
 
 ViewRun run_view(const std::string& view, const std::vector<std::filesystem::path>& paths,
                  const ChainOptions& options, const std::function<void(const ChainFrame&)>& on_frame) {
+  using Cartesian = ChainOptions::Cartesian;
   ViewSequence sequence = scan_view(view, paths, options.observer);
+  const std::size_t n = sequence.frames.size();
   ViewRun run;
   run.view = view;
   run.problems = sequence.problems;
   run.grid = grid_for_view(sequence.frames.front().geometry);
 
-  // Occulter and field-stop radii: event file, else header, else the first readable frame.
-  FrameLoader loader{sequence, options, RegistrationCache(run.grid), run.problems,
-                     std::vector<bool>(sequence.frames.size(), false), {}, {}};
-  cv::Mat first_registered;  // kept when the radii come from the data: the stream starts with it
-  std::size_t first_index = sequence.frames.size();
+  // Occulter and field-stop radii: event file, else header, else the first readable frame
+  // (registered onto the grid, where the radii are found; its raw pixels start the stream).
+  FrameLoader loader{sequence, options, RegistrationCache(run.grid), run.problems, std::vector<bool>(n, false),
+                     {}, {}, 0, {}, {}, {}};
+  std::optional<FitsImage> first_image;
+  std::size_t first_index = n;
   if (options.occulter_rs) {
     run.radii = {options.occulter_rs->first, options.occulter_rs->second, OcculterRadii::Origin::Caller};
   } else if (sequence.frames.front().header_radii) {
     run.radii = *sequence.frames.front().header_radii;
   } else {
     std::size_t k = 0;
-    while (k < sequence.frames.size() && !loader.load(k, first_registered)) ++k;
-    if (k == sequence.frames.size()) throw InputError("view " + view, "none of its frames could be read");
+    while (k < n && !(first_image = loader.read(k))) ++k;
+    if (k == n) throw InputError("view " + view, "none of its frames could be read");
     first_index = k;
+    cv::Mat first_registered;
+    loader.to_grid(k, *first_image, first_registered);
     run.radii = estimate_occulter_radii(first_registered, run.grid, sequence.frames[k].path.string());
   }
   char note[300];
   std::snprintf(note, sizeof note, "view %s: data are used from %.2f to %.2f R☉ (occulter and field stop, from the %s).",
                 view.c_str(), run.radii.inner_rs, run.radii.outer_rs, origin_name(run.radii.origin));
   run.notes.emplace_back(note);
-  const cv::Mat keep = annulus_keep_mask(run.grid, run.radii);
-  loader.cache = RegistrationCache(run.grid, keep);
-  if (!first_registered.empty()) first_registered.setTo(std::numeric_limits<float>::quiet_NaN(), keep == 0);
+  loader.cache = RegistrationCache(run.grid, annulus_keep_mask(run.grid, run.radii));
+  loader.maps_built_for = loader.cache.builds();
 
   run.polar = make_polar_grid(run.grid, run.radii.inner_rs, run.radii.outer_rs, options.pa_step_deg,
                               options.height_step_rs);
-  const PolarMaps polar_maps = make_polar_maps(run.grid, run.polar);
+  loader.polar = run.polar;
 
   // The pre-event frame: the last at or before base_time (the first when none is given).
   std::size_t base = 0;
   if (options.base_time_utc_s)
-    for (std::size_t k = 0; k < sequence.frames.size(); ++k)
+    for (std::size_t k = 0; k < n; ++k)
       if (sequence.frames[k].utc_s <= *options.base_time_utc_s) base = k;
-  cv::Mat base_registered;
+  cv::Mat base_polar, base_registered;
   const bool need_base = options.base_difference || options.background == ChainOptions::Background::BaseFrame;
   if (need_base) {
-    while (base < sequence.frames.size() && !loader.load(base, base_registered)) ++base;
-    if (base == sequence.frames.size()) throw InputError("view " + view, "none of its frames could be read");
+    std::optional<FitsImage> image;
+    while (base < n && !(image = loader.read(base))) ++base;
+    if (base == n) throw InputError("view " + view, "none of its frames could be read");
+    loader.to_polar_frame(base, *image, base_polar);
+    if (options.cartesian != Cartesian::None && options.background == ChainOptions::Background::BaseFrame)
+      loader.to_grid(base, *image, base_registered);
   }
-  run.base_utc_s = sequence.frames[std::min(base, sequence.frames.size() - 1)].utc_s;
+  run.base_utc_s = sequence.frames[std::min(base, n - 1)].utc_s;
 
+  // Backgrounds are taken on the polar grid (and on the registered grid only for the
+  // Cartesian frames a caller asked for).
   if (options.background == ChainOptions::Background::BaseFrame) {
-    loader.background = base_registered.clone();
+    loader.background = base_polar.clone();
+    loader.grid_background = base_registered;
   } else if (options.background == ChainOptions::Background::LowPercentile) {
     // A pass over every frame before any difference can be formed.
-    LowPercentileBackground low(cv::Size(run.grid.width, run.grid.height), options.background_percentile,
-                                int(sequence.frames.size()));
+    LowPercentileBackground low(cv::Size(run.polar.pa_count, run.polar.height_count), options.background_percentile,
+                                int(n));
+    std::optional<LowPercentileBackground> low_grid;
+    if (options.cartesian != Cartesian::None)
+      low_grid.emplace(cv::Size(run.grid.width, run.grid.height), options.background_percentile, int(n));
     cv::Mat frame;
-    for (std::size_t k = 0; k < sequence.frames.size(); ++k)
-      if (loader.load(k, frame)) low.add(frame);
+    for (std::size_t k = 0; k < n; ++k) {
+      const auto image = k == first_index ? std::optional<FitsImage>(*first_image) : loader.read(k);
+      if (!image) continue;
+      loader.to_polar_frame(k, *image, frame);
+      low.add(frame);
+      if (low_grid) {
+        loader.to_grid(k, *image, frame);
+        low_grid->add(frame);
+      }
+    }
     loader.background = low.result();
+    if (low_grid) loader.grid_background = low_grid->result();
   }
-  cv::Mat base_polar;
-  if (options.base_difference) {
-    if (!loader.background.empty()) subtract_background(base_registered, loader.background);
-    to_polar(base_registered, polar_maps, base_polar);
-  }
-  base_registered.release();
+  if (options.base_difference && !loader.background.empty()) subtract_background(base_polar, loader.background);
 
-  cv::Mat current, previous, current_polar, previous_polar, running, base_diff;
+  cv::Mat current_polar, previous_polar, running, base_diff, current_grid, previous_grid;
   std::vector<float> sigma, base_sigma;
   const SequenceFrame* last = nullptr;
-  if (!loader.background.empty()) first_index = sequence.frames.size();  // the background changes it: read again
+  // Cartesian::Last: the raw frames of the latest difference, registered after the stream.
+  std::optional<FitsImage> newer, older;
+  std::size_t newer_k = 0, older_k = 0;
   // cfitsio reads (and decompresses) frame k + 1 on a second thread while frame k is
   // processed; only that thread calls cfitsio meanwhile. Costs one raw frame of memory.
   const auto read_ahead = [&](std::size_t k) {
     return std::async(std::launch::async, [&loader, k] { return loader.read(k); });
   };
   std::future<std::optional<FitsImage>> next;
-  if (first_index != 0 && !sequence.frames.empty()) next = read_ahead(0);
-  for (std::size_t k = 0; k < sequence.frames.size(); ++k) {
+  if (first_index != 0 && n > 0) next = read_ahead(0);
+  for (std::size_t k = 0; k < n; ++k) {
+    std::optional<FitsImage> image;
     if (k == first_index) {
-      if (k + 1 < sequence.frames.size()) next = read_ahead(k + 1);
-      std::swap(current, first_registered);
+      if (k + 1 < n) next = read_ahead(k + 1);
+      image = std::move(first_image);
     } else {
-      std::optional<FitsImage> image = next.get();
-      if (k + 1 < sequence.frames.size() && k + 1 != first_index) next = read_ahead(k + 1);
+      image = next.get();
+      if (k + 1 < n && k + 1 != first_index) next = read_ahead(k + 1);
       if (!image) continue;
-      loader.process(k, *image, current);
     }
     ++run.frames_used;
-    to_polar(current, polar_maps, current_polar);
+    loader.to_polar_frame(k, *image, current_polar);
+    if (options.cartesian == Cartesian::Every) loader.to_grid(k, *image, current_grid);
     const SequenceFrame& frame = sequence.frames[k];
     if (last) {
       const double step_s = frame.utc_s - last->utc_s;
@@ -168,12 +209,18 @@ ViewRun run_view(const std::string& view, const std::vector<std::filesystem::pat
         base_sigma = ring_sigma(base_diff, options.noise_smooth_rings, pa_stride(run.polar));
         divide_by_rows(base_diff, base_sigma);
       }
-      on_frame(ChainFrame{frame, step_s, current, previous, running, sigma,
+      on_frame(ChainFrame{frame, step_s, current_grid, previous_grid, running, sigma,
                           options.base_difference ? &base_diff : nullptr});
     }
     last = &frame;
-    std::swap(current, previous);
+    std::swap(current_grid, previous_grid);
     std::swap(current_polar, previous_polar);
+    if (options.cartesian == Cartesian::Last) {
+      older = std::move(newer);
+      older_k = newer_k;
+      newer = std::move(image);
+      newer_k = k;
+    }
   }
   run.registration_builds = loader.cache.builds();
   if (run.frames_used < int(kMinimumFrames)) {
@@ -181,6 +228,10 @@ ViewRun run_view(const std::string& view, const std::vector<std::filesystem::pat
                                                                    "need at least three";
     for (const auto& p : run.problems) text += " " + p;
     throw InputError("view " + view, text);
+  }
+  if (older && newer) {
+    loader.to_grid(older_k, *older, run.last_previous_registered);
+    loader.to_grid(newer_k, *newer, run.last_registered);
   }
   return run;
 }

@@ -1,11 +1,14 @@
 // imaging/chain.hpp — one view's whole imaging chain, streamed frame by frame:
-//   read (fits) → register onto the view's grid, occulter/field-stop mask folded in
-//   (register, calibrate) → DN/s (calibrate) → optional median filter (difference) →
-//   optional background (calibrate) → polar (polar) → running difference, and optionally
-//   base difference, in σ per ring of height (difference).
+//   read (fits) → optional median filter on the raw frame (difference) → register AND
+//   unwrap onto the polar grid in one remap from the raw frame, occulter/field-stop mask
+//   folded in (register, polar, calibrate) → DN/s (calibrate) → optional background, taken
+//   on the polar grid too (calibrate) → running difference, and optionally base
+//   difference, in σ per ring of height (difference).
+// Frames on the Cartesian registered grid (for quicklooks) are made only when asked for
+// (ChainOptions::cartesian): they cost about as much again as the polar chain.
 //
-// Memory does not grow with the number of frames: the chain holds the previous registered
-// frame, the base frame, the remap tables and a few polar images; what the caller keeps
+// Memory does not grow with the number of frames: the chain holds the previous raw frame,
+// the base frame, the remap tables and a few polar images; what the caller keeps
 // from each ChainFrame (e.g. the polar running differences, polar_running_differences())
 // is the only part that grows. Exception: a low-percentile background needs one extra pass
 // over all frames before the differences start (each frame is then read twice).
@@ -45,6 +48,11 @@ struct ChainOptions {
   double common_step_s = 0.0;             // > 0: running differences scaled to this time step
   int median_filter = 0;                  // 0 (off), 3 or 5: against cosmic-ray hits
   int noise_smooth_rings = 2;             // ring σ̂ smoothed over ±this many height rows
+  // Frames on the registered grid: None; Last — ViewRun::last_registered/last_previous_registered
+  // for the last running difference only; Every — ChainFrame::registered/previous_registered
+  // for each one.
+  enum class Cartesian { None, Last, Every };
+  Cartesian cartesian = Cartesian::None;
 };
 
 // What a caller sees for each running difference (every usable frame but the first). The
@@ -53,6 +61,7 @@ struct ChainFrame {
   const SequenceFrame& frame;
   double step_s = 0.0;                      // time since the previous usable frame
   const cv::Mat& registered;                // this frame: DN/s (background subtracted) on the grid, NaN = no data
+                                            // (empty unless ChainOptions::cartesian is Every)
   const cv::Mat& previous_registered;       // the previous usable frame, same form
   const cv::Mat& polar_running;             // running difference / σ̂(height)
   const std::vector<float>& running_sigma;  // σ̂ per height row, DN/s (after the time-step scaling)
@@ -69,6 +78,8 @@ struct ViewRun {
   int registration_builds = 0;             // how often remap tables were built (1 when the pointing is fixed)
   std::vector<std::string> problems;       // sentences: skipped frames, duplicates, …
   std::vector<std::string> notes;          // sentences: where the occulter radii came from, fit residuals
+  cv::Mat last_registered, last_previous_registered;  // ChainOptions::cartesian Last: the last difference's two
+                                                      // frames, in ChainFrame::registered's form
 };
 
 // Runs the chain over `paths` (any order) and calls on_frame for each running difference,

@@ -3,6 +3,7 @@
 
 #include <cmath>
 #include <limits>
+#include <vector>
 
 #include <opencv2/imgproc.hpp>
 
@@ -39,8 +40,11 @@ double grid_height_rs(const RegisteredGrid& grid, cv::Point2d pixel) {
   return std::hypot(pixel.x - grid.sun_center_px.x(), pixel.y - grid.sun_center_px.y()) * grid.rs_per_px;
 }
 
-PolarMaps make_polar_maps(const RegisteredGrid& grid, const PolarGrid& polar) {
-  PolarMaps maps{grid, polar, {}, {}};
+namespace {
+
+// Tables for a polar grid whose grid pixel (x, y) is read from image pixel A · (x, y, 1).
+PolarMaps polar_tables(const RegisteredGrid& grid, const PolarGrid& polar, const cv::Matx23d& a, cv::Size source) {
+  PolarMaps maps{grid, polar, {}, {}, source, {}};
   cv::Mat map(polar.height_count, polar.pa_count, CV_32FC2);
   std::vector<double> sin_pa(polar.pa_count), cos_pa(polar.pa_count);
   for (int j = 0; j < polar.pa_count; ++j) {
@@ -50,18 +54,41 @@ PolarMaps make_polar_maps(const RegisteredGrid& grid, const PolarGrid& polar) {
   for (int i = 0; i < polar.height_count; ++i) {
     const double r = polar.height_rs(i) / grid.rs_per_px;
     auto* m = map.ptr<cv::Vec2f>(i);
-    for (int j = 0; j < polar.pa_count; ++j)
-      m[j] = {float(grid.sun_center_px.x() - r * sin_pa[j]), float(grid.sun_center_px.y() + r * cos_pa[j])};
+    for (int j = 0; j < polar.pa_count; ++j) {
+      const double x = grid.sun_center_px.x() - r * sin_pa[j], y = grid.sun_center_px.y() + r * cos_pa[j];
+      m[j] = {float(a(0, 0) * x + a(0, 1) * y + a(0, 2)), float(a(1, 0) * x + a(1, 1) * y + a(1, 2))};
+    }
   }
   cv::convertMaps(map, cv::noArray(), maps.map_xy, maps.map_frac, CV_16SC2);
   return maps;
 }
 
-void to_polar(const cv::Mat& registered, const PolarMaps& maps, cv::Mat& out) {
-  CV_Assert(registered.type() == CV_32FC1 && registered.rows == maps.grid.height && registered.cols == maps.grid.width);
+}  // namespace
+
+PolarMaps make_polar_maps(const RegisteredGrid& grid, const PolarGrid& polar) {
+  return polar_tables(grid, polar, cv::Matx23d(1, 0, 0, 0, 1, 0), cv::Size(grid.width, grid.height));
+}
+
+PolarMaps make_polar_maps(const Registration& registration, const RegisteredGrid& grid, const PolarGrid& polar) {
+  PolarMaps maps = polar_tables(grid, polar, registration.grid_to_source,
+                                cv::Size(registration.source.width, registration.source.height));
+  if (!registration.drop.empty()) {
+    // The mask unwrapped the way a masked registered frame is: NaN on the masked grid
+    // pixels, through the grid's own tables, so the same samples come out NaN.
+    cv::Mat pattern(grid.height, grid.width, CV_32FC1, cv::Scalar(0.0)), unwrapped;
+    pattern.setTo(std::numeric_limits<double>::quiet_NaN(), registration.drop);
+    to_polar(pattern, make_polar_maps(grid, polar), unwrapped);
+    cv::compare(unwrapped, unwrapped, maps.drop, cv::CMP_NE);  // NaN ≠ NaN
+  }
+  return maps;
+}
+
+void to_polar(const cv::Mat& image, const PolarMaps& maps, cv::Mat& out) {
+  CV_Assert(image.type() == CV_32FC1 && image.size() == maps.source);
+  constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
   out.create(maps.map_xy.size(), CV_32FC1);
-  cv::remap(registered, out, maps.map_xy, maps.map_frac, cv::INTER_LINEAR, cv::BORDER_CONSTANT,
-            cv::Scalar(std::numeric_limits<double>::quiet_NaN()));
+  cv::remap(image, out, maps.map_xy, maps.map_frac, cv::INTER_LINEAR, cv::BORDER_CONSTANT, cv::Scalar(kNaN));
+  if (!maps.drop.empty()) out.setTo(kNaN, maps.drop);
 }
 
 cv::Mat nrgf(const cv::Mat& polar) {

@@ -12,6 +12,11 @@
 //   column j ↔ pa_deg   = j · pa_step_deg                        (column 0 = north)
 // Bilinear sampling (cv::remap) with tables built once per (registered grid, polar grid)
 // and reused for every frame; NaN where the registered frame has no data.
+//
+// The chain (chain.hpp) samples the RAW frame straight onto the polar grid: each polar
+// sample's grid pixel, sent through the registration's affine (register.hpp), is a raw
+// pixel, so one remap does both registration and unwrapping — one interpolation instead of
+// two, over the polar grid's pixels (720 × a few hundred) instead of the full frame.
 #pragma once
 
 #include <vector>
@@ -48,11 +53,20 @@ struct PolarMaps {
   RegisteredGrid grid;
   PolarGrid polar;
   cv::Mat map_xy, map_frac;  // cv::remap tables, fixed point
+  cv::Size source;           // the image the tables sample: the grid, or a raw frame
+  cv::Mat drop;              // CV_8UC1 on the polar grid, non-zero = set to NaN (empty: none)
 };
+// From the registered grid.
 PolarMaps make_polar_maps(const RegisteredGrid& grid, const PolarGrid& polar);
+// From a raw frame of the geometry `registration` was built for, through its affine. Its
+// keep-mask comes along as `drop`: the polar samples that would have read a masked grid
+// pixel (bilinear from the grid, i.e. within a pixel of the mask) are NaN, as they are when
+// a masked registered frame is unwrapped.
+PolarMaps make_polar_maps(const Registration& registration, const RegisteredGrid& grid, const PolarGrid& polar);
 
-// `out` reallocated only when its size or type differ.
-void to_polar(const cv::Mat& registered, const PolarMaps& maps, cv::Mat& out);
+// `image` is what the tables sample (maps.source). `out` reallocated only when its size or
+// type differ.
+void to_polar(const cv::Mat& image, const PolarMaps& maps, cv::Mat& out);
 
 // Normalising-radial-graded filter, Morgan, Habbal & Woo (2006, Sol. Phys. 236, 263):
 //   I′(h, PA) = (I(h, PA) − ⟨I(h)⟩_PA) / σ_PA(h)

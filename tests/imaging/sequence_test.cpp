@@ -128,7 +128,9 @@ TEST_CASE("sequence: a size change mid-sequence is resampled onto the common gri
                                        make_frame(dir, "c.fits", kT0 + 1200, 2, binned),
                                        make_frame(dir, "d.fits", kT0 + 1800, 3)};
   std::vector<cv::Point> peaks;
-  const auto run = oi::run_view("east", paths, {}, [&](const oi::ChainFrame& f) {
+  oi::ChainOptions options;
+  options.cartesian = oi::ChainOptions::Cartesian::Every;  // the registered frames too, to check their size
+  const auto run = oi::run_view("east", paths, options, [&](const oi::ChainFrame& f) {
     CHECK(f.registered.size() == cv::Size(192, 192));
     // The growing blob is the strongest positive change of every running difference.
     cv::Mat finite = f.polar_running.clone();
