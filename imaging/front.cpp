@@ -367,8 +367,19 @@ Front find_front(const PolarSequence& s, const FrontOptions& o) {
   const auto [top_first, top_cols] = covering_arc(top);
   front.outermost_pa_deg = std::fmod(g.pa_deg(top_first) + 0.5 * (top_cols - 1) * g.pa_step_deg, 360.0);
 
-  // Step 5.
+  // Step 5. A region with no front that can be followed outward over min_frames frames
+  // is not a CME: a residual of a steep static structure (a streamer's edge moved by
+  // pointing jitter) can persist and rise a little, but leaves no significant track.
   front.track = follow_track(s, front.central_pa_deg, front.onset_frame, o);
+  const std::vector<TrackPoint> outer = follow_track(s, front.outermost_pa_deg, front.onset_frame, o);
+  if (int(std::max(front.track.size(), outer.size())) < o.min_frames) {
+    Front none;
+    none.why_not = "no CME found: a region is significant, but no front can be followed outward over " +
+                   std::to_string(o.min_frames) + " frames along it.";
+    none.leading_edge_rs = std::move(front.leading_edge_rs);
+    for (auto& row : none.leading_edge_rs) std::fill(row.begin(), row.end(), std::numeric_limits<float>::quiet_NaN());
+    return none;
+  }
   return front;
 }
 
