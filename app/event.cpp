@@ -120,4 +120,13 @@ Event read_event(const fs::path& path) {
   return event;
 }
 
+imaging::ChainOptions chain_options(const Event& event, const EventView& view, int median_filter) {
+  imaging::ChainOptions chain;
+  chain.observer = view.observer;
+  if (view.occulter_rs) chain.occulter_rs = std::make_pair((*view.occulter_rs)[0], (*view.occulter_rs)[1]);
+  chain.base_time_utc_s = event.base_time_s;
+  chain.median_filter = median_filter;
+  return chain;
+}
+
 }  // namespace occulta::app

@@ -19,6 +19,7 @@
 
 #include <nlohmann/json.hpp>
 
+#include "imaging/chain.hpp"
 #include "imaging/geometry.hpp"
 
 namespace occulta::app {
@@ -45,5 +46,9 @@ struct Event {
 // whose globs match nothing is kept with no files (the caller reports it, the other
 // views go on).
 Event read_event(const std::filesystem::path& path);
+
+// What the event file says about a view, as options of the imaging chain: its observer,
+// its occulter radii, the event's base time; median filter size as given.
+imaging::ChainOptions chain_options(const Event& event, const EventView& view, int median_filter);
 
 }  // namespace occulta::app

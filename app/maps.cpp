@@ -72,13 +72,9 @@ std::string pa_label(double pa) {
 // One view: the chain, the cube and the pictures. Returns a one-line summary.
 std::string map_view(const Event& event, const EventView& view, const MapsOptions& o, const fs::path& dir,
                      std::vector<std::string>& problems) {
-  imaging::ChainOptions chain;
-  chain.observer = view.observer;
-  if (view.occulter_rs) chain.occulter_rs = std::make_pair((*view.occulter_rs)[0], (*view.occulter_rs)[1]);
-  chain.base_time_utc_s = event.base_time_s;
+  imaging::ChainOptions chain = chain_options(event, view, o.median);
   chain.pa_step_deg = o.pa_step_deg;
   chain.height_step_rs = o.height_step_rs;
-  chain.median_filter = o.median;
   chain.cartesian = imaging::ChainOptions::Cartesian::Last;  // the quicklooks below need the last frames only
 
   imaging::PolarSequence polar;

@@ -146,11 +146,7 @@ void draw_front(const cv::Mat& difference, const imaging::RegisteredGrid& grid, 
 
 ViewOutcome measure_view(const Event& event, const EventView& view, const Track* analyst, const MeasureOptions& o,
                          std::vector<std::string>& problems) {
-  imaging::ChainOptions chain;
-  chain.observer = view.observer;
-  if (view.occulter_rs) chain.occulter_rs = std::make_pair((*view.occulter_rs)[0], (*view.occulter_rs)[1]);
-  chain.base_time_utc_s = event.base_time_s;
-  chain.median_filter = o.median;
+  const imaging::ChainOptions chain = chain_options(event, view, o.median);
 
   imaging::PolarSequence polar;
   const imaging::ViewRun run = imaging::run_view(view.name, view.files, chain, [&](const imaging::ChainFrame& f) {

@@ -30,20 +30,13 @@ using occulta::imaging::fits_detail::check_compressed_tiles;
 using occulta::imaging::fits_detail::TileCheck;
 using occulta::imaging::fits_detail::trace_rice;
 using occulta::test::run_python;
+using occulta::test::slurp;
+using occulta::test::spit;
 using occulta::test::scratch_dir;
 using occulta::test::shell_quote;
 
 namespace {
 
-std::string slurp(const fs::path& path) {
-  std::ifstream in(path, std::ios::binary);
-  return {std::istreambuf_iterator<char>(in), std::istreambuf_iterator<char>()};
-}
-
-void spit(const fs::path& path, const std::string& bytes) {
-  std::ofstream out(path, std::ios::binary);
-  out.write(bytes.data(), static_cast<std::streamsize>(bytes.size()));
-}
 
 // Where a compressed image's tiles lie in its file: the data start of HDU 2, the heap
 // start (FITS Standard 4.0 §7.3.5), and each tile's (length, offset) in the heap.

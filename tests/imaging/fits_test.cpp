@@ -29,21 +29,14 @@ using occulta::imaging::read_fits_header;
 using occulta::imaging::read_fits_memory;
 using occulta::imaging::write_fits;
 using occulta::test::run_command;
+using occulta::test::slurp;
+using occulta::test::spit;
 using occulta::test::run_python;
 using occulta::test::scratch_dir;
 using occulta::test::shell_quote;
 
 namespace {
 
-std::string slurp(const fs::path& path) {
-  std::ifstream in(path, std::ios::binary);
-  return {std::istreambuf_iterator<char>(in), std::istreambuf_iterator<char>()};
-}
-
-void spit(const fs::path& path, const std::string& bytes) {
-  std::ofstream out(path, std::ios::binary);
-  out.write(bytes.data(), static_cast<std::streamsize>(bytes.size()));
-}
 
 std::span<const std::byte> as_bytes(const std::string& text) {
   return std::as_bytes(std::span<const char>(text.data(), text.size()));

@@ -3,6 +3,8 @@
 #include <array>
 #include <cstdio>
 #include <cstdlib>
+#include <fstream>
+#include <iterator>
 #include <stdexcept>
 #include <sys/wait.h>
 
@@ -23,6 +25,16 @@ std::filesystem::path source_path(const std::string& relative) {
 }
 
 std::filesystem::path occulta_binary() { return std::filesystem::path(OCCULTA_BINARY_DIR) / "occulta"; }
+
+std::string slurp(const std::filesystem::path& path) {
+  std::ifstream in(path, std::ios::binary);
+  return {std::istreambuf_iterator<char>(in), std::istreambuf_iterator<char>()};
+}
+
+void spit(const std::filesystem::path& path, const std::string& bytes) {
+  std::ofstream out(path, std::ios::binary);
+  out.write(bytes.data(), static_cast<std::streamsize>(bytes.size()));
+}
 
 std::string shell_quote(const std::string& text) {
   std::string quoted = "'";

@@ -29,6 +29,10 @@ CommandResult run_command(const std::string& command_line);
 // Runs one of the tests/external/*.py scripts with Debian's python3.
 CommandResult run_python(const std::string& script_relative, const std::string& arguments);
 
+// A file's bytes, whole; and a file made of exactly these bytes (tests that damage files).
+std::string slurp(const std::filesystem::path& path);
+void spit(const std::filesystem::path& path, const std::string& bytes);
+
 // Single-quotes a string for the shell.
 std::string shell_quote(const std::string& text);
 
