@@ -6,6 +6,7 @@
 #include <fstream>
 #include <map>
 #include <ostream>
+#include <sstream>
 
 #include <opencv2/imgproc.hpp>
 
@@ -263,16 +264,12 @@ void write_csv_row(const fs::path& path, const json& result) {
       names.push_back(v["name"].get<std::string>() + "_" + key);
       values.push_back(csv_field(v[key]));
     }
-  const fs::path pending = path.string() + ".part";
-  {
-    std::ofstream out(pending);
-    if (!out) throw imaging::InputError(path.string(), "cannot be written");
-    for (size_t i = 0; i < names.size(); ++i) out << (i ? "," : "") << names[i];
-    out << '\n';
-    for (size_t i = 0; i < values.size(); ++i) out << (i ? "," : "") << values[i];
-    out << '\n';
-  }
-  fs::rename(pending, path);
+  std::ostringstream out;
+  for (size_t i = 0; i < names.size(); ++i) out << (i ? "," : "") << names[i];
+  out << '\n';
+  for (size_t i = 0; i < values.size(); ++i) out << (i ? "," : "") << values[i];
+  out << '\n';
+  fit::write_text_file(path, out.str());
 }
 
 }  // namespace

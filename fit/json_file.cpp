@@ -17,11 +17,15 @@ nlohmann::json read_json_file(const std::filesystem::path& path) {
 }
 
 void write_json_file(const std::filesystem::path& path, const nlohmann::json& doc) {
+  write_text_file(path, doc.dump(2) + "\n");
+}
+
+void write_text_file(const std::filesystem::path& path, const std::string& text) {
   const std::filesystem::path pending = path.string() + ".part";
   {
     std::ofstream out(pending);
     if (!out) throw imaging::InputError(path.string(), "cannot be written");
-    out << doc.dump(2) << '\n';
+    out << text;
     if (!out) throw imaging::InputError(path.string(), "could not be written in full");
   }
   std::error_code error;

@@ -4,6 +4,7 @@
 #pragma once
 
 #include <filesystem>
+#include <string>
 
 #include <nlohmann/json.hpp>
 
@@ -11,5 +12,7 @@ namespace occulta::fit {
 
 nlohmann::json read_json_file(const std::filesystem::path& path);
 void write_json_file(const std::filesystem::path& path, const nlohmann::json& doc);
+// Any text file the same way: whole or not at all (CSV rows, for instance).
+void write_text_file(const std::filesystem::path& path, const std::string& text);
 
 }  // namespace occulta::fit

@@ -33,15 +33,6 @@ std::string scenario(double lon, double lat, double speed, double tilt) {
   return text;
 }
 
-fs::path synth(const std::string& name, const std::string& text) {
-  const fs::path dir = occulta::test::scratch_dir(name);
-  std::ofstream(dir / "s.scenario.json") << text;
-  const auto run = run_command(shell_quote(occulta::test::occulta_binary().string()) + " synth --quiet " +
-                               shell_quote((dir / "s.scenario.json").string()) + " --out " +
-                               shell_quote((dir / "frames").string()));
-  REQUIRE_MESSAGE(run.exit_code == 0, run.output);
-  return dir;
-}
 
 json read_json(const fs::path& path) {
   std::ifstream in(path);
@@ -51,7 +42,7 @@ json read_json(const fs::path& path) {
 }  // namespace
 
 TEST_CASE("maps: writes the polar cube and the quicklooks for each view") {
-  const fs::path dir = synth("maps_outputs", scenario(-10, 5, 900, 20));
+  const fs::path dir = occulta::test::synthesize_event("maps_outputs", scenario(-10, 5, 900, 20));
   const fs::path out = dir / "maps";
   const auto run = run_command(shell_quote(occulta::test::occulta_binary().string()) + " maps " +
                                shell_quote((dir / "frames/maps-event.event.json").string()) + " --out " +
@@ -82,7 +73,7 @@ TEST_CASE("maps: the time-height ridge at the apex PA follows the truth's sky-pl
   for (const Case c : {Case{-10, 5, 900, 20}, Case{20, -15, 1400, -45}, Case{-30, 25, 600, 60}}) {
     CAPTURE(c.lon);
     CAPTURE(c.lat);
-    const fs::path dir = synth("maps_ridge", scenario(c.lon, c.lat, c.speed, c.tilt));
+    const fs::path dir = occulta::test::synthesize_event("maps_ridge", scenario(c.lon, c.lat, c.speed, c.tilt));
     const json truth = read_json(dir / "frames/maps-event.truth.json");
     const auto event = occulta::app::read_event(dir / "frames/maps-event.event.json");
     for (const auto& view : event.views) {
@@ -126,7 +117,7 @@ TEST_CASE("maps: the time-height ridge at the apex PA follows the truth's sky-pl
 }
 
 TEST_CASE("maps: a view without frames is a problem, the other views go on") {
-  const fs::path dir = synth("maps_bad", scenario(-10, 5, 900, 20));
+  const fs::path dir = occulta::test::synthesize_event("maps_bad", scenario(-10, 5, 900, 20));
   json event = read_json(dir / "frames/maps-event.event.json");
   event["views"][1]["files"] = json::array({"nowhere/*.fits"});
   std::ofstream(dir / "frames/broken.event.json") << event.dump();

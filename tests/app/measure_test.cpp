@@ -47,14 +47,10 @@ struct Run {
 
 Run synth_and_measure(const std::string& name, const std::string& text, const std::string& extra = "") {
   Run r;
-  const fs::path dir = occulta::test::scratch_dir(name);
-  std::ofstream(dir / "s.scenario.json") << text;
+  const fs::path dir = occulta::test::synthesize_event(name, text);
   const std::string bin = shell_quote(occulta::test::occulta_binary().string());
   r.frames = dir / "frames";
   r.out = dir / "result";
-  const auto made = run_command(bin + " synth --quiet " + shell_quote((dir / "s.scenario.json").string()) + " --out " +
-                                shell_quote(r.frames.string()));
-  REQUIRE_MESSAGE(made.exit_code == 0, made.output);
   const auto measured = run_command(bin + " measure --quiet " + shell_quote((r.frames / "measure-event.event.json").string()) +
                                     " --out " + shell_quote(r.out.string()) + extra);
   INFO(measured.output);

@@ -63,12 +63,7 @@ struct Synth {
 };
 
 Synth synth_and_difference(const std::string& name, const Shell& shell) {
-  const fs::path dir = occulta::test::scratch_dir(name);
-  std::ofstream(dir / "s.scenario.json") << scenario(shell);
-  const auto run = run_command(shell_quote(occulta::test::occulta_binary().string()) + " synth --quiet " +
-                               shell_quote((dir / "s.scenario.json").string()) + " --out " +
-                               shell_quote((dir / "frames").string()));
-  REQUIRE_MESSAGE(run.exit_code == 0, run.output);
+  const fs::path dir = occulta::test::synthesize_event(name, scenario(shell));
   Synth out;
   std::ifstream in(dir / "frames/front-event.truth.json");
   out.truth = json::parse(in);

@@ -26,6 +26,16 @@ std::filesystem::path source_path(const std::string& relative) {
 
 std::filesystem::path occulta_binary() { return std::filesystem::path(OCCULTA_BINARY_DIR) / "occulta"; }
 
+std::filesystem::path synthesize_event(const std::string& name, const std::string& scenario_text) {
+  const std::filesystem::path dir = scratch_dir(name);
+  std::ofstream(dir / "s.scenario.json") << scenario_text;
+  const CommandResult run = run_command(shell_quote(occulta_binary().string()) + " synth --quiet " +
+                                        shell_quote((dir / "s.scenario.json").string()) + " --out " +
+                                        shell_quote((dir / "frames").string()));
+  if (run.exit_code != 0) throw std::runtime_error("occulta synth failed for " + name + ": " + run.output);
+  return dir;
+}
+
 std::string slurp(const std::filesystem::path& path) {
   std::ifstream in(path, std::ios::binary);
   return {std::istreambuf_iterator<char>(in), std::istreambuf_iterator<char>()};

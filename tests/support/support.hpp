@@ -29,6 +29,12 @@ CommandResult run_command(const std::string& command_line);
 // Runs one of the tests/external/*.py scripts with Debian's python3.
 CommandResult run_python(const std::string& script_relative, const std::string& arguments);
 
+// A synthetic event for a test: writes the scenario text to
+// $OCCULTA_TEST_TMP/<name>/s.scenario.json, runs `occulta synth --quiet` into
+// <name>/frames/ and returns <name>/ (a fresh folder). Throws std::runtime_error with
+// what synth printed when it fails.
+std::filesystem::path synthesize_event(const std::string& name, const std::string& scenario_text);
+
 // A file's bytes, whole; and a file made of exactly these bytes (tests that damage files).
 std::string slurp(const std::filesystem::path& path);
 void spit(const std::filesystem::path& path, const std::string& bytes);
