@@ -5,6 +5,7 @@
 #include <CLI/CLI.hpp>
 
 #include "app/demo.hpp"
+#include "app/forecast.hpp"
 #include "app/inspect.hpp"
 #include "app/maps.hpp"
 #include "app/measure.hpp"
@@ -53,6 +54,20 @@ int run(int argc, char** argv) {
       ->capture_default_str()->check(CLI::IsMember({0, 3, 5}));
   measure_cmd->add_flag("--quiet", measure_options.quiet, "No summary table");
 
+  ForecastOptions forecast_options;
+  auto* forecast_cmd = cli.add_subcommand("forecast", "Drag-based arrival estimate of a measured CME at Earth, L1 or a point");
+  forecast_cmd->add_option("result", forecast_options.result, "Result file (result.json) with shell and boundary blocks")
+      ->required();
+  forecast_cmd->add_option("--target", forecast_options.targets, "earth, l1 or NAME:LON,LAT,AU (repeatable; default earth)")
+      ->expected(1)->multi_option_policy(CLI::MultiOptionPolicy::TakeAll);
+  forecast_cmd->add_option("--members", forecast_options.members, "Ensemble members")
+      ->capture_default_str()->check(CLI::Range(1, 10000000));
+  forecast_cmd->add_option("--seed", forecast_options.seed, "Seed of the ensemble's draws")->capture_default_str();
+  forecast_cmd->add_option("--wind", forecast_options.wind, "Ambient wind speed range LO,HI (km/s; default 300,600)");
+  forecast_cmd->add_option("--drag", forecast_options.drag, "Drag parameter range LO,HI (per km; default 1e-8,2e-7)");
+  forecast_cmd->add_option("--event", forecast_options.event, "Event file whose forecast block gives targets and ranges");
+  forecast_cmd->add_option("--out", forecast_options.out_dir, "Folder for arrival.json and the histograms (made if missing)");
+
   DemoOptions demo_options;
   auto* demo_cmd = cli.add_subcommand("demo", "Run the main job on the committed sample event");
   demo_cmd->add_option("--sample", demo_options.sample_dir, "The sample event's folder")->capture_default_str();
@@ -76,6 +91,7 @@ int run(int argc, char** argv) {
     if (*synth_cmd) return synth(synth_options, std::cout, std::cerr);
     if (*maps_cmd) return maps(maps_options, std::cout, std::cerr);
     if (*measure_cmd) return measure(measure_options, std::cout, std::cerr);
+    if (*forecast_cmd) return forecast(forecast_options, std::cout, std::cerr);
     if (*demo_cmd) return demo(demo_options, std::cout, std::cerr);
   } catch (const std::exception& e) {
     std::cerr << "occulta: " << e.what() << '\n';
