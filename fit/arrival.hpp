@@ -98,7 +98,7 @@ Target parse_target(std::string_view text, double utc_s);
 // the front by Thernisien 2011's face-on width; the test checks it on the mesh); inside a
 // leg cone the ray stays in the leg up to the leg top, h / (d·a); the front tube is found
 // by a 192-sample scan of the sign of its cross-section-circle test (one square root each,
-// the test of fit/shell's signed distance squared out) and bisection to 1e-10. A chord
+// the test of fit/shell's signed distance squared out) and bisection to 1e-9 of the apex height. A chord
 // through the front shorter than 1/192 of the apex height can be missed, as in
 // surface_distance_along.
 std::optional<double> front_reach_ratio(const ShellShape& unit_shape, const Eigen::Vector3d& shell_dir);

@@ -55,7 +55,7 @@ std::optional<double> front_reach_ratio(const ShellShape& s, const Eigen::Vector
     const double t = t_max - step * i;
     if (inside_front(s, t * d)) {
       double inside = t;
-      while (outside - inside > 1e-10) {
+      while (outside - inside > 1e-9) {
         const double mid = 0.5 * (inside + outside);
         (inside_front(s, mid * d) ? inside : outside) = mid;
       }
