@@ -149,7 +149,7 @@ struct ArrivalMember {
 // Members drawn reproducibly: std::mt19937_64 seeded with `seed` (its output sequence is
 // fixed by the C++ standard), uniform variates from its top 53 bits and normal ones by
 // Box–Muller — written out here because std::normal_distribution differs between standard
-// libraries. Correlated normals are x̄ + L z with L = V √Λ from the covariance's
+// libraries (the rest is libm's log, sin and cos). Correlated normals are x̄ + L z with L = V √Λ from the covariance's
 // eigen-decomposition (zero for directions it leaves unconstrained). Members whose draw is
 // not a valid shell (speed ≤ 0, α < 0, κ outside [0, 0.95], α + asin κ ≥ 89°) are drawn
 // again (up to 1000 times, then the nominal launch): the priors are truncated normals.
