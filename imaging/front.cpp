@@ -9,6 +9,7 @@
 
 #include <opencv2/imgproc.hpp>
 
+#include "imaging/constants.hpp"
 #include "imaging/difference.hpp"
 
 namespace occulta::imaging {
@@ -179,6 +180,29 @@ bool overlaps(const Region& a, const Region& b) {
   for (size_t c = 0; c < a.outer_row.size(); ++c)
     if (a.outer_row[c] >= 0 && b.outer_row[c] >= 0) return true;
   return false;
+}
+
+// The central PA: the PA of the centroid of the sky the front swept through in the field —
+// at each PA of the span, the area between the lowest height examined (lo) and the highest
+// the front reached there, whose centroid is Σ (cos PA, sin PA) ∫ r² dr, ∫ r² dr =
+// (H³ − lo³)/3. A PA where the front barely clears lo (a faint flank near the occulter,
+// easily lost to the threshold) weighs little; the high middle of the CME weighs most. As
+// a direction it needs no unwrapping, across north or round a halo.
+double central_pa(const std::vector<std::vector<float>>& edge_rs, int first_col, int span_cols, double lo_rs,
+                  const PolarGrid& g) {
+  double sx = 0.0, sy = 0.0;
+  for (int j = 0; j < span_cols; ++j) {
+    const int c = (first_col + j) % g.pa_count;
+    double top = -1.0;
+    for (const auto& frame : edge_rs)
+      if (std::isfinite(frame[c])) top = std::max(top, double(frame[c]));
+    if (top < lo_rs) continue;
+    const double w = top * top * top - lo_rs * lo_rs * lo_rs, pa = g.pa_deg(c) * kRadPerDeg;
+    sx += w * std::cos(pa);
+    sy += w * std::sin(pa);
+  }
+  if (sx == 0.0 && sy == 0.0) return std::fmod(g.pa_deg(first_col) + 0.5 * (span_cols - 1) * g.pa_step_deg, 360.0);
+  return std::fmod(std::atan2(sy, sx) * kDegPerRad + 360.0, 360.0);
 }
 
 std::vector<int> usable_track_rows(const PolarSequence& s, const FrontOptions& o, RowRange& rows) {
@@ -355,7 +379,7 @@ Front find_front(const PolarSequence& s, const FrontOptions& o) {
   front.width_deg = span_cols * g.pa_step_deg;
   front.pa_from_deg = g.pa_deg(first_col);
   front.pa_to_deg = std::fmod(g.pa_deg(first_col) + (span_cols - 1) * g.pa_step_deg, 360.0);
-  front.central_pa_deg = std::fmod(g.pa_deg(first_col) + 0.5 * (span_cols - 1) * g.pa_step_deg, 360.0);
+  front.central_pa_deg = central_pa(front.leading_edge_rs, first_col, span_cols, g.height_rs(rows.lo), g);
 
   // The PA of the outermost front: in the last chain frame whose front is still below the
   // field stop (else the onset frame), the middle of the columns at its highest row.

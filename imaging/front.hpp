@@ -22,6 +22,12 @@
 //     pixels) of ≥ min_frames frames whose outer edge rises by ≥ min_rise_rs is the CME.
 //     Static streamers cancel in running differences; a single-frame blob has no chain.
 //  4. Leading edge per PA per frame: the outermost row of the chain's region in each PA.
+//     The span is the arc covering every PA the chain's regions occupy; the central PA is
+//     the PA centroid of the sky the front swept through within the span: each PA weighted
+//     by the area (∫ r dr) between the lowest height examined and the highest leading edge
+//     there. Not the span's middle: the span's ends are where the front is faintest (flanks
+//     just above the occulter lose to the threshold, a bright sharp side gains the sheath's
+//     thickness), and they would move the middle by 5–15° for a tilted shell.
 //  5. Track: dynamic programming over the time–height profile (band_profile median over
 //     ±track_half_width_deg about the central PA) from the onset frame on; a point's score
 //     is its σ, heights never fall from one frame to the next, and speeds above
@@ -75,7 +81,7 @@ struct Front {
   // north pa_to_deg < pa_from_deg (e.g. 350 → 20).
   double pa_from_deg = 0.0, pa_to_deg = 0.0;
   double width_deg = 0.0;          // sky width: the span's extent
-  double central_pa_deg = 0.0;     // the middle of the span
+  double central_pa_deg = 0.0;     // where the CME is centred: the swept sky's PA centroid (step 4)
   double outermost_pa_deg = 0.0;   // PA of the highest leading edge in the chain's frames
   // [frame][PA column]: height in R☉ of the region's outermost significant pixel, NaN where
   // the region is absent (all NaN outside onset_frame..last_frame).

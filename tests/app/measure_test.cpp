@@ -1,6 +1,7 @@
 // `occulta measure` end to end on synthetic events of known truth (occulta synth): where
 // the CME is, how fast its leading edge moves on the sky, when it started; quiet
 // sequences; unreadable views; the analyst's track; every result against the schema.
+#include <cmath>
 #include <fstream>
 
 #include <doctest/doctest.h>
@@ -8,6 +9,7 @@
 
 #include "fit/json_file.hpp"
 #include "fit/truth.hpp"
+#include "imaging/front.hpp"
 #include "imaging/time.hpp"
 #include "tests/support/support.hpp"
 
@@ -70,15 +72,23 @@ Run synth_and_measure(const std::string& name, const std::string& text, const st
 }  // namespace
 
 TEST_CASE("measure: central PA, sky speed and onset of synthetic events against their truth") {
+  // The reference is the truth file of `occulta synth` — our own forward model (the shell
+  // it renders, re-projected by fit/truth.hpp view_truth), not an outside source; the
+  // tolerances are issue 5's: central PA within 5°, sky speed within 7 %, onset within one
+  // cadence (600 s). The truth counts the heights the front finder examines: the occulter
+  // edge + its inner margin to the field stop − its outer margin (imaging::FrontOptions).
   // Directions across the disc of both views, 300–2000 km/s, narrow and wide shells, two
-  // noise levels, one accelerating event.
+  // noise levels, one accelerating event (the 7th).
   const std::vector<Event> events = {
       {-15, 5, 20, 25, 0.30, 900, 0, 5e5, 3, 1},     {20, -20, -40, 30, 0.35, 1400, 0, 5e5, 3, 2},
       {-40, 25, 60, 15, 0.25, 600, 0, 8e5, 3, 3},    {0, -30, 10, 45, 0.40, 1100, 0, 5e5, 10, 4},
       {-25, 10, -60, 20, 0.30, 2000, 0, 4e5, 3, 5},  {10, 15, 35, 35, 0.30, 400, 0, 1.2e6, 3, 6},
       {-10, -10, 0, 25, 0.20, 700, 60, 6e5, 3, 7},   {15, 30, -20, 30, 0.35, 1700, 0, 5e5, 10, 8},
   };
-  int case_index = 0;
+  const occulta::imaging::FrontOptions finder;
+  const double lo = 2.5 + finder.inner_margin_rs, hi = 14.5 - finder.outer_margin_rs;  // the scenario's occulter_rs
+  constexpr double kCadenceS = 600.0;
+  int case_index = 0, compared = 0, accelerating_compared = 0;
   for (const Event& e : events) {
     ++case_index;
     CAPTURE(case_index);
@@ -88,22 +98,52 @@ TEST_CASE("measure: central PA, sky speed and onset of synthetic events against 
     for (const auto& v : r.result["views"]) {
       const std::string name = v["name"].get<std::string>();
       CAPTURE(name);
-      const occulta::fit::ViewTruth t = occulta::fit::view_truth(r.truth, name, 3.0, 14.0);
+      const occulta::fit::ViewTruth t = occulta::fit::view_truth(r.truth, name, lo, hi);
       if (t.frames_in_field < 4) continue;  // the edge crosses the field too briefly to measure
       REQUIRE(v["found"] == true);
-      // Sky-plane speed of the leading edge, within 7 %.
+      ++compared;
+      accelerating_compared += t.accelerating ? 1 : 0;
+
+      // Central PA within 5° of the truth's: the PA of the centroid of the sky the front
+      // swept through in the field, measured on the detected front, true on the shell's outline.
+      const double pa = v["central_pa_deg"].get<double>();
+      const double pa_error = std::remainder(pa - t.central_pa_deg, 360.0);
+      CAPTURE(pa);
+      CAPTURE(t.central_pa_deg);
+      CHECK(std::abs(pa_error) <= 5.0);
+
+      // Sky-plane speed of the leading edge within 7 % of the truth's (a straight line
+      // through the true sky-plane leading edge over the same heights).
       CHECK(v["sky_speed_km_s"].get<double>() == doctest::Approx(t.sky_speed_km_s).epsilon(0.07));
-      // Onset: the first frame where the CME is seen, within one cadence (600 s) of the
-      // first frame whose true leading edge is clear of the occulter (2.5 R☉ + 0.5).
+
+      // Onset, 1: the kinematic fit's time at 1 R☉ (the model AICc chooses) within one
+      // cadence of the truth's time at 1 R☉ by the truth's own law (fit/truth.hpp: a
+      // quadratic for the accelerating event). For the accelerating event the track's
+      // 70 min cannot resolve 60 m/s² (0.87 of it on the sky) against its scatter, so AICc
+      // keeps the straight line, whose extrapolation is late by most of a cadence
+      // (measured +470 to +520 s; the straight lines of the other events are early by
+      // 25–450 s): one cadence holds here, at this cadence and acceleration, but a
+      // stronger or longer-extrapolated acceleration would miss it — the sigma
+      // (onset_sigma_s) of the straight line does not cover that model error.
+      REQUIRE(v["onset_time"].is_string());
+      const double onset = occulta::imaging::utc_seconds_from_iso(v["onset_time"].get<std::string>());
+      CAPTURE(t.sky_onset_utc_s);
+      CHECK(std::abs(onset - t.sky_onset_utc_s) <= kCadenceS);
+
+      // Onset, 2: the first frame where the CME is seen, within one cadence of the first
+      // frame whose true leading edge is above `lo`.
       REQUIRE(v["first_seen_time"].is_string());
       const double seen = occulta::imaging::utc_seconds_from_iso(v["first_seen_time"].get<std::string>());
-      const occulta::fit::ViewTruth edge = occulta::fit::view_truth(r.truth, name, 3.0, 14.0);
-      CHECK(std::abs(seen - edge.first_visible_utc_s) <= 600.0);
-      // Not yet checked here: the central PA against the truth (the middle of the span
-      // seen above the occulter is off by 5–15° for tilted shells; see the issue's note),
-      // and the onset extrapolated to 1 R☉ for accelerating events.
+      CHECK(std::abs(seen - t.first_visible_utc_s) <= kCadenceS);
+      MESSAGE("event " << case_index << " " << name << ": central PA error " << pa_error << "°, speed error "
+                       << 100.0 * (v["sky_speed_km_s"].get<double>() / t.sky_speed_km_s - 1.0) << " %, 1 R☉ onset error "
+                       << onset - t.sky_onset_utc_s << " s (" << v["kinematic_model"].get<std::string>()
+                       << "), first seen error " << seen - t.first_visible_utc_s << " s");
     }
   }
+  // The issue asks for ≥ 8 events; each has at least one view that measures it.
+  CHECK(compared >= 8);
+  CHECK(accelerating_compared >= 1);
 }
 
 TEST_CASE("measure: quiet sequences find no CME and say so") {
@@ -154,3 +194,4 @@ TEST_CASE("measure: an unreadable view makes the result partial; the analyst's t
     CHECK(v["sky_speed_km_s"].get<double>() == doctest::Approx(500.0).epsilon(1e-6));
   }
 }
+
