@@ -9,54 +9,6 @@
 
 namespace occulta::fit {
 
-namespace {
-
-constexpr double kInf = std::numeric_limits<double>::infinity();
-
-// Signed distance to one leg: the cone of half-angle δ about the axis a = (±sin α, 0, cos α)
-// from Sun centre, for points whose axial coordinate does not pass the leg top (p_a ≤ h;
-// beyond that plane — the front's β = −α or π + α half-plane — the front owns the point).
-// In the meridian half-plane (p_a, q), q the distance from the axis, the wall is the
-// segment from (0, 0) to (h, h tan δ); its signed distance is q cos δ − p_a sin δ where
-// the foot of the perpendicular falls on the segment, else the distance to its end.
-double leg_signed_distance(const ShellShape& s, const Eigen::Vector3d& p, double side) {
-  const double p_a = side * s.sin_alpha * p.x() + s.cos_alpha * p.z();
-  if (p_a > s.leg_height_rs) return kInf;
-  const double q = std::sqrt(std::max(0.0, p.squaredNorm() - p_a * p_a));
-  const double normal = q * s.cos_delta - p_a * s.sin_delta;  // < 0 inside the cone
-  const double along = p_a * s.cos_delta + q * s.sin_delta;   // foot position on the wall
-  if (along <= 0.0) return p.norm();                          // nearest wall point: the foot at Sun centre
-  if (along >= s.slant_length && normal > 0.0) {
-    const double dq = q - s.leg_height_rs * s.sin_delta / s.cos_delta;
-    const double dp = p_a - s.leg_height_rs;
-    return std::sqrt(dq * dq + dp * dp);  // outside, nearest to the top rim
-  }
-  return normal;
-}
-
-// Signed distance to the front within the cross-section plane through p. The planes all
-// hold the line {(0, y, b)}; p lies in the half-plane β with in-plane coordinates
-// (s, y), s = |(p_x, p_z − b)| ≥ 0, and also — at signed coordinate −s — in the
-// half-plane β + π. Either may carry a cross-section circle (β within [−α, π + α], i.e.
-// sin β ≥ −sin α): when α < δ the circles reach across the line (r > X₀), so both count.
-double front_signed_distance(const ShellShape& s, const Eigen::Vector3d& p) {
-  const double qx = p.x(), qz = p.z() - s.b;
-  const double radial = std::hypot(qx, qz);
-  const double sin_beta = radial > 0.0 ? qz / radial : 1.0;
-  double best = kInf;
-  for (const double sign : {1.0, -1.0}) {
-    const double sb = sign * sin_beta;
-    if (sb < -s.sin_alpha) continue;
-    const double x0 = s.x0_offset + s.x0_slope * sb;
-    const double r = std::sqrt(s.r2_offset + x0 * x0);
-    const double ds = sign * radial - x0;
-    best = std::min(best, std::sqrt(ds * ds + p.y() * p.y()) - r);
-  }
-  return best;
-}
-
-}  // namespace
-
 bool is_valid(const ShellParams& p) {
   return std::isfinite(p.lon) && std::isfinite(p.lat) && std::isfinite(p.tilt) && p.apex_height_rs > 0.0 &&
          p.half_angle >= 0.0 && p.aspect_ratio >= 0.0 && p.aspect_ratio < 1.0 &&
@@ -82,31 +34,6 @@ double apex_cross_section_radius_rs(const ShellParams& params) {
   // so apex height = |c| + r = (b + ρ)/(1 − κ).
   const ShellShape s = shell_shape(params);
   return s.kappa * (s.b + s.rho) / (1.0 - s.kappa * s.kappa);
-}
-
-ShellShape shell_shape(const ShellParams& params) {
-  ShellShape s;
-  s.apex_height_rs = params.apex_height_rs;
-  s.kappa = params.aspect_ratio;
-  s.sin_alpha = std::sin(params.half_angle);
-  s.cos_alpha = std::cos(params.half_angle);
-  s.leg_height_rs = leg_height_from_apex_height(params.apex_height_rs, params.half_angle, params.aspect_ratio);
-  const double h = s.leg_height_rs, k2 = s.kappa * s.kappa;
-  s.b = h / s.cos_alpha;
-  s.rho = h * s.sin_alpha / s.cos_alpha;
-  s.sin_delta = s.kappa;
-  s.cos_delta = std::sqrt(1.0 - k2);
-  s.slant_length = h / s.cos_delta;
-  // Thernisien (2011): X₀(β) = (ρ + b κ² sin β)/(1 − κ²), r² = (b²κ² − ρ²)/(1 − κ²) + X₀².
-  s.x0_offset = s.rho / (1.0 - k2);
-  s.x0_slope = s.b * k2 / (1.0 - k2);
-  s.r2_offset = (s.b * s.b * k2 - s.rho * s.rho) / (1.0 - k2);
-  return s;
-}
-
-double signed_distance_rs(const ShellShape& shape, const Eigen::Vector3d& shell_p_rs) {
-  return std::min({leg_signed_distance(shape, shell_p_rs, 1.0), leg_signed_distance(shape, shell_p_rs, -1.0),
-                   front_signed_distance(shape, shell_p_rs)});
 }
 
 double shell_signed_distance_rs(const ShellParams& params, const Eigen::Vector3d& heeq_p_rs) {

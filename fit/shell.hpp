@@ -29,6 +29,7 @@
 #pragma once
 
 #include <cmath>
+#include <limits>
 #include <optional>
 #include <vector>
 
@@ -169,16 +170,97 @@ ShellMesh make_mesh(const ShellParams& params, const MeshResolution& resolution 
 
 // --- distance to the surface -------------------------------------------------------------
 // A shell's shape in its own frame, computed once (for the many distance evaluations of a
-// line-of-sight integration): h, b, ρ, δ and the constants of X₀(β) and r(β).
-struct ShellShape {
-  double apex_height_rs = 0.0, leg_height_rs = 0.0;
-  double sin_alpha = 0.0, cos_alpha = 1.0, kappa = 0.0;
-  double b = 0.0, rho = 0.0;
-  double sin_delta = 0.0, cos_delta = 1.0, slant_length = 0.0;  // leg wall length h / cos δ
-  double x0_offset = 0.0, x0_slope = 0.0;  // X₀(β) = x0_offset + x0_slope sin β
-  double r2_offset = 0.0;                  // r(β)² = r2_offset + X₀(β)²
+// line-of-sight integration or a fit): h, b, ρ, δ and the constants of X₀(β) and r(β).
+// Templated like the surface, so a fit can differentiate distances through it.
+template <typename T>
+struct BasicShellShape {
+  T apex_height_rs{0.0}, leg_height_rs{0.0};
+  T sin_alpha{0.0}, cos_alpha{1.0}, kappa{0.0};
+  T b{0.0}, rho{0.0};
+  T sin_delta{0.0}, cos_delta{1.0}, slant_length{0.0};  // leg wall length h / cos δ
+  T x0_offset{0.0}, x0_slope{0.0};  // X₀(β) = x0_offset + x0_slope sin β
+  T r2_offset{0.0};                 // r(β)² = r2_offset + X₀(β)²
 };
-ShellShape shell_shape(const ShellParams& params);
+using ShellShape = BasicShellShape<double>;
+
+template <typename T>
+BasicShellShape<T> shell_shape(const BasicShellParams<T>& params) {
+  using std::cos;
+  using std::sin;
+  using std::sqrt;
+  BasicShellShape<T> s;
+  s.apex_height_rs = params.apex_height_rs;
+  s.kappa = params.aspect_ratio;
+  s.sin_alpha = sin(params.half_angle);
+  s.cos_alpha = cos(params.half_angle);
+  // h = apex height (1 − κ) cos α / (1 + sin α) (leg_height_from_apex_height).
+  s.leg_height_rs = params.apex_height_rs * (T(1.0) - s.kappa) * s.cos_alpha / (T(1.0) + s.sin_alpha);
+  const T h = s.leg_height_rs, k2 = s.kappa * s.kappa;
+  s.b = h / s.cos_alpha;
+  s.rho = h * s.sin_alpha / s.cos_alpha;
+  s.sin_delta = s.kappa;
+  s.cos_delta = sqrt(T(1.0) - k2);
+  s.slant_length = h / s.cos_delta;
+  // Thernisien (2011): X₀(β) = (ρ + b κ² sin β)/(1 − κ²), r² = (b²κ² − ρ²)/(1 − κ²) + X₀².
+  s.x0_offset = s.rho / (T(1.0) - k2);
+  s.x0_slope = s.b * k2 / (T(1.0) - k2);
+  s.r2_offset = (s.b * s.b * k2 - s.rho * s.rho) / (T(1.0) - k2);
+  return s;
+}
+
+namespace shell_detail {
+// +∞ for pieces that do not own a point; never the value a caller differentiates.
+inline constexpr double kFar = std::numeric_limits<double>::infinity();
+
+// Signed distance to one leg: the cone of half-angle δ about the axis a = (±sin α, 0, cos α)
+// from Sun centre, for points whose axial coordinate does not pass the leg top (p_a ≤ h;
+// beyond that plane — the front's β = −α or π + α half-plane — the front owns the point).
+// In the meridian half-plane (p_a, q), q the distance from the axis, the wall is the
+// segment from (0, 0) to (h, h tan δ); its signed distance is q cos δ − p_a sin δ where
+// the foot of the perpendicular falls on the segment, else the distance to its end.
+template <typename T>
+T leg_signed_distance(const BasicShellShape<T>& s, const Eigen::Matrix<T, 3, 1>& p, double side) {
+  using std::sqrt;
+  const T p_a = side * s.sin_alpha * p.x() + s.cos_alpha * p.z();
+  if (p_a > s.leg_height_rs) return T(kFar);
+  const T q2 = p.squaredNorm() - p_a * p_a;
+  const T q = q2 > T(0.0) ? sqrt(q2) : T(0.0);
+  const T normal = q * s.cos_delta - p_a * s.sin_delta;  // < 0 inside the cone
+  const T along = p_a * s.cos_delta + q * s.sin_delta;   // foot position on the wall
+  if (along <= T(0.0)) return p.norm();                  // nearest wall point: the foot at Sun centre
+  if (along >= s.slant_length && normal > T(0.0)) {
+    const T dq = q - s.leg_height_rs * s.sin_delta / s.cos_delta;
+    const T dp = p_a - s.leg_height_rs;
+    return sqrt(dq * dq + dp * dp);  // outside, nearest to the top rim
+  }
+  return normal;
+}
+
+// Signed distance to the front within the cross-section plane through p. The planes all
+// hold the line {(0, y, b)}; p lies in the half-plane β with in-plane coordinates
+// (s, y), s = |(p_x, p_z − b)| ≥ 0, and also — at signed coordinate −s — in the
+// half-plane β + π. Either may carry a cross-section circle (β within [−α, π + α], i.e.
+// sin β ≥ −sin α): when α < δ the circles reach across the line (r > X₀), so both count.
+template <typename T>
+T front_signed_distance(const BasicShellShape<T>& s, const Eigen::Matrix<T, 3, 1>& p) {
+  using std::sqrt;
+  const T qx = p.x(), qz = p.z() - s.b;
+  const T radial2 = qx * qx + qz * qz;
+  const T radial = radial2 > T(0.0) ? sqrt(radial2) : T(0.0);
+  const T sin_beta = radial > T(0.0) ? qz / radial : T(1.0);
+  T best = T(kFar);
+  for (const double sign : {1.0, -1.0}) {
+    const T sb = sign * sin_beta;
+    if (sb < -s.sin_alpha) continue;
+    const T x0 = s.x0_offset + s.x0_slope * sb;
+    const T r = sqrt(s.r2_offset + x0 * x0);
+    const T ds = sign * radial - x0;
+    const T d = sqrt(ds * ds + p.y() * p.y()) - r;
+    if (d < best) best = d;
+  }
+  return best;
+}
+}  // namespace shell_detail
 
 // Signed distance-like measure from a point in the shell frame (R☉) to the surface:
 // negative inside the shell's solid (legs and front tube), zero exactly on the surface,
@@ -187,8 +269,21 @@ ShellShape shell_shape(const ShellParams& params);
 // holds the point, to that plane's circle — exact for a tube of constant radius, otherwise
 // slightly more than the true distance (the planes fan out about the line through
 // (0, 0, b) along y_shell). Where two pieces overlap the smaller value wins (union).
-// Cheap: a few square roots, no trigonometry, no mesh search.
-double signed_distance_rs(const ShellShape& shape, const Eigen::Vector3d& shell_p_rs);
+// Cheap: a few square roots, no trigonometry, no mesh search. Smooth within each piece,
+// so Ceres can differentiate it where one piece owns the point (fit/shell_fit).
+template <typename T>
+T signed_distance_rs(const BasicShellShape<T>& shape, const Eigen::Matrix<T, 3, 1>& shell_p_rs) {
+  T best = shell_detail::front_signed_distance(shape, shell_p_rs);
+  for (const double side : {1.0, -1.0}) {
+    const T leg = shell_detail::leg_signed_distance(shape, shell_p_rs, side);
+    if (leg < best) best = leg;
+  }
+  return best;
+}
+// For doubles, so Eigen expressions (t * dir) convert without naming the vector type.
+inline double signed_distance_rs(const ShellShape& shape, const Eigen::Vector3d& shell_p_rs) {
+  return signed_distance_rs<double>(shape, shell_p_rs);
+}
 // The same from HEEQ (R☉): rotates into the shell frame first.
 double shell_signed_distance_rs(const ShellParams& params, const Eigen::Vector3d& heeq_p_rs);
 
