@@ -59,7 +59,7 @@ occulta::test::CommandResult validate(const std::string& schema, const fs::path&
 
 }  // namespace
 
-TEST_CASE("forecast: table, caution, arrival.json, histograms; the result is only read") {
+TEST_CASE("forecast: the table with its caution and arrival.json with histograms from a result that is only read") {
   const fs::path dir = occulta::test::scratch_dir("forecast_main");
   const fs::path result = write(dir / "result.json", handwritten_result());
   const std::string before = occulta::test::slurp(result);
@@ -109,7 +109,7 @@ TEST_CASE("forecast: table, caution, arrival.json, histograms; the result is onl
   CHECK(occulta::test::slurp(dir / "other/arrival.json") != occulta::test::slurp(out / "arrival.json"));
 }
 
-TEST_CASE("forecast: the arrival block fits result.schema.json, and the two schemas agree on it") {
+TEST_CASE("forecast: the arrival block fits result.schema.json and the two schemas agree on it") {
   const fs::path dir = occulta::test::scratch_dir("forecast_schema");
   const fs::path result = write(dir / "result.json", handwritten_result());
   const auto run = forecast(shell_quote(result.string()) + " --members 500 --out " + shell_quote((dir / "out").string()));
@@ -129,7 +129,7 @@ TEST_CASE("forecast: the arrival block fits result.schema.json, and the two sche
   CHECK(a["$defs"]["arrival_entry"] == r["$defs"]["arrival_entry"]);
 }
 
-TEST_CASE("forecast: targets and ranges from an event file's forecast block; options win") {
+TEST_CASE("forecast: targets and ranges from an event file forecast block with options winning") {
   const fs::path dir = occulta::test::scratch_dir("forecast_event");
   const fs::path result = write(dir / "result.json", handwritten_result());
   const fs::path event = write(dir / "e.event.json",
@@ -158,7 +158,7 @@ TEST_CASE("forecast: targets and ranges from an event file's forecast block; opt
   CHECK(w["arrival"][0]["drag_per_km"] == json({0.5e-7, 1e-7}));
 }
 
-TEST_CASE("forecast: sigma without covariance, and no uncertainty at all") {
+TEST_CASE("forecast: sigma without covariance and no uncertainty at all") {
   const fs::path dir = occulta::test::scratch_dir("forecast_spread");
   json r = handwritten_result();
   r["shell"].erase("covariance");

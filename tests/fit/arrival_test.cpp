@@ -124,7 +124,7 @@ TEST_CASE("arrival: the drag-based closed form agrees with scipy.integrate.solve
   }
 }
 
-TEST_CASE("arrival: v0 = w is ballistic motion, and weak drag tends to it") {
+TEST_CASE("arrival: v0 = w is ballistic motion and weak drag tends to it") {
   // Vršnak et al. (2013): with v₀ = w the drag term vanishes, r = r₀ + w t exactly.
   for (const double w : {300.0, 450.0, 600.0}) {
     for (const double t : {1000.0, kDay, 4.0 * kDay}) {
@@ -428,7 +428,7 @@ TEST_CASE("arrival: the shell fit's uncertainty is carried to the boundary to fi
   CHECK(in.covariance(kLaunchHalfAngle, kLaunchHalfAngle) == 0.0);  // the widths are derived: not used
 }
 
-TEST_CASE("arrival: targets as the analyst writes them, and the sentences for bad ones") {
+TEST_CASE("arrival: targets as the analyst writes them and the sentences for bad ones") {
   const double t = imaging::utc_seconds_from_iso("2031-07-09T06:00:00");
   const Target p = parse_target("probe-2:-30,2.5,0.72", t);
   CHECK(p.name == "probe-2");
