@@ -1,0 +1,84 @@
+// Benchmark: the shell fit (fit/shell_fit) over 2 and 3 views × 10 frames of leading-edge
+// points (every 1° of PA where the outline lies between 2.5 and 14.5 R☉, 0.15 R☉ noise;
+// the fit keeps 30 per frame). Budget (issue "true speed, width and direction"):
+// < 0.5 s on one core. Prints the best time of each and its ratio to the budget.
+// --short: one run each, for the test suite.
+#include <algorithm>
+#include <chrono>
+#include <cstdio>
+#include <cstring>
+#include <random>
+#include <vector>
+
+#include "fit/shell_fit.hpp"
+#include "imaging/constants.hpp"
+
+using namespace occulta;
+using namespace occulta::fit;
+
+namespace {
+
+struct Case {
+  const char* name;
+  ShellParams shell;  // apex height at the first frame
+  double speed_km_s;
+  std::vector<imaging::Observer> observers;
+};
+
+std::vector<EdgePoint> points_of(const Case& c, std::vector<ShellView>& views) {
+  std::mt19937 rng(7);
+  std::normal_distribution<double> noise(0.0, 0.15);
+  const double cadence = 12.0 * kSolarRadiusKm / c.speed_km_s / 10.0;
+  std::vector<EdgePoint> points;
+  for (std::size_t v = 0; v < c.observers.size(); ++v) {
+    ShellView view;
+    view.observer = c.observers[v];
+    double from = 0.0, to = 0.0;
+    for (int f = 0; f < 10; ++f) {
+      ShellParams p = c.shell;
+      p.apex_height_rs += c.speed_km_s * f * cadence / kSolarRadiusKm;
+      const SkyOutline outline = sky_outline(make_mesh(p, {24, 120, 72}), p, c.observers[v], 1.0);
+      for (std::size_t b = 0; b < outline.max_height_rs.size(); ++b) {
+        const double h = outline.max_height_rs[b];
+        if (h >= 2.5 && h <= 14.5) points.push_back({static_cast<int>(v), f * cadence, b + 0.5, h + noise(rng)});
+      }
+      from = outline.pa_from_deg, to = outline.pa_to_deg;
+    }
+    view.central_pa_deg = 0.5 * (from + to);
+    view.width_deg = to - from;
+    views.push_back(view);
+  }
+  return points;
+}
+
+imaging::Observer at(double lon_deg, double lat_deg, double au) {
+  return imaging::observer_from_degrees(lon_deg, lat_deg, au * kAuKm);
+}
+
+}  // namespace
+
+int main(int argc, char** argv) {
+  const bool short_mode = argc > 1 && std::strcmp(argv[1], "--short") == 0;
+  const double r = kRadPerDeg;
+  const std::vector<Case> cases = {
+      {"2 views", {-12 * r, 6 * r, 30 * r, 3.0, 26 * r, 0.33}, 950.0, {at(-62, 1.5, 0.97), at(24, -2, 1.01)}},
+      {"3 views", {-100 * r, 20 * r, -60 * r, 3.0, 50 * r, 0.5}, 400.0,
+       {at(-20, 0, 1.0), at(-150, 5, 0.97), at(60, -5, 1.02)}},
+  };
+  std::printf("shell fit bench: leading edges of 10 frames per view (best of %d)\n", short_mode ? 1 : 5);
+  for (const Case& c : cases) {
+    std::vector<ShellView> views;
+    const std::vector<EdgePoint> points = points_of(c, views);
+    double best = 1e30;
+    ShellFit fit;
+    for (int i = 0; i < (short_mode ? 1 : 5); ++i) {
+      const auto t0 = std::chrono::steady_clock::now();
+      fit = fit_shell(views, points);
+      best = std::min(best, std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count());
+    }
+    std::printf("  %-8s %5zu points (%4d used)  %6.3f s    %.2f x the 0.5 s budget   (speed %.0f km/s, truth %.0f)\n",
+                c.name, points.size(), fit.points_used, best, best / 0.5, fit.law.speed_km_s, c.speed_km_s);
+    if (!fit.ok) return 1;
+  }
+  return 0;
+}
