@@ -182,11 +182,8 @@ ArrivalInput read_arrival_input(const json& result, const std::string& source) {
     const double dt_s = ref ? l.boundary_utc_s - *ref : 0.0;
     const double a_km_s2 = optional_number(shell, "accel_m_s2", "shell", source).value_or(0.0) * 1e-3;
     Eigen::Matrix<double, kLaunchSize, Eigen::Dynamic> jacobian(kLaunchSize, static_cast<Eigen::Index>(keys.size()));
-    for (size_t k = 0; k < keys.size(); ++k) {
-      jacobian.col(static_cast<Eigen::Index>(k)) =
-          keys[k] == "accel_m_s2" && !ref ? Eigen::Matrix<double, kLaunchSize, 1>::Zero().eval()
-                                          : launch_column(keys[k], dt_s, l.speed_km_s, a_km_s2);
-    }
+    for (size_t k = 0; k < keys.size(); ++k)
+      jacobian.col(static_cast<Eigen::Index>(k)) = launch_column(keys[k], dt_s, l.speed_km_s, a_km_s2);
     in.covariance = jacobian * matrix * jacobian.transpose();
   }
   return in;
