@@ -14,6 +14,7 @@
 #include "app/inspect.hpp"
 #include "app/provenance.hpp"
 #include "app/quicklook.hpp"
+#include "app/shell_report.hpp"
 #include "app/track.hpp"
 #include "fit/json_file.hpp"
 #include "fit/kinematics.hpp"
@@ -72,6 +73,7 @@ json time_or_null(const fit::HeightCrossing& c) {
 struct ViewOutcome {
   json entry;
   std::vector<TrackPoint> used;
+  ViewForShell for_shell;
 };
 
 // Quicklook: the time–height map at the track's PA with the track points (yellow) and
@@ -99,26 +101,6 @@ void draw_time_height(const imaging::PolarSequence& polar, double pa_deg, const 
   }
   for (const TrackPoint& p : points) cv::circle(picture, at(p.utc_s, p.height_rs), 5, cv::Scalar(0, 230, 255), 2, cv::LINE_AA);
   write_png(path, with_caption(picture, caption));
-}
-
-// A polar image back on the registered grid (bilinear in PA and height; no data outside
-// the polar grid): the Cartesian picture of any running difference, without keeping the
-// Cartesian frames of the whole sequence in memory.
-cv::Mat cartesian_from_polar(const cv::Mat& polar_image, const imaging::RegisteredGrid& grid,
-                             const imaging::PolarGrid& polar) {
-  cv::Mat map_x(grid.height, grid.width, CV_32FC1), map_y(grid.height, grid.width, CV_32FC1);
-  for (int y = 0; y < grid.height; ++y)
-    for (int x = 0; x < grid.width; ++x) {
-      const cv::Point2d p(x, y);
-      map_x.at<float>(y, x) = float(imaging::grid_pa_deg(grid, p) / polar.pa_step_deg);
-      map_y.at<float>(y, x) = float((imaging::grid_height_rs(grid, p) - polar.height_min_rs) / polar.height_step_rs);
-    }
-  // PA wraps through north: one column of the far side appended lets the remap interpolate across.
-  cv::Mat wrapped;
-  cv::hconcat(polar_image, polar_image.col(0), wrapped);
-  cv::Mat out;
-  cv::remap(wrapped, out, map_x, map_y, cv::INTER_LINEAR, cv::BORDER_CONSTANT, cv::Scalar(NAN));
-  return out;
 }
 
 // Quicklook: the last running difference of the CME with its leading edge (yellow) and
@@ -150,7 +132,9 @@ ViewOutcome measure_view(const Event& event, const EventView& view, const Track*
   const imaging::ChainOptions chain = chain_options(event, view, o.median);
 
   imaging::PolarSequence polar;
+  imaging::Observer observer;
   const imaging::ViewRun run = imaging::run_view(view.name, view.files, chain, [&](const imaging::ChainFrame& f) {
+    observer = f.frame.geometry.observer;
     polar.utc_s.push_back(f.frame.utc_s);
     polar.frames.push_back(f.polar_running.clone());
   });
@@ -235,6 +219,15 @@ ViewOutcome measure_view(const Event& event, const EventView& view, const Track*
                 view.name.c_str(), imaging::iso_from_utc_seconds(polar.utc_s[shown], 0).substr(0, 16).c_str());
   draw_front(cartesian_from_polar(polar.frames[shown], run.grid, polar.polar), run.grid, polar.polar, front, shown,
              caption, dir / "front.png");
+
+  ViewForShell& s = outcome.for_shell;
+  s.name = view.name;
+  s.observer = observer;
+  s.grid = run.grid;
+  s.front = front;
+  s.polar = std::move(polar);
+  if (by_analyst) s.analyst = points;
+  if (have_fit && chosen.status == fit::FitStatus::ok) s.kinematic_model = fit::to_string(chosen.model);
   return outcome;
 }
 
@@ -264,6 +257,22 @@ void write_csv_row(const fs::path& path, const json& result) {
       names.push_back(v["name"].get<std::string>() + "_" + key);
       values.push_back(csv_field(v[key]));
     }
+  // The shell and the boundary values, flat, with their σ.
+  const json& shell = result["shell"];
+  for (const char* key : {"lon_deg", "lat_deg", "tilt_deg", "half_angle_deg", "aspect_ratio", "speed_km_s", "accel_m_s2",
+                          "face_on_width_deg", "edge_on_width_deg"}) {
+    names.push_back(std::string("shell_") + key);
+    values.push_back(shell.is_object() ? csv_field(shell[key]) : "");
+    names.push_back(std::string("shell_") + key + "_sigma");
+    values.push_back(shell.is_object() ? csv_field(shell["sigma"][key]) : "");
+  }
+  names.push_back("shell_residual_rms_rs");
+  values.push_back(shell.is_object() ? csv_field(shell["residual_rms_rs"]) : "");
+  const json& boundary = result["boundary"];
+  for (const char* key : {"time", "speed_km_s", "half_width_deg"}) {
+    names.push_back(std::string("boundary_") + key);
+    values.push_back(boundary.is_object() ? csv_field(boundary[key]) : "");
+  }
   std::ostringstream out;
   for (size_t i = 0; i < names.size(); ++i) out << (i ? "," : "") << names[i];
   out << '\n';
@@ -288,6 +297,7 @@ json run_measure(const MeasureOptions& o, std::ostream& err) {
   if (!fs::is_directory(input)) inputs.push_back(input);
   if (analyst) inputs.push_back(o.track);
   Track used{event.id, {}};
+  std::vector<ViewForShell> for_shell;
   int measured = 0;
   for (const EventView& view : event.views) {
     inputs.insert(inputs.end(), view.files.begin(), view.files.end());
@@ -299,11 +309,17 @@ json run_measure(const MeasureOptions& o, std::ostream& err) {
       ViewOutcome outcome = measure_view(event, view, analyst ? &*analyst : nullptr, o, problems);
       views.push_back(std::move(outcome.entry));
       used.points.insert(used.points.end(), outcome.used.begin(), outcome.used.end());
+      for_shell.push_back(std::move(outcome.for_shell));
       ++measured;
     } catch (const imaging::InputError& e) {
       problems.push_back("view " + view.name + " could not be read: " + e.what());
     }
   }
+  // One shell over every view that saw the CME: true direction, width and speed.
+  const ShellReport shell = fit_and_report_shell(for_shell, event.source_deg, o.out_dir);
+  problems.insert(problems.end(), shell.problems.begin(), shell.problems.end());
+  for_shell.clear();  // the polar sequences are no longer needed
+
   const std::string status = measured == 0 ? "failed" : measured < int(event.views.size()) ? "partial" : "ok";
   const double elapsed = std::chrono::duration<double>(std::chrono::steady_clock::now() - started).count();
   json options = {{"median", o.median}, {"track", o.track.empty() ? json(nullptr) : json(o.track)}};
@@ -312,6 +328,8 @@ json run_measure(const MeasureOptions& o, std::ostream& err) {
                  {"status", status},
                  {"problems", problems},
                  {"views", views},
+                 {"shell", shell.shell},
+                 {"boundary", shell.boundary},
                  {"provenance", provenance(inputs, options, elapsed)}};
   fit::write_json_file(fs::path(o.out_dir) / "result.json", result);
   write_csv_row(fs::path(o.out_dir) / "result.csv", result);
@@ -337,6 +355,27 @@ void print_result_table(const json& result, std::ostream& out) {
                   v["onset_time"].is_string() ? v["onset_time"].get<std::string>().c_str() : "-");
     out << line << '\n';
   }
+  const json& s = result["shell"];
+  if (!s.is_object()) {
+    out << "shell: no fit\n";
+    return;
+  }
+  const auto pm = [&](const char* key, int digits) {
+    char text[64];
+    std::snprintf(text, sizeof text, "%.*f ± %.*f", digits, s[key].get<double>(), digits, s["sigma"][key].get<double>());
+    return std::string(text);
+  };
+  out << "shell (true, from all views): lon " << pm("lon_deg", 1) << "°, lat " << pm("lat_deg", 1) << "°, tilt "
+      << pm("tilt_deg", 0) << "°, speed " << pm("speed_km_s", 0) << " km/s, face-on width " << pm("face_on_width_deg", 0)
+      << "°, edge-on width " << pm("edge_on_width_deg", 0) << "°\n";
+  const json& b = result["boundary"];
+  if (b.is_object()) {
+    char line[200];
+    std::snprintf(line, sizeof line, "at 21.5 R☉: %s ± %.0f min, %.0f ± %.0f km/s, half-width %.0f°\n",
+                  b["time"].get<std::string>().c_str(), b["sigma"]["time_s"].get<double>() / 60.0,
+                  b["speed_km_s"].get<double>(), b["sigma"]["speed_km_s"].get<double>(), b["half_width_deg"].get<double>());
+    out << line;
+  }
 }
 
 int measure(const MeasureOptions& o, std::ostream& out, std::ostream& err) {
@@ -344,7 +383,7 @@ int measure(const MeasureOptions& o, std::ostream& out, std::ostream& err) {
   if (!o.quiet) {
     out << "event " << result["event_id"].get<std::string>() << ": " << result["status"].get<std::string>() << "\n";
     print_result_table(result, out);
-    out << "written: " << (fs::path(o.out_dir) / "result.json").string() << ", result.csv, track.json, <view>/time_height.png, <view>/front.png\n";
+    out << "written: " << (fs::path(o.out_dir) / "result.json").string() << ", result.csv, track.json, <view>/time_height.png, <view>/front.png, <view>/shell.png\n";
   }
   return result["status"] == "ok" ? 0 : 1;
 }

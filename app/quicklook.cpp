@@ -6,6 +6,7 @@
 #include <opencv2/imgproc.hpp>
 
 #include "imaging/input_error.hpp"
+#include "imaging/polar.hpp"
 
 namespace occulta::app {
 
@@ -32,6 +33,23 @@ cv::Mat grey_picture(const cv::Mat& values, double limit, int min_size) {
 int picture_scale(const cv::Mat& values, int min_size) {
   const int shorter = std::max(1, std::min(values.rows, values.cols));
   return std::max(1, (min_size + shorter - 1) / shorter);
+}
+
+cv::Mat cartesian_from_polar(const cv::Mat& polar_image, const imaging::RegisteredGrid& grid,
+                             const imaging::PolarGrid& polar) {
+  cv::Mat map_x(grid.height, grid.width, CV_32FC1), map_y(grid.height, grid.width, CV_32FC1);
+  for (int y = 0; y < grid.height; ++y)
+    for (int x = 0; x < grid.width; ++x) {
+      const cv::Point2d p(x, y);
+      map_x.at<float>(y, x) = float(imaging::grid_pa_deg(grid, p) / polar.pa_step_deg);
+      map_y.at<float>(y, x) = float((imaging::grid_height_rs(grid, p) - polar.height_min_rs) / polar.height_step_rs);
+    }
+  // PA wraps through north: one column of the far side appended lets the remap interpolate across.
+  cv::Mat wrapped;
+  cv::hconcat(polar_image, polar_image.col(0), wrapped);
+  cv::Mat out;
+  cv::remap(wrapped, out, map_x, map_y, cv::INTER_LINEAR, cv::BORDER_CONSTANT, cv::Scalar(NAN));
+  return out;
 }
 
 cv::Point2d picture_point(double x, double y, int rows, int scale) {

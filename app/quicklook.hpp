@@ -12,6 +12,8 @@
 
 #include <opencv2/core.hpp>
 
+#include "imaging/polar.hpp"
+
 namespace occulta::app {
 
 // Grey 8-bit picture of a float image: −limit → 16, +limit → 255, NaN → 0; flipped so
@@ -25,6 +27,12 @@ int picture_scale(const cv::Mat& values, int min_size = 360);
 // Where a value pixel (x, y) of the image — FITS row order, row 0 at the bottom — lands in
 // its picture (pixel centres, after the flip and the enlargement by `scale`).
 cv::Point2d picture_point(double x, double y, int rows, int scale);
+
+// A polar image (imaging/polar.hpp: rows = height, columns = PA) back on the registered
+// grid, bilinear in PA and height, NaN outside the polar grid: the Cartesian picture of any
+// running difference, without keeping the Cartesian frames of a sequence in memory.
+cv::Mat cartesian_from_polar(const cv::Mat& polar_image, const imaging::RegisteredGrid& grid,
+                             const imaging::PolarGrid& polar);
 
 // Adds a caption band above the picture (white text on black, or on the colour picture).
 cv::Mat with_caption(const cv::Mat& picture, const std::string& caption);

@@ -1,0 +1,235 @@
+// app/shell_report.cpp — the shell fit inside `measure` (see shell_report.hpp).
+#include "app/shell_report.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+
+#include <opencv2/imgproc.hpp>
+
+#include "app/quicklook.hpp"
+#include "fit/kinematics.hpp"
+#include "imaging/constants.hpp"
+#include "imaging/polar.hpp"
+#include "imaging/time.hpp"
+
+namespace occulta::app {
+namespace fs = std::filesystem;
+using nlohmann::json;
+
+namespace {
+
+// The automatic points: the leading edge per PA column of every frame of the front's
+// chain (imaging/front.hpp). The fit thins them to max_points_per_frame per frame.
+void add_leading_edge(const ViewForShell& v, int view_index, std::vector<fit::EdgePoint>& points) {
+  const imaging::Front& f = v.front;
+  for (int frame = std::max(0, f.onset_frame); frame <= f.last_frame && frame < int(f.leading_edge_rs.size()); ++frame)
+    for (int c = 0; c < v.polar.polar.pa_count; ++c) {
+      const float h = f.leading_edge_rs[static_cast<std::size_t>(frame)][static_cast<std::size_t>(c)];
+      if (std::isfinite(h)) points.push_back({view_index, v.polar.utc_s[static_cast<std::size_t>(frame)], v.polar.polar.pa_deg(c), h});
+    }
+}
+
+double deg(double rad) { return rad * kDegPerRad; }
+
+json shell_block(const fit::ShellFit& fit) {
+  const fit::ShellParams& s = fit.shell;
+  const auto& sg = fit.sigma;
+  const double face = fit::face_on_width(s.half_angle, s.aspect_ratio), edge = fit::edge_on_width(s.aspect_ratio);
+  json block = {
+      {"lon_deg", deg(s.lon)},
+      {"lat_deg", deg(s.lat)},
+      {"tilt_deg", deg(s.tilt)},
+      {"half_angle_deg", deg(s.half_angle)},
+      {"aspect_ratio", s.aspect_ratio},
+      {"ref_time", imaging::iso_from_utc_seconds(fit.law.ref_time_s, 0)},
+      {"apex_height_rs", fit.law.height_rs},
+      {"speed_km_s", fit.law.speed_km_s},
+      {"accel_m_s2", fit.law.accel_m_s2},
+      {"face_on_width_deg", deg(face)},
+      {"edge_on_width_deg", deg(edge)},
+      {"sigma",
+       {{"lon_deg", deg(sg[fit::kLon])},
+        {"lat_deg", deg(sg[fit::kLat])},
+        {"tilt_deg", deg(sg[fit::kTilt])},
+        {"half_angle_deg", deg(sg[fit::kHalfAngle])},
+        {"aspect_ratio", sg[fit::kAspect]},
+        {"apex_height_rs", sg[fit::kHeight]},
+        {"speed_km_s", sg[fit::kSpeed]},
+        {"accel_m_s2", sg[fit::kAccel]},
+        {"face_on_width_deg", deg(fit::face_on_width_sigma_rad(fit))},
+        {"edge_on_width_deg", deg(fit::edge_on_width_sigma_rad(fit))}}},
+      {"residual_rms_rs", fit.residual_rms_rs},
+      {"law", fit::to_string(fit.law_kind)},
+      {"points_used", fit.points_used},
+      {"direction_constrained", fit.direction_constrained},
+      {"design_effect", fit.covariance_inflation},
+      {"notes", fit.notes},
+  };
+  // The covariance in the keys' units (deg for angles), for the arrival ensemble. Held
+  // or unconstrained directions carry their stated σ on the diagonal, uncorrelated.
+  const std::vector<std::string> keys = {"lon_deg",        "lat_deg",        "tilt_deg",   "half_angle_deg",
+                                         "aspect_ratio",   "apex_height_rs", "speed_km_s", "accel_m_s2"};
+  const double unit[fit::kShellParams] = {kDegPerRad, kDegPerRad, kDegPerRad, kDegPerRad, 1.0, 1.0, 1.0, 1.0};
+  const bool direction_fitted = fit.covariance(fit::kLon, fit::kLon) > 0.0;
+  json matrix = json::array();
+  for (int i = 0; i < fit::kShellParams; ++i) {
+    json row = json::array();
+    for (int j = 0; j < fit::kShellParams; ++j) {
+      double c = fit.covariance(i, j);
+      if (!direction_fitted && (i <= fit::kLat || j <= fit::kLat))
+        c = i == j ? sg[static_cast<std::size_t>(i)] * sg[static_cast<std::size_t>(i)] : 0.0;
+      row.push_back(std::isfinite(c) ? c * unit[i] * unit[j] : 0.0);
+    }
+    matrix.push_back(row);
+  }
+  block["covariance"] = {{"keys", keys}, {"matrix", matrix}};
+  if (!fit.free_heights.empty()) {
+    json heights = json::array();
+    for (const auto& [t, h] : fit.free_heights) heights.push_back({{"time", imaging::iso_from_utc_seconds(t, 0)}, {"apex_height_rs", h}});
+    block["free_heights"] = heights;
+  }
+  return block;
+}
+
+// The inner boundary of heliospheric models (21.5 R☉ ≈ 0.1 au, common practice): when
+// the apex passes it, how fast, where the CME points and how wide it is (half the face-on
+// width, α + δ — the widest extent of the shell from its axis).
+json boundary_block(const fit::ShellFit& fit) {
+  const fit::ApexCrossing c = fit::apex_crossing(fit, fit::kBoundaryHeightRs);
+  if (!c.found) return nullptr;
+  const double half = 0.5 * fit::face_on_width(fit.shell.half_angle, fit.shell.aspect_ratio);
+  return {{"height_rs", fit::kBoundaryHeightRs},
+          {"time", imaging::iso_from_utc_seconds(c.time_s, 0)},
+          {"speed_km_s", c.speed_km_s},
+          {"lon_deg", deg(fit.shell.lon)},
+          {"lat_deg", deg(fit.shell.lat)},
+          {"half_width_deg", deg(half)},
+          {"sigma",
+           {{"time_s", c.time_sigma_s},
+            {"speed_km_s", c.speed_sigma_km_s},
+            {"lon_deg", deg(fit.sigma[fit::kLon])},
+            {"lat_deg", deg(fit.sigma[fit::kLat])},
+            {"half_width_deg", 0.5 * deg(fit::face_on_width_sigma_rad(fit))}}}};
+}
+
+// Quicklook: three running differences (first, middle and last frame with points) with
+// the fitted shell's outline (cyan: its largest sky height per 1° of PA) and the points
+// the fit used there (yellow), north up, side by side.
+void draw_shell(const ViewForShell& v, const fit::ShellFit& fit, const std::vector<fit::EdgePoint>& points,
+                int view_index, const fs::path& path) {
+  std::vector<int> frames;
+  for (std::size_t k = 0; k < v.polar.utc_s.size(); ++k)
+    for (const fit::EdgePoint& p : points)
+      if (p.view == view_index && std::abs(p.time_s - v.polar.utc_s[k]) < 1.0) {
+        frames.push_back(static_cast<int>(k));
+        break;
+      }
+  if (frames.empty()) return;
+  const std::vector<int> shown = {frames.front(), frames[frames.size() / 2], frames.back()};
+  std::vector<cv::Mat> panels;
+  for (const int k : shown) {
+    const cv::Mat difference = cartesian_from_polar(v.polar.frames[static_cast<std::size_t>(k)], v.grid, v.polar.polar);
+    const int scale = picture_scale(difference);
+    cv::Mat picture;
+    cv::cvtColor(grey_picture(difference, 4.0), picture, cv::COLOR_GRAY2BGR);
+    const auto at = [&](double pa, double h) {
+      const cv::Point2d p = imaging::grid_pixel(v.grid, pa, h);
+      return picture_point(p.x, p.y, difference.rows, scale);
+    };
+    const double t = v.polar.utc_s[static_cast<std::size_t>(k)];
+    const fit::ShellParams shell = fit::shell_at(fit, t);
+    const fit::SkyOutline outline = fit::sky_outline(fit::make_mesh(shell, {16, 96, 72}), shell, v.observer, 1.0);
+    const std::size_t bins = outline.max_height_rs.size();
+    for (const fit::EdgePoint& p : points)
+      if (p.view == view_index && std::abs(p.time_s - t) < 1.0)
+        cv::circle(picture, at(p.pa_deg, p.height_rs), 1, cv::Scalar(0, 230, 255), -1, cv::LINE_AA);
+    for (std::size_t b = 0; b < bins; ++b) {
+      const double h0 = outline.max_height_rs[b], h1 = outline.max_height_rs[(b + 1) % bins];
+      if (std::isfinite(h0) && std::isfinite(h1))
+        cv::line(picture, at((b + 0.5) * outline.bin_deg, h0), at((b + 1.5) * outline.bin_deg, h1),
+                 cv::Scalar(255, 230, 0), 1, cv::LINE_AA);
+    }
+    char caption[160];
+    std::snprintf(caption, sizeof caption, "%s %s apex %.1f Rs", v.name.c_str(),
+                  imaging::iso_from_utc_seconds(t, 0).substr(11, 5).c_str(), shell.apex_height_rs);
+    panels.push_back(with_caption(picture, caption));
+  }
+  cv::Mat row;
+  cv::hconcat(panels, row);
+  write_png(path, with_caption(row, v.name + ": fitted shell outline (cyan) and the points it fits (yellow), +-4 sigma, north up"));
+}
+
+}  // namespace
+
+ShellReport fit_and_report_shell(const std::vector<ViewForShell>& views,
+                                 const std::optional<std::array<double, 2>>& source_deg, const fs::path& out_dir) {
+  ShellReport report;
+  report.shell = nullptr;
+  report.boundary = nullptr;
+  std::vector<fit::ShellView> fit_views;
+  std::vector<const ViewForShell*> used;
+  std::vector<fit::EdgePoint> points;
+  int quadratic = 0, fitted = 0;
+  for (const ViewForShell& v : views) {
+    const int index = static_cast<int>(fit_views.size());
+    const std::size_t before = points.size();
+    if (!v.analyst.empty()) {
+      for (const TrackPoint& p : v.analyst) points.push_back({index, p.utc_s, p.pa_deg, p.height_rs});
+    } else if (v.front.found) {
+      add_leading_edge(v, index, points);
+    }
+    if (points.size() == before) continue;
+    fit::ShellView sv;
+    sv.name = v.name;
+    sv.observer = v.observer;
+    if (v.front.found) {
+      sv.central_pa_deg = v.front.central_pa_deg;
+      sv.width_deg = v.front.width_deg;
+    } else {  // analyst points only: their mean PA and extent
+      double ss = 0.0, sc = 0.0, lo = 360.0, hi = -360.0;
+      for (std::size_t i = before; i < points.size(); ++i) {
+        ss += std::sin(points[i].pa_deg * kRadPerDeg), sc += std::cos(points[i].pa_deg * kRadPerDeg);
+      }
+      const double mean = std::atan2(ss, sc) * kDegPerRad;
+      for (std::size_t i = before; i < points.size(); ++i) {
+        const double rel = std::remainder(points[i].pa_deg - mean, 360.0);
+        lo = std::min(lo, rel), hi = std::max(hi, rel);
+      }
+      sv.central_pa_deg = std::fmod(mean + 360.0, 360.0);
+      sv.width_deg = hi - lo;
+    }
+    fit_views.push_back(sv);
+    used.push_back(&v);
+    if (!v.kinematic_model.empty()) ++fitted, quadratic += v.kinematic_model == "quadratic";
+  }
+  if (fit_views.empty()) {
+    report.problems.push_back("no shell fit: no view found a CME or has analyst points.");
+    return report;
+  }
+  fit::ShellFitOptions options;
+  options.source_lon_lat_deg = source_deg;
+  // A quadratic apex law only when every view's own height–time fit chose one (AICc):
+  // otherwise the straight line, whose speed is the mean over the frames.
+  if (fitted > 0 && quadratic == fitted) options.law = fit::ApexLawKind::quadratic;
+  const fit::ShellFit fit = fit::fit_shell(fit_views, points, options);
+  if (!fit.ok) {
+    report.problems.push_back("no shell fit: " + fit.problem + ".");
+    return report;
+  }
+  report.shell = shell_block(fit);
+  json names = json::array();
+  for (const auto* v : used) names.push_back(v->name);
+  report.shell["views"] = names;
+  report.boundary = boundary_block(fit);
+  if (report.boundary.is_null())
+    report.problems.push_back("the fitted apex law never reaches 21.5 R☉: no boundary values.");
+  for (std::size_t i = 0; i < used.size(); ++i) {
+    fs::create_directories(out_dir / used[i]->name);
+    draw_shell(*used[i], fit, points, static_cast<int>(i), out_dir / used[i]->name / "shell.png");
+  }
+  report.fit = fit;
+  return report;
+}
+
+}  // namespace occulta::app

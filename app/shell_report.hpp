@@ -1,0 +1,52 @@
+// app/shell_report.hpp — the shell fit as `measure` runs and reports it: which points go
+// in (each view's automatic leading edge per PA per frame, or the analyst's points), the
+// `shell` and `boundary` blocks of result.json (DESIGN.md "File contracts"), and the
+// quicklook <view>/shell.png: the fitted shell's outline over the running difference at
+// three times.
+//
+// Units at this interface: degrees, km/s, m/s², R☉, ISO 8601 UTC; σ under `sigma` with
+// the same keys. `shell.covariance` {keys, matrix} is the fit's covariance in those keys'
+// units — what the arrival ensemble (fit/arrival) draws from.
+#pragma once
+
+#include <filesystem>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include <nlohmann/json.hpp>
+
+#include "app/track.hpp"
+#include "fit/shell_fit.hpp"
+#include "imaging/front.hpp"
+#include "imaging/register.hpp"
+#include "imaging/timeheight.hpp"
+
+namespace occulta::app {
+
+// What one measured view hands to the shell fit.
+struct ViewForShell {
+  std::string name;
+  imaging::Observer observer;
+  imaging::RegisteredGrid grid;
+  imaging::PolarSequence polar;        // the view's polar running differences (σ units)
+  imaging::Front front;
+  std::vector<TrackPoint> analyst;     // the analyst's points for this view (replace the automatic ones)
+  std::string kinematic_model;         // the view's own height–time choice ("linear" | "quadratic" | "")
+};
+
+struct ShellReport {
+  std::optional<fit::ShellFit> fit;    // when it ran and converged
+  nlohmann::json shell;                // null when there is no fit
+  nlohmann::json boundary;             // null when there is no fit or the apex never reaches 21.5 R☉
+  std::vector<std::string> problems;   // sentences for result.json
+};
+
+// Fits the shell over the views that found a CME (or have analyst points), writes each
+// such view's shell.png under out_dir/<view>/, and returns the blocks. `source_deg`: the
+// event's source region (lon, lat), which fixes the direction of a one-view fit.
+ShellReport fit_and_report_shell(const std::vector<ViewForShell>& views,
+                                 const std::optional<std::array<double, 2>>& source_deg,
+                                 const std::filesystem::path& out_dir);
+
+}  // namespace occulta::app
