@@ -10,6 +10,7 @@
 #include "app/quicklook.hpp"
 #include "fit/kinematics.hpp"
 #include "imaging/constants.hpp"
+#include "imaging/front_ridge.hpp"
 #include "imaging/polar.hpp"
 #include "imaging/time.hpp"
 
@@ -19,15 +20,12 @@ using nlohmann::json;
 
 namespace {
 
-// The automatic points: the leading edge per PA column of every frame of the front's
-// chain (imaging/front.hpp). The fit thins them to max_points_per_frame per frame.
-void add_leading_edge(const ViewForShell& v, int view_index, std::vector<fit::EdgePoint>& points) {
-  const imaging::Front& f = v.front;
-  for (int frame = std::max(0, f.onset_frame); frame <= f.last_frame && frame < int(f.leading_edge_rs.size()); ++frame)
-    for (int c = 0; c < v.polar.polar.pa_count; ++c) {
-      const float h = f.leading_edge_rs[static_cast<std::size_t>(frame)][static_cast<std::size_t>(c)];
-      if (std::isfinite(h)) points.push_back({view_index, v.polar.utc_s[static_cast<std::size_t>(frame)], v.polar.polar.pa_deg(c), h});
-    }
+// The automatic points: the bright ridge just inside the front's leading edge in every
+// PA column of every frame of the front's chain (imaging/front_ridge.hpp says why the
+// ridge). The fit thins them to max_points_per_frame per frame.
+void add_front_ridge(const ViewForShell& v, int view_index, std::vector<fit::EdgePoint>& points) {
+  for (const imaging::RidgePoint& p : imaging::front_ridge(v.polar, v.front))
+    points.push_back({view_index, p.utc_s, p.pa_deg, p.height_rs});
 }
 
 double deg(double rad) { return rad * kDegPerRad; }
@@ -177,7 +175,7 @@ ShellReport fit_and_report_shell(const std::vector<ViewForShell>& views,
     if (!v.analyst.empty()) {
       for (const TrackPoint& p : v.analyst) points.push_back({index, p.utc_s, p.pa_deg, p.height_rs});
     } else if (v.front.found) {
-      add_leading_edge(v, index, points);
+      add_front_ridge(v, index, points);
     }
     if (points.size() == before) continue;
     fit::ShellView sv;
