@@ -11,11 +11,13 @@
 #include <opencv2/imgproc.hpp>
 
 #include "app/event.hpp"
+#include "app/forecast.hpp"
 #include "app/inspect.hpp"
 #include "app/provenance.hpp"
 #include "app/quicklook.hpp"
 #include "app/shell_report.hpp"
 #include "app/track.hpp"
+#include "fit/arrival_json.hpp"
 #include "fit/json_file.hpp"
 #include "fit/kinematics.hpp"
 #include "imaging/chain.hpp"
@@ -321,20 +323,37 @@ json run_measure(const MeasureOptions& o, std::ostream& err) {
   for_shell.clear();  // the polar sequences are no longer needed
 
   const std::string status = measured == 0 ? "failed" : measured < int(event.views.size()) ? "partial" : "ok";
-  const double elapsed = std::chrono::duration<double>(std::chrono::steady_clock::now() - started).count();
-  json options = {{"median", o.median}, {"track", o.track.empty() ? json(nullptr) : json(o.track)}};
   json result = {{"schema", "occulta.result/1"},
                  {"event_id", event.id},
                  {"status", status},
                  {"problems", problems},
                  {"views", views},
                  {"shell", shell.shell},
-                 {"boundary", shell.boundary},
-                 {"provenance", provenance(inputs, options, elapsed)}};
+                 {"boundary", shell.boundary}};
+
+  // The arrival estimate for the event's targets (default Earth), from the fit's boundary
+  // values and covariance (fit/arrival): model estimates with stated uncertainty.
+  if (shell.boundary.is_object()) {
+    try {
+      const fit::ArrivalInput in = fit::read_arrival_input(result, (fs::path(o.out_dir) / "result.json").string());
+      const fit::ForecastSettings settings =
+          fit::read_forecast_block(event.forecast, in.launch.boundary_utc_s, event.path.string());
+      fit::EnsembleOptions ensemble;
+      ensemble.priors = settings.priors;
+      result["arrival"] = fit::arrival_block(fit::forecast_arrivals(in.launch, in.covariance, settings.targets, ensemble),
+                                             ensemble);
+      result["caution"] = std::string(fit::kArrivalCaution);
+    } catch (const imaging::InputError& e) {
+      result["problems"].push_back(std::string("no arrival estimate: ") + e.what());
+    }
+  }
+  const double elapsed = std::chrono::duration<double>(std::chrono::steady_clock::now() - started).count();
+  json options = {{"median", o.median}, {"track", o.track.empty() ? json(nullptr) : json(o.track)}};
+  result["provenance"] = provenance(inputs, options, elapsed);
   fit::write_json_file(fs::path(o.out_dir) / "result.json", result);
   write_csv_row(fs::path(o.out_dir) / "result.csv", result);
   write_track(fs::path(o.out_dir) / "track.json", used);
-  for (const auto& p : problems) err << "problem: " << p << '\n';
+  for (const auto& p : result["problems"]) err << "problem: " << p.get<std::string>() << '\n';
   return result;
 }
 
@@ -376,6 +395,7 @@ void print_result_table(const json& result, std::ostream& out) {
                   b["speed_km_s"].get<double>(), b["sigma"]["speed_km_s"].get<double>(), b["half_width_deg"].get<double>());
     out << line;
   }
+  if (result.contains("arrival")) print_arrival_table(result["arrival"], out);
 }
 
 int measure(const MeasureOptions& o, std::ostream& out, std::ostream& err) {

@@ -28,6 +28,17 @@ void add_front_ridge(const ViewForShell& v, int view_index, std::vector<fit::Edg
     points.push_back({view_index, p.utc_s, p.pa_deg, p.height_rs});
 }
 
+// The outer edges: the leading edge per PA column of every frame of the front's chain
+// (the outermost pixel above the detection threshold, imaging/front.hpp).
+void add_leading_edge(const ViewForShell& v, int view_index, std::vector<fit::EdgePoint>& points) {
+  const imaging::Front& f = v.front;
+  for (int frame = std::max(0, f.onset_frame); frame <= f.last_frame && frame < int(f.leading_edge_rs.size()); ++frame)
+    for (int c = 0; c < v.polar.polar.pa_count; ++c) {
+      const float h = f.leading_edge_rs[static_cast<std::size_t>(frame)][static_cast<std::size_t>(c)];
+      if (std::isfinite(h)) points.push_back({view_index, v.polar.utc_s[static_cast<std::size_t>(frame)], v.polar.polar.pa_deg(c), h});
+    }
+}
+
 double deg(double rad) { return rad * kDegPerRad; }
 
 json shell_block(const fit::ShellFit& fit) {
@@ -167,15 +178,19 @@ ShellReport fit_and_report_shell(const std::vector<ViewForShell>& views,
   report.boundary = nullptr;
   std::vector<fit::ShellView> fit_views;
   std::vector<const ViewForShell*> used;
-  std::vector<fit::EdgePoint> points;
+  std::vector<fit::EdgePoint> points, edge_points;
   int quadratic = 0, fitted = 0;
   for (const ViewForShell& v : views) {
     const int index = static_cast<int>(fit_views.size());
     const std::size_t before = points.size();
     if (!v.analyst.empty()) {
-      for (const TrackPoint& p : v.analyst) points.push_back({index, p.utc_s, p.pa_deg, p.height_rs});
+      for (const TrackPoint& p : v.analyst) {
+        points.push_back({index, p.utc_s, p.pa_deg, p.height_rs});
+        edge_points.push_back(points.back());
+      }
     } else if (v.front.found) {
       add_front_ridge(v, index, points);
+      add_leading_edge(v, index, edge_points);
     }
     if (points.size() == before) continue;
     fit::ShellView sv;
@@ -210,10 +225,18 @@ ShellReport fit_and_report_shell(const std::vector<ViewForShell>& views,
   // A quadratic apex law only when every view's own height–time fit chose one (AICc):
   // otherwise the straight line, whose speed is the mean over the frames.
   if (fitted > 0 && quadratic == fitted) options.law = fit::ApexLawKind::quadratic;
-  const fit::ShellFit fit = fit::fit_shell(fit_views, points, options);
+  fit::ShellFit fit = fit::fit_shell(fit_views, points, options);
   if (!fit.ok) {
     report.problems.push_back("no shell fit: " + fit.problem + ".");
     return report;
+  }
+  // The same fit to the fronts' outer edges (the threshold edge of imaging/front): the
+  // reported shell joins the two (fit/shell_fit.hpp merge_edge_fits says how).
+  if (!edge_points.empty() && edge_points.size() != points.size()) {
+    const fit::ShellFit outer = fit::fit_shell(fit_views, edge_points, options);
+    fit::merge_edge_fits(fit, outer);
+    if (outer.ok)
+      fit.notes.push_back("shape from the fronts' bright rims, apex law the mean of the rim and outer-edge fits; σ include half their difference");
   }
   report.shell = shell_block(fit);
   json names = json::array();

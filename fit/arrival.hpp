@@ -25,6 +25,7 @@
 
 #include <Eigen/Core>
 
+#include "fit/kinematics.hpp"
 #include "fit/shell.hpp"
 #include "imaging/constants.hpp"
 
@@ -38,7 +39,7 @@ inline constexpr std::string_view kArrivalCaution =
 
 // The inner boundary of heliospheric models, 21.5 R☉ ≈ 0.1 au (common practice): where
 // result.json's `boundary` block gives the CME, and where the drag-based model starts.
-inline constexpr double kBoundaryHeightRs = 21.5;
+// kBoundaryHeightRs (21.5 R☉, fit/kinematics.hpp): where the launch is taken.
 // L1 lies about 1.5 million km sunward of Earth on the Sun–Earth line (common practice).
 inline constexpr double kL1SunwardOfEarthKm = 1.5e6;
 

@@ -667,6 +667,31 @@ ShellFit fit_shell(const std::vector<ShellView>& views, const std::vector<EdgePo
   return fit;
 }
 
+void merge_edge_fits(ShellFit& fit, const ShellFit& other) {
+  if (!fit.ok || !other.ok) return;
+  // Angles compared on their circles: longitude mod 2π, tilt mod π (shell_fit.cpp normalise).
+  const double d[kShellParams] = {std::remainder(fit.shell.lon - other.shell.lon, 2.0 * kPi),
+                                  fit.shell.lat - other.shell.lat,
+                                  std::remainder(fit.shell.tilt - other.shell.tilt, kPi),
+                                  fit.shell.half_angle - other.shell.half_angle,
+                                  fit.shell.aspect_ratio - other.shell.aspect_ratio,
+                                  fit.law.height_rs - other.law.height_at(fit.law.ref_time_s),
+                                  fit.law.speed_km_s - other.law.speed_at(fit.law.ref_time_s),
+                                  fit.law.accel_m_s2 - other.law.accel_m_s2};
+  for (int i = 0; i < kShellParams; ++i) {
+    const std::size_t k = static_cast<std::size_t>(i);
+    if (!fit.direction_constrained && i <= kLat) continue;  // already the wide σ
+    fit.systematic[k] = 0.5 * std::abs(d[i]);
+    fit.covariance(i, i) += fit.systematic[k] * fit.systematic[k];
+    if (std::isfinite(fit.sigma[k])) fit.sigma[k] = std::hypot(fit.sigma[k], fit.systematic[k]);
+  }
+  // The apex law: the mean of the two at the rim fit's reference time.
+  fit.law.height_rs -= 0.5 * d[kHeight];
+  fit.law.speed_km_s -= 0.5 * d[kSpeed];
+  fit.law.accel_m_s2 -= 0.5 * d[kAccel];
+  fit.shell.apex_height_rs = fit.law.height_rs;
+}
+
 ShellParams shell_at(const ShellFit& fit, double time_s) {
   ShellParams p = fit.shell;
   p.apex_height_rs = fit.law.height_at(time_s);

@@ -114,6 +114,7 @@ struct ShellFit {
   std::array<double, kShellParams> sigma{};  // √diag, with the held-direction σ filled in
   bool direction_constrained = true;
   double covariance_inflation = 1.0;         // the design effect, applied above
+  std::array<double, kShellParams> systematic{};  // σ_sys added by merge_edge_fits (0: none)
 
   int points_used = 0;               // after thinning (max_points_per_frame)
   double residual_rms_rs = 0.0;      // √(mean r²) over all input points, r as above
@@ -133,6 +134,19 @@ std::optional<Eigen::Vector3d> direction_from_planes(const std::vector<ShellView
 // The residual r of one point against a shell (the formula above), for tests and overlays.
 double outline_distance_rs(const ShellParams& shell, const imaging::Observer& observer, double pa_deg,
                            double height_rs);
+
+// Joins the fits of one CME to two definitions of its edge — `rim`, the front's bright
+// rim (imaging/front_ridge), and `outer`, its outer threshold edge (imaging/front) — into
+// the reported one. The surface a shell stands for lies between the two (a sheath's rim
+// sits a little inside it, the threshold edge in its outer wing), and no scatter of the
+// points shows where, so:
+//   shape (direction, tilt, α, κ): the rim fit's — the outer edge's wing widens shells at
+//     their flanks, the rim's does not;
+//   apex law (h, v, a): the mean of the two fits' laws at the reference time;
+//   σ: each parameter's σ widened by σ_sys,i = |θ_rim,i − θ_outer,i| / 2 in quadrature
+//     (added to the covariance's diagonal), kept in `systematic`.
+// Our construction; tests/app/shell_measure_test.cpp checks that it is honest end to end.
+void merge_edge_fits(ShellFit& rim, const ShellFit& outer);
 
 // The fitted shell at another time (apex height from the law).
 ShellParams shell_at(const ShellFit& fit, double time_s);
