@@ -9,10 +9,12 @@
 #include <sstream>
 
 #include "app/event.hpp"
+#include "app/forecast.hpp"
 #include "app/inspect.hpp"
 #include "app/measure.hpp"
 #include "fit/json_file.hpp"
 #include "fit/truth.hpp"
+#include "imaging/front.hpp"
 #include "imaging/input_error.hpp"
 #include "imaging/time.hpp"
 
@@ -91,8 +93,10 @@ int demo(const DemoOptions& options, std::ostream& out, std::ostream& err) {
     const nlohmann::json truth = fit::read_json_file(truth_path);
     out << "\nTruth of the scenario (" << truth_path.string() << "), as each view should see it:\n";
     for (const EventView& view : event.views) {
-      const double lo = view.occulter_rs ? (*view.occulter_rs)[0] + 0.5 : 3.0;
-      const double hi = view.occulter_rs ? (*view.occulter_rs)[1] - 0.5 : 14.0;
+      // The heights the front finder examines (imaging::FrontOptions margins).
+      const imaging::FrontOptions finder;
+      const double lo = (view.occulter_rs ? (*view.occulter_rs)[0] : 2.5) + finder.inner_margin_rs;
+      const double hi = (view.occulter_rs ? (*view.occulter_rs)[1] : 14.5) - finder.outer_margin_rs;
       const fit::ViewTruth t = fit::view_truth(truth, view.name, lo, hi);
       char line[200];
       std::snprintf(line, sizeof line, "%-9s      %9.1f°  %.0f–%.0f°       %8.1f°  %7.0f sky-plane leading edge; apex PA %.1f°",
@@ -100,9 +104,33 @@ int demo(const DemoOptions& options, std::ostream& out, std::ostream& err) {
                     std::fmod(t.pa_to_deg + 360.0, 360.0), t.width_deg, t.sky_speed_km_s, t.apex_pa_deg);
       out << line << '\n';
     }
+    // The true shell beside the fitted one: speed at the fit's reference time (the truth's
+    // law v + a (t − t₀)), widths 2(α + δ) and 2δ (Thernisien 2011).
+    const nlohmann::json& ts = truth["shell"];
+    const nlohmann::json& fs_ = result["shell"];
+    if (ts.is_object()) {
+      double speed = ts["speed_km_s"].get<double>();
+      if (fs_.is_object())
+        speed += 1e-3 * ts["accel_m_s2"].get<double>() *
+                 (imaging::utc_seconds_from_iso(fs_["ref_time"].get<std::string>()) -
+                  imaging::utc_seconds_from_iso(ts["ref_time"].get<std::string>()));
+      char line[300];
+      std::snprintf(line, sizeof line,
+                    "shell (truth):                lon %.1f°, lat %.1f°, tilt %.0f°, speed %.0f km/s, face-on width %.0f°, "
+                    "edge-on width %.0f°",
+                    ts["lon_deg"].get<double>(), ts["lat_deg"].get<double>(), ts["tilt_deg"].get<double>(), speed,
+                    ts["face_on_width_deg"].get<double>(), ts["edge_on_width_deg"].get<double>());
+      out << line << '\n';
+    }
   }
   out << "\nQuicklooks: " << options.out_dir << "/<view>/time_height.png (track and fit), " << options.out_dir
-      << "/<view>/front.png (front and PA span); result: " << options.out_dir << "/result.json\n";
+      << "/<view>/front.png (front and PA span), " << options.out_dir
+      << "/<view>/shell.png (fitted shell over three frames); result: " << options.out_dir << "/result.json\n";
+  if (result.contains("arrival")) {
+    out << "\nArrival estimate (drag-based model from the 21.5 R☉ boundary values, ensemble over the fit's "
+           "uncertainty and the wind and drag ranges):\n";
+    print_arrival_table(result["arrival"], out);
+  }
   return all_ok && result["status"] == "ok" ? 0 : 1;
 }
 

@@ -395,7 +395,6 @@ void print_result_table(const json& result, std::ostream& out) {
                   b["speed_km_s"].get<double>(), b["sigma"]["speed_km_s"].get<double>(), b["half_width_deg"].get<double>());
     out << line;
   }
-  if (result.contains("arrival")) print_arrival_table(result["arrival"], out);
 }
 
 int measure(const MeasureOptions& o, std::ostream& out, std::ostream& err) {
@@ -403,6 +402,7 @@ int measure(const MeasureOptions& o, std::ostream& out, std::ostream& err) {
   if (!o.quiet) {
     out << "event " << result["event_id"].get<std::string>() << ": " << result["status"].get<std::string>() << "\n";
     print_result_table(result, out);
+    if (result.contains("arrival")) print_arrival_table(result["arrival"], out);
     out << "written: " << (fs::path(o.out_dir) / "result.json").string() << ", result.csv, track.json, <view>/time_height.png, <view>/front.png, <view>/shell.png\n";
   }
   return result["status"] == "ok" ? 0 : 1;
