@@ -257,7 +257,8 @@ TEST_CASE("shell fit: free apex heights per time follow the true law") {
   const ShellFit fit = fit_shell(seen.views, seen.points, options);
   REQUIRE(fit.ok);
   REQUIRE(fit.free_heights.size() >= 8);
-  for (const auto& [t, h] : fit.free_heights) {
+  for (const auto& free : fit.free_heights) {
+    const double t = free.first, h = free.second;  // named copies: clang cannot capture bindings
     CAPTURE(t);
     CHECK(h == doctest::Approx(c.truth.height_at(t)).epsilon(0.04));
   }
