@@ -3,6 +3,8 @@
 #include "fit/arrival.hpp"
 
 #include <algorithm>
+#include <array>
+#include <cstdint>
 #include <cmath>
 #include <random>
 
@@ -17,25 +19,23 @@ namespace {
 class Variates {
  public:
   explicit Variates(std::uint64_t seed) : engine_(seed) {}
-  // Uniform on [0, 1): the top 53 bits of one 64-bit output.
-  double uniform() { return static_cast<double>(engine_() >> 11) * 0x1.0p-53; }
-  // Standard normal by Box–Muller (common practice): √(−2 ln u₁) (cos, sin)(2π u₂), u₁ ∈ (0, 1].
-  double normal() {
-    if (has_spare_) {
-      has_spare_ = false;
-      return spare_;
+  // A uniform permutation of 0 … n − 1 (Fisher–Yates, with a bounded draw by rejection).
+  std::vector<int> permutation(int n) {
+    std::vector<int> order(static_cast<size_t>(std::max(0, n)));
+    for (int i = 0; i < n; ++i) order[static_cast<size_t>(i)] = i;
+    for (int i = n - 1; i > 0; --i) {
+      const std::uint64_t range = static_cast<std::uint64_t>(i) + 1, limit = UINT64_MAX - UINT64_MAX % range;
+      std::uint64_t r;
+      do r = engine_(); while (r >= limit);
+      std::swap(order[static_cast<size_t>(i)], order[static_cast<size_t>(r % range)]);
     }
-    const double radius = std::sqrt(-2.0 * std::log(1.0 - uniform()));
-    const double angle = 2.0 * kPi * uniform();
-    spare_ = radius * std::sin(angle);
-    has_spare_ = true;
-    return radius * std::cos(angle);
+    return order;
   }
+  // Uniform in (0, 1), away from both ends (the normal quantile is infinite there).
+  double open_uniform() { return (static_cast<double>(engine_() >> 11) + 0.5) * 0x1.0p-53; }
 
  private:
   std::mt19937_64 engine_;
-  double spare_ = 0.0;
-  bool has_spare_ = false;
 };
 
 using LaunchVector = Eigen::Matrix<double, kLaunchSize, 1>;
@@ -103,28 +103,67 @@ std::vector<ArrivalMember> draw_members(const Launch& launch, const LaunchCovari
   const LaunchVector mean = as_vector(launch);
 
   Variates variates(options.seed);
-  const auto uniform_in = [&](const std::array<double, 2>& range) {
-    return range[0] + (range[1] - range[0]) * variates.uniform();
+  const int n = std::max(0, options.members);
+  // One shuffled order of strata per dimension: launch 0 … kLaunchSize − 1, then w, γ.
+  constexpr int kDims = kLaunchSize + 2;
+  std::array<std::vector<int>, kDims> strata;
+  for (auto& order : strata) order = variates.permutation(n);
+  const auto stratified = [&](int dim, int member) {
+    return (strata[static_cast<size_t>(dim)][static_cast<size_t>(member)] + variates.open_uniform()) / n;
   };
+  const auto in_range = [](const std::array<double, 2>& range, double u) { return range[0] + (range[1] - range[0]) * u; };
   std::vector<ArrivalMember> members;
-  members.reserve(static_cast<size_t>(std::max(0, options.members)));
-  for (int i = 0; i < options.members; ++i) {
+  members.reserve(static_cast<size_t>(n));
+  for (int i = 0; i < n; ++i) {
     ArrivalMember m;
     m.launch = launch;
     for (int attempt = 0; attempt < 1000; ++attempt) {
       LaunchVector z;
-      for (int k = 0; k < kLaunchSize; ++k) z[k] = variates.normal();
+      for (int k = 0; k < kLaunchSize; ++k)
+        z[k] = inverse_normal_cdf(attempt == 0 ? stratified(k, i) : variates.open_uniform());
       const Launch drawn = from_vector(launch, mean + spread * z);
       if (drawable(drawn)) {
         m.launch = drawn;
         break;
       }
     }
-    m.wind_km_s = uniform_in(options.priors.wind_km_s);
-    m.drag_per_km = uniform_in(options.priors.drag_per_km);
+    m.wind_km_s = in_range(options.priors.wind_km_s, stratified(kLaunchSize, i));
+    m.drag_per_km = in_range(options.priors.drag_per_km, stratified(kLaunchSize + 1, i));
     members.push_back(m);
   }
   return members;
+}
+
+double inverse_normal_cdf(double p) {
+  // Acklam's approximation (relative error ~1e-9; coefficients from memory — the Halley
+  // step below corrects any error in them as long as the start is close).
+  static constexpr double a[] = {-3.969683028665376e+01, 2.209460984245205e+02, -2.759285104469687e+02,
+                                 1.383577518672690e+02,  -3.066479806614716e+01, 2.506628277459239e+00};
+  static constexpr double b[] = {-5.447609879822406e+01, 1.615858368580409e+02, -1.556989798598866e+02,
+                                 6.680131188771972e+01,  -1.328068155288572e+01};
+  static constexpr double c[] = {-7.784894002430293e-03, -3.223964580411365e-01, -2.400758277161838e+00,
+                                 -2.549732539343734e+00, 4.374664141464968e+00,  2.938163982698783e+00};
+  static constexpr double d[] = {7.784695709041462e-03, 3.224671290700398e-01, 2.445134137142996e+00,
+                                 3.754408661907416e+00};
+  constexpr double p_low = 0.02425;
+  double x;
+  if (p < p_low) {
+    const double q = std::sqrt(-2.0 * std::log(p));
+    x = (((((c[0] * q + c[1]) * q + c[2]) * q + c[3]) * q + c[4]) * q + c[5]) /
+        ((((d[0] * q + d[1]) * q + d[2]) * q + d[3]) * q + 1.0);
+  } else if (p > 1.0 - p_low) {
+    const double q = std::sqrt(-2.0 * std::log(1.0 - p));
+    x = -(((((c[0] * q + c[1]) * q + c[2]) * q + c[3]) * q + c[4]) * q + c[5]) /
+        ((((d[0] * q + d[1]) * q + d[2]) * q + d[3]) * q + 1.0);
+  } else {
+    const double q = p - 0.5, r = q * q;
+    x = (((((a[0] * r + a[1]) * r + a[2]) * r + a[3]) * r + a[4]) * r + a[5]) * q /
+        (((((b[0] * r + b[1]) * r + b[2]) * r + b[3]) * r + b[4]) * r + 1.0);
+  }
+  // Halley: e = Φ(x) − p, u = e √(2π) exp(x²/2), x ← x − u / (1 + x u / 2).
+  const double e = 0.5 * std::erfc(-x / std::sqrt(2.0)) - p;
+  const double u = e * std::sqrt(2.0 * kPi) * std::exp(0.5 * x * x);
+  return x - u / (1.0 + 0.5 * x * u);
 }
 
 std::optional<MemberArrival> member_arrival(const ArrivalMember& member, const Eigen::Vector3d& heeq_p_target_km) {

@@ -148,14 +148,25 @@ struct ArrivalMember {
 };
 
 // Members drawn reproducibly: std::mt19937_64 seeded with `seed` (its output sequence is
-// fixed by the C++ standard), uniform variates from its top 53 bits and normal ones by
-// Box–Muller — written out here because std::normal_distribution differs between standard
-// libraries (the rest is libm's log, sin and cos). Correlated normals are x̄ + L z with L = V √Λ from the covariance's
-// eigen-decomposition (zero for directions it leaves unconstrained). Members whose draw is
-// not a valid shell (speed ≤ 0, α < 0, κ outside [0, 0.95], α + asin κ ≥ 89°) are drawn
-// again (up to 1000 times, then the nominal launch): the priors are truncated normals.
+// fixed by the C++ standard), uniform variates from its top 53 bits — written out here
+// because the standard library's distributions differ between implementations. The draws
+// are a Latin hypercube (McKay, Beckman & Conover 1979 — common practice for Monte-Carlo
+// ensembles): in each of the 9 dimensions (7 of the launch, w, γ) the N members fall one
+// in each of N equal-probability strata, in an order shuffled per dimension, so that the
+// percentiles of monotone quantities (transit time against speed, w, γ) scatter far less
+// between seeds than with independent draws. Standard normals are the inverse normal CDF of
+// the stratified uniforms (inverse_normal_cdf). Correlated normals are x̄ + L z with
+// L = V √Λ from the covariance's eigen-decomposition (zero for directions it leaves
+// unconstrained). Members whose draw is not a valid shell (speed ≤ 0, α < 0, κ outside
+// [0, 0.95], α + asin κ ≥ 89°) are drawn again without strata (up to 1000 times, then the
+// nominal launch): the priors are truncated normals.
 std::vector<ArrivalMember> draw_members(const Launch& launch, const LaunchCovariance& covariance,
                                         const EnsembleOptions& options);
+
+// Φ⁻¹(p), the standard normal quantile, for p in (0, 1): Acklam's rational approximation
+// (from memory) refined by one Halley step on Φ(x) = erfc(−x/√2)/2 (std::erfc), which
+// makes it exact to rounding; checked against std::erfc in tests/fit/arrival_test.cpp.
+double inverse_normal_cdf(double p);
 
 // One member's arrival at a target: nullopt when the shell misses it.
 struct MemberArrival {
