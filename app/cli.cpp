@@ -44,7 +44,8 @@ int run(int argc, char** argv) {
   maps_cmd->add_flag("--nrgf", maps_options.nrgf, "Also write an NRGF-filtered polar frame (Morgan et al. 2006)");
 
   MeasureOptions measure_options;
-  auto* measure_cmd = cli.add_subcommand("measure", "Find the CME in each view and fit its sky-plane kinematics");
+  auto* measure_cmd = cli.add_subcommand(
+      "measure", "Find the CME in each view, fit its sky-plane kinematics, one shell over all views, and its arrival");
   measure_cmd->add_option("input", measure_options.input, "Event file (*.event.json) or a folder of FITS frames")
       ->required();
   measure_cmd->add_option("--out", measure_options.out_dir, "Folder to write into (made if missing)")->required();
@@ -52,6 +53,10 @@ int run(int argc, char** argv) {
       ->check(CLI::ExistingFile);
   measure_cmd->add_option("--median", measure_options.median, "Median filter size against cosmic rays (0, 3 or 5)")
       ->capture_default_str()->check(CLI::IsMember({0, 3, 5}));
+  measure_cmd->add_option("--apex-law", measure_options.apex_law,
+                          "Apex height law of the shell fit: auto (quadratic when every view's own fit is), "
+                          "linear, quadratic, or free (one height per time, for checking)")
+      ->capture_default_str()->check(CLI::IsMember({"auto", "linear", "quadratic", "free"}));
   measure_cmd->add_flag("--quiet", measure_options.quiet, "No summary table");
 
   ForecastOptions forecast_options;

@@ -318,7 +318,7 @@ json run_measure(const MeasureOptions& o, std::ostream& err) {
     }
   }
   // One shell over every view that saw the CME: true direction, width and speed.
-  const ShellReport shell = fit_and_report_shell(for_shell, event.source_deg, o.out_dir);
+  const ShellReport shell = fit_and_report_shell(for_shell, event.source_deg, o.apex_law, o.out_dir);
   problems.insert(problems.end(), shell.problems.begin(), shell.problems.end());
   for_shell.clear();  // the polar sequences are no longer needed
 
@@ -348,7 +348,9 @@ json run_measure(const MeasureOptions& o, std::ostream& err) {
     }
   }
   const double elapsed = std::chrono::duration<double>(std::chrono::steady_clock::now() - started).count();
-  json options = {{"median", o.median}, {"track", o.track.empty() ? json(nullptr) : json(o.track)}};
+  json options = {{"median", o.median},
+                  {"track", o.track.empty() ? json(nullptr) : json(o.track)},
+                  {"apex_law", o.apex_law}};
   result["provenance"] = provenance(inputs, options, elapsed);
   fit::write_json_file(fs::path(o.out_dir) / "result.json", result);
   write_csv_row(fs::path(o.out_dir) / "result.csv", result);

@@ -22,6 +22,7 @@ struct MeasureOptions {
   std::string out_dir;
   std::string track;      // optional track file: its points replace the automatic ones
   int median = 5;         // median filter against cosmic-ray tracks (0, 3, 5)
+  std::string apex_law = "auto";  // shell fit: auto | linear | quadratic | free (app/shell_report.hpp)
   bool quiet = false;     // no summary table
 };
 

@@ -172,7 +172,8 @@ void draw_shell(const ViewForShell& v, const fit::ShellFit& fit, const std::vect
 }  // namespace
 
 ShellReport fit_and_report_shell(const std::vector<ViewForShell>& views,
-                                 const std::optional<std::array<double, 2>>& source_deg, const fs::path& out_dir) {
+                                 const std::optional<std::array<double, 2>>& source_deg, const std::string& apex_law,
+                                 const fs::path& out_dir) {
   ShellReport report;
   report.shell = nullptr;
   report.boundary = nullptr;
@@ -222,9 +223,12 @@ ShellReport fit_and_report_shell(const std::vector<ViewForShell>& views,
   }
   fit::ShellFitOptions options;
   options.source_lon_lat_deg = source_deg;
-  // A quadratic apex law only when every view's own height–time fit chose one (AICc):
-  // otherwise the straight line, whose speed is the mean over the frames.
-  if (fitted > 0 && quadratic == fitted) options.law = fit::ApexLawKind::quadratic;
+  // auto: a quadratic apex law only when every view's own height–time fit chose one
+  // (AICc); otherwise the straight line, whose speed is the mean over the frames.
+  if (apex_law == "quadratic" || (apex_law == "auto" && fitted > 0 && quadratic == fitted))
+    options.law = fit::ApexLawKind::quadratic;
+  else if (apex_law == "free")
+    options.law = fit::ApexLawKind::free_per_time;
   fit::ShellFit fit = fit::fit_shell(fit_views, points, options);
   if (!fit.ok) {
     report.problems.push_back("no shell fit: " + fit.problem + ".");

@@ -45,8 +45,10 @@ struct ShellReport {
 // Fits the shell over the views that found a CME (or have analyst points), writes each
 // such view's shell.png under out_dir/<view>/, and returns the blocks. `source_deg`: the
 // event's source region (lon, lat), which fixes the direction of a one-view fit.
+// `apex_law`: "linear", "quadratic", "free" (one apex height per time), or "auto" —
+// quadratic when every view's own height–time fit chose a quadratic, else linear.
 ShellReport fit_and_report_shell(const std::vector<ViewForShell>& views,
-                                 const std::optional<std::array<double, 2>>& source_deg,
+                                 const std::optional<std::array<double, 2>>& source_deg, const std::string& apex_law,
                                  const std::filesystem::path& out_dir);
 
 }  // namespace occulta::app
