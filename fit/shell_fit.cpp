@@ -522,32 +522,45 @@ ShellFit fit_shell(const std::vector<ShellView>& views, const std::vector<EdgePo
   std::vector<int> coarse;
   for (int i = 0; i < static_cast<int>(points.size()); i += 4) coarse.push_back(i);
   const ApexLawKind start_kind = options.law == ApexLawKind::quadratic ? ApexLawKind::linear : options.law;
-  Solve best;
+  // Coarse solves from every start; the best few are then refined on all points and the
+  // lowest final cost wins (a coarse cost can rank two basins wrongly when few points
+  // separate them, e.g. a thin shell seen nearly along its legs' plane).
+  std::vector<std::pair<double, Params>> coarse_results;
   for (const Eigen::Vector3d& dir : directions) {
     const std::array<double, 3> law = start_law(d, views, points, dir);
-    for (const double tilt_deg : options.start_tilts_deg) {
-      Solve s;
-      s.x.direction = {std::atan2(dir.y(), dir.x()), std::asin(std::clamp(dir.z(), -1.0, 1.0))};
-      s.x.shape = {tilt_deg * kRadPerDeg, alpha0, kappa0};
-      s.x.law = law;
-      run_solve(s, d, start_kind == ApexLawKind::free_per_time ? ApexLawKind::linear : start_kind, held, options.huber_rs,
-                std::min(options.max_iterations, 20), coarse);
-      ++fit.starts_tried;
-      if (s.usable && s.cost < best.cost) best = std::move(s);
+    for (const double alpha : {alpha0, 0.6 * alpha0}) {
+      for (const double tilt_deg : options.start_tilts_deg) {
+        Solve s;
+        s.x.direction = {std::atan2(dir.y(), dir.x()), std::asin(std::clamp(dir.z(), -1.0, 1.0))};
+        s.x.shape = {tilt_deg * kRadPerDeg, alpha, kappa0};
+        s.x.law = law;
+        run_solve(s, d, start_kind == ApexLawKind::free_per_time ? ApexLawKind::linear : start_kind, held,
+                  options.huber_rs, std::min(options.max_iterations, 20), coarse);
+        ++fit.starts_tried;
+        if (s.usable) coarse_results.emplace_back(s.cost, s.x);
+      }
     }
   }
-  if (!best.usable) {
+  if (coarse_results.empty()) {
     fit.problem = "the shell fit found no usable solution from any start";
     return fit;
   }
-  Solve final_solve;
-  final_solve.x = best.x;
-  final_solve.x.heights.clear();
-  run_solve(final_solve, d, options.law, held, options.huber_rs, options.max_iterations, {});
-  if (!final_solve.usable) {
+  std::sort(coarse_results.begin(), coarse_results.end(),
+            [](const auto& a, const auto& b) { return a.first < b.first; });
+  // Solves live on the heap: their Ceres problems point into their parameters.
+  std::unique_ptr<Solve> chosen;
+  for (std::size_t k = 0; k < std::min<std::size_t>(3, coarse_results.size()); ++k) {
+    auto refined = std::make_unique<Solve>();
+    refined->x = coarse_results[k].second;
+    refined->x.heights.clear();
+    run_solve(*refined, d, options.law, held, options.huber_rs, options.max_iterations, {});
+    if (refined->usable && (!chosen || refined->cost < chosen->cost)) chosen = std::move(refined);
+  }
+  if (!chosen) {
     fit.problem = "the shell fit did not converge on all points";
     return fit;
   }
+  Solve& final_solve = *chosen;
   Params& x = final_solve.x;
 
   // Covariance of the free blocks (the direction too unless held or unconstrained).

@@ -28,7 +28,8 @@
 // direction from the intersection of the planes through each observer and Sun centre at
 // that view's central PA (Inhester 2006, shared/REFERENCES.md); half-angle from the
 // widest PA span; aspect ratio 0.3; the height law from the outermost leading edge of the
-// least foreshortened view. A few tilts are started and the best solution is kept.
+// least foreshortened view. Six tilts × two half-angles are started on a quarter of the
+// points; the three best are refined on all points and the lowest cost is kept.
 // One view: the event's source region fixes the direction (held constant, σ stated by the
 // caller); with no source the direction is searched over a grid, and the result says it
 // is unconstrained and carries wide σ (kUnconstrainedLonSigmaDeg, …).
