@@ -7,13 +7,16 @@
 // within 8°.
 #include <cmath>
 #include <cstdio>
+#include <random>
 #include <string>
 #include <vector>
 
 #include <doctest/doctest.h>
 #include <nlohmann/json.hpp>
 
+#include "app/track.hpp"
 #include "fit/json_file.hpp"
+#include "fit/shell.hpp"
 #include "imaging/time.hpp"
 #include "tests/support/support.hpp"
 
@@ -154,4 +157,96 @@ TEST_CASE("shell measure: the reported uncertainty covers the truth over 20 nois
   CHECK(runs == 20);
   CHECK(speed_in >= 17);
   CHECK(lon_in >= 17);
+}
+
+namespace {
+
+// The truth's shell at one of its frames (the truth file's apex height at that time).
+occulta::fit::ShellParams truth_shell_at(const json& truth_frame, const Config& c) {
+  const double r = M_PI / 180.0;
+  return {c.lon * r, c.lat * r, c.tilt * r, truth_frame["apex_height_rs"].get<double>(), c.half_angle * r, c.kappa};
+}
+
+}  // namespace
+
+TEST_CASE("shell measure: an analyst's sparse points replace the automatic ones and give the true shell") {
+  // What an analyst marks in the viewer: five points along each view's front in every
+  // other frame, 0.2 R☉ off the true outline (Gaussian, seeded) — the outline from the
+  // truth's own shell projected into the view (fit/shell sky_outline, the largest sky
+  // height per PA). Tolerances as above (the issue's).
+  const Config c{"tilted, two views", -12, 6, 30, 26, 0.33, 950, 0, {{"a", -62, 1.5, 0.97}, {"b", 24, -2, 1.01}}};
+  const fs::path dir = occulta::test::synthesize_event("shell_analyst", scenario(c, 77));
+  const json truth = occulta::fit::read_json_file(dir / "frames" / "shell-event.truth.json");
+  occulta::app::Track track{"shell-event", {}};
+  std::mt19937 rng(5);
+  std::normal_distribution<double> noise(0.0, 0.2);
+  for (const Observer& o : c.observers) {
+    const occulta::imaging::Observer observer =
+        occulta::imaging::observer_from_degrees(o.lon, o.lat, o.dist_au * 149597870.7);
+    for (std::size_t k = 1; k < truth["frames"].size(); k += 2) {
+      const json& frame = truth["frames"][k];
+      const occulta::fit::ShellParams shell = truth_shell_at(frame, c);
+      const auto outline = occulta::fit::sky_outline(occulta::fit::make_mesh(shell, {24, 120, 72}), shell, observer, 1.0);
+      std::vector<std::pair<double, double>> seen;  // (PA, height) inside the field
+      for (std::size_t b = 0; b < outline.max_height_rs.size(); ++b)
+        if (outline.max_height_rs[b] >= 3.0 && outline.max_height_rs[b] <= 14.0) seen.emplace_back(b + 0.5, outline.max_height_rs[b]);
+      if (seen.size() < 10) continue;
+      for (int p = 0; p < 5; ++p) {
+        const auto& [pa, h] = seen[(seen.size() - 1) * static_cast<std::size_t>(p) / 4];
+        track.points.push_back({o.name, occulta::imaging::utc_seconds_from_iso(frame["time"].get<std::string>()), pa,
+                                h + noise(rng), "analyst"});
+      }
+    }
+  }
+  REQUIRE(track.points.size() >= 40);
+  occulta::app::write_track(dir / "analyst.track.json", track);
+  const fs::path out = dir / "result";
+  const auto measured = run_command(shell_quote(occulta::test::occulta_binary().string()) + " measure --quiet " +
+                                    shell_quote((dir / "frames" / "shell-event.event.json").string()) + " --track " +
+                                    shell_quote((dir / "analyst.track.json").string()) + " --out " + shell_quote(out.string()));
+  INFO(measured.output);
+  const json result = occulta::fit::read_json_file(out / "result.json");
+  REQUIRE(result["shell"].is_object());
+  const json& s = result["shell"];
+  CAPTURE(s.dump());
+  for (const auto& v : result["views"]) CHECK(v["track_origin"] == "analyst");
+  CHECK(s["points_used"] == static_cast<int>(track.points.size()));  // every click, no automatic points
+  CHECK(angle_between_deg(s["lon_deg"].get<double>(), c.lon) <= 4.0);
+  CHECK(std::abs(s["lat_deg"].get<double>() - c.lat) <= 4.0);
+  CHECK(s["speed_km_s"].get<double>() == doctest::Approx(c.speed).epsilon(0.07));
+  const double face_on = 2.0 * (c.half_angle + std::asin(c.kappa) * 180.0 / M_PI);
+  CHECK(std::abs(s["face_on_width_deg"].get<double>() - face_on) <= 8.0);
+  for (const auto& o : c.observers) CHECK(fs::exists(out / o.name / "shell.png"));
+}
+
+TEST_CASE("shell measure: one view takes its direction from the event's source region") {
+  // DESIGN.md: the event's `source` fixes the direction of a one-view fit. The source
+  // given is the truth's direction; speed along it within the issue's 7 %.
+  const Config c{"one view", -12, 6, 30, 26, 0.33, 950, 0, {{"a", -62, 1.5, 0.97}}};
+  const fs::path dir = occulta::test::synthesize_event("shell_one_view", scenario(c, 78));
+  json event = occulta::fit::read_json_file(dir / "frames" / "shell-event.event.json");
+  event["source"] = {{"lon_deg", c.lon}, {"lat_deg", c.lat}};
+  occulta::fit::write_json_file(dir / "frames" / "sourced.event.json", event);
+  const std::string bin = shell_quote(occulta::test::occulta_binary().string());
+  const fs::path out = dir / "result";
+  run_command(bin + " measure --quiet " + shell_quote((dir / "frames" / "sourced.event.json").string()) + " --out " +
+              shell_quote(out.string()));
+  const json s = occulta::fit::read_json_file(out / "result.json")["shell"];
+  REQUIRE(s.is_object());
+  CAPTURE(s.dump());
+  CHECK(s["direction_constrained"] == true);
+  CHECK(s["lon_deg"].get<double>() == doctest::Approx(c.lon));
+  CHECK(s["lat_deg"].get<double>() == doctest::Approx(c.lat));
+  CHECK(s["sigma"]["lon_deg"].get<double>() >= 10.0);
+  CHECK(s["speed_km_s"].get<double>() == doctest::Approx(c.speed).epsilon(0.07));
+
+  // Without the source the direction is unconstrained, and the result says so.
+  const fs::path bare = dir / "bare";
+  run_command(bin + " measure --quiet " + shell_quote((dir / "frames" / "shell-event.event.json").string()) + " --out " +
+              shell_quote(bare.string()));
+  const json b = occulta::fit::read_json_file(bare / "result.json")["shell"];
+  REQUIRE(b.is_object());
+  CHECK(b["direction_constrained"] == false);
+  CHECK(b["sigma"]["lon_deg"].get<double>() >= 60.0);
+  CHECK(b["notes"].dump().find("unconstrained") != std::string::npos);
 }
