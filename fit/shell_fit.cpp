@@ -521,7 +521,6 @@ ShellFit fit_shell(const std::vector<ShellView>& views, const std::vector<EdgePo
   // Starts on every fourth point (the coarse search), the best refined on all.
   std::vector<int> coarse;
   for (int i = 0; i < static_cast<int>(points.size()); i += 4) coarse.push_back(i);
-  const ApexLawKind start_kind = options.law == ApexLawKind::quadratic ? ApexLawKind::linear : options.law;
   // Coarse solves from every start; the best few are then refined on all points and the
   // lowest final cost wins (a coarse cost can rank two basins wrongly when few points
   // separate them, e.g. a thin shell seen nearly along its legs' plane).
@@ -534,8 +533,8 @@ ShellFit fit_shell(const std::vector<ShellView>& views, const std::vector<EdgePo
         s.x.direction = {std::atan2(dir.y(), dir.x()), std::asin(std::clamp(dir.z(), -1.0, 1.0))};
         s.x.shape = {tilt_deg * kRadPerDeg, alpha, kappa0};
         s.x.law = law;
-        run_solve(s, d, start_kind == ApexLawKind::free_per_time ? ApexLawKind::linear : start_kind, held,
-                  options.huber_rs, std::min(options.max_iterations, 20), coarse);
+        // Every law starts from a straight line: the coarse search only ranks basins.
+        run_solve(s, d, ApexLawKind::linear, held, options.huber_rs, std::min(options.max_iterations, 20), coarse);
         ++fit.starts_tried;
         if (s.usable) coarse_results.emplace_back(s.cost, s.x);
       }
