@@ -179,7 +179,8 @@ ShellReport fit_and_report_shell(const std::vector<ViewForShell>& views,
   report.boundary = nullptr;
   std::vector<fit::ShellView> fit_views;
   std::vector<const ViewForShell*> used;
-  std::vector<fit::EdgePoint> points, edge_points;
+  std::vector<fit::EdgePoint> points, edge_points;  // rims (or the analyst's), and outer edges
+  bool automatic = false;                            // some view's points are the finder's
   int quadratic = 0, fitted = 0;
   for (const ViewForShell& v : views) {
     const int index = static_cast<int>(fit_views.size());
@@ -192,6 +193,7 @@ ShellReport fit_and_report_shell(const std::vector<ViewForShell>& views,
     } else if (v.front.found) {
       add_front_ridge(v, index, points);
       add_leading_edge(v, index, edge_points);
+      automatic = true;
     }
     if (points.size() == before) continue;
     fit::ShellView sv;
@@ -236,7 +238,7 @@ ShellReport fit_and_report_shell(const std::vector<ViewForShell>& views,
   }
   // The same fit to the fronts' outer edges (the threshold edge of imaging/front): the
   // reported shell joins the two (fit/shell_fit.hpp merge_edge_fits says how).
-  if (!edge_points.empty() && edge_points.size() != points.size()) {
+  if (automatic) {
     const fit::ShellFit outer = fit::fit_shell(fit_views, edge_points, options);
     fit::merge_edge_fits(fit, outer);
     if (outer.ok)
