@@ -22,7 +22,10 @@
 // from dominating. r > 0: the point lies outside the outline (the model is too small).
 // Ceres differentiates r automatically through the templated shell; s* is found on the
 // values alone (sampling, then golden-section refinement), which is exact to first order
-// because d is stationary in s at s* (the envelope theorem). Loss: Huber.
+// because d is stationary in s at s* (the envelope theorem). Loss: Huber. One more
+// residual holds a weak prior on the aspect ratio, κ ~ N(0.3, 0.15²) (shell_fit.cpp
+// AspectPrior), so that a few sparse points cannot thin the shell to a line; a frame's
+// points are thinned to max_points_per_frame, evenly in PA.
 //
 // Start (for two or more views that see the CME off the Sun–observer line): the
 // direction from the intersection of the planes through each observer and Sun centre at
