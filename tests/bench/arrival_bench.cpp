@@ -11,20 +11,11 @@
 
 #include "fit/arrival.hpp"
 #include "imaging/time.hpp"
+#include "tests/bench/best_of.hpp"
 
 namespace {
 using namespace occulta;
-using clock_type = std::chrono::steady_clock;
-
-double best_of(int repeats, const auto& work) {
-  double best = 1e30;
-  for (int i = 0; i < repeats; ++i) {
-    const auto t0 = clock_type::now();
-    work();
-    best = std::min(best, std::chrono::duration<double>(clock_type::now() - t0).count());
-  }
-  return best;
-}
+using bench::best_of;
 
 }  // namespace
 

@@ -9,6 +9,7 @@
 #include <sstream>
 
 #include "app/measure.hpp"
+#include "tests/bench/best_of.hpp"
 
 int main(int argc, char** argv) {
   const bool short_mode = argc > 1 && std::strcmp(argv[1], "--short") == 0;
@@ -17,13 +18,8 @@ int main(int argc, char** argv) {
   options.input = (source / "sample_frames/sample-2031-03-14.event.json").string();
   options.out_dir = (std::filesystem::temp_directory_path() / "occulta-measure-bench").string();
   options.quiet = true;
-  double best = 1e30;
-  for (int i = 0; i < (short_mode ? 1 : 5); ++i) {
-    std::ostringstream sink;
-    const auto t0 = std::chrono::steady_clock::now();
-    occulta::app::run_measure(options, sink);
-    best = std::min(best, std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count());
-  }
+  std::ostringstream sink;
+  const double best = occulta::bench::best_of(short_mode ? 1 : 5, [&] { occulta::app::run_measure(options, sink); });
   std::filesystem::remove_all(options.out_dir);
   std::printf("measure bench: sample event, 2 views x 16 frames of 384x384 (best of %d)\n", short_mode ? 1 : 5);
   std::printf("  measure            %7.2f s    %.2f x the 3 s budget\n", best, best / 3.0);

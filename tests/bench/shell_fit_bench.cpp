@@ -12,6 +12,7 @@
 
 #include "fit/shell_fit.hpp"
 #include "imaging/constants.hpp"
+#include "tests/bench/best_of.hpp"
 
 using namespace occulta;
 using namespace occulta::fit;
@@ -69,13 +70,8 @@ int main(int argc, char** argv) {
   for (const Case& c : cases) {
     std::vector<ShellView> views;
     const std::vector<EdgePoint> points = points_of(c, views);
-    double best = 1e30;
     ShellFit fit;
-    for (int i = 0; i < (short_mode ? 1 : 5); ++i) {
-      const auto t0 = std::chrono::steady_clock::now();
-      fit = fit_shell(views, points);
-      best = std::min(best, std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count());
-    }
+    const double best = bench::best_of(short_mode ? 1 : 5, [&] { fit = fit_shell(views, points); });
     std::printf("  %-8s %5zu points (%4d used)  %6.3f s    %.2f x the 0.5 s budget   (speed %.0f km/s, truth %.0f)\n",
                 c.name, points.size(), fit.points_used, best, best / 0.5, fit.law.speed_km_s, c.speed_km_s);
     if (!fit.ok) return 1;

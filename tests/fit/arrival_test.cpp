@@ -109,12 +109,10 @@ TEST_CASE("arrival: the drag-based closed form agrees with scipy.integrate.solve
     std::snprintf(args, sizeof args, "%.17g %.17g %.17g %.17g 3600 43200 172800 432000", kR0Km, c.v0, c.w, c.gamma);
     const auto run = test::run_python("tests/external/drag_reference.py", args);
     REQUIRE_MESSAGE(run.exit_code == 0, run.output);
-    std::istringstream lines(run.output);
     int rows = 0;
-    for (std::string line; std::getline(lines, line);) {
-      if (line.empty()) continue;
-      const json row = json::parse(line);
+    for (const json& row : test::json_lines(run.output)) {
       const DragState exact = drag_state(kR0Km, c.v0, c.w, c.gamma, row["t_s"].get<double>());
+      const std::string line = row.dump();
       CAPTURE(line);
       CHECK(exact.distance_km == doctest::Approx(row["r_km"].get<double>()).epsilon(1e-9));
       CHECK(exact.speed_km_s == doctest::Approx(row["v_km_s"].get<double>()).epsilon(1e-9));
@@ -160,11 +158,9 @@ TEST_CASE("arrival: Earth's heliographic latitude and distance agree with astrop
   for (const std::string& t : times) args += " " + t;
   const auto run = test::run_python("tests/external/earth_reference.py", args);
   REQUIRE_MESSAGE(run.exit_code == 0, run.output);
-  std::istringstream lines(run.output);
   int rows = 0;
-  for (std::string line; std::getline(lines, line);) {
-    if (line.empty()) continue;
-    const json row = json::parse(line);
+  for (const json& row : test::json_lines(run.output)) {
+    const std::string line = row.dump();
     CAPTURE(line);
     const EarthPosition earth = earth_position(imaging::utc_seconds_from_iso(row["time"].get<std::string>()));
     CHECK(std::abs(earth.b0 * kDegPerRad - row["b0_deg"].get<double>()) < 0.01);

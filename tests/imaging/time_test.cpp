@@ -22,10 +22,7 @@ std::vector<nlohmann::json> astropy_times(const std::vector<std::string>& argume
   for (const auto& a : arguments) line += occulta::test::shell_quote(a) + " ";
   const auto result = occulta::test::run_python("tests/external/time_reference.py", line);
   REQUIRE_MESSAGE(result.exit_code == 0, result.output);
-  std::vector<nlohmann::json> rows;
-  std::istringstream lines(result.output);
-  for (std::string text; std::getline(lines, text);)
-    if (!text.empty()) rows.push_back(nlohmann::json::parse(text));
+  const std::vector<nlohmann::json> rows = occulta::test::json_lines(result.output);
   REQUIRE(rows.size() == arguments.size() - (arguments.front() == "--mjd" ? 1 : 0));
   return rows;
 }

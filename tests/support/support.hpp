@@ -5,6 +5,9 @@
 
 #include <filesystem>
 #include <string>
+#include <vector>
+
+#include <nlohmann/json.hpp>
 
 namespace occulta::test {
 
@@ -41,5 +44,9 @@ void spit(const std::filesystem::path& path, const std::string& bytes);
 
 // Single-quotes a string for the shell.
 std::string shell_quote(const std::string& text);
+
+// What the reference scripts under tests/external print: one JSON object per line (blank
+// lines skipped). Throws nlohmann::json::parse_error on a line that is not JSON.
+std::vector<nlohmann::json> json_lines(const std::string& text);
 
 }  // namespace occulta::test
