@@ -19,3 +19,14 @@ foreach(module core imgproc imgcodecs)
   find_library(OPENCV_${module}_LIBRARY opencv_${module} REQUIRED)
   target_link_libraries(occulta_opencv INTERFACE ${OPENCV_${module}_LIBRARY})
 endforeach()
+
+# The analyst's window (viewer/). Dear ImGui 1.86 (libimgui-dev): the core, the demo and
+# every platform/renderer backend in one static libimgui.a (only the objects referenced are
+# linked); its TrueType loader calls Debian's libstb, which imgui.pc requires.
+pkg_check_modules(IMGUI REQUIRED IMPORTED_TARGET imgui)
+find_package(glfw3 3.3 REQUIRED)
+# The font every picture and the window use: DejaVu Sans from fonts-dejavu-core.
+find_file(OCCULTA_FONT_FILE DejaVuSans.ttf PATHS /usr/share/fonts/truetype/dejavu NO_DEFAULT_PATH REQUIRED)
+# Tests only: Mesa's off-screen software OpenGL (libosmesa6-dev), the reference renderer
+# the rasterizer is compared with. libOSMesa exports the GL entry points itself.
+pkg_check_modules(OSMESA REQUIRED IMPORTED_TARGET osmesa)
