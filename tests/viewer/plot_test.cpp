@@ -11,6 +11,7 @@
 #include <opencv2/core.hpp>
 
 #include "imaging/time.hpp"
+#include "imaging/timeheight.hpp"
 #include "tests/support/support.hpp"
 #include "viewer/colour_table.hpp"
 #include "viewer/headless.hpp"
@@ -382,6 +383,81 @@ TEST_CASE("plot: a rendered image panel shows its texels, outline and colour bar
   CHECK(near(picture.at(bar_x, static_cast<int>(frame.pixel_max.y) - 1), colour_at(sigma.table, 0.0)));
   CHECK(near(picture.at(bar_x, static_cast<int>(frame.pixel_min.y)), colour_at(sigma.table, 1.0)));
   CHECK_FALSE(near(picture.at(bar_x, static_cast<int>(frame.pixel_min.y)), colour_at(sigma.table, 0.0)));
+}
+
+}  // namespace occulta::viewer
+
+namespace occulta::viewer {
+
+TEST_CASE("plot: a time–height map panel shows the front where its law puts it") {
+  // A time–height map made here: 30 frames 12 min apart (two missing), heights 2–20 R☉ in
+  // steps of 0.1, a front 4σ bright and 0.3 R☉ thick rising as h(t) = 3 + 2·t_h R☉ (t_h in
+  // hours since the first frame), 0σ elsewhere. Drawn on a UTC axis and a height axis with
+  // a blue_red colour bar; the front's first three hours outlined. Written for a person to
+  // look at: test-tmp/plot-time-height/time_height.png.
+  const double t0 = utc("2031-03-04T22:00:00");
+  constexpr double kHeight0 = 2.0, kStep = 0.1;
+  constexpr int kRows = 181;
+  const auto front_rs = [&](double t) { return 3.0 + 2.0 * (t - t0) / 3600.0; };
+  imaging::TimeMap map;
+  map.axis_start = kHeight0;
+  map.axis_step = kStep;
+  std::vector<cv::Mat> columns;
+  for (int k = 0; k < 30; ++k) {
+    if (k == 11 || k == 12) continue;  // a gap in the data
+    const double t = t0 + 720.0 * k;
+    map.utc_s.push_back(t);
+    cv::Mat column(kRows, 1, CV_32F, cv::Scalar(0.0f));
+    for (int r = 0; r < kRows; ++r)
+      if (std::abs(kHeight0 + kStep * r - front_rs(t)) <= 0.15) column.at<float>(r, 0) = 4.0f;
+    columns.push_back(column);
+  }
+  cv::hconcat(columns, map.values);
+  const double t_start = t0 - 360.0, t_end = t0 + 29 * 720.0 + 360.0;
+  const cv::Mat on_axis = imaging::render_on_time_axis(map, t_start, t_end, 300);
+  const ColourScale sigma{ColourTable::blue_red, -4.0, 4.0, "running difference (\u03c3)", IM_COL32(0, 0, 0, 255)};
+  const std::vector<std::uint8_t> image = texels(on_axis, sigma);
+  const Texture texture{reinterpret_cast<ImTextureID>(std::uintptr_t{9}), on_axis.cols, on_axis.rows, image.data(),
+                        Sampling::nearest, Wrap::clamp_to_edge};
+  // Row r of the map is the height kHeight0 + r·kStep at its centre: the image's edges are
+  // half a step beyond; its columns span [t_start, t_end] edge to edge.
+  const ImageExtent extent{t_start, t_end, kHeight0 - kStep / 2, kHeight0 + (kRows - 0.5) * kStep};
+  PlotFrame frame;
+  AxesDrawn drawn;
+  const Framebuffer picture = draw_headless(
+      900, 520,
+      [&] {
+        ImDrawList& draw = *ImGui::GetBackgroundDrawList();
+        const PlotMargins margins{true, true, &sigma};
+        frame = layout_plot(ImVec2(0, 0), ImVec2(900, 520), Axis{t_start, t_end, "time (UTC)", true},
+                            Axis{extent.bottom, extent.top, "height (R\u2609)", false}, margins);
+        draw_image(draw, frame, texture.id, extent);
+        drawn = draw_axes(draw, frame);
+        draw_colour_bar(draw, frame, sigma);
+        const std::vector<DataPoint> track{{t0, front_rs(t0)}, {t0 + 3 * 3600.0, front_rs(t0 + 3 * 3600.0)}};
+        draw_line(draw, frame, track, IM_COL32(255, 220, 60, 255), 2.0f);
+        const LegendEntry legend[] = {{"front, first 3 h", IM_COL32(255, 220, 60, 255), false}};
+        draw_legend(draw, frame, legend);
+        draw_title(draw, frame, "time\u2013height map at PA 270\u00b0 (made in the test)");
+      },
+      {&texture, 1});
+  write_png(picture, test::scratch_dir("plot-time-height") / "time_height.png");
+  const auto at = [&](double t, double h) {
+    const ImVec2 p = frame.to_pixel(t, h);
+    return picture.at(static_cast<int>(p.x), static_cast<int>(p.y));
+  };
+  const auto opaque = [](ImU32 c) { return c | IM_COL32_A_MASK; };
+  // After the outlined hours: on the front 4σ, 2 R☉ above and below it 0σ, in the gap no data.
+  const double t_late = t0 + 24 * 720.0;
+  CHECK(at(t_late, front_rs(t_late)) == opaque(colour_of(sigma, 4.0)));
+  CHECK(at(t_late, front_rs(t_late) + 2.0) == opaque(colour_of(sigma, 0.0)));
+  CHECK(at(t_late, front_rs(t_late) - 2.0) == opaque(colour_of(sigma, 0.0)));
+  CHECK(at(t0 + 11.5 * 720.0, 11.3) == sigma.no_data);  // off the grid lines
+  // The time axis crosses midnight: its first tick and its 00:00 tick carry dates.
+  REQUIRE(!drawn.x_ticks.empty());
+  CHECK(drawn.x_ticks.front().date == "2031-03-04");
+  CHECK(std::any_of(drawn.x_ticks.begin(), drawn.x_ticks.end(),
+                    [](const Tick& t) { return t.label == "00:00" && t.date == "2031-03-05"; }));
 }
 
 }  // namespace occulta::viewer
