@@ -4,103 +4,105 @@
 #include <cmath>
 #include <cstdio>
 #include <string>
+#include <vector>
 
-#include <opencv2/imgcodecs.hpp>
-#include <opencv2/imgproc.hpp>
+#include <imgui.h>
 
-#include "app/quicklook.hpp"
-#include "fit/json_file.hpp"
-#include "imaging/input_error.hpp"
 #include "imaging/time.hpp"
+#include "viewer/headless.hpp"
+#include "viewer/plot.hpp"
 
 namespace occulta::app {
 
 namespace {
 
-constexpr int kWidth = 720, kHeight = 320;                      // plot area, pixels
-constexpr int kLeft = 56, kRight = 24, kTop = 34, kBottom = 44;  // margins for labels
-constexpr int kBins = 48;
-const cv::Scalar kBar(190, 190, 190), kAxis(255, 255, 255), kOuter(60, 170, 255), kMedian(80, 80, 255);
+constexpr int kWidth = 860, kHeight = 440;  // pixels
+constexpr int kAboutBins = 40;
+const ImU32 kBar = IM_COL32(150, 150, 162, 255), kOuter = IM_COL32(255, 170, 60, 255),
+            kMedian = IM_COL32(255, 90, 80, 255), kText = IM_COL32(225, 225, 225, 255);
 
-void text(cv::Mat& picture, const std::string& s, cv::Point at, const cv::Scalar& colour, double scale = 0.45) {
-  cv::putText(picture, s, at, cv::FONT_HERSHEY_SIMPLEX, scale, colour, 1, cv::LINE_AA);
+// "YYYY-MM-DD hh:mm" (UTC).
+std::string minute(double utc_s) {
+  std::string iso = imaging::iso_from_utc_seconds(utc_s, 0).substr(0, 16);
+  iso[10] = ' ';
+  return iso;
 }
 
-std::string hhmm(double utc_s) {
-  const std::string iso = imaging::iso_from_utc_seconds(utc_s, 0);
-  return iso.substr(5, 5) + " " + iso.substr(11, 5);  // MM-DD hh:mm
+// A bin width in words: "30 s", "10 min", "2 h", "1 d".
+std::string duration(double s) {
+  char text[32];
+  if (s < 60.0)
+    std::snprintf(text, sizeof text, "%.0f s", s);
+  else if (s < 3600.0)
+    std::snprintf(text, sizeof text, "%.0f min", s / 60.0);
+  else if (s < 86400.0)
+    std::snprintf(text, sizeof text, "%.0f h", s / 3600.0);
+  else
+    std::snprintf(text, sizeof text, "%.0f d", s / 86400.0);
+  return text;
+}
+
+void draw_histogram(const fit::TargetArrival& a, double boundary_utc_s) {
+  ImDrawList& draw = *ImGui::GetBackgroundDrawList();
+  char text[256];
+  if (a.hits == 0) {
+    std::snprintf(text, sizeof text, "%s: no member of %d reaches it", a.target.name.c_str(), a.members);
+    const ImVec2 size = ImGui::CalcTextSize(text);
+    draw.AddText(ImVec2(std::floor((kWidth - size.x) / 2), std::floor((kHeight - size.y) / 2)), kText, text);
+    return;
+  }
+  // Bins of one UTC tick step (whole minutes, hours or days) over the hits' range, so that
+  // bin edges fall on the axis' ticks.
+  const std::vector<double>& times = a.times_utc_s;  // sorted
+  double lo = times.front(), hi = times.back();
+  if (hi - lo < 60.0) {
+    lo -= 1800.0;
+    hi += 1800.0;
+  }
+  const double bin = viewer::utc_tick_step(lo, hi, kAboutBins);
+  const double start = std::floor(lo / bin) * bin;
+  const int bins = std::max(1, static_cast<int>(std::ceil((hi - start) / bin - 1e-9)));
+  std::vector<double> counts(static_cast<std::size_t>(bins), 0.0), edges;
+  for (int i = 0; i <= bins; ++i) edges.push_back(start + i * bin);
+  for (const double t : times) counts[static_cast<std::size_t>(std::clamp(static_cast<int>((t - start) / bin), 0, bins - 1))] += 1.0;
+  const double peak = *std::max_element(counts.begin(), counts.end());
+  // Headroom above the tallest bar for the legend: the top a nice number ≥ 1.4 × the peak.
+  const double top = viewer::nice_range(0.0, 1.4 * peak, 5).y;
+
+  const viewer::PlotFrame frame = viewer::layout_plot(
+      ImVec2(0, 0), ImVec2(kWidth, kHeight), viewer::Axis{edges.front(), edges.back(), "arrival time (UTC)", true},
+      viewer::Axis{0.0, top, "members per " + duration(bin) + " bin", false});
+  viewer::draw_bars(draw, frame, edges, counts, kBar);
+  viewer::draw_axes(draw, frame);
+  const struct {
+    double utc_s;
+    const char* name;
+    ImU32 colour;
+    int row;
+  } marks[] = {{*a.time_p05, "p05", kOuter, 0}, {*a.time_p50, "p50", kMedian, 1}, {*a.time_p95, "p95", kOuter, 0}};
+  std::vector<viewer::LegendEntry> legend;
+  std::snprintf(text, sizeof text, "arriving members: %d of %d", a.hits, a.members);
+  legend.push_back({text, kBar, true});
+  for (const auto& m : marks) {
+    viewer::draw_marker(draw, frame, m.utc_s, m.colour, m.name, m.row);
+    std::snprintf(text, sizeof text, "%s %s (%+.1f h)", m.name, minute(m.utc_s).c_str(), (m.utc_s - boundary_utc_s) / 3600.0);
+    legend.push_back({text, m.colour, false});
+  }
+  viewer::draw_legend(draw, frame, legend, 2);  // below the markers' two label rows
+  std::snprintf(text, sizeof text, "%s: hit %.1f %% of %d members, speed p50 %.0f km/s; hours after the boundary time %s UTC",
+                a.target.name.c_str(), 100.0 * a.hit_probability, a.members, *a.speed_p50, minute(boundary_utc_s).c_str());
+  viewer::draw_title(draw, frame, text);
 }
 
 }  // namespace
 
-cv::Mat arrival_histogram(const fit::TargetArrival& a, double boundary_utc_s) {
-  cv::Mat picture(kTop + kHeight + kBottom, kLeft + kWidth + kRight, CV_8UC3, cv::Scalar::all(0));
-  char caption[256];
-  if (a.hits == 0) {
-    std::snprintf(caption, sizeof caption, "%s: no member of %d reaches it", a.target.name.c_str(), a.members);
-    text(picture, caption, {kLeft, kTop + kHeight / 2}, kAxis, 0.6);
-    return with_caption(picture, std::string(caption));
-  }
-  // Hours after the boundary time; the axis spans the hits' range, widened to whole hours.
-  const std::vector<double>& times = a.times_utc_s;  // sorted
-  const double h0 = std::floor((times.front() - boundary_utc_s) / 3600.0);
-  const double h1 = std::max(h0 + 1.0, std::ceil((times.back() - boundary_utc_s) / 3600.0));
-  std::vector<int> counts(kBins, 0);
-  for (const double t : times) {
-    const double h = (t - boundary_utc_s) / 3600.0;
-    counts[std::clamp(static_cast<int>((h - h0) / (h1 - h0) * kBins), 0, kBins - 1)]++;
-  }
-  const int peak = *std::max_element(counts.begin(), counts.end());
-  const auto x_of = [&](double hours) { return kLeft + static_cast<int>(std::lround((hours - h0) / (h1 - h0) * kWidth)); };
-  const int base = kTop + kHeight;
-  for (int i = 0; i < kBins; ++i) {
-    const int x0 = kLeft + kWidth * i / kBins, x1 = kLeft + kWidth * (i + 1) / kBins - 1;
-    const int y = base - static_cast<int>(std::lround(static_cast<double>(counts[i]) / peak * (kHeight - 10)));
-    if (counts[i] > 0) cv::rectangle(picture, {x0, y}, {x1, base}, kBar, cv::FILLED);
-  }
-  // Axes, with about eight hour ticks.
-  cv::line(picture, {kLeft, base}, {kLeft + kWidth, base}, kAxis);
-  cv::line(picture, {kLeft, kTop}, {kLeft, base}, kAxis);
-  double step = 1.0;
-  for (const double s : {1.0, 2.0, 3.0, 6.0, 12.0, 24.0, 48.0, 96.0, 192.0, 384.0, 768.0}) {
-    step = s;
-    if ((h1 - h0) / s <= 10.0) break;
-  }
-  for (double h = std::ceil(h0 / step) * step; h <= h1 + 1e-9; h += step) {
-    const int x = x_of(h);
-    cv::line(picture, {x, base}, {x, base + 5}, kAxis);
-    char label[32];
-    std::snprintf(label, sizeof label, "%+.0f h", h);
-    text(picture, label, {x - 16, base + 20}, kAxis, 0.4);
-  }
-  std::snprintf(caption, sizeof caption, "%d", peak);
-  text(picture, caption, {6, kTop + 14}, kAxis, 0.4);
-  text(picture, "hours after the boundary time " + hhmm(boundary_utc_s) + " UTC", {kLeft + kWidth / 2 - 150, base + 38},
-       kAxis, 0.42);
-  // The percentiles.
-  const struct {
-    double utc_s;
-    const char* name;
-    cv::Scalar colour;
-  } marks[] = {{*a.time_p05, "p05", kOuter}, {*a.time_p50, "p50", kMedian}, {*a.time_p95, "p95", kOuter}};
-  for (const auto& m : marks) {
-    const int x = x_of((m.utc_s - boundary_utc_s) / 3600.0);
-    cv::line(picture, {x, kTop}, {x, base}, m.colour, 2);
-    text(picture, m.name, {x + 3, kTop + 12}, m.colour, 0.42);
-  }
-  std::snprintf(caption, sizeof caption, "%s: hit %.1f%% of %d, p05 %s  p50 %s  p95 %s UTC, speed p50 %.0f km/s",
-                a.target.name.c_str(), 100.0 * a.hit_probability, a.members, hhmm(*a.time_p05).c_str(),
-                hhmm(*a.time_p50).c_str(), hhmm(*a.time_p95).c_str(), *a.speed_p50);
-  return with_caption(picture, caption);
+viewer::Framebuffer arrival_histogram(const fit::TargetArrival& a, double boundary_utc_s) {
+  return viewer::draw_headless(kWidth, kHeight, [&] { draw_histogram(a, boundary_utc_s); });
 }
 
 void write_arrival_histogram(const std::filesystem::path& path, const fit::TargetArrival& arrival,
                              double boundary_utc_s) {
-  // Encoded in memory and written whole or not at all, like occulta's other outputs.
-  std::vector<uchar> bytes;
-  if (!cv::imencode(".png", arrival_histogram(arrival, boundary_utc_s), bytes))
-    throw imaging::InputError(path.string(), "cannot be encoded as PNG");
-  fit::write_text_file(path, std::string(bytes.begin(), bytes.end()));
+  viewer::write_png(arrival_histogram(arrival, boundary_utc_s), path);
 }
 
 }  // namespace occulta::app

@@ -123,7 +123,8 @@ struct AxesDrawn {
   std::vector<Tick> x_ticks, y_ticks;  // the labelled ticks, as drawn
 };
 
-// The data area's outline, ticks and tick labels (a time axis' dates on a second line),
+// The data area's outline, ticks and tick labels (a time axis' dates on a second line
+// where it has any; layout_plot leaves that line out otherwise),
 // grid lines, the x label centred below and the y label turned to read upwards at the left.
 AxesDrawn draw_axes(ImDrawList& draw, const PlotFrame& frame, const PlotStyle& style = {});
 
@@ -136,8 +137,9 @@ struct LegendEntry {
   bool box = false;  // a filled box (bars, areas) rather than a line sample
 };
 
-// The entries one under the other in a box at the data area's top-right corner.
-void draw_legend(ImDrawList& draw, const PlotFrame& frame, std::span<const LegendEntry> entries,
+// The entries one under the other in a box at the data area's top-right corner, below
+// `rows_above` text lines left free (for draw_marker's labels).
+void draw_legend(ImDrawList& draw, const PlotFrame& frame, std::span<const LegendEntry> entries, int rows_above = 0,
                  const PlotStyle& style = {});
 
 // A polyline through the points (data units), clipped to the data area; a NaN point
@@ -151,9 +153,10 @@ void draw_line(ImDrawList& draw, const PlotFrame& frame, std::span<const DataPoi
 void draw_bars(ImDrawList& draw, const PlotFrame& frame, std::span<const double> edges,
                std::span<const double> heights, ImU32 colour);
 
-// A vertical line across the data area at data x, with its label at the top beside it.
+// A vertical line across the data area at data x, with its label near the top beside it,
+// on text line `label_row` (0 = the first; markers close together take different rows).
 void draw_marker(ImDrawList& draw, const PlotFrame& frame, double x, ImU32 colour, std::string_view label,
-                 float thickness_px = 2.0f);
+                 int label_row = 0, float thickness_px = 2.0f);
 
 // Where an image lies in data units: its left, right, bottom and top edges (pixel edges,
 // not centres). Texel row 0 is drawn at the top edge.

@@ -59,6 +59,10 @@ float widest(const std::vector<Tick>& ticks) {
   return w;
 }
 
+bool has_dates(const std::vector<Tick>& ticks) {
+  return std::any_of(ticks.begin(), ticks.end(), [](const Tick& t) { return !t.date.empty(); });
+}
+
 // The pixel column (or row) a data position falls in, kept inside [lo, hi).
 float column(float p, float lo, float hi) { return std::clamp(std::floor(p), lo, hi - 1.0f); }
 
@@ -80,21 +84,30 @@ PlotFrame layout_plot(ImVec2 outer_min, ImVec2 outer_max, Axis x, Axis y, const 
                       const PlotStyle& style) {
   const float line = line_px(), pad = style.pad_px;
   const float top = margins.title || margins.colour_bar ? line + 2.0f * pad + 1.0f : std::ceil(line / 2.0f) + pad;
-  const float bottom = 1.0f + style.tick_px + pad + line + (x.utc ? line : 0.0f) + pad + (x.label.empty() ? 0.0f : line + pad);
-  const float height = outer_max.y - outer_min.y - top - bottom;
-  const float y_labels = widest(axis_ticks(y, height, style.y_spacing_px));
-  const float left = pad + (y.label.empty() ? 0.0f : line + pad) + y_labels + pad + style.tick_px + 1.0f;
-  // Room for half the last x tick label, which is centred on its tick.
-  float right = std::max(pad, text_size(x.utc ? "0000-00-00" : "0000.0").x / 2.0f);
-  if (margins.colour_bar && margins.colour_scale != nullptr) {
-    const std::vector<Tick> ticks = axis_ticks(Axis{margins.colour_scale->lo, margins.colour_scale->hi, {}, false},
-                                               height, style.y_spacing_px);
-    right = 1.0f + 3.0f * pad + style.colour_bar_px + 1.0f + style.tick_px + pad +
-            std::max(widest(ticks), text_size(margins.colour_scale->label).x - style.colour_bar_px) + pad;
-  }
+  // The margins depend on one another (the left one on the y labels, so on the height; the
+  // bottom one on whether the x ticks carry dates, so on the width): laid out with a date
+  // row first, and again without it when the x ticks turn out to have no dates.
   PlotFrame frame;
-  frame.pixel_min = ImVec2(std::floor(outer_min.x + left), std::floor(outer_min.y + top));
-  frame.pixel_max = ImVec2(std::floor(outer_max.x - right), std::floor(outer_max.y - bottom));
+  bool date_row = x.utc;
+  for (int pass = 0; pass < 2; ++pass) {
+    const float bottom = 1.0f + style.tick_px + pad + line + (date_row ? line : 0.0f) + pad +
+                         (x.label.empty() ? 0.0f : line + pad);
+    const float height = outer_max.y - outer_min.y - top - bottom;
+    const float y_labels = widest(axis_ticks(y, height, style.y_spacing_px));
+    const float left = pad + (y.label.empty() ? 0.0f : line + pad) + y_labels + pad + style.tick_px + 1.0f;
+    // Room for half the last x tick label, which is centred on its tick.
+    float right = std::max(pad, text_size(x.utc ? "0000-00-00" : "0000.0").x / 2.0f);
+    if (margins.colour_bar && margins.colour_scale != nullptr) {
+      const std::vector<Tick> ticks = axis_ticks(Axis{margins.colour_scale->lo, margins.colour_scale->hi, {}, false},
+                                                 height, style.y_spacing_px);
+      right = 1.0f + 3.0f * pad + style.colour_bar_px + 1.0f + style.tick_px + pad +
+              std::max(widest(ticks), text_size(margins.colour_scale->label).x - style.colour_bar_px) + pad;
+    }
+    frame.pixel_min = ImVec2(std::floor(outer_min.x + left), std::floor(outer_min.y + top));
+    frame.pixel_max = ImVec2(std::floor(outer_max.x - right), std::floor(outer_max.y - bottom));
+    if (!date_row || has_dates(axis_ticks(x, frame.pixel_max.x - frame.pixel_min.x, style.x_spacing_px))) break;
+    date_row = false;
+  }
   frame.x = std::move(x);
   frame.y = std::move(y);
   return frame;
@@ -128,7 +141,7 @@ AxesDrawn draw_axes(ImDrawList& draw, const PlotFrame& frame, const PlotStyle& s
     if (!t.date.empty()) text(draw, ImVec2(px + 0.5f - text_size(t.date).x / 2, label_y + line), style.text, t.date);
   }
   if (!frame.x.label.empty()) {
-    const float y = label_y + line * (frame.x.utc ? 2.0f : 1.0f) + pad;
+    const float y = label_y + line * (has_dates(drawn.x_ticks) ? 2.0f : 1.0f) + pad;
     text(draw, ImVec2((lo.x + hi.x - text_size(frame.x.label).x) / 2, y), style.text, frame.x.label);
   }
 
@@ -152,7 +165,7 @@ void draw_title(ImDrawList& draw, const PlotFrame& frame, std::string_view title
        title);
 }
 
-void draw_legend(ImDrawList& draw, const PlotFrame& frame, std::span<const LegendEntry> entries,
+void draw_legend(ImDrawList& draw, const PlotFrame& frame, std::span<const LegendEntry> entries, int rows_above,
                  const PlotStyle& style) {
   if (entries.empty()) return;
   const float line = line_px(), pad = style.pad_px, sample = 2.0f * line;
@@ -160,7 +173,7 @@ void draw_legend(ImDrawList& draw, const PlotFrame& frame, std::span<const Legen
   for (const LegendEntry& e : entries) label_w = std::max(label_w, text_size(e.label).x);
   const float w = std::ceil(pad + sample + pad + label_w + pad);
   const float h = std::ceil(pad + entries.size() * line + pad);
-  const ImVec2 box_min(frame.pixel_max.x - pad - w, frame.pixel_min.y + pad);
+  const ImVec2 box_min(frame.pixel_max.x - pad - w, frame.pixel_min.y + pad + rows_above * line);
   const ImVec2 box_max(box_min.x + w, box_min.y + h);
   draw.AddRectFilled(box_min, box_max, (style.background & ~IM_COL32_A_MASK) | IM_COL32(0, 0, 0, 220));
   outline(draw, box_min, box_max, style.axis);
@@ -216,7 +229,7 @@ void draw_bars(ImDrawList& draw, const PlotFrame& frame, std::span<const double>
 }
 
 void draw_marker(ImDrawList& draw, const PlotFrame& frame, double x, ImU32 colour, std::string_view label,
-                 float thickness_px) {
+                 int label_row, float thickness_px) {
   const float th = std::max(1.0f, std::round(thickness_px));
   const float px = std::floor(frame.to_pixel(x, frame.y.lo).x) - std::floor((th - 1.0f) / 2.0f);
   if (px + th <= frame.pixel_min.x || px >= frame.pixel_max.x) return;
@@ -226,7 +239,7 @@ void draw_marker(ImDrawList& draw, const PlotFrame& frame, double x, ImU32 colou
   // The label right of the line, or left of it where it would leave the data area.
   const float w = text_size(label).x, pad = 3.0f;
   const float lx = px + th + pad + w <= frame.pixel_max.x ? px + th + pad : px - pad - w;
-  text(draw, ImVec2(lx, frame.pixel_min.y + pad), colour, label);
+  text(draw, ImVec2(lx, frame.pixel_min.y + pad + label_row * line_px()), colour, label);
 }
 
 void draw_image(ImDrawList& draw, const PlotFrame& frame, ImTextureID texture, const ImageExtent& extent) {
