@@ -110,7 +110,7 @@ TEST_CASE("raster: triangles sharing edges cover every pixel exactly once (top-l
   CHECK(wrong == 0);
 }
 
-TEST_CASE("raster: a rectangle covers the pixels whose centres are in [x0, x1) × [y0, y1)") {
+TEST_CASE("raster: a rectangle covers the pixels whose centres have x0 ≤ x < x1 and y0 ≤ y < y1") {
   // Left and top edges through pixel centres are in, right and bottom ones out (top-left rule).
   for (const bool fast : {true, false}) {
     test::HandDrawn scene(12, 12);
