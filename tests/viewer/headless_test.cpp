@@ -82,6 +82,20 @@ TEST_CASE("headless: a panel drawn with no display, written as PNG, reads back t
   ImGui::DestroyContext(callers);
 }
 
+TEST_CASE("headless: a draw list of more than 65 536 vertices (16-bit indices, VtxOffset)") {
+  // 200 × 100 one-pixel rectangles of 4 vertices each: 80 000 vertices in one list. Every
+  // pixel of the block must be drawn, the last ones included.
+  const Framebuffer picture = draw_headless(220, 120, [] {
+    ImDrawList* list = ImGui::GetBackgroundDrawList();
+    for (int y = 0; y < 100; ++y)
+      for (int x = 0; x < 200; ++x) list->AddRectFilled(ImVec2(float(10 + x), float(10 + y)), ImVec2(float(11 + x), float(11 + y)), IM_COL32(x, y, 200, 255));
+  });
+  long wrong = 0;
+  for (int y = 0; y < 100; ++y)
+    for (int x = 0; x < 200; ++x) wrong += picture.at(10 + x, 10 + y) != rgba(std::uint32_t(x), std::uint32_t(y), 200);
+  CHECK(wrong == 0);
+}
+
 TEST_CASE("headless: a missing font and an unwritable PNG are one-sentence errors naming the file") {
   HeadlessOptions options;
   options.font_file = "/nonexistent/NoSuchFont.ttf";

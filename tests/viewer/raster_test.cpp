@@ -187,6 +187,23 @@ TEST_CASE("raster: clip rectangles are truncated to pixels as the OpenGL2 backen
   CHECK(wrong == 0);
 }
 
+TEST_CASE("raster: DisplayPos and FramebufferScale map ImGui coordinates to pixels") {
+  // Pixel = (position − DisplayPos) × FramebufferScale: the rectangle (10, 12)–(15, 14)
+  // with DisplayPos (5, 5) and scale 2 covers pixels x ∈ [10, 20), y ∈ [14, 18); its clip
+  // rectangle (12, 0)–(100, 100) maps to x ≥ 14.
+  test::HandDrawn scene(40, 30);
+  scene.data.DisplayPos = ImVec2(5, 5);
+  scene.data.FramebufferScale = ImVec2(2, 2);
+  scene.command(ImVec4(12, 0, 100, 100), kWhite.id);
+  scene.rect({10, 12}, {15, 14}, {0, 0}, {0, 0}, rgba(255, 255, 0));
+  Framebuffer fb(80, 60, rgba(0, 0, 0));
+  render(scene.data, {&kWhite, 1}, fb);
+  long wrong = 0;
+  for (int y = 0; y < 60; ++y)
+    for (int x = 0; x < 80; ++x) wrong += fb.at(x, y) != ((x >= 14 && x < 20 && y >= 14 && y < 18) ? rgba(255, 255, 0) : rgba(0, 0, 0));
+  CHECK(wrong == 0);
+}
+
 TEST_CASE("raster: bilinear and nearest sampling, clamped and repeated (OpenGL 4.6 §8.14, from memory)") {
   // A 2 × 2 texture drawn on 4 × 4 pixels. Pixel x samples u = (x + ½)/4, i.e. texel
   // coordinate s = 2u − ½ = −¼, ¼, ¾, 1¼: bilinear with clamp to edge weighs texel 1 by
