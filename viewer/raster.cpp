@@ -98,18 +98,7 @@ Tap tap(double coordinate, int n, Sampling sampling, Wrap wrap) {
   return {wrapped(i, n, wrap), wrapped(i + 1, n, wrap), weight};
 }
 
-std::uint32_t texel(const Texture& t, int i, int j) {
-  return load(t.texels + 4 * (std::size_t(j) * std::size_t(t.width) + std::size_t(i)));
-}
-
-std::uint32_t sample(const Texture& t, const Tap& x, const Tap& y) {
-  if (x.weight == 0 && y.weight == 0) return texel(t, x.first, y.first);
-  const std::uint64_t top = lerp_lanes(spread(texel(t, x.first, y.first)), spread(texel(t, x.second, y.first)), x.weight);
-  const std::uint64_t bottom = lerp_lanes(spread(texel(t, x.first, y.second)), spread(texel(t, x.second, y.second)), x.weight);
-  return gather(lerp_lanes(top, bottom, y.weight));
-}
-
-// The same, given the two texel rows a sample reads (the rectangle path's inner loop).
+// Bilinear (or nearest: zero weights) from the two texel rows a sample reads.
 std::uint32_t sample_rows(const std::uint8_t* first, const std::uint8_t* second, const Tap& x, std::uint32_t y_weight) {
   const std::uint32_t t00 = load(first + 4 * std::size_t(x.first));
   if (x.weight == 0 && y_weight == 0) return t00;
@@ -118,8 +107,11 @@ std::uint32_t sample_rows(const std::uint8_t* first, const std::uint8_t* second,
   return gather(lerp_lanes(top, bottom, y_weight));
 }
 
+const std::uint8_t* texel_row(const Texture& t, int j) { return t.texels + 4 * std::size_t(j) * std::size_t(t.width); }
+
 std::uint32_t sample_uv(const Texture& t, double u, double v) {
-  return sample(t, tap(u * t.width, t.width, t.sampling, t.wrap), tap(v * t.height, t.height, t.sampling, t.wrap));
+  const Tap x = tap(u * t.width, t.width, t.sampling, t.wrap), y = tap(v * t.height, t.height, t.sampling, t.wrap);
+  return sample_rows(texel_row(t, y.first), texel_row(t, y.second), x, y.weight);
 }
 
 // ---- geometry in fixed point -----------------------------------------------------------
@@ -131,7 +123,8 @@ constexpr double kMaxPx = double(1 << 20);
 
 std::int64_t snap(double px) {
   if (std::isnan(px)) px = 0;  // a broken vertex must not make the integer arithmetic overflow
-  return std::llround(std::clamp(px, -kMaxPx, kMaxPx) * double(kOne)); }
+  return std::llround(std::clamp(px, -kMaxPx, kMaxPx) * double(kOne));
+}
 
 std::int64_t floor_div(std::int64_t a, std::int64_t b) {  // b > 0
   return a >= 0 ? a / b : -((-a + b - 1) / b);
@@ -222,12 +215,10 @@ void draw_rect(Target& target, const Rect& r, const Texture& texture, const Box&
     target.row_taps[std::size_t(y - cover.y0)] = tap(v * texture.height, texture.height, texture.sampling, texture.wrap);
   }
   const Tap* tx = target.column_taps.data();  // tx[x - cover.x0] is column x's tap
-  const std::size_t stride = std::size_t(texture.width) * 4;
   for (int y = cover.y0; y < cover.y1; ++y) {
     std::uint32_t* row = row_of(target.fb, y);
     const Tap& ty = target.row_taps[std::size_t(y - cover.y0)];
-    const std::uint8_t* first = texture.texels + stride * std::size_t(ty.first);
-    const std::uint8_t* second = texture.texels + stride * std::size_t(ty.second);
+    const std::uint8_t *first = texel_row(texture, ty.first), *second = texel_row(texture, ty.second);
     if (colour == 0xFFFFFFFFu) {  // an image as it is: no modulation, often opaque
       for (int x = cover.x0; x < cover.x1; ++x) row[x] = over(sample_rows(first, second, tx[x - cover.x0], ty.weight), row[x]);
     } else {
