@@ -84,6 +84,10 @@ Framebuffer draw_headless(int width, int height, const std::function<void()>& fr
   io.LogFilename = nullptr;
   io.DisplaySize = ImVec2(float(width), float(height));
   io.DeltaTime = 1.0f / 60.0f;
+  // render() honours ImDrawCmd::VtxOffset, so a draw list may pass 65 536 vertices with
+  // 16-bit indices (a plot of many points) instead of overflowing them.
+  io.BackendFlags |= ImGuiBackendFlags_RendererHasVtxOffset;
+  io.BackendRendererName = "occulta viewer/raster";
 
   std::vector<Texture> table(textures.begin(), textures.end());
   table.push_back(load_font(options.font_file, options.font_pixels));

@@ -110,7 +110,7 @@ TEST_CASE("raster: triangles sharing edges cover every pixel exactly once (top-l
   CHECK(wrong == 0);
 }
 
-TEST_CASE("raster: a rectangle covers the pixels whose centres are in [x0, x1) × [y0, y1)") {
+TEST_CASE("raster: a rectangle covers the pixels whose centres have x0 ≤ x < x1 and y0 ≤ y < y1") {
   // Left and top edges through pixel centres are in, right and bottom ones out (top-left rule).
   for (const bool fast : {true, false}) {
     test::HandDrawn scene(12, 12);
@@ -184,6 +184,23 @@ TEST_CASE("raster: clip rectangles are truncated to pixels as the OpenGL2 backen
       wrong += fb.at(x, y) != expected;
     }
   }
+  CHECK(wrong == 0);
+}
+
+TEST_CASE("raster: DisplayPos and FramebufferScale map ImGui coordinates to pixels") {
+  // Pixel = (position − DisplayPos) × FramebufferScale: the rectangle (10, 12)–(15, 14)
+  // with DisplayPos (5, 5) and scale 2 covers pixels x ∈ [10, 20), y ∈ [14, 18); its clip
+  // rectangle (12, 0)–(100, 100) maps to x ≥ 14.
+  test::HandDrawn scene(40, 30);
+  scene.data.DisplayPos = ImVec2(5, 5);
+  scene.data.FramebufferScale = ImVec2(2, 2);
+  scene.command(ImVec4(12, 0, 100, 100), kWhite.id);
+  scene.rect({10, 12}, {15, 14}, {0, 0}, {0, 0}, rgba(255, 255, 0));
+  Framebuffer fb(80, 60, rgba(0, 0, 0));
+  render(scene.data, {&kWhite, 1}, fb);
+  long wrong = 0;
+  for (int y = 0; y < 60; ++y)
+    for (int x = 0; x < 80; ++x) wrong += fb.at(x, y) != ((x >= 14 && x < 20 && y >= 14 && y < 18) ? rgba(255, 255, 0) : rgba(0, 0, 0));
   CHECK(wrong == 0);
 }
 
