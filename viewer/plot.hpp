@@ -119,6 +119,10 @@ struct PlotMargins {
 PlotFrame layout_plot(ImVec2 outer_min, ImVec2 outer_max, Axis x, Axis y, const PlotMargins& margins = {},
                       const PlotStyle& style = {});
 
+// The same frame shrunk about its centre, on whole pixels, so that one data unit spans as
+// many pixels across as up: for sky images (x and y in R☉), where a circle must stay round.
+PlotFrame with_equal_scale(const PlotFrame& frame);
+
 struct AxesDrawn {
   std::vector<Tick> x_ticks, y_ticks;  // the labelled ticks, as drawn
 };
@@ -157,6 +161,18 @@ void draw_bars(ImDrawList& draw, const PlotFrame& frame, std::span<const double>
 // on text line `label_row` (0 = the first; markers close together take different rows).
 void draw_marker(ImDrawList& draw, const PlotFrame& frame, double x, ImU32 colour, std::string_view label,
                  int label_row = 0, float thickness_px = 2.0f);
+
+// A circle of radius r about (cx, cy) in data units, clipped to the data area (round on
+// screen only where both axes have the same scale: with_equal_scale): the solar limb, an
+// occulter's edge, a height.
+void draw_circle(ImDrawList& draw, const PlotFrame& frame, double cx, double cy, double r, ImU32 colour,
+                 float thickness_px = 1.5f);
+
+// Arrows to solar north and east at the data area's top-left corner, labelled N and E, for
+// a sky image whose x is helioprojective θx (west positive) and y is θy (north positive),
+// or any axes in R☉ along them: north points to +y, east to −x (Thompson 2006), whichever
+// way the axes run on screen.
+void draw_north_east(ImDrawList& draw, const PlotFrame& frame, const PlotStyle& style = {});
 
 // Where an image lies in data units: its left, right, bottom and top edges (pixel edges,
 // not centres). Texel row 0 is drawn at the top edge.

@@ -2,6 +2,9 @@
 #include <algorithm>
 #include <cfloat>
 #include <cmath>
+#include <numbers>
+#include <utility>
+#include <vector>
 
 #include "viewer/plot.hpp"
 
@@ -111,6 +114,18 @@ PlotFrame layout_plot(ImVec2 outer_min, ImVec2 outer_max, Axis x, Axis y, const 
   frame.x = std::move(x);
   frame.y = std::move(y);
   return frame;
+}
+
+PlotFrame with_equal_scale(const PlotFrame& frame) {
+  const double width = frame.pixel_max.x - frame.pixel_min.x, height = frame.pixel_max.y - frame.pixel_min.y;
+  const double per_unit = std::min(width / std::abs(frame.x.hi - frame.x.lo), height / std::abs(frame.y.hi - frame.y.lo));
+  const float w = static_cast<float>(std::floor(per_unit * std::abs(frame.x.hi - frame.x.lo)));
+  const float h = static_cast<float>(std::floor(per_unit * std::abs(frame.y.hi - frame.y.lo)));
+  PlotFrame out = frame;
+  out.pixel_min = ImVec2(std::floor(frame.pixel_min.x + (static_cast<float>(width) - w) / 2),
+                         std::floor(frame.pixel_min.y + (static_cast<float>(height) - h) / 2));
+  out.pixel_max = ImVec2(out.pixel_min.x + w, out.pixel_min.y + h);
+  return out;
 }
 
 AxesDrawn draw_axes(ImDrawList& draw, const PlotFrame& frame, const PlotStyle& style) {
@@ -240,6 +255,49 @@ void draw_marker(ImDrawList& draw, const PlotFrame& frame, double x, ImU32 colou
   const float w = text_size(label).x, pad = 3.0f;
   const float lx = px + th + pad + w <= frame.pixel_max.x ? px + th + pad : px - pad - w;
   text(draw, ImVec2(lx, frame.pixel_min.y + pad + label_row * line_px()), colour, label);
+}
+
+void draw_circle(ImDrawList& draw, const PlotFrame& frame, double cx, double cy, double r, ImU32 colour,
+                 float thickness_px) {
+  // 180 chords: at 400 px of radius a chord is 14 px and strays 0.06 px from the circle
+  // (r·(1 − cos(π/180))).
+  constexpr int kChords = 180;
+  std::vector<DataPoint> points;
+  for (int i = 0; i <= kChords; ++i) {
+    const double a = 2.0 * std::numbers::pi * i / kChords;
+    points.push_back({cx + r * std::cos(a), cy + r * std::sin(a)});
+  }
+  draw_line(draw, frame, points, colour, thickness_px);
+}
+
+void draw_north_east(ImDrawList& draw, const PlotFrame& frame, const PlotStyle& style) {
+  const float line = line_px(), length = 2.5f * line;
+  // Screen directions of +y (north) and −x (east), from the mapping itself.
+  const ImVec2 o = frame.to_pixel(frame.x.lo, frame.y.lo);
+  const ImVec2 n = frame.to_pixel(frame.x.lo, frame.y.lo + std::abs(frame.y.hi - frame.y.lo) * 0.01);
+  const ImVec2 e = frame.to_pixel(frame.x.lo - std::abs(frame.x.hi - frame.x.lo) * 0.01, frame.y.lo);
+  const auto unit = [](ImVec2 v) {
+    const float norm = std::sqrt(v.x * v.x + v.y * v.y);
+    return ImVec2(v.x / norm, v.y / norm);
+  };
+  const ImVec2 north = unit(ImVec2(n.x - o.x, n.y - o.y)), east = unit(ImVec2(e.x - o.x, e.y - o.y));
+  // The arrows' common origin sits far enough inside the corner for both to fit.
+  const ImVec2 origin(frame.pixel_min.x + style.pad_px + line + length * std::max(0.0f, -std::min(north.x, east.x)),
+                      frame.pixel_min.y + style.pad_px + line + length * std::max(0.0f, -std::min(north.y, east.y)));
+  for (const auto& [direction, name] : {std::pair{north, "N"}, std::pair{east, "E"}}) {
+    const ImVec2 tip(origin.x + direction.x * length, origin.y + direction.y * length);
+    draw.AddLine(origin, tip, style.text, 1.5f);
+    // The head: two strokes back from the tip at ±30°.
+    for (const float side : {-1.0f, 1.0f}) {
+      const float c = std::cos(0.5236f), s = side * std::sin(0.5236f);
+      const ImVec2 back(-direction.x * c + direction.y * s, -direction.x * s - direction.y * c);
+      draw.AddLine(tip, ImVec2(tip.x + back.x * 0.3f * line * 2, tip.y + back.y * 0.3f * line * 2), style.text, 1.5f);
+    }
+    const ImVec2 size = text_size(name);
+    text(draw, ImVec2(tip.x + direction.x * (0.4f * line + size.x / 2) - size.x / 2,
+                      tip.y + direction.y * (0.4f * line + size.y / 2) - size.y / 2),
+         style.text, name);
+  }
 }
 
 void draw_image(ImDrawList& draw, const PlotFrame& frame, ImTextureID texture, const ImageExtent& extent) {

@@ -461,3 +461,99 @@ TEST_CASE("plot: a time–height map panel shows the front where its law puts it
 }
 
 }  // namespace occulta::viewer
+
+namespace occulta::viewer {
+
+TEST_CASE("plot: an equal-scale frame keeps circles round, centred in the space it had") {
+  const PlotFrame wide{ImVec2(100, 50), ImVec2(500, 350), Axis{-6.0, 6.0, "x (R\u2609)", false},
+                       Axis{-6.0, 6.0, "y (R\u2609)", false}};
+  const PlotFrame square = with_equal_scale(wide);
+  // 400 × 300 px for 12 × 12 R☉: 25 px per R☉ both ways, 300 px wide, centred (50 px each side).
+  CHECK(square.pixel_min.x == 150.0f);
+  CHECK(square.pixel_max.x == 450.0f);
+  CHECK(square.pixel_min.y == 50.0f);
+  CHECK(square.pixel_max.y == 350.0f);
+  CHECK(square.to_pixel(1.0, 0.0).x - square.to_pixel(0.0, 0.0).x == doctest::Approx(25.0));
+  CHECK(square.to_pixel(0.0, 0.0).y - square.to_pixel(0.0, 1.0).y == doctest::Approx(25.0));
+}
+
+TEST_CASE("plot: N and E marks follow the axes: north to +y, east to −x") {
+  // Glyph centres of the labels, in drawing order (N, then E). Without anti-aliasing every
+  // line is a quad too, so the list reads back four vertices at a time.
+  const auto labels_at = [](const PlotFrame& frame) {
+    ImDrawList& draw = *ImGui::GetForegroundDrawList();
+    draw._ResetForNewFrame();
+    draw.PushTextureID(ImGui::GetIO().Fonts->TexID);
+    draw.PushClipRectFullScreen();
+    draw.Flags = ImDrawListFlags_None;
+    draw_north_east(draw, frame);
+    std::vector<ImVec2> centres;
+    for (const Quad& q : quads(draw))
+      if (q.glyph) centres.push_back(ImVec2((q.min.x + q.max.x) / 2, (q.min.y + q.max.y) / 2));
+    return centres;
+  };
+  FrameInProgress in_frame(600, 400);
+  // x west to the right (θx as seen from the observer), y north up: N above, E to the left.
+  const std::vector<ImVec2> usual =
+      labels_at(PlotFrame{ImVec2(100, 50), ImVec2(500, 350), Axis{-6, 6, "", false}, Axis{-6, 6, "", false}});
+  REQUIRE(usual.size() == 2);
+  CHECK(usual[0].y < usual[1].y - 10.0f);  // N higher on screen than E
+  CHECK(usual[1].x < usual[0].x - 10.0f);  // E left of N
+  CHECK(usual[0].x > 100.0f);              // both inside the data area
+  CHECK(usual[1].x > 100.0f);
+  // x reversed (west to the left): E to the right of N.
+  const std::vector<ImVec2> mirrored =
+      labels_at(PlotFrame{ImVec2(100, 50), ImVec2(500, 350), Axis{6, -6, "", false}, Axis{-6, 6, "", false}});
+  REQUIRE(mirrored.size() == 2);
+  CHECK(mirrored[1].x > mirrored[0].x + 10.0f);
+  CHECK(mirrored[0].y < mirrored[1].y - 10.0f);
+}
+
+TEST_CASE("plot: a rendered sky panel in R☉ with the limb, an occulter edge, N/E and a colour bar") {
+  // A sky image made here: brightness falling as 1/r³ outside 2.2 R☉ (r in R☉ from Sun
+  // centre), no data inside; x, y from −6 to 6 R☉. Written for a person to look at:
+  // test-tmp/plot-sky/sky.png.
+  constexpr int kSide = 120;
+  constexpr double kHalf = 6.0, kOcculter = 2.2;
+  cv::Mat values(kSide, kSide, CV_32F);
+  for (int row = 0; row < kSide; ++row) {
+    for (int col = 0; col < kSide; ++col) {
+      const double x = -kHalf + (col + 0.5) * 2 * kHalf / kSide, y = -kHalf + (row + 0.5) * 2 * kHalf / kSide;
+      const double r = std::hypot(x, y);
+      values.at<float>(row, col) = r < kOcculter ? std::nanf("") : static_cast<float>(std::pow(kOcculter / r, 3));
+    }
+  }
+  const ColourScale brightness{ColourTable::amber, 0.0, 1.0, "brightness (occulter edge = 1)", IM_COL32(0, 0, 0, 255)};
+  const std::vector<std::uint8_t> image = texels(values, brightness);
+  const Texture texture{reinterpret_cast<ImTextureID>(std::uintptr_t{11}), kSide, kSide, image.data(),
+                        Sampling::bilinear, Wrap::clamp_to_edge};
+  const ImU32 limb = IM_COL32(90, 200, 255, 255);
+  PlotFrame frame;
+  const Framebuffer picture = draw_headless(
+      640, 560,
+      [&] {
+        ImDrawList& draw = *ImGui::GetBackgroundDrawList();
+        const PlotMargins margins{true, true, &brightness};
+        frame = with_equal_scale(layout_plot(ImVec2(0, 0), ImVec2(640, 560), Axis{-kHalf, kHalf, "x (R\u2609)", false},
+                                             Axis{-kHalf, kHalf, "y (R\u2609)", false}, margins));
+        draw_image(draw, frame, texture.id, ImageExtent{-kHalf, kHalf, -kHalf, kHalf});
+        draw_axes(draw, frame);
+        draw_circle(draw, frame, 0.0, 0.0, 1.0, limb, 2.0f);
+        draw_circle(draw, frame, 0.0, 0.0, kOcculter, IM_COL32(255, 255, 255, 255), 1.0f);
+        draw_north_east(draw, frame);
+        draw_colour_bar(draw, frame, brightness);
+        draw_title(draw, frame, "sky image, north up (made in the test)");
+      },
+      {&texture, 1});
+  write_png(picture, test::scratch_dir("plot-sky") / "sky.png");
+  // The limb crosses the +x axis at 1 R☉: the 2-px line covers the pixel there.
+  const ImVec2 on_limb = frame.to_pixel(1.0, 0.0);
+  CHECK(picture.at(static_cast<int>(on_limb.x), static_cast<int>(on_limb.y)) == limb);
+  // Inside the occulter, off the limb: no data (black); outside it the image (not black).
+  const ImVec2 inside = frame.to_pixel(0.5, 0.5), outside = frame.to_pixel(3.0, 3.0);
+  CHECK(picture.at(static_cast<int>(inside.x), static_cast<int>(inside.y)) == IM_COL32(0, 0, 0, 255));
+  CHECK(picture.at(static_cast<int>(outside.x), static_cast<int>(outside.y)) != IM_COL32(0, 0, 0, 255));
+  CHECK(frame.pixel_max.x - frame.pixel_min.x == frame.pixel_max.y - frame.pixel_min.y);
+}
+
+}  // namespace occulta::viewer
