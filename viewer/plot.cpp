@@ -56,6 +56,7 @@ std::pair<double, double> multiples(double lo, double hi, double step) {
 
 std::vector<double> nice_ticks(double lo, double hi, int about) {
   const double step = nice_step(lo, hi, about);
+  if (!std::isfinite(step) || step <= 0.0) return {};  // lo = hi, or not numbers: no axis
   const auto [k0, k1] = multiples(std::min(lo, hi), std::max(lo, hi), step);
   std::vector<double> ticks;
   for (double k = k0; k <= k1; k += 1.0) ticks.push_back(k == 0.0 ? 0.0 : k * step);
@@ -69,6 +70,7 @@ DataPoint nice_range(double lo, double hi, int about) {
 
 std::vector<Tick> value_ticks(double lo, double hi, int about) {
   const double step = nice_step(lo, hi, about);
+  if (!std::isfinite(step) || step <= 0.0) return {};
   const int decimals = std::max(0, -static_cast<int>(std::floor(std::log10(step) + 1e-9)));
   std::vector<Tick> ticks;
   for (const double v : nice_ticks(lo, hi, about)) {
@@ -98,6 +100,7 @@ double utc_tick_step(double lo_s, double hi_s, int about) {
 }
 
 std::vector<Tick> utc_ticks(double lo_s, double hi_s, int about) {
+  if (!std::isfinite(lo_s) || !std::isfinite(hi_s)) return {};
   const double step = utc_tick_step(lo_s, hi_s, about);
   const auto [k0, k1] = multiples(std::min(lo_s, hi_s), std::max(lo_s, hi_s), step);
   std::vector<Tick> ticks;

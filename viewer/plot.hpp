@@ -58,7 +58,8 @@ double nice_number(double x, bool round);
 //   step = nice_number(nice_number(|hi − lo|, false) / (about − 1), true).
 double nice_step(double lo, double hi, int about);
 
-// The multiples of nice_step inside [min(lo, hi), max(lo, hi)], increasing (the ticks of a
+// The multiples of nice_step inside [min(lo, hi), max(lo, hi)], increasing; none where
+// lo = hi or either is not finite (the ticks of a
 // fixed axis; Heckbert's "loose" labelling instead widens the range to whole steps:
 // nice_range).
 std::vector<double> nice_ticks(double lo, double hi, int about);

@@ -113,6 +113,11 @@ TEST_CASE("plot: nice numbers follow Heckbert's rule (Graphics Gems I, 1990, 61-
   CHECK(ticks.back() == doctest::Approx(500.0));
   // A reversed axis gets the same ticks, increasing.
   CHECK(nice_ticks(543.0, 105.0, 5) == ticks);
+  // No axis, no ticks (and no endless loop): equal ends, NaN, infinity.
+  CHECK(nice_ticks(3.0, 3.0, 5).empty());
+  CHECK(value_ticks(std::nan(""), 1.0, 5).empty());
+  CHECK(value_ticks(0.0, HUGE_VAL, 5).empty());
+  CHECK(utc_ticks(0.0, std::nan(""), 5).empty());
 }
 
 TEST_CASE("plot: value tick labels carry the step's decimals and a true minus sign") {
