@@ -15,6 +15,7 @@
 #include "tests/support/support.hpp"
 #include "viewer/colour_table.hpp"
 #include "viewer/headless.hpp"
+#include "viewer/image_panel.hpp"
 #include "viewer/plot.hpp"
 
 namespace occulta::viewer {
@@ -421,31 +422,29 @@ TEST_CASE("plot: a time–height map panel shows the front where its law puts it
   const double t_start = t0 - 360.0, t_end = t0 + 29 * 720.0 + 360.0;
   const cv::Mat on_axis = imaging::render_on_time_axis(map, t_start, t_end, 300);
   const ColourScale sigma{ColourTable::blue_red, -4.0, 4.0, "running difference (\u03c3)", IM_COL32(0, 0, 0, 255)};
-  const std::vector<std::uint8_t> image = texels(on_axis, sigma);
-  const Texture texture{reinterpret_cast<ImTextureID>(std::uintptr_t{9}), on_axis.cols, on_axis.rows, image.data(),
-                        Sampling::nearest, Wrap::clamp_to_edge};
   // Row r of the map is the height kHeight0 + r·kStep at its centre: the image's edges are
   // half a step beyond; its columns span [t_start, t_end] edge to edge.
-  const ImageExtent extent{t_start, t_end, kHeight0 - kStep / 2, kHeight0 + (kRows - 0.5) * kStep};
+  const ImageExtent extent = time_map_extent(map, t_start, t_end);
+  CHECK(extent.bottom == doctest::Approx(kHeight0 - kStep / 2));
+  CHECK(extent.top == doctest::Approx(kHeight0 + (kRows - 0.5) * kStep));
+  const ImagePanel panel =
+      make_image_panel(on_axis, extent, sigma, reinterpret_cast<ImTextureID>(std::uintptr_t{9}));
   PlotFrame frame;
   AxesDrawn drawn;
   const Framebuffer picture = draw_headless(
       900, 520,
       [&] {
         ImDrawList& draw = *ImGui::GetBackgroundDrawList();
-        const PlotMargins margins{true, true, &sigma};
-        frame = layout_plot(ImVec2(0, 0), ImVec2(900, 520), Axis{t_start, t_end, "time (UTC)", true},
-                            Axis{extent.bottom, extent.top, "height (R\u2609)", false}, margins);
-        draw_image(draw, frame, texture.id, extent);
-        drawn = draw_axes(draw, frame);
-        draw_colour_bar(draw, frame, sigma);
+        const PanelAxes axes{Axis{t_start, t_end, "time (UTC)", true}, Axis{extent.bottom, extent.top, "height (R\u2609)", false},
+                             "time\u2013height map at PA 270\u00b0 (made in the test)", false};
+        frame = draw_image_panel(draw, ImVec2(0, 0), ImVec2(900, 520), panel, axes);
+        drawn.x_ticks = axis_ticks(frame.x, frame.pixel_max.x - frame.pixel_min.x, PlotStyle{}.x_spacing_px);
         const std::vector<DataPoint> track{{t0, front_rs(t0)}, {t0 + 3 * 3600.0, front_rs(t0 + 3 * 3600.0)}};
         draw_line(draw, frame, track, IM_COL32(255, 220, 60, 255), 2.0f);
         const LegendEntry legend[] = {{"front, first 3 h", IM_COL32(255, 220, 60, 255), false}};
         draw_legend(draw, frame, legend);
-        draw_title(draw, frame, "time\u2013height map at PA 270\u00b0 (made in the test)");
       },
-      {&texture, 1});
+      {&panel.texture, 1});
   write_png(picture, test::scratch_dir("plot-time-height") / "time_height.png");
   const auto at = [&](double t, double h) {
     const ImVec2 p = frame.to_pixel(t, h);
@@ -468,6 +467,20 @@ TEST_CASE("plot: a time–height map panel shows the front where its law puts it
 }  // namespace occulta::viewer
 
 namespace occulta::viewer {
+
+TEST_CASE("plot: a polar image's extent runs from edge to edge of its PA and height cells") {
+  imaging::PolarGrid polar;
+  polar.pa_step_deg = 0.5;
+  polar.pa_count = 720;
+  polar.height_min_rs = 2.0;
+  polar.height_step_rs = 0.1;
+  polar.height_count = 181;  // centres 2.0 … 20.0 R☉
+  const ImageExtent extent = polar_extent(polar);
+  CHECK(extent.left == doctest::Approx(-0.25));
+  CHECK(extent.right == doctest::Approx(359.75));
+  CHECK(extent.bottom == doctest::Approx(1.95));
+  CHECK(extent.top == doctest::Approx(20.05));
+}
 
 TEST_CASE("plot: an equal-scale frame keeps circles round, centred in the space it had") {
   const PlotFrame wide{ImVec2(100, 50), ImVec2(500, 350), Axis{-6.0, 6.0, "x (R\u2609)", false},
@@ -529,27 +542,33 @@ TEST_CASE("plot: a rendered sky panel in R☉ with the limb, an occulter edge, N
     }
   }
   const ColourScale brightness{ColourTable::amber, 0.0, 1.0, "brightness (occulter edge = 1)", IM_COL32(0, 0, 0, 255)};
-  const std::vector<std::uint8_t> image = texels(values, brightness);
-  const Texture texture{reinterpret_cast<ImTextureID>(std::uintptr_t{11}), kSide, kSide, image.data(),
-                        Sampling::bilinear, Wrap::clamp_to_edge};
+  // The image on a registered grid: Sun centre in the middle, 0.1 R☉ per pixel, so its
+  // pixel edges run from −6 to 6 R☉.
+  imaging::RegisteredGrid grid;
+  grid.width = grid.height = kSide;
+  grid.sun_center_px = Eigen::Vector2d((kSide - 1) / 2.0, (kSide - 1) / 2.0);
+  grid.rs_per_px = 2 * kHalf / kSide;
+  const ImageExtent extent = sky_extent(grid);
+  CHECK(extent.left == doctest::Approx(-kHalf));
+  CHECK(extent.right == doctest::Approx(kHalf));
+  CHECK(extent.bottom == doctest::Approx(-kHalf));
+  CHECK(extent.top == doctest::Approx(kHalf));
+  const ImagePanel panel =
+      make_image_panel(values, extent, brightness, reinterpret_cast<ImTextureID>(std::uintptr_t{11}), Sampling::bilinear);
   const ImU32 limb = IM_COL32(90, 200, 255, 255);
   PlotFrame frame;
   const Framebuffer picture = draw_headless(
       640, 560,
       [&] {
         ImDrawList& draw = *ImGui::GetBackgroundDrawList();
-        const PlotMargins margins{true, true, &brightness};
-        frame = with_equal_scale(layout_plot(ImVec2(0, 0), ImVec2(640, 560), Axis{-kHalf, kHalf, "x (R\u2609)", false},
-                                             Axis{-kHalf, kHalf, "y (R\u2609)", false}, margins));
-        draw_image(draw, frame, texture.id, ImageExtent{-kHalf, kHalf, -kHalf, kHalf});
-        draw_axes(draw, frame);
+        const PanelAxes axes{Axis{-kHalf, kHalf, "x (R\u2609, west)", false}, Axis{-kHalf, kHalf, "y (R\u2609, north)", false},
+                             "sky image, north up (made in the test)", true};
+        frame = draw_image_panel(draw, ImVec2(0, 0), ImVec2(640, 560), panel, axes);
         draw_circle(draw, frame, 0.0, 0.0, 1.0, limb, 2.0f);
         draw_circle(draw, frame, 0.0, 0.0, kOcculter, IM_COL32(255, 255, 255, 255), 1.0f);
         draw_north_east(draw, frame);
-        draw_colour_bar(draw, frame, brightness);
-        draw_title(draw, frame, "sky image, north up (made in the test)");
       },
-      {&texture, 1});
+      {&panel.texture, 1});
   write_png(picture, test::scratch_dir("plot-sky") / "sky.png");
   // The limb crosses the +x axis at 1 R☉: the 2-px line covers the pixel there.
   const ImVec2 on_limb = frame.to_pixel(1.0, 0.0);
