@@ -110,8 +110,10 @@ TEST_CASE("raster: triangles sharing edges cover every pixel exactly once (top-l
   CHECK(wrong == 0);
 }
 
-TEST_CASE("raster: a rectangle covers the pixels whose centres have x0 ≤ x < x1 and y0 ≤ y < y1") {
-  // Left and top edges through pixel centres are in, right and bottom ones out (top-left rule).
+TEST_CASE("raster: a rectangle covers the pixels whose centres have x0 ≤ x < x1 and y0 < y ≤ y1") {
+  // Edges through pixel centres: left ones in, right ones out; and, the top-left rule
+  // taken with OpenGL's y up (raster.hpp), bottom ones (in these y-down rows) in and top
+  // ones out. The rectangle (2.5, 3.5)–(6.5, 5.5): columns 2–5, rows 4–5.
   for (const bool fast : {true, false}) {
     test::HandDrawn scene(12, 12);
     scene.command(kNoClip, kWhite.id);
@@ -122,8 +124,10 @@ TEST_CASE("raster: a rectangle covers the pixels whose centres have x0 ≤ x < x
     Framebuffer fb(12, 12, rgba(0, 0, 0));
     const RasterCounts counts = render(scene.data, {&kWhite, 1}, fb);
     CHECK(counts.rectangles == (fast ? 1 : 0));
+    long wrong = 0;
     for (int y = 0; y < 12; ++y)
-      for (int x = 0; x < 12; ++x) CHECK(channel(fb.at(x, y), 0) == ((x >= 2 && x <= 5 && y >= 3 && y <= 4) ? 255u : 0u));
+      for (int x = 0; x < 12; ++x) wrong += channel(fb.at(x, y), 0) != ((x >= 2 && x <= 5 && y >= 4 && y <= 5) ? 255u : 0u);
+    CHECK(wrong == 0);
   }
 }
 

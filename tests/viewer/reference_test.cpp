@@ -2,17 +2,17 @@
 // ImDrawData drawn by Dear ImGui's own OpenGL2 backend (imgui_impl_opengl2, in Debian's
 // libimgui.a) on Mesa's off-screen software OpenGL (OSMesa, llvmpipe) and by ours.
 //
-// Tolerance, measured. Both renderers snap vertices to 1/256 px and blend in 8 bits, but
-// they round differently: llvmpipe rounds the fragment colour and each blend product on
-// its own and interpolates in its own fixed point, so most differing pixels differ by one
-// level. Large differences are isolated rows: where a horizontal edge runs exactly through
-// pixel centres (ImGui draws lines at +½ px), our top-left rule takes the row on the top
-// edge and llvmpipe, which applies its rule in OpenGL's y-up window, the row on the bottom
-// edge (seen at the first pixel of a line, the last row of a rectangle). Measured with
-// Mesa 22.3.6: 99.90–100 % of pixels within 2/255, mean difference 0.003–0.12/255, per
-// scene. We require, per scene, ≥ 99.8 % of pixels within 2/255 in every channel and a
-// mean absolute difference below 0.2/255. Checked to fail: with every vertex of ours moved
-// one pixel right, every scene breaks both (within 2/255: 70–99.5 %, mean 0.28–9.5/255).
+// Tolerance, measured. Both renderers snap vertices to 1/256 px, apply the top-left rule
+// with OpenGL's y up and blend in 8 bits, but they round differently: llvmpipe rounds the
+// fragment colour and each blend product on its own and interpolates in its own fixed
+// point, so differing pixels differ by one or two levels. Measured with Mesa 22.3.6, per
+// scene of 640 × 480: at most one pixel differs by more than 2/255 (the end of one thin
+// line), the mean difference is 0.003–0.09/255. We require, per scene, at most 10 pixels
+// differing by more than 2/255 in any channel and a mean absolute difference below
+// 0.15/255. Checked to fail: with every vertex of ours moved one pixel right, every
+// scene breaks both (mean 0.28–9.5/255); with the top-left rule taken with y down
+// (Direct3D's way), text, shapes and images break the first (17, 181 and 300 pixels,
+// whole rows at the ends of rectangles and lines, up to 214/255).
 #include <GL/gl.h>
 #include <GL/osmesa.h>
 #include <backends/imgui_impl_opengl2.h>
@@ -56,6 +56,7 @@ std::vector<std::uint8_t> test_picture(bool with_alpha) {
 }
 
 struct Comparison {
+  long beyond_2 = 0;     // pixels with a channel differing by more than 2
   double within_2 = 0;   // fraction of pixels whose channels all differ by ≤ 2
   int worst = 0;         // largest channel difference
   int worst_x = 0, worst_y = 0;
@@ -79,6 +80,7 @@ Comparison compare(const Framebuffer& ours, const Framebuffer& reference) {
       sum += d;
     }
     close += pixel_worst <= 2;
+    c.beyond_2 += pixel_worst > 2;
     if (pixel_worst > c.worst) {
       c.worst = pixel_worst;
       c.worst_x = int(k % std::size_t(ours.width));
@@ -174,7 +176,7 @@ class Bench {
     write_png(difference, dir / "difference_x16.png");
 
     const Comparison c = compare(ours, reference);
-    MESSAGE(name << ": " << 100.0 * c.within_2 << " % of pixels within 2/255, mean " << c.mean << "/255, worst " << c.worst
+    MESSAGE(name << ": " << c.beyond_2 << " pixels beyond 2/255 (" << 100.0 * c.within_2 << " % within), mean " << c.mean << "/255, worst " << c.worst
                  << "/255 at (" << c.worst_x << ", " << c.worst_y << "): ours " << rgb_text(c.ours_there) << ", reference "
                  << rgb_text(c.reference_there));
     return c;
@@ -204,8 +206,8 @@ class Bench {
 };
 
 void check(const Comparison& c) {
-  CHECK(c.within_2 >= 0.998);
-  CHECK(c.mean < 0.2);
+  CHECK(c.beyond_2 <= 10);
+  CHECK(c.mean < 0.15);
 }
 
 void place(const char* title, ImVec2 pos, ImVec2 size) {
