@@ -309,6 +309,47 @@ TEST_CASE("raster: matches Dear ImGui's OpenGL2 backend on Mesa's software GL (O
     }));
   }
 
+  SUBCASE("widgets") {
+    check(bench.run("widgets", [] {
+      place("Widgets", ImVec2(10, 10), ImVec2(300, 460));
+      static bool flag = true;
+      static int choice = 1, item = 0;
+      static float value = 0.37f, drag = 2.5f, colour[4] = {0.9f, 0.4f, 0.1f, 0.8f};
+      static char text[32] = "running difference";
+      ImGui::Checkbox("a checkbox", &flag);
+      ImGui::RadioButton("one", &choice, 0);
+      ImGui::SameLine();
+      ImGui::RadioButton("two", &choice, 1);
+      ImGui::SliderFloat("slider", &value, 0.0f, 1.0f);
+      ImGui::DragFloat("drag", &drag, 0.1f);
+      ImGui::InputText("text", text, sizeof text);
+      const char* items[] = {"calibrated", "running difference", "base difference"};
+      ImGui::Combo("combo", &item, items, 3);
+      ImGui::ColorEdit4("colour", colour);
+      const float samples[8] = {0.1f, 0.5f, 0.3f, 0.9f, 0.6f, 0.2f, 0.8f, 0.4f};
+      ImGui::PlotLines("lines", samples, 8, 0, nullptr, 0.0f, 1.0f, ImVec2(0, 50));
+      ImGui::PlotHistogram("histogram", samples, 8, 0, nullptr, 0.0f, 1.0f, ImVec2(0, 50));
+      ImGui::ProgressBar(0.62f);
+      ImGui::SetNextItemOpen(true);
+      if (ImGui::TreeNode("a tree node")) {
+        ImGui::BulletText("a bullet");
+        ImGui::TreePop();
+      }
+      if (ImGui::BeginTable("table", 3, ImGuiTableFlags_Borders | ImGuiTableFlags_RowBg)) {
+        for (int row = 0; row < 3; ++row)
+          for (int column = 0; column < 3; ++column) {
+            ImGui::TableNextColumn();
+            ImGui::Text("%d,%d", row, column);
+          }
+        ImGui::EndTable();
+      }
+      ImGui::End();
+      place("Colour picker", ImVec2(320, 10), ImVec2(310, 330));
+      ImGui::ColorPicker4("picker", colour, ImGuiColorEditFlags_PickerHueWheel);
+      ImGui::End();
+    }));
+  }
+
   SUBCASE("the demo window") {
     check(bench.run("demo", [] {
       ImGui::SetNextWindowPos(ImVec2(20, 20));
