@@ -22,9 +22,9 @@
 //   Pineda 1988, "A Parallel Algorithm for Polygon Rasterization", SIGGRAPH '88). Centres
 //   exactly on an edge follow the top-left rule, so two triangles sharing an edge cover
 //   each pixel along it exactly once (what OpenGL 4.6 §14.6.1 requires, from memory). We
-//   apply it as OpenGL does, in its window coordinates with y up — as Mesa's llvmpipe
-//   does, measured in tests/viewer — so in these y-down rows a left edge and a *bottom*
-//   edge are in: a rectangle covers the centres with x0 ≤ x < x1, y0 < y ≤ y1. (Direct3D
+//   take "top" in OpenGL's window coordinates, y up, as Mesa's llvmpipe does (measured in
+//   tests/viewer), so in these y-down rows a left edge and a *bottom* edge are in: a
+//   rectangle covers the centres with x0 ≤ x < x1 and y0 < y ≤ y1. (Direct3D
 //   applies the same rule with y down and takes top edges; over Dear ImGui's draw data
 //   that choice moved whole rows against the OpenGL reference, where lines and rectangles
 //   end on half pixels.) Vertices are snapped to 1/256 px (8 sub-pixel bits, as llvmpipe)
