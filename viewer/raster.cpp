@@ -351,8 +351,12 @@ bool is_rect(const ImDrawIdx* idx, const ImDrawVert* vtx) {
 }
 
 const Texture& find_texture(std::span<const Texture> textures, ImTextureID id) {
-  for (const Texture& t : textures)
-    if (t.id == id) return t;
+  for (const Texture& t : textures) {
+    if (t.id != id) continue;
+    if (t.texels == nullptr || t.width <= 0 || t.height <= 0)
+      throw std::invalid_argument("viewer::render: a texture in the table has no texels or no size");
+    return t;
+  }
   throw std::invalid_argument("viewer::render: a draw command uses a texture id that is not in the texture table");
 }
 

@@ -93,10 +93,11 @@ struct RasterCounts {
 };
 
 // Draws every command list of `draw_data` over `framebuffer`, in order. Every ImTextureID
-// the commands use must be in `textures` (std::invalid_argument otherwise, naming none of
-// the user's files: it is a programming error). User callbacks are called as Dear ImGui's
-// backends call them; ImDrawCallback_ResetRenderState is a no-op here (no state to reset).
-// Pixels outside the framebuffer are never touched, whatever DisplaySize says.
+// the commands use must be in `textures`, with texels and a positive size
+// (std::invalid_argument otherwise: a programming error, not bad input; what was drawn
+// before stays). User callbacks are called as Dear ImGui's backends call them;
+// ImDrawCallback_ResetRenderState is a no-op here (no state to reset). Pixels outside
+// the framebuffer are never touched, whatever DisplaySize says.
 RasterCounts render(const ImDrawData& draw_data, std::span<const Texture> textures, Framebuffer& framebuffer);
 
 }  // namespace occulta::viewer

@@ -268,6 +268,9 @@ TEST_CASE("raster: a texture id missing from the table is an error, and nothing 
   scene.rect({0, 0}, {8, 8}, {0, 0}, {0, 0}, rgba(255, 0, 0));
   Framebuffer fb(8, 8, rgba(0, 0, 0));
   CHECK_THROWS_AS(render(scene.data, {&kWhite, 1}, fb), std::invalid_argument);
+  const Texture empty{reinterpret_cast<ImTextureID>(99), 0, 0, nullptr};
+  CHECK_THROWS_AS(render(scene.data, {&empty, 1}, fb), std::invalid_argument);
+  CHECK(fb.at(3, 3) == rgba(0, 0, 0));
 
   // A display larger than the framebuffer, and vertices far outside it or not numbers.
   test::HandDrawn huge(5000, 5000);
