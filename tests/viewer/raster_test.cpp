@@ -262,6 +262,37 @@ TEST_CASE("raster: a fragment is texel × vertex colour (GL_MODULATE), each prod
   CHECK(fb.at(1, 1) == rgba(200, 50, 0, 255));
 }
 
+TEST_CASE("raster: user callbacks run in order between draws; ResetRenderState is skipped") {
+  // A callback sees what was drawn before it and nothing after (it runs where it stands).
+  struct Seen {
+    const Framebuffer* fb = nullptr;
+    std::uint32_t pixel = 0;
+    int calls = 0;
+  } seen;
+  test::HandDrawn scene(4, 4);
+  Framebuffer fb(4, 4, rgba(0, 0, 0));
+  seen.fb = &fb;
+  scene.command(kNoClip, kWhite.id);
+  scene.rect({0, 0}, {4, 4}, {0, 0}, {0, 0}, rgba(255, 0, 0));
+  ImDrawCmd callback;
+  callback.UserCallback = [](const ImDrawList*, const ImDrawCmd* cmd) {
+    auto* s = static_cast<Seen*>(cmd->UserCallbackData);
+    s->pixel = s->fb->at(1, 1);
+    ++s->calls;
+  };
+  callback.UserCallbackData = &seen;
+  scene.list->CmdBuffer.push_back(callback);
+  ImDrawCmd reset;
+  reset.UserCallback = ImDrawCallback_ResetRenderState;
+  scene.list->CmdBuffer.push_back(reset);
+  scene.command(kNoClip, kWhite.id);
+  scene.rect({0, 0}, {4, 4}, {0, 0}, {0, 0}, rgba(0, 0, 255));
+  render(scene.data, {&kWhite, 1}, fb);
+  CHECK(seen.calls == 1);
+  CHECK(seen.pixel == rgba(255, 0, 0));
+  CHECK(fb.at(1, 1) == rgba(0, 0, 255));
+}
+
 TEST_CASE("raster: a texture id missing from the table is an error, and nothing is drawn out of bounds") {
   test::HandDrawn scene(8, 8);
   scene.command(kNoClip, reinterpret_cast<ImTextureID>(99));

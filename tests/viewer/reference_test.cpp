@@ -160,6 +160,9 @@ class Bench {
     Framebuffer again(kWidth, kHeight, kBackground);
     render(*draw_data, textures_, again);
     CHECK_MESSAGE(again.pixels == ours.pixels, "the same draw data must give the same pixels");
+    long translucent = 0;  // source over keeps an opaque framebuffer opaque (raster.hpp)
+    for (const std::uint32_t p : ours.pixels) translucent += (p >> 24) != 255;
+    CHECK(translucent == 0);
 
     const std::filesystem::path dir = test::scratch_dir("viewer-reference-" + name);
     Framebuffer difference(kWidth, kHeight, 0);
