@@ -95,9 +95,9 @@ Comparison compare(const Framebuffer& ours, const Framebuffer& reference) {
 }
 
 // Both renderers, one ImGui context, one OSMesa context.
-class Bench {
+class TwoRenderers {
  public:
-  Bench() {
+  TwoRenderers() {
     setenv("LP_NUM_THREADS", "0", 1);  // llvmpipe draws on this thread: quicker to start, no threads left behind
     gl_ = OSMesaCreateContextExt(OSMESA_RGBA, 0, 0, 0, nullptr);
     REQUIRE(gl_ != nullptr);
@@ -121,15 +121,15 @@ class Bench {
     add_picture(translucent_, GL_LINEAR, Sampling::bilinear);
     add_picture(opaque_, GL_NEAREST, Sampling::nearest);
   }
-  ~Bench() {
+  ~TwoRenderers() {
     glDeleteTextures(GLsizei(gl_textures_.size()), gl_textures_.data());
     ImGui_ImplOpenGL2_Shutdown();
     ImGui::DestroyContext(imgui_);
     OSMesaMakeCurrent(nullptr, nullptr, 0, 0, 0);
     OSMesaDestroyContext(gl_);
   }
-  Bench(const Bench&) = delete;
-  Bench& operator=(const Bench&) = delete;
+  TwoRenderers(const TwoRenderers&) = delete;
+  TwoRenderers& operator=(const TwoRenderers&) = delete;
 
   // The GL texture names, as ImTextureIDs: the linear opaque, linear translucent and nearest pictures.
   ImTextureID picture(int i) const { return textures_[std::size_t(i) + 1].id; }
@@ -222,11 +222,11 @@ void place(const char* title, ImVec2 pos, ImVec2 size) {
 }  // namespace
 
 TEST_CASE("raster: matches Dear ImGui's OpenGL2 backend on Mesa's software GL (OSMesa)") {
-  Bench bench;
+  TwoRenderers renderers;
 
   SUBCASE("text") {
     RasterCounts counts;
-    check(bench.run("text", [] {
+    check(renderers.run("text", [] {
       place("Text of several sizes", ImVec2(10, 10), ImVec2(420, 300));
       for (int i = 0; i < 6; ++i) ImGui::Text("Line %d: height 4.35 R\u2609, PA 271.5\u00b0, 3.2 \u03c3 — the quick brown fox", i);
       ImGui::TextColored(ImVec4(1.0f, 0.6f, 0.2f, 1.0f), "Coloured text, σ ≈ 1.5, ΔT = 12 min");
@@ -243,7 +243,7 @@ TEST_CASE("raster: matches Dear ImGui's OpenGL2 backend on Mesa's software GL (O
   }
 
   SUBCASE("lines") {
-    check(bench.run("lines", [] {
+    check(renderers.run("lines", [] {
       ImDrawList* bg = ImGui::GetBackgroundDrawList();
       for (int i = 0; i < 12; ++i) {
         const float angle = 0.13f * float(i), thickness = 0.6f + 0.45f * float(i);
@@ -263,7 +263,7 @@ TEST_CASE("raster: matches Dear ImGui's OpenGL2 backend on Mesa's software GL (O
   }
 
   SUBCASE("filled shapes") {
-    check(bench.run("shapes", [] {
+    check(renderers.run("shapes", [] {
       ImDrawList* bg = ImGui::GetBackgroundDrawList();
       bg->AddRectFilled(ImVec2(20, 20), ImVec2(220, 140), IM_COL32(200, 60, 60, 255), 12.0f);
       bg->AddRectFilled(ImVec2(120.5f, 80.25f), ImVec2(300.75f, 200.5f), IM_COL32(60, 200, 90, 128));
@@ -280,27 +280,27 @@ TEST_CASE("raster: matches Dear ImGui's OpenGL2 backend on Mesa's software GL (O
 
   SUBCASE("images") {
     RasterCounts counts;
-    check(bench.run("images", [&bench] {
+    check(renderers.run("images", [&renderers] {
       ImDrawList* bg = ImGui::GetBackgroundDrawList();
-      bg->AddImage(bench.picture(0), ImVec2(10, 10), ImVec2(310.5f, 310.5f), ImVec2(0.1f, 0.1f), ImVec2(0.35f, 0.35f));  // magnified ×4.8
-      bg->AddImage(bench.picture(0), ImVec2(330, 10), ImVec2(430, 110));                                                 // reduced to 100 px
-      bg->AddImage(bench.picture(1), ImVec2(330, 120), ImVec2(586, 376), ImVec2(0, 0), ImVec2(1, 1), IM_COL32(255, 200, 160, 230));
+      bg->AddImage(renderers.picture(0), ImVec2(10, 10), ImVec2(310.5f, 310.5f), ImVec2(0.1f, 0.1f), ImVec2(0.35f, 0.35f));  // magnified ×4.8
+      bg->AddImage(renderers.picture(0), ImVec2(330, 10), ImVec2(430, 110));                                                 // reduced to 100 px
+      bg->AddImage(renderers.picture(1), ImVec2(330, 120), ImVec2(586, 376), ImVec2(0, 0), ImVec2(1, 1), IM_COL32(255, 200, 160, 230));
       // Nearest, with no pixel centre exactly on a texel boundary (there the texel taken
       // depends on each renderer's rounding: with u1 = 0.3, pixel 37's centre is at s = 16.0).
-      bg->AddImage(bench.picture(2), ImVec2(450, 10), ImVec2(630, 110), ImVec2(0, 0), ImVec2(0.29f, 0.17f));
-      bg->AddImageRounded(bench.picture(0), ImVec2(20, 330), ImVec2(200, 470), ImVec2(0, 0), ImVec2(1, 1), IM_COL32_WHITE, 20.0f);
-      bg->AddImageQuad(bench.picture(0), ImVec2(260, 330), ImVec2(330, 350), ImVec2(310, 470), ImVec2(220, 440));
+      bg->AddImage(renderers.picture(2), ImVec2(450, 10), ImVec2(630, 110), ImVec2(0, 0), ImVec2(0.29f, 0.17f));
+      bg->AddImageRounded(renderers.picture(0), ImVec2(20, 330), ImVec2(200, 470), ImVec2(0, 0), ImVec2(1, 1), IM_COL32_WHITE, 20.0f);
+      bg->AddImageQuad(renderers.picture(0), ImVec2(260, 330), ImVec2(330, 350), ImVec2(310, 470), ImVec2(220, 440));
     }, &counts));
     CHECK(counts.rectangles >= 4);
   }
 
   SUBCASE("clip rectangles") {
-    check(bench.run("clips", [&bench] {
+    check(renderers.run("clips", [&renderers] {
       ImDrawList* bg = ImGui::GetBackgroundDrawList();
       bg->PushClipRect(ImVec2(40.3f, 30.6f), ImVec2(250.8f, 170.2f));
       bg->AddRectFilled(ImVec2(0, 0), ImVec2(640, 480), IM_COL32(80, 120, 200, 255));
       bg->AddText(ImVec2(30, 100), IM_COL32_WHITE, "text cut by a clip rectangle at fractional coordinates");
-      bg->AddImage(bench.picture(0), ImVec2(200, 140), ImVec2(400, 340));
+      bg->AddImage(renderers.picture(0), ImVec2(200, 140), ImVec2(400, 340));
       bg->PopClipRect();
       place("A window with a scrolled child", ImVec2(300, 60), ImVec2(320, 380));
       ImGui::BeginChild("scrolled", ImVec2(0, 200), true);
@@ -313,7 +313,7 @@ TEST_CASE("raster: matches Dear ImGui's OpenGL2 backend on Mesa's software GL (O
   }
 
   SUBCASE("widgets") {
-    check(bench.run("widgets", [] {
+    check(renderers.run("widgets", [] {
       place("Widgets", ImVec2(10, 10), ImVec2(300, 460));
       static bool flag = true;
       static int choice = 1, item = 0;
@@ -354,7 +354,7 @@ TEST_CASE("raster: matches Dear ImGui's OpenGL2 backend on Mesa's software GL (O
   }
 
   SUBCASE("the demo window") {
-    check(bench.run("demo", [] {
+    check(renderers.run("demo", [] {
       ImGui::SetNextWindowPos(ImVec2(20, 20));
       ImGui::SetNextWindowSize(ImVec2(600, 440));
       ImGui::ShowDemoWindow();
