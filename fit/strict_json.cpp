@@ -75,7 +75,9 @@ std::string file_kind(const json& doc) {
   if (!doc.is_object()) return "";
   if (doc.contains("schema") && doc["schema"].is_string()) {
     const std::string s = doc["schema"].get<std::string>();
-    if (s.starts_with("occulta.") && s.find('/') != std::string::npos) return s.substr(8, s.find('/') - 8);
+    const std::string kind = s.starts_with("occulta.") && s.find('/') != std::string::npos ? s.substr(8, s.find('/') - 8) : "";
+    for (const char* known : {"event", "scenario", "track", "result", "arrival", "truth"})
+      if (kind == known) return kind;
   }
   if (doc.contains("observers") && doc.contains("shell")) return "scenario";
   if (doc.contains("views") && !doc.contains("status")) return "event";

@@ -35,7 +35,7 @@ bool is_safe_name(std::string_view name);
 void check_safe_name(const std::string& name, const std::string& key_path, const std::string& file);
 
 // What kind of occulta file a document is, from its `schema` key ("occulta.result/1" →
-// "result") or, for the files without one, its keys: "event" (views), "scenario"
+// "result"; one of event, scenario, track, result, arrival, truth) or, for the files without one, its keys: "event" (views), "scenario"
 // (observers and shell), "" when it cannot tell.
 std::string file_kind(const nlohmann::json& doc);
 
