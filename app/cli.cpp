@@ -101,7 +101,7 @@ int run(int argc, char** argv) {
       ->check(CLI::Range(0.0, 360.0));
   maps_cmd->add_option("--pa-step", maps_options.pa_step_deg, "Position-angle step of the polar grid (deg)")
       ->capture_default_str()->check(CLI::Range(0.05, 10.0));
-  maps_cmd->add_option("--height-step", maps_options.height_step_rs, "Height step of the polar grid (R_sun; 0 = pixel)")
+  maps_cmd->add_option("--height-step", maps_options.height_step_rs, "Height step of the polar grid (R☉; 0 = pixel)")
       ->capture_default_str()->check(CLI::Range(0.0, 2.0));
   maps_cmd->add_option("--median", maps_options.median, "Median filter size against cosmic rays (0, 3 or 5)")
       ->capture_default_str()->check(CLI::IsMember({0, 3, 5}));

@@ -286,7 +286,7 @@ void write_csv_row(const fs::path& path, const json& result) {
     // boundary.sigma holds time_s for the time (a σ in seconds), the keys' own names else.
     const std::string sigma_key = std::string(key) == "time" ? "time_s" : key;
     names.push_back(std::string("boundary_") + key + (std::string(key) == "time" ? "_sigma_s" : "_sigma"));
-    values.push_back(boundary.is_object() && boundary.contains("sigma") ? csv_field(boundary["sigma"][sigma_key]) : "");
+    values.push_back(boundary.is_object() && boundary.contains("sigma") ? csv_field(boundary["sigma"].value(sigma_key, json())) : "");
   }
   std::ostringstream out;
   for (size_t i = 0; i < names.size(); ++i) out << (i ? "," : "") << names[i];
@@ -359,6 +359,11 @@ json run_measure(const MeasureOptions& o, std::ostream& err) {
   problems.insert(problems.end(), shell.problems.begin(), shell.problems.end());
   for_shell.clear();  // the polar sequences are no longer needed
 
+  // A sentence said once: the same fault met twice (the same frame in two views' globs…)
+  // is one problem.
+  for (size_t i = 0; i < problems.size(); ++i)
+    for (size_t j = problems.size(); j-- > i + 1;)
+      if (problems[j] == problems[i]) problems.erase(problems.begin() + static_cast<std::ptrdiff_t>(j));
   const std::string status = measured == 0 ? "failed" : measured < int(event.views.size()) ? "partial" : "ok";
   json result = {{"schema", "occulta.result/1"},
                  {"event_id", event.id},

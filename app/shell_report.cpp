@@ -160,7 +160,7 @@ void draw_shell(const ViewForShell& v, const fit::ShellFit& fit, const std::vect
                  cv::Scalar(255, 230, 0), 1, cv::LINE_AA);
     }
     char caption[160];
-    std::snprintf(caption, sizeof caption, "%s %s apex %.1f Rs", v.name.c_str(),
+    std::snprintf(caption, sizeof caption, "%s %s apex %.1f R_sun", v.name.c_str(),
                   imaging::iso_from_utc_seconds(t, 0).substr(11, 5).c_str(), shell.apex_height_rs);
     panels.push_back(with_caption(picture, caption));
   }
