@@ -52,6 +52,8 @@ std::string minutes(const json& iso) { return iso.is_string() ? iso.get<std::str
 
 json run_forecast(const ForecastOptions& o, std::ostream& err) {
   const auto started = std::chrono::steady_clock::now();
+  if (fs::is_directory(o.result))
+    throw imaging::InputError(o.result, "is a folder; `forecast` needs the result.json that `occulta measure` wrote");
   const json result = fit::read_json_file(o.result);
   const fit::ArrivalInput input = fit::read_arrival_input(result, o.result);
   const double utc_s = input.launch.boundary_utc_s;

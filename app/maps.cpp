@@ -135,6 +135,8 @@ std::string map_view(const Event& event, const EventView& view, const MapsOption
 }  // namespace
 
 int maps(const MapsOptions& o, std::ostream& out, std::ostream& err) {
+  if (fs::is_directory(o.event))
+    throw imaging::InputError(o.event, "is a folder; `maps` needs an event file (*.event.json) naming the views' frames");
   const Event event = read_event(o.event);
   std::vector<std::string> problems;
   int mapped = 0;

@@ -168,8 +168,9 @@ TEST_CASE("strict: bad inputs across every verb give one sentence and the promis
       {"members", "forecast {D}/good.result.json --members 0", 2, {"--members", "0"}},
       // Files that are not what they should be.
       {"missing file", "measure {D}/nowhere.event.json" + out, 1, {"{D}/nowhere.event.json", "does not exist"}},
-      {"folder for a file", "maps {D}/a_folder" + out, 1, {"{D}/a_folder", "is a folder, not a JSON file"}},
-      {"folder for a result", "forecast {D}/a_folder", 1, {"{D}/a_folder", "is a folder"}},
+      {"folder for a file", "maps {D}/a_folder" + out, 1, {"{D}/a_folder", "is a folder; `maps` needs an event file"}},
+      {"folder for a scenario", "synth {D}/a_folder" + out, 1, {"{D}/a_folder", "is a folder, not a JSON file"}},
+      {"folder for a result", "forecast {D}/a_folder", 1, {"{D}/a_folder", "is a folder; `forecast` needs the result.json"}},
       {"broken json", "maps {D}/broken.json" + out, 1, {"{D}/broken.json", "not valid JSON", "line 2, column 14"}},
       {"huge number", "maps {D}/huge.json" + out, 1, {"{D}/huge.json", "a number too large"}},
       {"empty file", "maps {D}/empty.json" + out, 1, {"{D}/empty.json", "it is empty"}},
@@ -294,7 +295,7 @@ TEST_CASE("strict: the window is applied, frames outside it named, and a window 
                                      shell_quote(occulta::test::source_path("schemas/" + schema).string()) + " " +
                                          shell_quote(doc.string()));
   };
-  for (const auto& [schema, doc] : std::vector<std::pair<std::string, fs::path>>{
+  for (const auto& [schema_name, doc_path] : std::vector<std::pair<std::string, fs::path>>{
            {"event.schema.json", f / "strict-event.event.json"},
            {"event.schema.json", f / "window.event.json"},
            {"event.schema.json", occulta::test::source_path("sample_frames/sample-2031-03-14.event.json")},
@@ -303,18 +304,20 @@ TEST_CASE("strict: the window is applied, frames outside it named, and a window 
            {"track.schema.json", d / "out/track.json"},
            {"result.schema.json", d / "out/result.json"},
            {"result.schema.json", d / "empty/result.json"}}) {
-    const auto valid = validate(schema, doc);
+    const fs::path doc = doc_path;  // a copy: clang 14 cannot capture a structured binding
+    const auto valid = validate(schema_name, doc);
     CHECK_MESSAGE(valid.exit_code == 0, (doc.string() + ": " + valid.output));
   }
-  for (const auto& [schema, doc] : std::vector<std::pair<std::string, fs::path>>{
+  for (const auto& [schema_name, doc_path] : std::vector<std::pair<std::string, fs::path>>{
            {"event.schema.json", f / "sorce.event.json"},           {"event.schema.json", f / "nmae.event.json"},
            {"event.schema.json", f / "dotdot.event.json"},          {"event.schema.json", f / "slash_id.event.json"},
            {"event.schema.json", f / "dot_id.event.json"},          {"event.schema.json", f / "dist.event.json"},
            {"event.schema.json", f / "occulter.event.json"},        {"event.schema.json", f / "source_type.event.json"},
            {"event.schema.json", f / "wind.event.json"},            {"event.schema.json", f / "tragets.event.json"},
            {"event.schema.json", f / "schema.event.json"},          {"event.schema.json", f / "noviews.event.json"}}) {
+    const fs::path doc = doc_path;  // a copy: clang 14 cannot capture a structured binding
     CAPTURE(doc);
-    CHECK(validate(schema, doc).exit_code == 1);
+    CHECK(validate(schema_name, doc).exit_code == 1);
   }
 }
 
@@ -331,7 +334,8 @@ TEST_CASE("strict: schemas refuse the bad scenario and track files as the reader
       {"slow", [](json& s) { s["shell"]["apex"]["speed_km_s"] = 20; }},
       {"tilt", [](json& s) { s["shell"]["tilt"] = 10; }},
       {"low", [](json& s) { s["shell"]["apex"]["height_rs"] = 0.5; }}};
-  for (const auto& [name, change] : scenarios) {
+  for (const auto& [case_name, change] : scenarios) {
+    const std::string name = case_name;  // a copy: clang 14 cannot capture a structured binding
     CAPTURE(name);
     CHECK(validate("scenario.schema.json", variant(d, name + ".scenario.json", scenario_doc(), change)).exit_code == 1);
   }
@@ -341,7 +345,8 @@ TEST_CASE("strict: schemas refuse the bad scenario and track files as the reader
       {"dotdot", [](json& t) { t["points"][0]["view"] = "../x"; }},
       {"heigth", [](json& t) { t["points"][0]["heigth_rs"] = 5.0; }},
       {"pa", [](json& t) { t["points"][0]["pa_deg"] = 400.0; }}};
-  for (const auto& [name, change] : tracks) {
+  for (const auto& [case_name, change] : tracks) {
+    const std::string name = case_name;  // a copy: clang 14 cannot capture a structured binding
     CAPTURE(name);
     CHECK(validate("track.schema.json", variant(d, name + ".track.json", track_doc(), change)).exit_code == 1);
   }
