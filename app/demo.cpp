@@ -109,10 +109,15 @@ int demo(const DemoOptions& given, std::ostream& out, std::ostream& err) {
       const double lo = (view.occulter_rs ? (*view.occulter_rs)[0] : 2.5) + finder.inner_margin_rs;
       const double hi = (view.occulter_rs ? (*view.occulter_rs)[1] : 14.5) - finder.outer_margin_rs;
       const fit::ViewTruth t = fit::view_truth(truth, view.name, lo, hi);
-      char line[200];
-      std::snprintf(line, sizeof line, "%-9s      %9.1f°  %.0f–%.0f°       %8.1f°  %7.0f sky-plane leading edge; apex PA %.1f°",
-                    view.name.c_str(), t.central_pa_deg, std::fmod(t.pa_from_deg + 360.0, 360.0),
-                    std::fmod(t.pa_to_deg + 360.0, 360.0), t.width_deg, t.sky_speed_km_s, t.apex_pa_deg);
+      // The columns of print_result_table (app/measure.cpp); printf pads bytes, and "°"
+      // takes two of them, "–" three, hence the widths.
+      char central[32], span[48], width[32], line[300];
+      std::snprintf(central, sizeof central, "%.1f°", t.central_pa_deg);
+      std::snprintf(span, sizeof span, "%.0f–%.0f°", std::fmod(t.pa_from_deg + 360.0, 360.0),
+                    std::fmod(t.pa_to_deg + 360.0, 360.0));
+      std::snprintf(width, sizeof width, "%.1f°", t.width_deg);
+      std::snprintf(line, sizeof line, "%-9s %-4s %-12s %-16s %-11s %-17.0f sky-plane leading edge; apex PA %.1f°",
+                    view.name.c_str(), "", central, span, width, t.sky_speed_km_s, t.apex_pa_deg);
       out << line << '\n';
     }
     // The true shell beside the fitted one: speed at the fit's reference time (the truth's

@@ -4,7 +4,7 @@
 //   id          text
 //   views[]     name, files (globs, relative to the event file), optional observer
 //               {lon_deg, lat_deg, dist_au} and occulter_rs [inner, outer]
-//   window      optional {start, end}: only frames in this UTC interval are used
+//   window      optional {start, end}: only frames in this UTC interval are used (apply_window)
 //   base_time   optional: the pre-event frame for base differences
 //   source      optional {lon_deg, lat_deg}: a known source region
 //   forecast    optional {targets, wind_km_s [lo, hi], drag_per_km [lo, hi]}
