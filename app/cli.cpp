@@ -1,6 +1,12 @@
 #include "app/cli.hpp"
 
+#include <algorithm>
+#include <cctype>
+#include <filesystem>
 #include <iostream>
+#include <optional>
+#include <string>
+#include <vector>
 
 #include <CLI/CLI.hpp>
 
@@ -9,9 +15,66 @@
 #include "app/inspect.hpp"
 #include "app/maps.hpp"
 #include "app/measure.hpp"
+#include "app/out_dir.hpp"
 #include "app/synth.hpp"
+#include "fit/strict_json.hpp"
+#include "imaging/input_error.hpp"
 
 namespace occulta::app {
+
+namespace {
+
+void err_usage(const std::string& what) {
+  std::string text = what;
+  if (!text.empty() && text.back() != '.' && text.back() != ')' && text.back() != '?') text += '.';
+  std::cerr << "occulta: usage: " << text << '\n';
+}
+
+std::string verb_list(const std::vector<CLI::App*>& verbs) {
+  std::string text;
+  for (const CLI::App* v : verbs) text += (text.empty() ? "" : ", ") + v->get_name();
+  return text;
+}
+
+// The first unknown verb or option name in argv, as a sentence; nullopt when all known.
+// Option values are not judged here (CLI11 does that); a token is taken for an option
+// name when it starts with "--", or with "-" and a letter.
+std::optional<std::string> usage_fault(int argc, char** argv, const std::vector<CLI::App*>& verbs) {
+  if (argc < 2) return std::nullopt;
+  const std::string first = argv[1];
+  if (first.starts_with("-")) return std::nullopt;  // --help, --version, or CLI11 names the rest
+  std::vector<std::string> names;
+  CLI::App* verb = nullptr;
+  for (CLI::App* v : verbs) {
+    names.push_back(v->get_name());
+    if (v->get_name() == first) verb = v;
+  }
+  if (!verb) {
+    const std::string near = fit::nearest_word(first, names);
+    return "unknown verb `" + first + "`" + (near.empty() ? "" : " — did you mean `" + near + "`?") +
+           (near.empty() ? "; the verbs are " : " The verbs are ") + verb_list(verbs);
+  }
+  std::vector<std::string> options = {"--help", "-h"};
+  for (const CLI::Option* o : verb->get_options()) {
+    for (const std::string& l : o->get_lnames()) options.push_back("--" + l);
+    for (const std::string& s : o->get_snames()) options.push_back("-" + s);
+  }
+  for (int i = 2; i < argc; ++i) {
+    std::string token = argv[i];
+    if (token == "--") break;
+    const bool long_name = token.starts_with("--");
+    const bool short_name = token.size() > 1 && token[0] == '-' && std::isalpha(static_cast<unsigned char>(token[1]));
+    if (!long_name && !short_name) continue;
+    token = token.substr(0, token.find('='));
+    if (std::find(options.begin(), options.end(), token) != options.end()) continue;
+    const std::string near = fit::nearest_word(token, options);
+    return "`" + first + "` has no option `" + token + "`" + (near.empty() ? "" : " — did you mean `" + near + "`?") +
+           (near.empty() ? "; see" : " See") + " `occulta " + first + " --help`";
+  }
+  return std::nullopt;
+}
+
+}  // namespace
 
 int run(int argc, char** argv) {
   CLI::App cli{"occulta — measure coronal mass ejections in coronagraph frames"};
@@ -34,10 +97,11 @@ int run(int argc, char** argv) {
   auto* maps_cmd = cli.add_subcommand("maps", "Polar running differences and time-height maps of an event's views");
   maps_cmd->add_option("event", maps_options.event, "Event file (*.event.json)")->required();
   maps_cmd->add_option("--out", maps_options.out_dir, "Folder to write into (made if missing)")->required();
-  maps_cmd->add_option("--pa", maps_options.pa_deg, "Time-height maps at these position angles (deg)");
+  maps_cmd->add_option("--pa", maps_options.pa_deg, "Time-height maps at these position angles (deg, 0-360)")
+      ->check(CLI::Range(0.0, 360.0));
   maps_cmd->add_option("--pa-step", maps_options.pa_step_deg, "Position-angle step of the polar grid (deg)")
       ->capture_default_str()->check(CLI::Range(0.05, 10.0));
-  maps_cmd->add_option("--height-step", maps_options.height_step_rs, "Height step of the polar grid (R_sun; 0 = pixel)")
+  maps_cmd->add_option("--height-step", maps_options.height_step_rs, "Height step of the polar grid (R☉; 0 = pixel)")
       ->capture_default_str()->check(CLI::Range(0.0, 2.0));
   maps_cmd->add_option("--median", maps_options.median, "Median filter size against cosmic rays (0, 3 or 5)")
       ->capture_default_str()->check(CLI::IsMember({0, 3, 5}));
@@ -49,8 +113,7 @@ int run(int argc, char** argv) {
   measure_cmd->add_option("input", measure_options.input, "Event file (*.event.json) or a folder of FITS frames")
       ->required();
   measure_cmd->add_option("--out", measure_options.out_dir, "Folder to write into (made if missing)")->required();
-  measure_cmd->add_option("--track", measure_options.track, "Track file whose points replace the automatic ones")
-      ->check(CLI::ExistingFile);
+  measure_cmd->add_option("--track", measure_options.track, "Track file whose points replace the automatic ones");
   measure_cmd->add_option("--median", measure_options.median, "Median filter size against cosmic rays (0, 3 or 5)")
       ->capture_default_str()->check(CLI::IsMember({0, 3, 5}));
   measure_cmd->add_option("--apex-law", measure_options.apex_law,
@@ -78,6 +141,13 @@ int run(int argc, char** argv) {
   demo_cmd->add_option("--sample", demo_options.sample_dir, "The sample event's folder")->capture_default_str();
   demo_cmd->add_option("--out", demo_options.out_dir, "Folder for what the demo measures")->capture_default_str();
 
+  // Before CLI11 parses: an unknown verb or option names itself and the nearest known
+  // one (CLI11 would first complain of something else, such as a missing --out).
+  std::vector<CLI::App*> verbs = cli.get_subcommands({});
+  if (const std::optional<std::string> fault = usage_fault(argc, argv, verbs)) {
+    err_usage(*fault);
+    return 2;
+  }
   try {
     cli.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {
@@ -86,20 +156,59 @@ int run(int argc, char** argv) {
     return cli.exit(e);
   } catch (const CLI::CallForVersion& e) {
     return cli.exit(e);
+  } catch (const CLI::RequiredError& e) {
+    if (argc < 2) {
+      err_usage("a verb is required: " + verb_list(verbs) + " (see `occulta --help`)");
+      return 2;
+    }
+    err_usage(std::string("`") + argv[1] + "` needs more: " + e.what() + " (see `occulta " + argv[1] + " --help`)");
+    return 2;
   } catch (const CLI::ParseError& e) {
-    cli.exit(e);  // prints the reason and the usage
+    err_usage(std::string(e.what()) + (argc > 1 ? std::string(" (see `occulta ") + argv[1] + " --help`)" : ""));
     return 2;
   }
 
+  // Exit codes (README "Exit codes"): a fault named by an option is usage (2); a fault of
+  // a file or folder, given as an argument or as an option's value, is an input problem (1).
   try {
     if (*inspect_cmd) return inspect(inspect_options, std::cout, std::cerr);
-    if (*synth_cmd) return synth(synth_options, std::cout, std::cerr);
-    if (*maps_cmd) return maps(maps_options, std::cout, std::cerr);
-    if (*measure_cmd) return measure(measure_options, std::cout, std::cerr);
-    if (*forecast_cmd) return forecast(forecast_options, std::cout, std::cerr);
-    if (*demo_cmd) return demo(demo_options, std::cout, std::cerr);
-  } catch (const std::exception& e) {
-    std::cerr << "occulta: " << e.what() << '\n';
+    if (*synth_cmd) {
+      check_out_dir(synth_options.out_dir);
+      return synth(synth_options, std::cout, std::cerr);
+    }
+    if (*maps_cmd) {
+      check_out_dir(maps_options.out_dir);
+      return maps(maps_options, std::cout, std::cerr);
+    }
+    if (*measure_cmd) {
+      check_out_dir(measure_options.out_dir);
+      return measure(measure_options, std::cout, std::cerr);
+    }
+    if (*forecast_cmd) {
+      if (!forecast_options.out_dir.empty()) check_out_dir(forecast_options.out_dir);
+      return forecast(forecast_options, std::cout, std::cerr);
+    }
+    if (*demo_cmd) {
+      check_out_dir(demo_options.out_dir);
+      return demo(demo_options, std::cout, std::cerr);
+    }
+  } catch (const imaging::InputError& e) {
+    if (e.source().starts_with("--")) {
+      err_usage(e.what());
+      return 2;
+    }
+    std::cerr << "occulta: error: " << e.what() << '\n';
+    return 1;
+  } catch (const std::filesystem::filesystem_error& e) {
+    // The library's text names its own function; say which path and why in our words.
+    std::cerr << "occulta: error: " << e.path1().string() << ": " << e.code().message() << ".\n";
+    return 1;
+  } catch (const std::bad_alloc&) {
+    std::cerr << "occulta: error: ran out of memory; try fewer or smaller frames.\n";
+    return 1;
+  } catch (const std::exception&) {
+    std::cerr << "occulta: error: stopped by an unexpected internal fault (a defect of occulta; please report "
+                 "the command that caused it).\n";
     return 1;
   }
   return 2;

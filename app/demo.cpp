@@ -26,16 +26,27 @@ namespace {
 fs::path find_event_file(const fs::path& dir) {
   std::vector<fs::path> found;
   std::error_code ec;
+  if (!fs::is_directory(dir, ec))
+    throw imaging::InputError(dir.string(), fs::exists(dir, ec) ? "is not a folder; `demo` needs the sample event's folder (--sample DIR)"
+                                                                : "does not exist; run `occulta demo` in the occulta source folder, "
+                                                                  "or give the sample event's folder with --sample DIR");
   for (const auto& entry : fs::directory_iterator(dir, ec))
     if (entry.path().filename().string().ends_with(".event.json")) found.push_back(entry.path());
-  if (found.empty()) throw imaging::InputError(dir.string(), "holds no *.event.json file");
+  if (found.empty())
+    throw imaging::InputError(dir.string(), "holds no *.event.json file, so it is not a sample event's folder (--sample DIR)");
   std::sort(found.begin(), found.end());
   return found.front();
 }
 
 }  // namespace
 
-int demo(const DemoOptions& options, std::ostream& out, std::ostream& err) {
+int demo(const DemoOptions& given, std::ostream& out, std::ostream& err) {
+  // The default sample folder is looked for here, then in the source tree occulta was
+  // built from, so that `occulta demo` works from any folder on the build machine.
+  DemoOptions options = given;
+  if (options.sample_dir == DemoOptions{}.sample_dir && !fs::is_directory(options.sample_dir) &&
+      fs::is_directory(OCCULTA_SAMPLE_DIR))
+    options.sample_dir = OCCULTA_SAMPLE_DIR;
   const Event event = read_event(find_event_file(options.sample_dir));
   out << "occulta demo — sample event \"" << event.id << "\" (" << event.path.string() << ")\n"
       << "Synthetic frames of an invented scenario (occulta synth), not observations.\n\n";
@@ -75,8 +86,8 @@ int demo(const DemoOptions& options, std::ostream& out, std::ostream& err) {
           << std::setprecision(3) << std::setw(6) << o["dist_au"].get<double>() << " au" << std::setprecision(4)
           << std::setw(10) << last["rs_per_px"].get<double>() << '\n';
     }
-    for (const auto& p : problems) err << "  problem: " << p << '\n';
-    for (const auto& n : notes) err << "  note: " << n << '\n';
+    for (const auto& p : problems) err << "occulta: problem: " << p << '\n';
+    for (const auto& n : notes) err << "occulta: note: " << n << '\n';
   }
   out << "\nEvery frame: `occulta inspect " << options.sample_dir << "`.\n\n";
 
@@ -98,10 +109,15 @@ int demo(const DemoOptions& options, std::ostream& out, std::ostream& err) {
       const double lo = (view.occulter_rs ? (*view.occulter_rs)[0] : 2.5) + finder.inner_margin_rs;
       const double hi = (view.occulter_rs ? (*view.occulter_rs)[1] : 14.5) - finder.outer_margin_rs;
       const fit::ViewTruth t = fit::view_truth(truth, view.name, lo, hi);
-      char line[200];
-      std::snprintf(line, sizeof line, "%-9s      %9.1f°  %.0f–%.0f°       %8.1f°  %7.0f sky-plane leading edge; apex PA %.1f°",
-                    view.name.c_str(), t.central_pa_deg, std::fmod(t.pa_from_deg + 360.0, 360.0),
-                    std::fmod(t.pa_to_deg + 360.0, 360.0), t.width_deg, t.sky_speed_km_s, t.apex_pa_deg);
+      // The columns of print_result_table (app/measure.cpp); printf pads bytes, and "°"
+      // takes two of them, "–" three, hence the widths.
+      char central[32], span[48], width[32], line[300];
+      std::snprintf(central, sizeof central, "%.1f°", t.central_pa_deg);
+      std::snprintf(span, sizeof span, "%.0f–%.0f°", std::fmod(t.pa_from_deg + 360.0, 360.0),
+                    std::fmod(t.pa_to_deg + 360.0, 360.0));
+      std::snprintf(width, sizeof width, "%.1f°", t.width_deg);
+      std::snprintf(line, sizeof line, "%-9s %-4s %-12s %-16s %-11s %-17.0f sky-plane leading edge; apex PA %.1f°",
+                    view.name.c_str(), "", central, span, width, t.sky_speed_km_s, t.apex_pa_deg);
       out << line << '\n';
     }
     // The true shell beside the fitted one: speed at the fit's reference time (the truth's
@@ -131,7 +147,7 @@ int demo(const DemoOptions& options, std::ostream& out, std::ostream& err) {
            "uncertainty and the wind and drag ranges):\n";
     print_arrival_table(result["arrival"], out);
   }
-  return all_ok && result["status"] == "ok" ? 0 : 1;
+  return all_ok && result["status"] == "ok" && result["problems"].empty() ? 0 : 1;
 }
 
 }  // namespace occulta::app

@@ -1,9 +1,14 @@
 #include "app/event.hpp"
 
 #include <algorithm>
+#include <cmath>
+#include <sstream>
 #include <glob.h>
 
+#include "fit/arrival_json.hpp"
 #include "fit/json_file.hpp"
+#include "fit/strict_json.hpp"
+#include "imaging/fits.hpp"
 #include "imaging/constants.hpp"
 #include "imaging/input_error.hpp"
 #include "imaging/time.hpp"
@@ -29,25 +34,42 @@ std::vector<fs::path> expand(const fs::path& base, const std::string& pattern) {
 
 double time_field(const json& object, const char* key, const std::string& where, const std::string& file) {
   if (!object.contains(key) || !object[key].is_string())
-    throw InputError(file, where + key + " must be an ISO 8601 time in quotes");
+    throw InputError(file, "`" + where + key + "` must be an ISO 8601 UTC time in quotes, e.g. \"2031-03-14T06:00:00\"");
   const std::string text = object[key].get<std::string>();
   try {
     return imaging::utc_seconds_from_iso(text);
   } catch (const std::invalid_argument& e) {
-    throw InputError(file, where + key + " is \"" + text + "\" — " + e.what());
+    throw InputError(file, "`" + where + key + "` is \"" + text + "\" — " + e.what());
   }
 }
 
-std::array<double, 2> pair_field(const json& value, const std::string& name, const std::string& file) {
-  if (!value.is_array() || value.size() != 2 || !value[0].is_number() || !value[1].is_number())
-    throw InputError(file, name + " must be a pair of numbers [a, b]");
-  return {value[0].get<double>(), value[1].get<double>()};
+std::string format(double x) {
+  std::ostringstream text;
+  text << x;
+  return text.str();
 }
 
-double number_field(const json& object, const char* key, const std::string& where, const std::string& file) {
-  if (!object.contains(key) || !object[key].is_number())
-    throw InputError(file, where + key + " must be a number");
-  return object[key].get<double>();
+double checked(const json& value, const std::string& name, double lo, double hi, const char* unit,
+               const std::string& file) {
+  if (!value.is_number()) throw InputError(file, "`" + name + "` must be a number (" + unit + ")");
+  const double x = value.get<double>();
+  if (!std::isfinite(x) || x < lo || x > hi)
+    throw InputError(file, "`" + name + "` is " + format(x) + ", outside the allowed " + format(lo) + " to " +
+                               format(hi) + " " + unit);
+  return x;
+}
+
+std::array<double, 2> pair_field(const json& value, const std::string& name, double lo, double hi, const char* unit,
+                                 const std::string& file) {
+  if (!value.is_array() || value.size() != 2)
+    throw InputError(file, "`" + name + "` must be a pair of numbers [a, b] (" + unit + ")");
+  return {checked(value[0], name + "[0]", lo, hi, unit, file), checked(value[1], name + "[1]", lo, hi, unit, file)};
+}
+
+double number_field(const json& object, const char* key, const std::string& where, double lo, double hi,
+                    const char* unit, const std::string& file) {
+  if (!object.contains(key)) throw InputError(file, "`" + where + key + "` is missing");
+  return checked(object[key], where + key, lo, hi, unit, file);
 }
 
 }  // namespace
@@ -55,32 +77,39 @@ double number_field(const json& object, const char* key, const std::string& wher
 Event read_event(const fs::path& path) {
   const std::string file = path.string();
   const json doc = fit::read_json_file(path);
-  if (!doc.is_object()) throw InputError(file, "must hold one JSON object");
+  if (!doc.is_object()) throw InputError(file, "must hold one JSON object, an event file's {id, views, …}");
+  fit::require_kind(doc, "event", file, "an event file is needed here");
+  fit::check_keys(doc, {"schema", "id", "views", "window", "base_time", "source", "forecast"}, "", file);
+  if (doc.contains("schema") && doc["schema"] != "occulta.event/1")
+    throw InputError(file, "`schema` is " + doc["schema"].dump() + " — an event file's is \"occulta.event/1\"");
 
   Event event;
   event.path = path;
-  if (!doc.contains("id") || !doc["id"].is_string() || doc["id"].get<std::string>().empty())
-    throw InputError(file, "id must be a non-empty string");
+  if (!doc.contains("id") || !doc["id"].is_string()) throw InputError(file, "`id` must be a string naming the event");
   event.id = doc["id"].get<std::string>();
+  fit::check_safe_name(event.id, "id", file);
   if (!doc.contains("views") || !doc["views"].is_array() || doc["views"].empty())
-    throw InputError(file, "views must be a non-empty list");
+    throw InputError(file, "`views` must be a non-empty list of {name, files}");
 
   const fs::path base = path.parent_path().empty() ? fs::path(".") : path.parent_path();
   for (size_t i = 0; i < doc["views"].size(); ++i) {
     const json& v = doc["views"][i];
     const std::string where = "views[" + std::to_string(i) + "].";
-    if (!v.is_object()) throw InputError(file, where.substr(0, where.size() - 1) + " must be an object");
+    if (!v.is_object()) throw InputError(file, "`" + where.substr(0, where.size() - 1) + "` must be an object {name, files}");
+    fit::check_keys(v, {"name", "files", "observer", "occulter_rs"}, where.substr(0, where.size() - 1), file);
     EventView view;
-    if (!v.contains("name") || !v["name"].is_string() || v["name"].get<std::string>().empty())
-      throw InputError(file, where + "name must be a non-empty string");
+    if (!v.contains("name") || !v["name"].is_string()) throw InputError(file, "`" + where + "name` must be a string");
     view.name = v["name"].get<std::string>();
+    fit::check_safe_name(view.name, where + "name", file);
     for (const auto& other : event.views)
-      if (other.name == view.name) throw InputError(file, where + "name \"" + view.name + "\" is used twice");
-    if (!v.contains("files")) throw InputError(file, where + "files is missing");
+      if (other.name == view.name) throw InputError(file, "`" + where + "name` \"" + view.name + "\" is used twice");
+    if (!v.contains("files")) throw InputError(file, "`" + where + "files` is missing");
     const json files = v["files"].is_string() ? json::array({v["files"]}) : v["files"];
-    if (!files.is_array() || files.empty()) throw InputError(file, where + "files must be a glob or a list of globs");
+    if (!files.is_array() || files.empty())
+      throw InputError(file, "`" + where + "files` must be a glob or a list of globs");
     for (const json& g : files) {
-      if (!g.is_string()) throw InputError(file, where + "files must hold strings");
+      if (!g.is_string() || g.get<std::string>().empty())
+        throw InputError(file, "`" + where + "files` must hold non-empty strings (globs)");
       view.globs.push_back(g.get<std::string>());
       for (auto& f : expand(base, view.globs.back())) view.files.push_back(std::move(f));
     }
@@ -89,35 +118,64 @@ Event read_event(const fs::path& path) {
     if (v.contains("observer")) {
       const json& o = v["observer"];
       const std::string ow = where + "observer.";
-      if (!o.is_object()) throw InputError(file, ow + " must be an object");
-      const double dist_au = number_field(o, "dist_au", ow, file);
-      if (!(dist_au > 0.0)) throw InputError(file, ow + "dist_au must be positive");
-      view.observer = imaging::observer_from_degrees(number_field(o, "lon_deg", ow, file),
-                                                     number_field(o, "lat_deg", ow, file), dist_au * kAuKm);
+      if (!o.is_object()) throw InputError(file, "`" + where + "observer` must be an object {lon_deg, lat_deg, dist_au}");
+      fit::check_keys(o, {"lon_deg", "lat_deg", "dist_au"}, where + "observer", file);
+      const double dist_au = number_field(o, "dist_au", ow, 0.05, 100.0, "au", file);
+      view.observer = imaging::observer_from_degrees(number_field(o, "lon_deg", ow, -180.0, 360.0, "deg", file),
+                                                     number_field(o, "lat_deg", ow, -90.0, 90.0, "deg", file),
+                                                     dist_au * kAuKm);
     }
     if (v.contains("occulter_rs")) {
-      view.occulter_rs = pair_field(v["occulter_rs"], where + "occulter_rs", file);
-      if (!((*view.occulter_rs)[0] >= 1.0 && (*view.occulter_rs)[1] > (*view.occulter_rs)[0]))
-        throw InputError(file, where + "occulter_rs must be [inner, outer] with 1 ≤ inner < outer (R☉)");
+      view.occulter_rs = pair_field(v["occulter_rs"], where + "occulter_rs", 1.0, 300.0, "R☉", file);
+      if (!((*view.occulter_rs)[1] > (*view.occulter_rs)[0]))
+        throw InputError(file, "`" + where + "occulter_rs` must be [inner, outer] with inner < outer (R☉)");
     }
     event.views.push_back(std::move(view));
   }
 
   if (doc.contains("window")) {
     const json& w = doc["window"];
-    if (!w.is_object()) throw InputError(file, "window must be an object {start, end}");
+    if (!w.is_object()) throw InputError(file, "`window` must be an object {start, end}");
+    fit::check_keys(w, {"start", "end"}, "window", file);
     event.window_s = std::array<double, 2>{time_field(w, "start", "window.", file), time_field(w, "end", "window.", file)};
-    if ((*event.window_s)[1] < (*event.window_s)[0]) throw InputError(file, "window.end comes before window.start");
+    if ((*event.window_s)[1] < (*event.window_s)[0]) throw InputError(file, "`window.end` comes before `window.start`");
   }
   if (doc.contains("base_time")) event.base_time_s = time_field(doc, "base_time", "", file);
   if (doc.contains("source")) {
     const json& s = doc["source"];
-    if (!s.is_object()) throw InputError(file, "source must be an object {lon_deg, lat_deg}");
-    event.source_deg = std::array<double, 2>{number_field(s, "lon_deg", "source.", file),
-                                             number_field(s, "lat_deg", "source.", file)};
+    if (!s.is_object()) throw InputError(file, "`source` must be an object {lon_deg, lat_deg}");
+    fit::check_keys(s, {"lon_deg", "lat_deg"}, "source", file);
+    event.source_deg = std::array<double, 2>{number_field(s, "lon_deg", "source.", -180.0, 360.0, "deg", file),
+                                             number_field(s, "lat_deg", "source.", -90.0, 90.0, "deg", file)};
   }
-  if (doc.contains("forecast")) event.forecast = doc["forecast"];
+  if (doc.contains("forecast")) {
+    event.forecast = doc["forecast"];
+    // Checked now, not when the fit reaches it: targets are placed at some time; any will do.
+    fit::read_forecast_block(event.forecast, event.window_s ? (*event.window_s)[0] : 0.0, file);
+  }
   return event;
+}
+
+WindowSplit apply_window(const Event& event, const EventView& view) {
+  WindowSplit split;
+  for (const fs::path& f : view.files) {
+    std::optional<double> utc_s;
+    try {
+      utc_s = imaging::read_frame_time(imaging::read_fits_header(f), f.string()).utc_s;
+    } catch (const InputError&) {
+      // Unreadable here: the chain reads it again and reports the fault.
+    }
+    if (utc_s && event.window_s && (*utc_s < (*event.window_s)[0] || *utc_s > (*event.window_s)[1])) {
+      split.outside.push_back(f);
+      continue;
+    }
+    split.inside.push_back(f);
+    if (utc_s) {
+      split.first_utc_s = std::min(split.first_utc_s.value_or(*utc_s), *utc_s);
+      split.last_utc_s = std::max(split.last_utc_s.value_or(*utc_s), *utc_s);
+    }
+  }
+  return split;
 }
 
 imaging::ChainOptions chain_options(const Event& event, const EventView& view, int median_filter) {

@@ -4,7 +4,7 @@
 //   id          text
 //   views[]     name, files (globs, relative to the event file), optional observer
 //               {lon_deg, lat_deg, dist_au} and occulter_rs [inner, outer]
-//   window      optional {start, end}: only frames in this UTC interval are used
+//   window      optional {start, end}: only frames in this UTC interval are used (apply_window)
 //   base_time   optional: the pre-event frame for base differences
 //   source      optional {lon_deg, lat_deg}: a known source region
 //   forecast    optional {targets, wind_km_s [lo, hi], drag_per_km [lo, hi]}
@@ -42,10 +42,23 @@ struct Event {
   nlohmann::json forecast;                          // passed on as written (null when absent)
 };
 
-// Reads and checks an event file; InputError(path, …) names the field at fault. A view
+// Reads and checks an event file strictly; InputError(path, …) names the key at fault:
+// unknown keys (with the nearest known one), wrong types, values outside the allowed
+// ranges (observer lon −180–360°, lat ±90°, dist 0.05–100 au; occulter 1–300 R☉; source
+// lon −180–360°, lat ±90°; forecast block as fit::read_forecast_block), id and view names
+// outside the safe set of fit/strict_json.hpp, another kind of occulta file. A view
 // whose globs match nothing is kept with no files (the caller reports it, the other
 // views go on).
 Event read_event(const std::filesystem::path& path);
+
+// A view's files split by the event's window (all inside when there is none), from each
+// frame's header time (imaging::read_frame_time). A file whose time cannot be read stays
+// inside: the imaging chain reports it. first/last: the span of the inside frames' times.
+struct WindowSplit {
+  std::vector<std::filesystem::path> inside, outside;
+  std::optional<double> first_utc_s, last_utc_s;
+};
+WindowSplit apply_window(const Event& event, const EventView& view);
 
 // What the event file says about a view, as options of the imaging chain: its observer,
 // its occulter radii, the event's base time; median filter size as given.

@@ -1,14 +1,18 @@
 #include "app/forecast.hpp"
 
 #include <charconv>
+#include <chrono>
 #include <cmath>
 #include <cstdio>
 #include <filesystem>
 #include <ostream>
 #include <set>
+#include <sstream>
 #include <stdexcept>
 
 #include "app/arrival_picture.hpp"
+#include "app/event.hpp"
+#include "app/provenance.hpp"
 #include "fit/arrival_json.hpp"
 #include "fit/json_file.hpp"
 #include "imaging/input_error.hpp"
@@ -20,8 +24,9 @@ using nlohmann::json;
 
 namespace {
 
-// "LO,HI" with 0 < LO ≤ HI, for --wind and --drag.
-std::array<double, 2> parse_range(const std::string& text, const char* option, const char* unit) {
+// "LO,HI" with LO ≤ HI inside the allowed range, for --wind and --drag.
+std::array<double, 2> parse_range(const std::string& text, const char* option, const char* unit,
+                                  const std::array<double, 2>& allowed) {
   const size_t comma = text.find(',');
   std::array<double, 2> r{0.0, 0.0};
   bool ok = comma != std::string::npos;
@@ -33,8 +38,11 @@ std::array<double, 2> parse_range(const std::string& text, const char* option, c
   }
   if (!ok) throw imaging::InputError(option, "\"" + text + "\" is not LO,HI — two numbers in " + unit + ", e.g. " +
                                                  (std::string(option) == "--wind" ? "300,600" : "1e-8,2e-7"));
-  if (!(r[0] > 0.0 && r[0] <= r[1]))
-    throw imaging::InputError(option, "\"" + text + "\" needs 0 < LO ≤ HI");
+  if (!(r[0] >= allowed[0] && r[0] <= r[1] && r[1] <= allowed[1])) {
+    std::ostringstream range;
+    range << allowed[0] << " ≤ LO ≤ HI ≤ " << allowed[1] << " " << unit;
+    throw imaging::InputError(option, "\"" + text + "\" is outside the allowed range: it needs " + range.str());
+  }
   return r;
 }
 
@@ -43,15 +51,17 @@ std::string minutes(const json& iso) { return iso.is_string() ? iso.get<std::str
 }  // namespace
 
 json run_forecast(const ForecastOptions& o, std::ostream& err) {
+  const auto started = std::chrono::steady_clock::now();
+  if (fs::is_directory(o.result))
+    throw imaging::InputError(o.result, "is a folder; `forecast` needs the result.json that `occulta measure` wrote");
   const json result = fit::read_json_file(o.result);
   const fit::ArrivalInput input = fit::read_arrival_input(result, o.result);
   const double utc_s = input.launch.boundary_utc_s;
 
   fit::ForecastSettings settings;
   if (!o.event.empty()) {
-    const json event = fit::read_json_file(o.event);
-    settings = fit::read_forecast_block(event.is_object() && event.contains("forecast") ? event["forecast"] : json(),
-                                        utc_s, o.event);
+    const Event event = read_event(o.event);  // strict: the whole file is checked, not only its block
+    settings = fit::read_forecast_block(event.forecast, utc_s, o.event);
   } else {
     settings = fit::read_forecast_block(json(), utc_s, o.result);
   }
@@ -69,10 +79,10 @@ json run_forecast(const ForecastOptions& o, std::ostream& err) {
   for (const fit::Target& t : settings.targets)
     if (!names.insert(t.name).second)
       throw imaging::InputError("--target", "two targets are named " + t.name + "; give each its own name");
-  if (!o.wind.empty()) settings.priors.wind_km_s = parse_range(o.wind, "--wind", "km/s");
-  if (!o.drag.empty()) settings.priors.drag_per_km = parse_range(o.drag, "--drag", "per km");
+  if (!o.wind.empty()) settings.priors.wind_km_s = parse_range(o.wind, "--wind", "km/s", fit::kWindRangeKmS);
+  if (!o.drag.empty()) settings.priors.drag_per_km = parse_range(o.drag, "--drag", "per km", fit::kDragRangePerKm);
   if (input.spread_from == "none")
-    err << "note: " << o.result
+    err << "occulta: note: " << o.result
         << " gives no uncertainty for the shell (no shell.covariance or shell.sigma): the spread is that of the wind "
            "and drag ranges alone.\n";
 
@@ -87,13 +97,21 @@ json run_forecast(const ForecastOptions& o, std::ostream& err) {
               {"event_id", input.event_id},
               {"result", o.result},
               {"model", "drag-based model (Vrsnak et al. 2013) from 21.5 solar radii, self-similar shell"},
-              {"boundary_time", imaging::iso_from_utc_seconds(utc_s, 0)},
+              {"boundary_time", imaging::iso_from_utc_seconds(utc_s, 3)},
               {"spread_from", input.spread_from},
               {"members", o.members},
               {"seed", o.seed},
               {"caution", std::string(fit::kArrivalCaution)},
               {"arrival", fit::arrival_block(arrivals, ensemble)}};
 
+  std::vector<fs::path> inputs = {o.result};
+  if (!o.event.empty()) inputs.emplace_back(o.event);
+  const json options = {{"targets", o.targets},          {"members", o.members},
+                        {"seed", o.seed},                {"wind", o.wind.empty() ? json(nullptr) : json(o.wind)},
+                        {"drag", o.drag.empty() ? json(nullptr) : json(o.drag)},
+                        {"event", o.event.empty() ? json(nullptr) : json(o.event)}};
+  doc["provenance"] = provenance(inputs, options,
+                                 std::chrono::duration<double>(std::chrono::steady_clock::now() - started).count());
   if (!o.out_dir.empty()) {
     fs::create_directories(o.out_dir);
     for (const fit::TargetArrival& a : arrivals)

@@ -30,10 +30,12 @@ struct ForecastOptions {
 };
 
 // The arrival document (what DIR/arrival.json holds): schema "occulta.arrival/1",
-// event_id, result, boundary_time, spread_from, members, seed, caution, arrival[].
+// event_id, result, boundary_time, spread_from, members, seed, caution, arrival[],
+// provenance (app/provenance.hpp: the result and event files' SHA-256, the options).
 nlohmann::json run_forecast(const ForecastOptions& options, std::ostream& err);
 
-// The verb: run_forecast, the table, the files. Exit 0.
+// The verb: run_forecast, the table, the files. Exit 0 (faults are InputErrors: an
+// option's → usage, a file's → input problem; app/cli.hpp).
 int forecast(const ForecastOptions& options, std::ostream& out, std::ostream& err);
 
 // The table of an `arrival[]` block (result.json's or arrival.json's), then the caution.

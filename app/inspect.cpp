@@ -96,6 +96,8 @@ nlohmann::json inspect_file(const fs::path& path, std::vector<std::string>& note
     r["bitpix"] = image.bitpix;
     const double total = double(image.pixels.total());
     r["finite_fraction"] = total > 0 ? (total - double(image.nonfinite_count)) / total : 0.0;
+    if (image.nonfinite_count >= image.pixels.total())
+      throw imaging::InputError(path.string(), "holds no finite pixel (every pixel is blank, NaN or infinite)");
 
     const imaging::FrameTime time = imaging::read_frame_time(image.header, image.source);
     r["time"] = imaging::iso_from_utc_seconds(time.utc_s, 3);
@@ -131,9 +133,9 @@ int inspect(const InspectOptions& options, std::ostream& out, std::ostream& err)
     reports.push_back(std::move(r));
   }
   if (options.json) out << reports.dump(2) << '\n';
-  for (const auto& note : notes) err << "note: " << note << '\n';
+  for (const auto& note : notes) err << "occulta: note: " << note << '\n';
   if (files.empty()) {
-    err << "inspect: no FITS files found in the given paths.\n";
+    err << "occulta: problem: no FITS files found in the given paths.\n";
     return 1;
   }
   return all_ok ? 0 : 1;

@@ -85,7 +85,7 @@ std::string map_view(const Event& event, const EventView& view, const MapsOption
   const cv::Mat last_difference = imaging::sigma_difference(run.last_registered, run.last_previous_registered);
   const cv::Mat& last_registered = run.last_registered;
   polar.polar = run.polar;
-  for (const auto& p : run.problems) problems.push_back(view.name + ": " + p);
+  for (const auto& p : run.problems) problems.push_back("view " + view.name + ": " + p);
 
   fs::create_directories(dir);
   std::vector<std::string> iso;
@@ -113,7 +113,7 @@ std::string map_view(const Event& event, const EventView& view, const MapsOption
     const imaging::TimeMap th = imaging::time_height(polar, pa, 2.0);
     const cv::Mat picture = imaging::render_on_time_axis(th, t0, t1, columns);
     char caption[160];
-    std::snprintf(caption, sizeof caption, "%s PA %.0f: height %.1f-%.1f Rs up, time across, +-4 sigma",
+    std::snprintf(caption, sizeof caption, "%s PA %.0f: height %.1f-%.1f R_sun up, time across, +-4 sigma",
                   view.name.c_str(), pa, th.axis_start, th.axis_start + th.axis_step * (th.values.rows - 1));
     write_png(dir / ("time_height_pa" + pa_label(pa) + ".png"), with_caption(grey_picture(picture, 4.0), caption));
   }
@@ -126,7 +126,7 @@ std::string map_view(const Event& event, const EventView& view, const MapsOption
   }
 
   char line[200];
-  std::snprintf(line, sizeof line, "%-8s %3d frames  %3zu differences  heights %.2f-%.2f Rs  strongest change at PA %.0f",
+  std::snprintf(line, sizeof line, "%-8s %3d frames  %3zu differences  heights %.2f-%.2f R☉  strongest change at PA %.0f",
                 view.name.c_str(), run.frames_used, polar.frames.size(), polar.polar.height_rs(0),
                 polar.polar.height_rs(polar.polar.height_count - 1), strongest_change_pa(polar));
   return line;
@@ -135,23 +135,35 @@ std::string map_view(const Event& event, const EventView& view, const MapsOption
 }  // namespace
 
 int maps(const MapsOptions& o, std::ostream& out, std::ostream& err) {
+  if (fs::is_directory(o.event))
+    throw imaging::InputError(o.event, "is a folder; `maps` needs an event file (*.event.json) naming the views' frames");
   const Event event = read_event(o.event);
   std::vector<std::string> problems;
   int mapped = 0;
-  for (const EventView& view : event.views) {
-    if (view.files.empty()) {
-      problems.push_back(view.name + ": no files match " + view.globs.front() + ".");
+  for (const EventView& listed : event.views) {
+    if (listed.files.empty()) {
+      problems.push_back("view " + listed.name + ": no files match " + listed.globs.front() + ".");
       continue;
     }
+    const WindowSplit split = apply_window(event, listed);
+    if (split.inside.empty()) {
+      problems.push_back("view " + listed.name + ": none of its " + std::to_string(split.outside.size()) +
+                         " frames lies in the event's window.");
+      continue;
+    }
+    EventView view = listed;
+    view.files = split.inside;
+    if (!split.outside.empty())
+      out << view.name << ": " << split.outside.size() << " frames outside the event's window are not used\n";
     try {
       out << map_view(event, view, o, fs::path(o.out_dir) / view.name, problems) << '\n';
       ++mapped;
     } catch (const imaging::InputError& e) {
-      problems.push_back(view.name + ": " + e.what());
+      problems.push_back("view " + view.name + ": " + e.what());
     }
   }
   out << "maps written under " << o.out_dir << "/<view>/\n";
-  for (const auto& p : problems) err << "problem: " << p << '\n';
+  for (const auto& p : problems) err << "occulta: problem: " << p << '\n';
   return problems.empty() && mapped > 0 ? 0 : 1;
 }
 

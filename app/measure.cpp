@@ -19,6 +19,7 @@
 #include "app/track.hpp"
 #include "fit/arrival_json.hpp"
 #include "fit/json_file.hpp"
+#include "fit/strict_json.hpp"
 #include "fit/kinematics.hpp"
 #include "imaging/chain.hpp"
 #include "imaging/constants.hpp"
@@ -38,6 +39,9 @@ Event event_from_folder(const fs::path& dir) {
   Event event;
   event.path = dir;
   event.id = fs::absolute(dir).lexically_normal().filename().string();
+  // The id names files (track.json's event_id): the safe set of fit/strict_json.hpp.
+  for (char& c : event.id)
+    if (!std::isalnum(static_cast<unsigned char>(c)) && c != '-' && c != '_') c = '_';
   if (event.id.empty()) event.id = "event";
   std::map<std::string, EventView> views;
   for (const fs::path& file : collect_fits_paths({dir.string()})) {
@@ -69,7 +73,7 @@ Event event_from_folder(const fs::path& dir) {
 
 json number_or_null(double value) { return std::isfinite(value) ? json(value) : json(nullptr); }
 json time_or_null(const fit::HeightCrossing& c) {
-  return c.found && std::isfinite(c.time_s) ? json(imaging::iso_from_utc_seconds(c.time_s, 0)) : json(nullptr);
+  return c.found && std::isfinite(c.time_s) ? json(imaging::iso_from_utc_seconds(c.time_s, 3)) : json(nullptr);
 }
 
 struct ViewOutcome {
@@ -141,16 +145,16 @@ ViewOutcome measure_view(const Event& event, const EventView& view, const Track*
     polar.frames.push_back(f.polar_running.clone());
   });
   polar.polar = run.polar;
-  for (const auto& p : run.problems) problems.push_back(view.name + ": " + p);
+  for (const auto& p : run.problems) problems.push_back("view " + view.name + ": " + p);
 
   const imaging::Front front = imaging::find_front(polar);
   ViewOutcome outcome;
   json& v = outcome.entry;
   v = {{"name", view.name}, {"frames_used", run.frames_used}, {"found", front.found},
        {"central_pa_deg", nullptr}, {"pa_span_deg", nullptr}, {"sky_width_deg", nullptr},
-       {"sky_speed_km_s", nullptr}, {"sky_speed_sigma_km_s", nullptr}, {"sky_accel_m_s2", nullptr},
-       {"sky_accel_sigma_m_s2", nullptr}, {"kinematic_model", nullptr}, {"onset_time", nullptr},
-       {"onset_sigma_s", nullptr}, {"first_seen_time", nullptr}, {"time_at_21_5_rs", nullptr}, {"track_points", 0}, {"residual_rms_rs", nullptr}};
+       {"sky_speed_km_s", nullptr}, {"sky_speed_km_s_sigma", nullptr}, {"sky_accel_m_s2", nullptr},
+       {"sky_accel_m_s2_sigma", nullptr}, {"kinematic_model", nullptr}, {"onset_time", nullptr},
+       {"onset_time_sigma_s", nullptr}, {"first_seen_time", nullptr}, {"time_at_21_5_rs", nullptr}, {"track_points", 0}, {"residual_rms_rs", nullptr}};
 
   // The points: the analyst's for this view when given, else the automatic track.
   std::vector<TrackPoint>& points = outcome.used;
@@ -169,9 +173,9 @@ ViewOutcome measure_view(const Event& event, const EventView& view, const Track*
     v["central_pa_deg"] = front.central_pa_deg;
     v["pa_span_deg"] = {front.pa_from_deg, front.pa_to_deg};
     v["sky_width_deg"] = front.width_deg;
-    v["first_seen_time"] = imaging::iso_from_utc_seconds(front.onset_utc_s, 0);
+    v["first_seen_time"] = imaging::iso_from_utc_seconds(front.onset_utc_s, 3);
   } else {
-    problems.push_back("no CME found in view " + view.name + ": " + front.why_not);
+    problems.push_back("view " + view.name + ": " + front.why_not);
   }
   if (by_analyst && !front.found) {
     double sum_sin = 0.0, sum_cos = 0.0;  // mean direction of the analyst's PAs
@@ -190,19 +194,19 @@ ViewOutcome measure_view(const Event& event, const EventView& view, const Track*
     if (chosen.status == fit::FitStatus::ok) {
       v["kinematic_model"] = fit::to_string(chosen.model);
       v["sky_speed_km_s"] = chosen.law.speed_km_s;
-      v["sky_speed_sigma_km_s"] = number_or_null(chosen.speed_sigma_km_s);
+      v["sky_speed_km_s_sigma"] = number_or_null(chosen.speed_sigma_km_s);
       v["sky_accel_m_s2"] = chosen.law.accel_m_s2;
-      v["sky_accel_sigma_m_s2"] = chosen.model == fit::HeightTimeModel::quadratic ? number_or_null(chosen.accel_sigma_m_s2)
+      v["sky_accel_m_s2_sigma"] = chosen.model == fit::HeightTimeModel::quadratic ? number_or_null(chosen.accel_sigma_m_s2)
                                                                                  : json(nullptr);
       v["onset_time"] = time_or_null(chosen.onset);
-      v["onset_sigma_s"] = chosen.onset.found ? number_or_null(chosen.onset.sigma_s) : json(nullptr);
+      v["onset_time_sigma_s"] = chosen.onset.found ? number_or_null(chosen.onset.sigma_s) : json(nullptr);
       v["time_at_21_5_rs"] = time_or_null(chosen.boundary);
       v["residual_rms_rs"] = chosen.residual_rms_rs;
     } else {
-      problems.push_back(view.name + ": the height–time fit failed: " + chosen.problem);
+      problems.push_back("view " + view.name + ": the height–time fit failed: " + chosen.problem);
     }
   } else if (front.found || by_analyst) {
-    problems.push_back(view.name + ": too few leading-edge points for a height–time fit.");
+    problems.push_back("view " + view.name + ": too few leading-edge points for a height–time fit.");
   }
 
   // Quicklooks.
@@ -251,13 +255,18 @@ std::string csv_field(const json& value) {
 // One row: the event's keys, then each view's keys prefixed by its name.
 void write_csv_row(const fs::path& path, const json& result) {
   std::vector<std::string> names = {"event_id", "status", "problems"};
-  std::vector<std::string> values = {csv_field(result["event_id"]), csv_field(result["status"]),
-                                     csv_field(json(std::to_string(result["problems"].size())))};
+  // The problems as the sentences themselves, one after another in one quoted field.
+  std::string problems;
+  for (const auto& p : result["problems"]) problems += (problems.empty() ? "" : " ") + p.get<std::string>();
+  std::vector<std::string> values = {csv_field(result["event_id"]), csv_field(result["status"]), csv_field(json(problems))};
   for (const auto& v : result["views"])
     for (const char* key : {"frames_used", "found", "central_pa_deg", "pa_span_deg", "sky_width_deg", "sky_speed_km_s",
-                            "sky_speed_sigma_km_s", "sky_accel_m_s2", "onset_time", "time_at_21_5_rs"}) {
+                            "sky_speed_km_s_sigma", "sky_accel_m_s2", "sky_accel_m_s2_sigma", "onset_time",
+                            "onset_time_sigma_s", "time_at_21_5_rs", "frames_outside_window"}) {
       names.push_back(v["name"].get<std::string>() + "_" + key);
-      values.push_back(csv_field(v[key]));
+      // The frames outside the window are named in result.json; the row counts them.
+      values.push_back(std::string(key) == "frames_outside_window" ? std::to_string(v.value(key, json::array()).size())
+                                                                    : csv_field(v[key]));
     }
   // The shell and the boundary values, flat, with their σ.
   const json& shell = result["shell"];
@@ -265,7 +274,7 @@ void write_csv_row(const fs::path& path, const json& result) {
                           "face_on_width_deg", "edge_on_width_deg"}) {
     names.push_back(std::string("shell_") + key);
     values.push_back(shell.is_object() ? csv_field(shell[key]) : "");
-    names.push_back(std::string("shell_") + key + "_sigma");
+    names.push_back(std::string("shell_") + key + "_sigma");  // σ of K is K_sigma (README "Outputs")
     values.push_back(shell.is_object() ? csv_field(shell["sigma"][key]) : "");
   }
   names.push_back("shell_residual_rms_rs");
@@ -274,6 +283,10 @@ void write_csv_row(const fs::path& path, const json& result) {
   for (const char* key : {"time", "speed_km_s", "half_width_deg"}) {
     names.push_back(std::string("boundary_") + key);
     values.push_back(boundary.is_object() ? csv_field(boundary[key]) : "");
+    // boundary.sigma holds time_s for the time (a σ in seconds), the keys' own names else.
+    const std::string sigma_key = std::string(key) == "time" ? "time_s" : key;
+    names.push_back(std::string("boundary_") + key + (std::string(key) == "time" ? "_sigma_s" : "_sigma"));
+    values.push_back(boundary.is_object() && boundary.contains("sigma") ? csv_field(boundary["sigma"].value(sigma_key, json())) : "");
   }
   std::ostringstream out;
   for (size_t i = 0; i < names.size(); ++i) out << (i ? "," : "") << names[i];
@@ -288,9 +301,20 @@ void write_csv_row(const fs::path& path, const json& result) {
 json run_measure(const MeasureOptions& o, std::ostream& err) {
   const auto started = std::chrono::steady_clock::now();
   const fs::path input(o.input);
+  if (!fs::is_directory(input))
+    fit::require_kind(fit::read_json_file(input), "event", o.input, "`measure` needs an event file or a folder of frames");
   const Event event = fs::is_directory(input) ? event_from_folder(input) : read_event(input);
   std::optional<Track> analyst;
   if (!o.track.empty()) analyst = read_track(o.track);
+
+  // The event's window, from each frame's header time; the frames' spans check the track.
+  std::vector<WindowSplit> splits;
+  std::vector<ViewSpan> spans;
+  for (const EventView& view : event.views) {
+    splits.push_back(apply_window(event, view));
+    spans.push_back({view.name, splits.back().first_utc_s, splits.back().last_utc_s});
+  }
+  if (analyst) check_track_matches(*analyst, o.track, event.id, spans);
   fs::create_directories(o.out_dir);
 
   json views = json::array();
@@ -301,20 +325,33 @@ json run_measure(const MeasureOptions& o, std::ostream& err) {
   Track used{event.id, {}};
   std::vector<ViewForShell> for_shell;
   int measured = 0;
-  for (const EventView& view : event.views) {
-    inputs.insert(inputs.end(), view.files.begin(), view.files.end());
-    if (view.files.empty()) {
-      problems.push_back("view " + view.name + " could not be read: no files match " + view.globs.front() + ".");
+  for (size_t i = 0; i < event.views.size(); ++i) {
+    const EventView& listed = event.views[i];
+    const WindowSplit& split = splits[i];
+    inputs.insert(inputs.end(), split.inside.begin(), split.inside.end());
+    if (listed.files.empty()) {
+      problems.push_back("view " + listed.name + ": no files match " + listed.globs.front() + ".");
       continue;
     }
+    if (split.inside.empty()) {
+      problems.push_back("view " + listed.name + ": none of its " + std::to_string(split.outside.size()) +
+                         " frames lies in the event's window " + imaging::iso_from_utc_seconds((*event.window_s)[0], 3) +
+                         " to " + imaging::iso_from_utc_seconds((*event.window_s)[1], 3) + ".");
+      continue;
+    }
+    EventView view = listed;
+    view.files = split.inside;
     try {
       ViewOutcome outcome = measure_view(event, view, analyst ? &*analyst : nullptr, o, problems);
+      json outside = json::array();
+      for (const fs::path& f : split.outside) outside.push_back(f.generic_string());
+      outcome.entry["frames_outside_window"] = outside;
       views.push_back(std::move(outcome.entry));
       used.points.insert(used.points.end(), outcome.used.begin(), outcome.used.end());
       for_shell.push_back(std::move(outcome.for_shell));
       ++measured;
     } catch (const imaging::InputError& e) {
-      problems.push_back("view " + view.name + " could not be read: " + e.what());
+      problems.push_back("view " + view.name + ": " + e.what());
     }
   }
   // One shell over every view that saw the CME: true direction, width and speed.
@@ -322,6 +359,11 @@ json run_measure(const MeasureOptions& o, std::ostream& err) {
   problems.insert(problems.end(), shell.problems.begin(), shell.problems.end());
   for_shell.clear();  // the polar sequences are no longer needed
 
+  // A sentence said once: the same fault met twice (the same frame in two views' globs…)
+  // is one problem.
+  for (size_t i = 0; i < problems.size(); ++i)
+    for (size_t j = problems.size(); j-- > i + 1;)
+      if (problems[j] == problems[i]) problems.erase(problems.begin() + static_cast<std::ptrdiff_t>(j));
   const std::string status = measured == 0 ? "failed" : measured < int(event.views.size()) ? "partial" : "ok";
   json result = {{"schema", "occulta.result/1"},
                  {"event_id", event.id},
@@ -355,47 +397,70 @@ json run_measure(const MeasureOptions& o, std::ostream& err) {
   fit::write_json_file(fs::path(o.out_dir) / "result.json", result);
   write_csv_row(fs::path(o.out_dir) / "result.csv", result);
   write_track(fs::path(o.out_dir) / "track.json", used);
-  for (const auto& p : result["problems"]) err << "problem: " << p.get<std::string>() << '\n';
+  for (const auto& p : result["problems"]) err << "occulta: problem: " << p.get<std::string>() << '\n';
   return result;
 }
 
+namespace {
+
+// What a table shows where nothing was measured (README "Outputs"): a word, never "nan".
+constexpr const char* kNotMeasured = "—";
+
+// A number with `digits` decimals and a unit, or kNotMeasured.
+std::string shown(const json& value, int digits, const char* unit = "") {
+  if (!value.is_number() || !std::isfinite(value.get<double>())) return kNotMeasured;
+  char text[64];
+  std::snprintf(text, sizeof text, "%.*f%s", digits, value.get<double>(), unit);
+  return text;
+}
+
+// "value ± σ" when both are numbers, the value alone when σ is not, else kNotMeasured.
+std::string shown_pm(const json& value, const json& sigma, int digits, const char* unit = "") {
+  if (!value.is_number()) return kNotMeasured;
+  if (!sigma.is_number()) return shown(value, digits, unit);
+  return shown(value, digits) + " ± " + shown(sigma, digits, unit);
+}
+
+// Left-aligned in `width` columns of the terminal (UTF-8: count code points, not bytes).
+std::string padded(const std::string& text, size_t width) {
+  size_t columns = 0;
+  for (unsigned char c : text) columns += (c & 0xC0) != 0x80;
+  return text + std::string(width > columns ? width - columns : 1, ' ');
+}
+
+}  // namespace
+
 void print_result_table(const json& result, std::ostream& out) {
-  out << "view      CME  central PA  PA span        sky width  sky speed (km/s)   accel (m/s²)  onset (UTC)\n";
+  out << padded("view", 10) << padded("CME", 5) << padded("central PA", 12) << padded("PA span", 14)
+      << padded("sky width", 11) << padded("sky speed (km/s)", 18) << padded("accel (m/s²)", 15) << "onset (UTC)\n";
   for (const auto& v : result["views"]) {
-    char line[256];
-    const auto num = [&](const char* key) { return v[key].is_number() ? v[key].get<double>() : NAN; };
-    std::string span = "-";
-    if (v["pa_span_deg"].is_array()) {
-      char text[32];
-      std::snprintf(text, sizeof text, "%.0f–%.0f°", v["pa_span_deg"][0].get<double>(), v["pa_span_deg"][1].get<double>());
-      span = text;
-    }
-    std::snprintf(line, sizeof line, "%-9s %-4s %9.1f°  %-14s %8.1f°  %7.0f ± %-7.0f  %8.1f      %s", v["name"].get<std::string>().c_str(),
-                  v["found"].get<bool>() ? "yes" : "no", num("central_pa_deg"), span.c_str(), num("sky_width_deg"),
-                  num("sky_speed_km_s"), num("sky_speed_sigma_km_s"), num("sky_accel_m_s2"),
-                  v["onset_time"].is_string() ? v["onset_time"].get<std::string>().c_str() : "-");
-    out << line << '\n';
+    std::string span = kNotMeasured;
+    if (v["pa_span_deg"].is_array())
+      span = shown(v["pa_span_deg"][0], 0) + "–" + shown(v["pa_span_deg"][1], 0, "°");
+    out << padded(v["name"].get<std::string>(), 10) << padded(v["found"].get<bool>() ? "yes" : "no", 5)
+        << padded(shown(v["central_pa_deg"], 1, "°"), 12) << padded(span, 14) << padded(shown(v["sky_width_deg"], 1, "°"), 11)
+        << padded(shown_pm(v["sky_speed_km_s"], v.value("sky_speed_km_s_sigma", json()), 0), 18)
+        << padded(shown_pm(v["sky_accel_m_s2"], v.value("sky_accel_m_s2_sigma", json()), 1), 15)
+        << (v["onset_time"].is_string() ? v["onset_time"].get<std::string>() : std::string(kNotMeasured)) << '\n';
   }
   const json& s = result["shell"];
   if (!s.is_object()) {
     out << "shell: no fit\n";
     return;
   }
-  const auto pm = [&](const char* key, int digits) {
-    char text[64];
-    std::snprintf(text, sizeof text, "%.*f ± %.*f", digits, s[key].get<double>(), digits, s["sigma"][key].get<double>());
-    return std::string(text);
+  const auto pm = [&](const char* key, int digits, const char* unit) {
+    return shown_pm(s[key], s.contains("sigma") ? s["sigma"].value(key, json()) : json(), digits, unit);
   };
-  out << "shell (true, from all views): lon " << pm("lon_deg", 1) << "°, lat " << pm("lat_deg", 1) << "°, tilt "
-      << pm("tilt_deg", 0) << "°, speed " << pm("speed_km_s", 0) << " km/s, face-on width " << pm("face_on_width_deg", 0)
-      << "°, edge-on width " << pm("edge_on_width_deg", 0) << "°\n";
+  out << "shell (true, from all views): lon " << pm("lon_deg", 1, "°") << ", lat " << pm("lat_deg", 1, "°") << ", tilt "
+      << pm("tilt_deg", 0, "°") << ", speed " << pm("speed_km_s", 0, " km/s") << ", face-on width "
+      << pm("face_on_width_deg", 0, "°") << ", edge-on width " << pm("edge_on_width_deg", 0, "°") << "\n";
   const json& b = result["boundary"];
   if (b.is_object()) {
-    char line[200];
-    std::snprintf(line, sizeof line, "at 21.5 R☉: %s ± %.0f min, %.0f ± %.0f km/s, half-width %.0f°\n",
-                  b["time"].get<std::string>().c_str(), b["sigma"]["time_s"].get<double>() / 60.0,
-                  b["speed_km_s"].get<double>(), b["sigma"]["speed_km_s"].get<double>(), b["half_width_deg"].get<double>());
-    out << line;
+    const json sigma = b.value("sigma", json::object());
+    const json time_min = sigma.value("time_s", json()).is_number() ? json(sigma["time_s"].get<double>() / 60.0) : json();
+    out << "at 21.5 R☉: " << b["time"].get<std::string>() << " ± " << shown(time_min, 0, " min") << ", "
+        << shown_pm(b["speed_km_s"], sigma.value("speed_km_s", json()), 0, " km/s") << ", half-width "
+        << shown(b["half_width_deg"], 0, "°") << "\n";
   }
 }
 
@@ -407,7 +472,7 @@ int measure(const MeasureOptions& o, std::ostream& out, std::ostream& err) {
     if (result.contains("arrival")) print_arrival_table(result["arrival"], out);
     out << "written: " << (fs::path(o.out_dir) / "result.json").string() << ", result.csv, track.json, <view>/time_height.png, <view>/front.png, <view>/shell.png\n";
   }
-  return result["status"] == "ok" ? 0 : 1;
+  return result["status"] == "ok" && result["problems"].empty() ? 0 : 1;
 }
 
 }  // namespace occulta::app

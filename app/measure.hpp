@@ -7,7 +7,9 @@
 // DIR/<view>/front.png (the last running difference with the front and the PA span).
 //
 // Input: an event file, or a folder of FITS frames grouped into views by observer
-// (OBSRVTRY, else TELESCOP, else the observer's position to 1°).
+// (OBSRVTRY, else TELESCOP, else the observer's position to 1°). The event's window is
+// applied (frames outside it named in each view's frames_outside_window); a track given
+// with --track must match the event (app/track.hpp check_track_matches) or nothing runs.
 #pragma once
 
 #include <iosfwd>
@@ -29,7 +31,8 @@ struct MeasureOptions {
 // Runs the measurement; returns the result document it wrote (also for the demo).
 nlohmann::json run_measure(const MeasureOptions& options, std::ostream& err);
 
-// The verb: run_measure, then a summary table. Exit 0 for "ok", 1 otherwise.
+// The verb: run_measure, then a summary table (unmeasured values as "—"). Exit 0 for
+// status "ok" with no problem reported, 1 otherwise.
 int measure(const MeasureOptions& options, std::ostream& out, std::ostream& err);
 
 // The summary table of a result (one line per view).

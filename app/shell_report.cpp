@@ -51,7 +51,7 @@ json shell_block(const fit::ShellFit& fit) {
       {"tilt_deg", deg(s.tilt)},
       {"half_angle_deg", deg(s.half_angle)},
       {"aspect_ratio", s.aspect_ratio},
-      {"ref_time", imaging::iso_from_utc_seconds(fit.law.ref_time_s, 0)},
+      {"ref_time", imaging::iso_from_utc_seconds(fit.law.ref_time_s, 3)},
       {"apex_height_rs", fit.law.height_rs},
       {"speed_km_s", fit.law.speed_km_s},
       {"accel_m_s2", fit.law.accel_m_s2},
@@ -95,7 +95,7 @@ json shell_block(const fit::ShellFit& fit) {
   block["covariance"] = {{"keys", keys}, {"matrix", matrix}};
   if (!fit.free_heights.empty()) {
     json heights = json::array();
-    for (const auto& [t, h] : fit.free_heights) heights.push_back({{"time", imaging::iso_from_utc_seconds(t, 0)}, {"apex_height_rs", h}});
+    for (const auto& [t, h] : fit.free_heights) heights.push_back({{"time", imaging::iso_from_utc_seconds(t, 3)}, {"apex_height_rs", h}});
     block["free_heights"] = heights;
   }
   return block;
@@ -109,7 +109,7 @@ json boundary_block(const fit::ShellFit& fit) {
   if (!c.found) return nullptr;
   const double half = 0.5 * fit::face_on_width(fit.shell.half_angle, fit.shell.aspect_ratio);
   return {{"height_rs", fit::kBoundaryHeightRs},
-          {"time", imaging::iso_from_utc_seconds(c.time_s, 0)},
+          {"time", imaging::iso_from_utc_seconds(c.time_s, 3)},
           {"speed_km_s", c.speed_km_s},
           {"lon_deg", deg(fit.shell.lon)},
           {"lat_deg", deg(fit.shell.lat)},
@@ -160,7 +160,7 @@ void draw_shell(const ViewForShell& v, const fit::ShellFit& fit, const std::vect
                  cv::Scalar(255, 230, 0), 1, cv::LINE_AA);
     }
     char caption[160];
-    std::snprintf(caption, sizeof caption, "%s %s apex %.1f Rs", v.name.c_str(),
+    std::snprintf(caption, sizeof caption, "%s %s apex %.1f R_sun", v.name.c_str(),
                   imaging::iso_from_utc_seconds(t, 0).substr(11, 5).c_str(), shell.apex_height_rs);
     panels.push_back(with_caption(picture, caption));
   }

@@ -7,6 +7,7 @@
 #pragma once
 
 #include <filesystem>
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -25,8 +26,25 @@ struct Track {
   std::vector<TrackPoint> points;
 };
 
-// InputError naming the file and the point at fault.
+// Heights a track point may have (R☉): an analyst's leading edge, from the limb to far
+// beyond any coronagraph (common practice).
+inline constexpr double kTrackHeightRangeRs[2] = {1.0, 300.0};
+
+// Reads a track file strictly: InputError naming the file and the key at fault (unknown
+// keys with the nearest known one, `schema` "occulta.track/1" and `event_id` required,
+// view names as fit::is_safe_name, pa_deg 0–360, height_rs within kTrackHeightRangeRs).
 Track read_track(const std::filesystem::path& path);
+
+// What a track is checked against: one view of the event and its frames' time span
+// (unknown when no frame time could be read).
+struct ViewSpan {
+  std::string name;
+  std::optional<double> first_utc_s, last_utc_s;
+};
+// InputError(file, …) when the track belongs to another event, names a view the event
+// lacks (suggesting the nearest), or has a point outside its view's frames' time span.
+void check_track_matches(const Track& track, const std::string& file, const std::string& event_id,
+                         const std::vector<ViewSpan>& views);
 void write_track(const std::filesystem::path& path, const Track& track);
 
 }  // namespace occulta::app

@@ -8,6 +8,7 @@
 
 #include <Eigen/Eigenvalues>
 
+#include "fit/strict_json.hpp"
 #include "imaging/input_error.hpp"
 #include "imaging/time.hpp"
 
@@ -136,13 +137,15 @@ std::array<double, 2> range(const json& forecast, const char* key, const std::ar
   if (!r.is_array() || r.size() != 2 || !r[0].is_number() || !r[1].is_number())
     throw InputError(source, std::string("forecast.") + key + " must be [lo, hi], two numbers");
   const std::array<double, 2> out{r[0].get<double>(), r[1].get<double>()};
-  if (!(out[0] > 0.0 && out[0] <= out[1] && std::isfinite(out[1])))
-    throw InputError(source, std::string("forecast.") + key + " is " + r.dump() + " — it needs 0 < lo ≤ hi");
+  const std::array<double, 2> allowed = std::string(key) == "wind_km_s" ? kWindRangeKmS : kDragRangePerKm;
+  if (!(out[0] >= allowed[0] && out[0] <= out[1] && out[1] <= allowed[1]))
+    throw InputError(source, std::string("forecast.") + key + " is " + r.dump() + " — it needs " + format(allowed[0]) +
+                                 " ≤ lo ≤ hi ≤ " + format(allowed[1]));
   return out;
 }
 
 json iso_or_null(const std::optional<double>& utc_s) {
-  return utc_s ? json(imaging::iso_from_utc_seconds(*utc_s, 0)) : json(nullptr);
+  return utc_s ? json(imaging::iso_from_utc_seconds(*utc_s, 3)) : json(nullptr);
 }
 
 json number_or_null(const std::optional<double>& value) { return value ? json(*value) : json(nullptr); }
@@ -150,6 +153,12 @@ json number_or_null(const std::optional<double>& value) { return value ? json(*v
 }  // namespace
 
 ArrivalInput read_arrival_input(const json& result, const std::string& source) {
+  require_kind(result, "result", source, "`forecast` needs a result file written by `occulta measure`");
+  if (!result.is_object() || result.value("schema", json()) != "occulta.result/1")
+    throw InputError(source, "`schema` is " + (result.is_object() ? result.value("schema", json()).dump() : std::string("missing")) +
+                                 " — a result file's is \"occulta.result/1\"");
+  if (result.value("status", json()) == "failed")
+    throw InputError(source, "has status \"failed\": the measurement found no CME to send on");
   const json& boundary = block(result, "boundary", source, "the CME at 21.5 solar radii, from the shell fit");
   const json& shell = block(result, "shell", source, "the fitted shell's shape and uncertainty");
   ArrivalInput in;
@@ -163,8 +172,11 @@ ArrivalInput read_arrival_input(const json& result, const std::string& source) {
   l.tilt = number(shell, "tilt_deg", "shell", source) * kRadPerDeg;
   l.half_angle = number(shell, "half_angle_deg", "shell", source) * kRadPerDeg;
   l.aspect_ratio = number(shell, "aspect_ratio", "shell", source);
-  if (!(l.speed_km_s > 0.0))
-    throw InputError(source, "boundary.speed_km_s is " + format(l.speed_km_s) + " — a CME that reaches the boundary moves outward");
+  if (!(l.speed_km_s >= kSpeedRangeKmS[0] && l.speed_km_s <= kSpeedRangeKmS[1]))
+    throw InputError(source, "boundary.speed_km_s is " + format(l.speed_km_s) + ", outside the allowed " +
+                                 format(kSpeedRangeKmS[0]) + " to " + format(kSpeedRangeKmS[1]) + " km/s");
+  if (!(l.lon >= -kPi && l.lon <= 2.0 * kPi))
+    throw InputError(source, "boundary.lon_deg is " + format(l.lon * kDegPerRad) + ", outside -180 to 360");
   if (std::abs(l.lat) > 0.5 * kPi)
     throw InputError(source, "boundary.lat_deg is " + format(l.lat * kDegPerRad) + ", outside -90 to 90");
   if (!(l.aspect_ratio >= 0.0 && l.aspect_ratio < 1.0))
@@ -196,6 +208,7 @@ ForecastSettings read_forecast_block(const json& forecast, double utc_s, const s
     return s;
   }
   if (!forecast.is_object()) throw InputError(source, "forecast must be an object {targets, wind_km_s, drag_per_km}");
+  check_keys(forecast, {"targets", "wind_km_s", "drag_per_km"}, "forecast", source);
   s.priors.wind_km_s = range(forecast, "wind_km_s", s.priors.wind_km_s, source);
   s.priors.drag_per_km = range(forecast, "drag_per_km", s.priors.drag_per_km, source);
   if (forecast.contains("targets") && !forecast["targets"].is_null()) {
@@ -206,6 +219,7 @@ ForecastSettings read_forecast_block(const json& forecast, double utc_s, const s
         if (t.is_string()) {
           s.targets.push_back(parse_target(t.get<std::string>(), utc_s));
         } else if (t.is_object() && t.contains("name") && t["name"].is_string()) {
+          check_keys(t, {"name", "lon_deg", "lat_deg", "dist_au"}, "forecast.targets[]", source);
           // The object form goes through the same checks as the text form.
           std::ostringstream text;
           text.precision(17);

@@ -7,6 +7,7 @@
 // units of fit/arrival.hpp inside.
 #pragma once
 
+#include <array>
 #include <string>
 #include <vector>
 
@@ -16,7 +17,9 @@
 
 namespace occulta::fit {
 
-// The launch and its uncertainty, from a result document.
+// The launch and its uncertainty, from a result document. Refused (InputError): another
+// kind of file, a `schema` other than "occulta.result/1", status "failed", a boundary
+// speed outside kSpeedRangeKmS.
 //   boundary {time, speed_km_s, lon_deg, lat_deg}: the apex at 21.5 R☉ — the nominal launch;
 //   shell {tilt_deg, half_angle_deg, aspect_ratio}: the shape (required);
 //   shell.covariance {keys, matrix} in the keys' units, else shell.sigma {key: σ}
@@ -28,6 +31,13 @@ namespace occulta::fit {
 //   δt_b = −(δh₀ + Δt δv + ½ Δt² δa) / v_b,   δv_b = δv + Δt δa + a δt_b
 // (h₀ in km, a in km/s²). Without shell.ref_time, Δt = 0: the speed's uncertainty passes
 // unchanged and the acceleration's is not used.
+// The ranges a practitioner accepts (common practice, not a physical limit): CME speeds
+// 50–5000 km/s (the boundary speed; also the ambient wind range), and drag parameters
+// 1e-10–1e-5 per km (Vršnak et al. 2013 fit γ ≈ 0.1–2 × 10⁻⁷ per km; a wide margin kept).
+inline constexpr std::array<double, 2> kSpeedRangeKmS{50.0, 5000.0};
+inline constexpr std::array<double, 2> kWindRangeKmS{50.0, 5000.0};
+inline constexpr std::array<double, 2> kDragRangePerKm{1e-10, 1e-5};
+
 struct ArrivalInput {
   std::string event_id;
   Launch launch;
@@ -38,7 +48,7 @@ ArrivalInput read_arrival_input(const nlohmann::json& result, const std::string&
 
 // An event file's `forecast` block (null: the defaults): targets (strings as
 // parse_target reads them, or objects {name, lon_deg, lat_deg, dist_au}; default earth),
-// wind_km_s [lo, hi] and drag_per_km [lo, hi] (0 < lo ≤ hi; defaults DragPriors).
+// wind_km_s [lo, hi] and drag_per_km [lo, hi] (within kWindRangeKmS and kDragRangePerKm, lo ≤ hi; defaults DragPriors); unknown keys refused.
 // Targets are placed at utc_s (the boundary time).
 struct ForecastSettings {
   std::vector<Target> targets;

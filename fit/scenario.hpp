@@ -28,7 +28,7 @@ struct ApexLaw {
 };
 
 struct ScenarioObserver {
-  std::string name;           // also the view's folder name: letters, digits, '-', '_'
+  std::string name;           // also the view's folder name: fit::is_safe_name
   double lon_deg = 0.0, lat_deg = 0.0, dist_au = 1.0;  // Stonyhurst
   double roll_deg = 0.0;      // as imaging::ImageGeometry::roll_deg
 };
@@ -87,7 +87,8 @@ struct Scenario {
   double frame_time(int i) const { return start_s + cadence_s * i; }
 };
 
-// Reads and checks a scenario file; InputError(path, "…") names the field at fault.
+// Reads and checks a scenario file strictly; InputError(path, "…") names the key at
+// fault: unknown keys (with the nearest known one), types, ranges, unsafe names.
 Scenario read_scenario(const std::filesystem::path& path);
 
 }  // namespace occulta::fit

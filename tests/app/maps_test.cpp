@@ -125,6 +125,6 @@ TEST_CASE("maps: a view without frames is a problem, the other views go on") {
                                shell_quote((dir / "frames/broken.event.json").string()) + " --out " +
                                shell_quote((dir / "maps").string()));
   CHECK(run.exit_code == 1);
-  CHECK(run.output.find("problem: two: no files match nowhere/*.fits.") != std::string::npos);
+  CHECK(run.output.find("problem: view two: no files match nowhere/*.fits.") != std::string::npos);
   CHECK(fs::exists(dir / "maps/one/polar.fits"));
 }

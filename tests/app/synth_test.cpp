@@ -129,5 +129,5 @@ TEST_CASE("synth: the same scenario gives the same pixels; a bad scenario gives 
                                shell_quote((dir / "bad.scenario.json").string()) + " --out " +
                                shell_quote((dir / "out").string()));
   CHECK(run.exit_code == 1);
-  CHECK(run.output.find("bad.scenario.json: cadence_s is missing") != std::string::npos);
+  CHECK(run.output.find("bad.scenario.json: `cadence_s` is missing") != std::string::npos);
 }

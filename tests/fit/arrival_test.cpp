@@ -426,6 +426,7 @@ TEST_CASE("arrival: the shell fit's uncertainty is carried to the boundary to fi
   const auto [dt_b, v_b] = crossing(h0, v, a_m_s2);
   const double sh = 0.3, sv = 50.0, sa = 20.0, rho = 0.4;  // σ of h₀, v, a; correlation of h₀ and v
   const json result = {
+      {"schema", "occulta.result/1"},
       {"event_id", "law"},
       {"shell", {{"tilt_deg", 0.0}, {"half_angle_deg", 30.0}, {"aspect_ratio", 0.3}, {"ref_time", "2031-07-09T03:00:00"},
                  {"apex_height_rs", h0}, {"speed_km_s", v}, {"accel_m_s2", a_m_s2},

@@ -64,10 +64,10 @@ TEST_CASE("scenario: each fault is refused with one sentence naming the file and
     CHECK(message.find(phrase) != std::string::npos);
   };
   check("notjson", "{ this is not json", "not valid JSON");
-  check("noid", with(kMinimal, R"("id": "t1", )", ""), "id is missing");
+  check("noid", with(kMinimal, R"("id": "t1", )", ""), "`id` is missing");
   check("baddate", with(kMinimal, R"("start": "2031-03-14T06:00:00")", R"("start": "2031-13-14T06:00:00")"),
         "month 13");
-  check("speed", with(kMinimal, R"("speed_km_s": 800)", R"("speed_km_s": 90000)"), "shell.apex.speed_km_s is 90000");
+  check("speed", with(kMinimal, R"("speed_km_s": 800)", R"("speed_km_s": 90000)"), "`shell.apex.speed_km_s` is 90000");
   check("noobs", with(kMinimal, R"([{"name": "a", "lon_deg": -40, "lat_deg": 0, "dist_au": 1.0}])", "[]"),
         "observers");
   check("badname", with(kMinimal, R"("name": "a")", R"("name": "a b")"), "observers[0].name");
