@@ -214,7 +214,9 @@ std::vector<int> usable_track_rows(const PolarSequence& s, const FrontOptions& o
 
 }  // namespace
 
-std::vector<TrackPoint> follow_track(const PolarSequence& s, double pa_deg, int from_frame, const FrontOptions& o) {
+std::vector<TrackPoint> follow_track(const PolarSequence& s, double pa_deg, int from_frame, const FrontOptions& o,
+                                     TrackCensoring* censored) {
+  TrackCensoring count;
   RowRange range;
   const std::vector<int> rows = usable_track_rows(s, o, range);
   const int frames = int(s.frames.size()) - from_frame;
@@ -276,6 +278,7 @@ std::vector<TrackPoint> follow_track(const PolarSequence& s, double pa_deg, int 
     const float level = float(o.edge_fraction) * peak;
     double height = s.polar.height_rs(rows[i]);
     bool blind = false;  // the band has no data just outside the front (a missing block)
+    bool fell = false;   // the profile fell to the level below the field stop
     for (int j = i; j + 1 < n; ++j) {
       if (!has_data[k][j + 1]) {
         blind = true;
@@ -284,15 +287,66 @@ std::vector<TrackPoint> follow_track(const PolarSequence& s, double pa_deg, int 
       if (v[k][j + 1] < level) {
         const double f = (v[k][j] - level) / std::max(1e-6f, v[k][j] - v[k][j + 1]);
         height = s.polar.height_rs(rows[j]) + f * s.polar.height_step_rs;
+        fell = true;
         break;
       }
     }
-    if (blind) continue;
+    // Censored: the edge lies in a gap, at or beyond the field stop, or the band is still
+    // brightest on the lowest usable row (the front not yet clear of the occulter).
+    if (blind) {
+      ++count.at_data_gap;
+      continue;
+    }
+    if (!fell) {
+      ++count.at_field_stop;
+      continue;
+    }
+    if (i == 0 && n > 1 && v[k][1] < v[k][0]) {
+      ++count.behind_occulter;
+      continue;
+    }
     height = std::max(height, floor_rs);  // the refinement keeps the track from falling
     floor_rs = height;
     track.push_back({from_frame + k, s.utc_s[from_frame + k], pa_deg, height, double(peak)});
   }
+  if (censored) *censored = count;
   return track;
+}
+
+bool height_measurable(const PolarSequence& s, int frame, double pa_deg, double height_rs, double margin_rs,
+                       std::string& why) {
+  const PolarGrid& g = s.polar;
+  if (frame < 0 || frame >= int(s.frames.size())) {
+    why = "outside the frames";
+    return false;
+  }
+  const std::vector<float> profile = band_profile(s.frames[std::size_t(frame)], g, pa_deg, 2.0);
+  const double row = (height_rs - g.height_rs(0)) / g.height_step_rs;
+  const int margin = std::max(1, int(std::ceil(margin_rs / g.height_step_rs - 1e-9)));
+  const int at = int(std::lround(row));
+  if (at >= g.height_count || at < 0) {
+    why = at < 0 ? "behind the occulter" : "at the field stop";
+    return false;
+  }
+  // Walk outward and inward from the point: the first row without data within the margin
+  // says which edge of the data it sits at.
+  for (int d = 0; d <= margin; ++d) {
+    const int up = at + d;
+    if (up >= g.height_count || !std::isfinite(profile[std::size_t(std::max(0, up))])) {
+      bool beyond = true;  // nothing but missing rows from here to the top: the field stop
+      for (int r = std::max(0, up); r < g.height_count; ++r) beyond &= !std::isfinite(profile[std::size_t(r)]);
+      why = beyond ? "at the field stop" : "at a data gap";
+      return false;
+    }
+    const int down = at - d;
+    if (down < 0 || !std::isfinite(profile[std::size_t(down)])) {
+      bool below = true;  // nothing but missing rows down to the bottom: the occulter
+      for (int r = std::min(down, g.height_count - 1); r >= 0; --r) below &= !std::isfinite(profile[std::size_t(r)]);
+      why = below ? "behind the occulter" : "at a data gap";
+      return false;
+    }
+  }
+  return true;
 }
 
 Front find_front(const PolarSequence& s, const FrontOptions& o) {
@@ -381,11 +435,15 @@ Front find_front(const PolarSequence& s, const FrontOptions& o) {
   front.pa_to_deg = std::fmod(g.pa_deg(first_col) + (span_cols - 1) * g.pa_step_deg, 360.0);
   front.central_pa_deg = central_pa(front.leading_edge_rs, first_col, span_cols, g.height_rs(rows.lo), g);
 
-  // The PA of the outermost front: in the last chain frame whose front is still below the
-  // field stop (else the onset frame), the middle of the columns at its highest row.
+  // The PA of the outermost front: in the last chain frame before the front first reaches
+  // the field stop (else the onset frame), the middle of the columns at its highest row.
+  // Not any later frame below the stop: once the nose has left the field, what remains
+  // below it is a flank, and a track there runs slower than the leading edge (issue 11).
   const Region* at = chain.front();
-  for (const Region* r : chain)
-    if (r->row_hi < rows.hi) at = r;
+  for (const Region* r : chain) {
+    if (r->row_hi >= rows.hi) break;
+    at = r;
+  }
   std::vector<uint8_t> top(g.pa_count, 0);
   for (int c = 0; c < g.pa_count; ++c) top[c] = at->outer_row[c] == at->row_hi;
   const auto [top_first, top_cols] = covering_arc(top);
@@ -394,7 +452,7 @@ Front find_front(const PolarSequence& s, const FrontOptions& o) {
   // Step 5. A region with no front that can be followed outward over min_frames frames
   // is not a CME: a residual of a steep static structure (a streamer's edge moved by
   // pointing jitter) can persist and rise a little, but leaves no significant track.
-  front.track = follow_track(s, front.central_pa_deg, front.onset_frame, o);
+  front.track = follow_track(s, front.central_pa_deg, front.onset_frame, o, &front.track_censored);
   const std::vector<TrackPoint> outer = follow_track(s, front.outermost_pa_deg, front.onset_frame, o);
   if (int(std::max(front.track.size(), outer.size())) < o.min_frames) {
     Front none;

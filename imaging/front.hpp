@@ -34,7 +34,9 @@
 //     jump_free_km_s cost jump_penalty_per_1000_km_s (per 1000 km/s above), those above
 //     max_speed_km_s are impossible. The path runs along the front's bright band; each
 //     point is then moved to the band's outer side, where it falls to edge_fraction × its
-//     peak, and dropped where the band has no data there (a missing block).
+//     peak, and dropped — censored, counted in TrackCensoring — where the band has no
+//     data there (a missing block), never falls to that level below the field stop, or
+//     peaks on the lowest usable row.
 // Every threshold below is our choice, tuned on `occulta synth` events (front_test.cpp).
 #pragma once
 
@@ -71,6 +73,18 @@ struct TrackPoint {
   double sigma = 0.0;        // the band-median running difference there, σ
 };
 
+// Frames whose leading edge the track could not measure, by why (step 5): the front's
+// band does not fall to edge_fraction × its peak below the outer field stop (the edge
+// lies at or beyond it), runs into a missing block (a data gap), or peaks on the lowest
+// usable row (behind the occulter still). Such frames add no point: a height pinned at
+// the field stop is not the front's height, and would bend the law (issue 11).
+struct TrackCensoring {
+  int at_field_stop = 0;
+  int at_data_gap = 0;
+  int behind_occulter = 0;
+  int total() const { return at_field_stop + at_data_gap + behind_occulter; }
+};
+
 struct Front {
   bool found = false;
   std::string why_not;       // one sentence when not found
@@ -87,13 +101,23 @@ struct Front {
   // the region is absent (all NaN outside onset_frame..last_frame).
   std::vector<std::vector<float>> leading_edge_rs;
   std::vector<TrackPoint> track;   // significant points only, from the onset frame on
+  TrackCensoring track_censored;   // frames `track` left out, by why
 };
 
 // The whole analysis (steps 1–5). Expects ≥ 2 frames, all on sequence.polar.
 Front find_front(const PolarSequence& sequence, const FrontOptions& options = {});
 
 // Step 5 alone, e.g. at a PA the analyst chose: frames from_frame.. of the sequence.
+// Frames it could not measure are counted in `censored` when given.
 std::vector<TrackPoint> follow_track(const PolarSequence& sequence, double pa_deg, int from_frame,
-                                     const FrontOptions& options = {});
+                                     const FrontOptions& options = {}, TrackCensoring* censored = nullptr);
+
+// Whether a height at `pa_deg` in frame `frame` lies where an edge can be measured: at
+// least `margin_rs` inside the frame's data along that PA band (above the lowest row
+// with data, below the highest, with no missing rows between it and either). Sets `why`
+// ("at the field stop", "at a data gap", "behind the occulter") when not. The analyst's
+// points obey the same rule as the automatic track (issue 11).
+bool height_measurable(const PolarSequence& sequence, int frame, double pa_deg, double height_rs, double margin_rs,
+                       std::string& why);
 
 }  // namespace occulta::imaging
