@@ -17,6 +17,8 @@
 #include "app/track.hpp"
 #include "fit/json_file.hpp"
 #include "fit/shell.hpp"
+#include "fit/truth.hpp"
+#include "imaging/front.hpp"
 #include "imaging/time.hpp"
 #include "tests/support/support.hpp"
 
@@ -135,7 +137,11 @@ TEST_CASE("shell measure: the reported uncertainty covers the truth over 20 nois
   // fit's covariance × its design effect, widened by the rim/outer-edge systematic
   // (fit/shell_fit.hpp merge_edge_fits).
   const Config c{"tilted, two views", -12, 6, 30, 26, 0.33, 950, 0, {{"a", -62, 1.5, 0.97}, {"b", 24, -2, 1.01}}};
-  int speed_in = 0, lon_in = 0, runs = 0;
+  // Each view's sky-plane speed too (issue 11): the truth is fit/truth.hpp view_truth's
+  // straight line through the true sky-plane leading edge over the heights the finder
+  // examines, as in measure_test.cpp.
+  const occulta::imaging::FrontOptions finder;
+  int speed_in = 0, lon_in = 0, runs = 0, sky_in = 0, sky_compared = 0;
   for (unsigned seed = 500; seed < 520; ++seed) {
     std::string text = scenario(c, seed);
     const auto at = text.find("\"size_px\": 192");
@@ -151,12 +157,27 @@ TEST_CASE("shell measure: the reported uncertainty covers the truth over 20 nois
     ++runs;
     speed_in += std::abs(s["speed_km_s"].get<double>() - c.speed) <= 2.0 * s["sigma"]["speed_km_s"].get<double>();
     lon_in += angle_between_deg(s["lon_deg"].get<double>(), c.lon) <= 2.0 * s["sigma"]["lon_deg"].get<double>();
+    const json truth = occulta::fit::read_json_file(dir / "frames" / "shell-event.truth.json");
+    for (const auto& v : result["views"]) {
+      const occulta::fit::ViewTruth t = occulta::fit::view_truth(truth, v["name"].get<std::string>(),
+                                                                 2.5 + finder.inner_margin_rs, 14.5 - finder.outer_margin_rs);
+      if (t.frames_in_field < 4 || !v["sky_speed_sigma_km_s"].is_number()) continue;
+      ++sky_compared;
+      const double error = v["sky_speed_km_s"].get<double>() - t.sky_speed_km_s;
+      sky_in += std::abs(error) <= 2.0 * v["sky_speed_sigma_km_s"].get<double>();
+      MESSAGE("seed " << seed << " " << v["name"].get<std::string>() << ": sky speed error " << error << " ± "
+                      << v["sky_speed_sigma_km_s"].get<double>() << " km/s");
+    }
   }
   CAPTURE(speed_in);
   CAPTURE(lon_in);
+  CAPTURE(sky_in);
+  CAPTURE(sky_compared);
   CHECK(runs == 20);
   CHECK(speed_in >= 17);
   CHECK(lon_in >= 17);
+  CHECK(sky_compared >= 36);  // both views, in nearly every realisation
+  CHECK(sky_in >= 0.85 * sky_compared);
 }
 
 namespace {
@@ -240,13 +261,45 @@ TEST_CASE("shell measure: one view takes its direction from the event's source r
   CHECK(s["sigma"]["lon_deg"].get<double>() >= 10.0);
   CHECK(s["speed_km_s"].get<double>() == doctest::Approx(c.speed).epsilon(0.07));
 
-  // Without the source the direction is unconstrained, and the result says so.
+  // With the source, the arrival is stated as conditional on it (issue 11).
+  const json sourced = occulta::fit::read_json_file(out / "result.json");
+  CHECK(sourced["shell"]["direction_basis"] == "source region");
+  CHECK(sourced.contains("arrival_conditional_on"));
+
+  // Without the source the direction is unconstrained, and the result says so: in the
+  // JSON (machine-readably), the CSV and the summary, with no arrival estimate and a
+  // status and exit code that are not "ok" (issue 11).
   const fs::path bare = dir / "bare";
-  run_command(bin + " measure --quiet " + shell_quote((dir / "frames" / "shell-event.event.json").string()) + " --out " +
-              shell_quote(bare.string()));
-  const json b = occulta::fit::read_json_file(bare / "result.json")["shell"];
+  const auto bare_run = run_command(bin + " measure " + shell_quote((dir / "frames" / "shell-event.event.json").string()) +
+                                    " --out " + shell_quote(bare.string()));
+  INFO(bare_run.output);
+  const json whole = occulta::fit::read_json_file(bare / "result.json");
+  const json& b = whole["shell"];
   REQUIRE(b.is_object());
   CHECK(b["direction_constrained"] == false);
   CHECK(b["sigma"]["lon_deg"].get<double>() >= 60.0);
   CHECK(b["notes"].dump().find("unconstrained") != std::string::npos);
+  CHECK(b["direction_basis"] == "none");
+  CHECK(b["not_constrained"].dump().find("lon_deg") != std::string::npos);
+  CHECK(b["not_constrained"].dump().find("face_on_width_deg") != std::string::npos);
+  CHECK_FALSE(whole.contains("arrival"));
+  CHECK(whole["arrival_withheld"].get<std::string>().find("not constrained") != std::string::npos);
+  CHECK(whole["status"] == "partial");
+  CHECK(bare_run.exit_code == 1);
+  CHECK(bare_run.output.find("direction NOT CONSTRAINED") != std::string::npos);
+  CHECK(bare_run.output.find("arrival: WITHHELD") != std::string::npos);
+  CHECK(bare_run.output.find("true, from all views") == std::string::npos);
+  const std::string csv = occulta::test::slurp(bare / "result.csv");
+  const auto header_end = csv.find('\n');
+  REQUIRE(header_end != std::string::npos);
+  CHECK(csv.substr(0, header_end).find("shell_not_constrained") != std::string::npos);
+  CHECK(csv.substr(header_end).find("lon_deg") != std::string::npos);
+  CHECK(csv.substr(header_end).find("none") != std::string::npos);
+  // The schema holds the new keys (Debian's python3-jsonschema, JSON Schema 2020-12).
+  for (const fs::path& result : {out / "result.json", bare / "result.json"}) {
+    const auto valid = occulta::test::run_python(
+        "tests/external/validate_schema.py",
+        shell_quote(occulta::test::source_path("schemas/result.schema.json").string()) + " " + shell_quote(result.string()));
+    CHECK_MESSAGE(valid.exit_code == 0, valid.output);
+  }
 }
