@@ -184,6 +184,11 @@ ViewOutcome measure_view(const Event& event, const EventView& view, const Track*
     for (const imaging::TrackPoint& p : auto_track) points.push_back({view.name, p.utc_s, p.pa_deg, p.height_rs, "auto"});
   }
   v["track_origin"] = by_analyst ? "analyst" : "auto";
+  // How far above the noise the front stood: the largest band-median running difference
+  // on the automatic track, in σ (imaging/front.hpp) — what a detection limit is stated in.
+  double contrast = 0.0;
+  for (const imaging::TrackPoint& p : auto_track) contrast = std::max(contrast, p.sigma);
+  v["front_contrast_sigma"] = auto_track.empty() ? json(nullptr) : json(contrast);
   v["censored_points"] = {{"at_field_stop", censored.at_field_stop},
                           {"at_data_gap", censored.at_data_gap},
                           {"behind_occulter", censored.behind_occulter}};

@@ -243,7 +243,7 @@ void name_views_without_cme(const std::vector<ViewForShell>& views, const std::v
     if (t1 < first || t0 > last) {
       reason = "outside the window: its frames (" + imaging::iso_from_utc_seconds(t0, 0) + " to " +
                imaging::iso_from_utc_seconds(t1, 0) + ") miss the time the other views saw the CME";
-    } else if (fit) {
+    } else if (fit && fit->direction_constrained) {
       // The lowest height with data in the view's last frame, against the fitted shell's
       // largest sky height there.
       const cv::Mat& frame = v.polar.frames.back();
@@ -271,7 +271,11 @@ void name_views_without_cme(const std::vector<ViewForShell>& views, const std::v
     if (reason.empty()) {
       std::string why = v.front.why_not;
       while (!why.empty() && why.back() == '.') why.pop_back();
-      reason = "below the detection threshold (" + why + ")";
+      // Without a shell whose direction the data fix, where it would show cannot be said.
+      reason = fit && fit->direction_constrained
+                   ? "below the detection threshold (" + why + ")"
+                   : "below the detection threshold, or behind the occulter — with no constrained shell, which cannot be told (" +
+                         why + ")";
     }
     report.problems.push_back("view " + v.name + " sees no CME while another view does: " + reason + ".");
   }

@@ -269,10 +269,19 @@ std::vector<TrackPoint> follow_track(const PolarSequence& s, double pa_deg, int 
   // outer side: climb to the band's local peak, then outward to where the profile falls
   // below edge_fraction × peak (linear between rows; a half-maximum edge is common practice).
   std::vector<TrackPoint> track;
+  bool left_field = false;  // a frame's edge already lay at or beyond the field stop
   double floor_rs = -std::numeric_limits<double>::infinity();
   for (int k = 0; k < frames; ++k) {
     int i = path[k];
-    if (i < 0 || v[k][i] < o.threshold_sigma) continue;
+    if (i < 0) continue;
+    if (v[k][i] < o.threshold_sigma) {
+      // Nothing significant on the path: no front in this frame — or one that has run out
+      // of the data, when the path (which never falls) is at the top of the field or in a
+      // missing block. Those are censored.
+      if (left_field || (!track.empty() && i >= n - 3)) ++count.at_field_stop;
+      else if (!has_data[k][i]) ++count.at_data_gap;
+      continue;
+    }
     while (i + 1 < n && v[k][i + 1] > v[k][i]) ++i;
     const float peak = v[k][i];
     const float level = float(o.edge_fraction) * peak;
@@ -299,6 +308,7 @@ std::vector<TrackPoint> follow_track(const PolarSequence& s, double pa_deg, int 
     }
     if (!fell) {
       ++count.at_field_stop;
+      left_field = true;
       continue;
     }
     if (i == 0 && n > 1 && v[k][1] < v[k][0]) {

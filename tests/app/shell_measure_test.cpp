@@ -303,3 +303,36 @@ TEST_CASE("shell measure: one view takes its direction from the event's source r
     CHECK_MESSAGE(valid.exit_code == 0, valid.output);
   }
 }
+
+TEST_CASE("shell measure: a slow Earth-directed CME is seen from Earth, and Earth's hit probability is high") {
+  // Issue 11: in a slow (350 km/s), nearly Earth-directed event, the Earth-facing view
+  // must detect the CME (a faint front round the occulter), and the two-view shell must
+  // give Earth a hit probability of at least 80 %. The truth is the scenario's own shell
+  // (lon 0, lat 2: straight at Earth).
+  const Config c{"slow, Earth-directed", 0, 2, 0, 25, 0.3, 350, 0, {{"earth", 0, 0, 0.99}, {"side", -80, -2, 0.97}}};
+  std::string text = scenario(c, 5);
+  const auto at = text.find("\"size_px\": 192");
+  REQUIRE(at != std::string::npos);
+  text.replace(at, 14, "\"size_px\": 160");
+  const fs::path dir = occulta::test::synthesize_event("shell_earth_directed", text);
+  const fs::path out = dir / "result";
+  const auto run = run_command(shell_quote(occulta::test::occulta_binary().string()) + " measure --quiet " +
+                               shell_quote((dir / "frames" / "shell-event.event.json").string()) + " --out " +
+                               shell_quote(out.string()));
+  INFO(run.output);
+  const json result = occulta::fit::read_json_file(out / "result.json");
+  CAPTURE(result["problems"].dump());
+  for (const auto& v : result["views"]) {
+    CAPTURE(v.dump());
+    CHECK(v["found"] == true);
+  }
+  REQUIRE(result.contains("arrival"));
+  bool earth = false;
+  for (const auto& a : result["arrival"])
+    if (a["target"] == "earth") {
+      earth = true;
+      CHECK(a["hit_probability"].get<double>() >= 0.80);
+    }
+  CHECK(earth);
+  CHECK(result["status"] == "ok");
+}
