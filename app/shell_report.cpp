@@ -313,7 +313,9 @@ ShellReport fit_and_report_shell(const std::vector<ViewForShell>& views,
     sv.observer = v.observer;
     if (v.front.found) {
       sv.central_pa_deg = v.front.central_pa_deg;
-      sv.width_deg = v.front.width_deg;
+      // A front round the occulter on both sides of the Sun has no single PA: a halo for
+      // the fit's start (fit/shell_fit.hpp, width ≥ 300°).
+      sv.width_deg = v.front.encircles ? 360.0 : v.front.width_deg;
     } else {  // analyst points only: their mean PA and extent
       double ss = 0.0, sc = 0.0, lo = 360.0, hi = -360.0;
       for (std::size_t i = before; i < points.size(); ++i) {

@@ -5,6 +5,7 @@
 #include <cmath>
 #include <cstdint>
 #include <limits>
+#include <map>
 #include <numeric>
 
 #include <opencv2/imgproc.hpp>
@@ -431,8 +432,79 @@ Front find_front(const PolarSequence& s, const FrontOptions& o) {
   front.onset_utc_s = s.utc_s[front.onset_frame];
   front.last_frame = chain.back()->frame;
 
-  // Step 4 and the span: the union of the chain's regions.
+  // Step 3b, a halo: a CME heading along the line of sight shows as a front round the
+  // occulter, brightest where the line of sight grazes its flanks — often on two opposite
+  // sides, with fainter parts between that the threshold splits off. Another chain that
+  // moves with the chosen one is the same front: in ≥ min_frames frames of the chosen
+  // chain it lies apart from it in PA with its outer edge at the same height (within
+  // companion_height_fraction of the height above the lowest row examined, at least 3
+  // rows). Its regions join the chain's (up to three such chains).
+  std::vector<const Region*> joined;
+  {
+    std::map<int, const Region*> main_at;  // frame → the chosen chain's region there
+    for (const Region* r : chain) main_at[r->frame] = r;
+    std::vector<std::vector<uint8_t>> taken(frames);
+    for (int k = 0; k < frames; ++k) {
+      taken[k].assign(regions[k].size(), 0);
+      for (size_t i = 0; i < regions[k].size(); ++i)
+        if (auto m = main_at.find(k); m != main_at.end() && overlaps(regions[k][i], *m->second)) taken[k][i] = 1;
+    }
+    const auto matches = [&](const Region& r) {
+      const auto m = main_at.find(r.frame);
+      if (m == main_at.end()) return false;
+      const double above_rows = std::max(0, m->second->row_hi - rows.lo);
+      const double tolerance = std::max(3.0, o.companion_height_fraction * above_rows);
+      return std::abs(r.row_hi - m->second->row_hi) <= tolerance;
+    };
+    for (int round = 0; round < 3; ++round) {
+      std::vector<std::vector<Link>> cl(frames);
+      int end_frame = -1, end_index = -1;
+      double end_total = 0.0;
+      for (int k = 0; k < frames; ++k) {
+        cl[k].assign(regions[k].size(), Link{});
+        for (size_t i = 0; i < regions[k].size(); ++i) {
+          const Region& r = regions[k][i];
+          if (taken[k][i] || !matches(r)) {
+            cl[k][i].length = 0;  // not a companion's link
+            continue;
+          }
+          Link link{r.score, 1, -1, r.row_hi};
+          if (k > 0)
+            for (size_t j = 0; j < regions[k - 1].size(); ++j) {
+              const Region& q = regions[k - 1][j];
+              const Link& ql = cl[k - 1][j];
+              if (ql.length == 0 || r.row_hi + 1 < q.row_hi || !overlaps(r, q)) continue;
+              if (ql.total + r.score > link.total) link = Link{ql.total + r.score, ql.length + 1, int(j), ql.first_row_hi};
+            }
+          cl[k][i] = link;
+          const bool rises = (r.row_hi - link.first_row_hi) * g.height_step_rs >= o.min_rise_rs - 1e-9;
+          if (link.length >= o.min_frames && rises && link.total > end_total) {
+            end_total = link.total;
+            end_frame = k;
+            end_index = int(i);
+          }
+        }
+      }
+      if (end_frame < 0) break;
+      for (int k = end_frame, i = end_index; i >= 0; i = cl[k][i].prev, --k) {
+        joined.push_back(&regions[k][i]);
+        taken[k][i] = 1;
+        // Regions of that frame overlapping the companion are not another companion.
+        for (size_t j = 0; j < regions[k].size(); ++j)
+          if (overlaps(regions[k][j], regions[k][i])) taken[k][j] = 1;
+      }
+    }
+  }
+
+  // Step 4 and the span: the union of the chain's regions (and its companions').
   std::vector<uint8_t> occupied(g.pa_count, 0);
+  for (const Region* r : joined)
+    for (int c = 0; c < g.pa_count; ++c)
+      if (r->outer_row[c] >= 0 && r->frame >= front.onset_frame && r->frame <= front.last_frame) {
+        occupied[c] = 1;
+        front.leading_edge_rs[r->frame][c] = float(g.height_rs(r->outer_row[c]));
+      }
+  front.companion_regions = int(joined.size());
   for (const Region* r : chain)
     for (int c = 0; c < g.pa_count; ++c)
       if (r->outer_row[c] >= 0) {
@@ -441,6 +513,9 @@ Front find_front(const PolarSequence& s, const FrontOptions& o) {
       }
   const auto [first_col, span_cols] = covering_arc(occupied);
   front.width_deg = span_cols * g.pa_step_deg;
+  // Fronts on both sides of the Sun (no gap of half a turn): the CME runs along the line
+  // of sight, toward or away from the observer.
+  front.encircles = !joined.empty() && front.width_deg > 180.0;
   front.pa_from_deg = g.pa_deg(first_col);
   front.pa_to_deg = std::fmod(g.pa_deg(first_col) + (span_cols - 1) * g.pa_step_deg, 360.0);
   front.central_pa_deg = central_pa(front.leading_edge_rs, first_col, span_cols, g.height_rs(rows.lo), g);

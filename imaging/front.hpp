@@ -21,6 +21,11 @@
 //     one's outer edge is not lower (within one row); the best-scoring chain (Σ σ over its
 //     pixels) of ≥ min_frames frames whose outer edge rises by ≥ min_rise_rs is the CME.
 //     Static streamers cancel in running differences; a single-frame blob has no chain.
+//  3b. Halos: other chains that move with the best one — apart from it in PA, their
+//     outer edge at its height (within companion_height_fraction) in ≥ min_frames of its
+//     frames — are the same front seen round the occulter, and join it. With them, a front
+//     on both sides of the Sun (span over 180°) `encircles`: the CME runs along the line of
+//     sight (fit/shell_fit then treats the view as a halo).
 //  4. Leading edge per PA per frame: the outermost row of the chain's region in each PA.
 //     The span is the arc covering every PA the chain's regions occupy; the central PA is
 //     the PA centroid of the sky the front swept through within the span: each PA weighted
@@ -63,6 +68,7 @@ struct FrontOptions {
   double jump_penalty_per_1000_km_s = 5.0;  // σ per 1000 km/s above jump_free_km_s
   double max_speed_km_s = 5000.0;      // faster is not a CME front
   double edge_fraction = 0.75;         // the leading edge: where the front's band falls to this × its peak
+  double companion_height_fraction = 0.15;  // step 3b: a companion chain's outer edge, × height above the lowest row
 };
 
 struct TrackPoint {
@@ -97,6 +103,8 @@ struct Front {
   double width_deg = 0.0;          // sky width: the span's extent
   double central_pa_deg = 0.0;     // where the CME is centred: the swept sky's PA centroid (step 4)
   double outermost_pa_deg = 0.0;   // PA of the highest leading edge in the chain's frames
+  int companion_regions = 0;       // regions of other chains moving with it (step 3b)
+  bool encircles = false;          // with them, fronts on both sides of the Sun: a halo-like view
   // [frame][PA column]: height in R☉ of the region's outermost significant pixel, NaN where
   // the region is absent (all NaN outside onset_frame..last_frame).
   std::vector<std::vector<float>> leading_edge_rs;
