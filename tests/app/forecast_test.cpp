@@ -216,3 +216,24 @@ TEST_CASE("forecast: bad input gives one sentence naming the file and the fault"
   says(good + " --event " + shell_quote(event.string()),
        event.string() + ": forecast.wind_km_s must be [lo, hi], two numbers.");
 }
+
+TEST_CASE("forecast: no estimate from an unconstrained direction or a failed shell fit; an assumed one is conditional") {
+  // Issue 11 / 13: the verb keeps measure's rule (app/shell_report.hpp).
+  const fs::path dir = occulta::test::scratch_dir("forecast_weak");
+  json result = handwritten_result();
+  result["shell"]["direction_basis"] = "none";
+  auto run = forecast(shell_quote(write(dir / "none.json", result).string()));
+  CHECK(run.exit_code == 1);
+  CHECK(run.output.find("do not constrain") != std::string::npos);
+  CHECK(run.output.find("hit") == std::string::npos);
+  result["shell"]["direction_basis"] = "views";
+  result["shell"]["status"] = "partial";
+  run = forecast(shell_quote(write(dir / "failed.json", result).string()));
+  CHECK(run.exit_code == 1);
+  CHECK(run.output.find("fit failed") != std::string::npos);
+  result["shell"]["direction_basis"] = "source region";
+  result["shell"]["status"] = "ok";
+  run = forecast(shell_quote(write(dir / "source.json", result).string()) + " --members 200");
+  CHECK(run.exit_code == 0);
+  CHECK(run.output.find("conditional") != std::string::npos);
+}
