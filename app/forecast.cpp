@@ -55,6 +55,21 @@ json run_forecast(const ForecastOptions& o, std::ostream& err) {
   if (fs::is_directory(o.result))
     throw imaging::InputError(o.result, "is a folder; `forecast` needs the result.json that `occulta measure` wrote");
   const json result = fit::read_json_file(o.result);
+  // No arrival from a shell whose direction the data do not fix, or whose fit failed
+  // (app/shell_report.hpp: measure withholds it too); one resting on an assumed direction
+  // says so (issue 11).
+  if (result.is_object() && result.contains("shell") && result["shell"].is_object()) {
+    const json& shell = result["shell"];
+    if (shell.value("direction_basis", std::string()) == "none")
+      throw imaging::InputError(o.result, "has a shell whose direction the data do not constrain (direction_basis "
+                                          "\"none\"); no arrival estimate is made from it");
+    if (shell.value("status", std::string("ok")) != "ok")
+      throw imaging::InputError(o.result, "has a shell whose fit failed (status \"" + shell.value("status", std::string()) +
+                                              "\", see its problems); no arrival estimate is made from it");
+    if (shell.value("direction_basis", std::string()) == "source region")
+      err << "note: this estimate is conditional: the shell's direction in " << o.result
+          << " is the event's source region, assumed, not measured (one view).\n";
+  }
   const fit::ArrivalInput input = fit::read_arrival_input(result, o.result);
   const double utc_s = input.launch.boundary_utc_s;
 

@@ -156,18 +156,46 @@ ViewOutcome measure_view(const Event& event, const EventView& view, const Track*
        {"sky_accel_m_s2_sigma", nullptr}, {"kinematic_model", nullptr}, {"onset_time", nullptr},
        {"onset_time_sigma_s", nullptr}, {"first_seen_time", nullptr}, {"time_at_21_5_rs", nullptr}, {"track_points", 0}, {"residual_rms_rs", nullptr}};
 
-  // The points: the analyst's for this view when given, else the automatic track.
+  // The points: the analyst's for this view when given, else the automatic track. Either
+  // way only edges inside the field count: one at or beyond the field stop, at a data
+  // gap or behind the occulter is censored (imaging/front.hpp TrackCensoring), counted
+  // and left out (issue 11).
   std::vector<TrackPoint>& points = outcome.used;
+  imaging::TrackCensoring censored;
+  const double step_rs = polar.polar.height_step_rs;
+  bool by_analyst = false;
   if (analyst)
-    for (const TrackPoint& p : analyst->points)
-      if (p.view == view.name) points.push_back(p);
-  const bool by_analyst = !points.empty();
+    for (const TrackPoint& p : analyst->points) {
+      if (p.view != view.name) continue;
+      by_analyst = true;
+      int frame = -1;  // the frame the point was marked on (within a second)
+      for (std::size_t k = 0; k < polar.utc_s.size(); ++k)
+        if (std::abs(polar.utc_s[k] - p.utc_s) < 1.0) frame = int(k);
+      std::string why;
+      if (frame >= 0 && !imaging::height_measurable(polar, frame, p.pa_deg, p.height_rs, step_rs, why)) {
+        if (why == "at the field stop") ++censored.at_field_stop;
+        else if (why == "at a data gap") ++censored.at_data_gap;
+        else ++censored.behind_occulter;
+        continue;
+      }
+      points.push_back(p);
+    }
   // The automatic track follows the front where it reaches highest (the leading edge an
   // analyst measures — common practice), not the middle of the span.
-  if (!by_analyst && front.found)
-    for (const imaging::TrackPoint& p : imaging::follow_track(polar, front.outermost_pa_deg, front.onset_frame))
-      points.push_back({view.name, p.utc_s, p.pa_deg, p.height_rs, "auto"});
+  std::vector<imaging::TrackPoint> auto_track;
+  if (!by_analyst && front.found) {
+    auto_track = imaging::follow_track(polar, front.outermost_pa_deg, front.onset_frame, {}, &censored);
+    for (const imaging::TrackPoint& p : auto_track) points.push_back({view.name, p.utc_s, p.pa_deg, p.height_rs, "auto"});
+  }
   v["track_origin"] = by_analyst ? "analyst" : "auto";
+  // How far above the noise the front stood: the largest band-median running difference
+  // on the automatic track, in σ (imaging/front.hpp) — what a detection limit is stated in.
+  double contrast = 0.0;
+  for (const imaging::TrackPoint& p : auto_track) contrast = std::max(contrast, p.sigma);
+  v["front_contrast_sigma"] = auto_track.empty() ? json(nullptr) : json(contrast);
+  v["censored_points"] = {{"at_field_stop", censored.at_field_stop},
+                          {"at_data_gap", censored.at_data_gap},
+                          {"behind_occulter", censored.behind_occulter}};
 
   if (front.found) {
     v["central_pa_deg"] = front.central_pa_deg;
@@ -185,14 +213,35 @@ ViewOutcome measure_view(const Event& event, const EventView& view, const Track*
 
   fit::HeightTimeFit chosen;
   const bool have_fit = points.size() >= 2;
+  v["law_ref_time"] = nullptr;
+  v["sigma_missing_why"] = nullptr;
   if (have_fit) {
     std::vector<fit::HeightTimePoint> ht;
     for (const auto& p : points) ht.push_back({p.utc_s, p.height_rs, 0.0});
-    // Robust (Huber) fits, linear unless a quadratic is substantially better (AICc).
-    chosen = fit::choose_height_time_model(ht, true).chosen;
+    // Robust (Huber) fits, linear unless a quadratic is substantially better (AICc). The
+    // scale's floor: the height grid's rounding, Δ/√12 (kinematics.hpp).
+    const double resolution_rs = step_rs / std::sqrt(12.0);
+    chosen = fit::choose_height_time_model(ht, true, 2.0, resolution_rs).chosen;
     v["track_points"] = int(points.size());
+    if (chosen.status == fit::FitStatus::ok && !auto_track.empty()) {
+      // The leading edge's definition: the track's band edge (edge_fraction of its peak)
+      // against the front's outer threshold edge in the same PA column, frame by frame,
+      // both inside the field; half their laws' difference joins the σ (kinematics.hpp).
+      const int column = int(std::lround(front.outermost_pa_deg / polar.polar.pa_step_deg)) % polar.polar.pa_count;
+      std::vector<fit::HeightTimePoint> outer;
+      for (const imaging::TrackPoint& p : auto_track) {
+        const float h = front.leading_edge_rs[std::size_t(p.frame)][std::size_t(column)];
+        std::string why;
+        if (std::isfinite(h) && imaging::height_measurable(polar, p.frame, p.pa_deg, h, imaging::FrontOptions{}.outer_margin_rs + step_rs, why))
+          outer.push_back({p.utc_s, double(h), 0.0});
+      }
+      const fit::HeightTimeFit other =
+          fit::fit_height_time(outer, {chosen.model, true, resolution_rs});
+      fit::add_definition_spread(chosen, other);
+    }
     if (chosen.status == fit::FitStatus::ok) {
       v["kinematic_model"] = fit::to_string(chosen.model);
+      v["law_ref_time"] = imaging::iso_from_utc_seconds(chosen.law.ref_time_s, 3);
       v["sky_speed_km_s"] = chosen.law.speed_km_s;
       v["sky_speed_km_s_sigma"] = number_or_null(chosen.speed_sigma_km_s);
       v["sky_accel_m_s2"] = chosen.law.accel_m_s2;
@@ -202,6 +251,10 @@ ViewOutcome measure_view(const Event& event, const EventView& view, const Track*
       v["onset_time_sigma_s"] = chosen.onset.found ? number_or_null(chosen.onset.sigma_s) : json(nullptr);
       v["time_at_21_5_rs"] = time_or_null(chosen.boundary);
       v["residual_rms_rs"] = chosen.residual_rms_rs;
+      if (!chosen.sigmas_known) {
+        v["sigma_missing_why"] = chosen.problem;
+        problems.push_back(view.name + ": no σ for the sky speed and onset: " + chosen.problem + ".");
+      }
     } else {
       problems.push_back("view " + view.name + ": the height–time fit failed: " + chosen.problem);
     }
@@ -262,11 +315,11 @@ void write_csv_row(const fs::path& path, const json& result) {
   for (const auto& v : result["views"])
     for (const char* key : {"frames_used", "found", "central_pa_deg", "pa_span_deg", "sky_width_deg", "sky_speed_km_s",
                             "sky_speed_km_s_sigma", "sky_accel_m_s2", "sky_accel_m_s2_sigma", "onset_time",
-                            "onset_time_sigma_s", "time_at_21_5_rs", "frames_outside_window"}) {
+                            "onset_time_sigma_s", "time_at_21_5_rs", "law_ref_time", "frames_outside_window"}) {
       names.push_back(v["name"].get<std::string>() + "_" + key);
       // The frames outside the window are named in result.json; the row counts them.
       values.push_back(std::string(key) == "frames_outside_window" ? std::to_string(v.value(key, json::array()).size())
-                                                                    : csv_field(v[key]));
+                                                                    : csv_field(v.contains(key) ? v[key] : json(nullptr)));
     }
   // The shell and the boundary values, flat, with their σ.
   const json& shell = result["shell"];
@@ -279,6 +332,16 @@ void write_csv_row(const fs::path& path, const json& result) {
   }
   names.push_back("shell_residual_rms_rs");
   values.push_back(shell.is_object() ? csv_field(shell["residual_rms_rs"]) : "");
+  // What the data leave open (shell_report.hpp): the direction's basis, and the keys not
+  // constrained, joined by ';' as arrays are here.
+  names.push_back("shell_direction_basis");
+  values.push_back(shell.is_object() && shell.contains("direction_basis") ? csv_field(shell["direction_basis"]) : "");
+  names.push_back("shell_not_constrained");
+  values.push_back(shell.is_object() && shell.contains("not_constrained") ? csv_field(shell["not_constrained"]) : "");
+  names.push_back("arrival_withheld");
+  values.push_back(result.contains("arrival_withheld") ? csv_field(result["arrival_withheld"]) : "");
+  names.push_back("arrival_conditional_on");
+  values.push_back(result.contains("arrival_conditional_on") ? csv_field(result["arrival_conditional_on"]) : "");
   const json& boundary = result["boundary"];
   for (const char* key : {"time", "speed_km_s", "half_width_deg"}) {
     names.push_back(std::string("boundary_") + key);
@@ -364,7 +427,13 @@ json run_measure(const MeasureOptions& o, std::ostream& err) {
   for (size_t i = 0; i < problems.size(); ++i)
     for (size_t j = problems.size(); j-- > i + 1;)
       if (problems[j] == problems[i]) problems.erase(problems.begin() + static_cast<std::ptrdiff_t>(j));
-  const std::string status = measured == 0 ? "failed" : measured < int(event.views.size()) ? "partial" : "ok";
+  // partial: a view could not be read, a view sees no CME while another does, the shell
+  // fit failed in a way its numbers do not show, or no arrival may be made from it.
+  const bool weak = shell.views_without_cme > 0 || !shell.arrival_withheld.empty() ||
+                    (shell.shell.is_object() && shell.shell["status"] != "ok");
+  const std::string status = measured == 0                            ? "failed"
+                             : measured < int(event.views.size()) || weak ? "partial"
+                                                                        : "ok";
   json result = {{"schema", "occulta.result/1"},
                  {"event_id", event.id},
                  {"status", status},
@@ -375,7 +444,9 @@ json run_measure(const MeasureOptions& o, std::ostream& err) {
 
   // The arrival estimate for the event's targets (default Earth), from the fit's boundary
   // values and covariance (fit/arrival): model estimates with stated uncertainty.
-  if (shell.boundary.is_object()) {
+  if (!shell.arrival_withheld.empty()) {
+    result["arrival_withheld"] = shell.arrival_withheld;
+  } else if (shell.boundary.is_object()) {
     try {
       const fit::ArrivalInput in = fit::read_arrival_input(result, (fs::path(o.out_dir) / "result.json").string());
       const fit::ForecastSettings settings =
@@ -384,6 +455,8 @@ json run_measure(const MeasureOptions& o, std::ostream& err) {
       ensemble.priors = settings.priors;
       result["arrival"] = fit::arrival_block(fit::forecast_arrivals(in.launch, in.covariance, settings.targets, ensemble),
                                              ensemble);
+      // An estimate that rests on an assumption the data do not test says so, beside it.
+      if (!shell.arrival_condition.empty()) result["arrival_conditional_on"] = shell.arrival_condition;
       result["caution"] = std::string(fit::kArrivalCaution);
     } catch (const imaging::InputError& e) {
       result["problems"].push_back(std::string("no arrival estimate: ") + e.what());
@@ -451,9 +524,25 @@ void print_result_table(const json& result, std::ostream& out) {
   const auto pm = [&](const char* key, int digits, const char* unit) {
     return shown_pm(s[key], s.contains("sigma") ? s["sigma"].value(key, json()) : json(), digits, unit);
   };
-  out << "shell (true, from all views): lon " << pm("lon_deg", 1, "°") << ", lat " << pm("lat_deg", 1, "°") << ", tilt "
+  // Say on what the shell rests, in words: the reader of this line may never open the JSON.
+  const std::string basis = s.value("direction_basis", std::string("views"));
+  const std::size_t n_views = s.contains("views") ? s["views"].size() : 0;
+  std::string heading;
+  if (basis == "views")
+    heading = "shell (direction measured from " + std::to_string(n_views) + " views)";
+  else if (basis == "source region")
+    heading = "shell (ONE view: direction ASSUMED from the source region, not measured)";
+  else
+    heading = "shell (direction NOT CONSTRAINED by the data: lon and lat below are a guess)";
+  if (s.value("status", std::string("ok")) != "ok") heading += " [FIT FAILED: see problems]";
+  out << heading << ": lon " << pm("lon_deg", 1, "°") << ", lat " << pm("lat_deg", 1, "°") << ", tilt "
       << pm("tilt_deg", 0, "°") << ", speed " << pm("speed_km_s", 0, " km/s") << ", face-on width "
       << pm("face_on_width_deg", 0, "°") << ", edge-on width " << pm("edge_on_width_deg", 0, "°") << "\n";
+  if (s.contains("not_constrained") && !s["not_constrained"].empty()) {
+    std::string keys;
+    for (const auto& k : s["not_constrained"]) keys += (keys.empty() ? "" : ", ") + k.get<std::string>();
+    out << "not constrained by the data: " << keys << "\n";
+  }
   const json& b = result["boundary"];
   if (b.is_object()) {
     const json sigma = b.value("sigma", json::object());
@@ -469,7 +558,14 @@ int measure(const MeasureOptions& o, std::ostream& out, std::ostream& err) {
   if (!o.quiet) {
     out << "event " << result["event_id"].get<std::string>() << ": " << result["status"].get<std::string>() << "\n";
     print_result_table(result, out);
-    if (result.contains("arrival")) print_arrival_table(result["arrival"], out);
+    if (result.contains("arrival")) {
+      if (result.contains("arrival_conditional_on"))
+        out << "arrival below is CONDITIONAL: it holds only if " << result["arrival_conditional_on"].get<std::string>()
+            << "\n";
+      print_arrival_table(result["arrival"], out);
+    }
+    if (result.contains("arrival_withheld"))
+      out << "arrival: WITHHELD: " << result["arrival_withheld"].get<std::string>() << "\n";
     out << "written: " << (fs::path(o.out_dir) / "result.json").string() << ", result.csv, track.json, <view>/time_height.png, <view>/front.png, <view>/shell.png\n";
   }
   return result["status"] == "ok" && result["problems"].empty() ? 0 : 1;

@@ -80,7 +80,7 @@ json shell_block(const fit::ShellFit& fit) {
   const std::vector<std::string> keys = {"lon_deg",        "lat_deg",        "tilt_deg",   "half_angle_deg",
                                          "aspect_ratio",   "apex_height_rs", "speed_km_s", "accel_m_s2"};
   const double unit[fit::kShellParams] = {kDegPerRad, kDegPerRad, kDegPerRad, kDegPerRad, 1.0, 1.0, 1.0, 1.0};
-  const bool direction_fitted = fit.covariance(fit::kLon, fit::kLon) > 0.0;
+  const bool direction_fitted = fit.direction_constrained && fit.covariance(fit::kLon, fit::kLon) > 0.0;
   json matrix = json::array();
   for (int i = 0; i < fit::kShellParams; ++i) {
     json row = json::array();
@@ -169,6 +169,118 @@ void draw_shell(const ViewForShell& v, const fit::ShellFit& fit, const std::vect
   write_png(path, with_caption(row, v.name + ": fitted shell outline (cyan) and the points it fits (yellow), +-4 sigma, north up"));
 }
 
+// What the data leave open, and whether the fit failed in a way that its numbers do not
+// show (issues 11 and 13): machine-readable marks in the shell block, sentences in the
+// problems, and the basis on which an arrival estimate may (or may not) be made.
+void judge_shell(const fit::ShellFit& fit, const std::vector<fit::EdgePoint>& points, std::size_t view_count,
+                 ShellReport& report) {
+  json& shell = report.shell;
+  json open = json::array();
+  std::vector<std::string> failures;
+  if (fit.direction_held) {
+    shell["direction_basis"] = "source region";
+    report.arrival_condition = "the CME's direction is taken from the event's source region (held fixed, σ " +
+                               std::to_string(static_cast<int>(std::lround(deg(fit.sigma[fit::kLon])))) +
+                               "° assumed), not measured: one view cannot fix it";
+  } else if (fit.direction_constrained) {
+    shell["direction_basis"] = "views";
+  } else {
+    shell["direction_basis"] = "none";
+    open.push_back("lon_deg");
+    open.push_back("lat_deg");
+    report.arrival_withheld = view_count >= 2
+                                  ? "the views do not constrain the CME's direction (see shell.notes)"
+                                  : "one view and no source region: the CME's direction is not constrained by the data";
+  }
+  if (view_count < 2) {
+    // One view sees the width only across its own sky: the shell's tilt, and with it how
+    // the width splits between the face-on and edge-on extents, is not measured.
+    for (const char* key : {"tilt_deg", "face_on_width_deg", "edge_on_width_deg"}) open.push_back(key);
+  }
+  shell["not_constrained"] = open;
+  shell["at_bound"] = fit.at_bound;
+  if (!fit.covariance_ok) failures.push_back("the shell fit's covariance is singular, so its σ are unknown");
+  for (std::size_t k = 0; k < fit::kShellParams; ++k)
+    if (fit.covariance_ok && k != fit::kAccel && !std::isfinite(fit.sigma[k])) {
+      failures.push_back("the shell fit's covariance gives no finite σ for every parameter");
+      break;
+    }
+  if (!fit.at_bound.empty()) {
+    std::string keys;
+    for (const std::string& k : fit.at_bound) keys += (keys.empty() ? "" : ", ") + k;
+    failures.push_back("the shell fit left " + keys + " on the solver's bound, so the fit did not find a minimum there");
+  }
+  if (report.boundary.is_object() && !points.empty()) {
+    double first = points.front().time_s;
+    for (const fit::EdgePoint& p : points) first = std::min(first, p.time_s);
+    const double crossing = imaging::utc_seconds_from_iso(report.boundary["time"].get<std::string>());
+    if (crossing < first - 1.0)
+      failures.push_back("the fitted apex law passes 21.5 R☉ before the first frame with points, at " +
+                         report.boundary["time"].get<std::string>());
+  }
+  shell["status"] = failures.empty() ? "ok" : "partial";
+  for (const std::string& f : failures) report.problems.push_back("shell fit failed: " + f + ".");
+  if (!failures.empty() && report.arrival_withheld.empty())
+    report.arrival_withheld = "the shell fit failed (" + failures.front() + ")";
+  if (!report.arrival_withheld.empty())
+    report.problems.push_back("no arrival estimate: " + report.arrival_withheld + ".");
+}
+
+// A view that sees no CME while another does is a problem, with its likely reason: its
+// frames miss the time the others saw the CME (outside the window); the fitted shell
+// stays inside the view's lowest height with data all that time (behind the occulter);
+// or else the CME was there but too faint (below the detection threshold).
+void name_views_without_cme(const std::vector<ViewForShell>& views, const std::vector<const ViewForShell*>& used,
+                            const std::vector<fit::EdgePoint>& points, const fit::ShellFit* fit, ShellReport& report) {
+  if (used.empty() || points.empty()) return;
+  double first = points.front().time_s, last = first;
+  for (const fit::EdgePoint& p : points) first = std::min(first, p.time_s), last = std::max(last, p.time_s);
+  for (const ViewForShell& v : views) {
+    if (std::find(used.begin(), used.end(), &v) != used.end() || v.polar.utc_s.empty()) continue;
+    ++report.views_without_cme;
+    const double t0 = v.polar.utc_s.front(), t1 = v.polar.utc_s.back();
+    std::string reason;
+    if (t1 < first || t0 > last) {
+      reason = "outside the window: its frames (" + imaging::iso_from_utc_seconds(t0, 0) + " to " +
+               imaging::iso_from_utc_seconds(t1, 0) + ") miss the time the other views saw the CME";
+    } else if (fit && fit->direction_constrained) {
+      // The lowest height with data in the view's last frame, against the fitted shell's
+      // largest sky height there.
+      const cv::Mat& frame = v.polar.frames.back();
+      int lowest = -1;
+      for (int r = 0; r < frame.rows && lowest < 0; ++r)
+        for (int c = 0; c < frame.cols; ++c)
+          if (std::isfinite(frame.at<float>(r, c))) {
+            lowest = r;
+            break;
+          }
+      const fit::ShellParams shell = fit::shell_at(*fit, t1);
+      const fit::SkyOutline outline = fit::sky_outline(fit::make_mesh(shell, {16, 96, 72}), shell, v.observer, 1.0);
+      double highest = 0.0;
+      for (const double h : outline.max_height_rs)
+        if (std::isfinite(h)) highest = std::max(highest, h);
+      const double inner = lowest >= 0 ? v.polar.polar.height_rs(lowest) : 0.0;
+      if (highest < inner + imaging::FrontOptions{}.inner_margin_rs) {
+        char text[200];
+        std::snprintf(text, sizeof text,
+                      "behind the occulter: the fitted shell reaches only %.1f R☉ on its sky by the last frame, inside the "
+                      "lowest height with data (%.1f R☉)", highest, inner);
+        reason = text;
+      }
+    }
+    if (reason.empty()) {
+      std::string why = v.front.why_not;
+      while (!why.empty() && why.back() == '.') why.pop_back();
+      // Without a shell whose direction the data fix, where it would show cannot be said.
+      reason = fit && fit->direction_constrained
+                   ? "below the detection threshold (" + why + ")"
+                   : "below the detection threshold, or behind the occulter — with no constrained shell, which cannot be told (" +
+                         why + ")";
+    }
+    report.problems.push_back("view " + v.name + " sees no CME while another view does: " + reason + ".");
+  }
+}
+
 }  // namespace
 
 ShellReport fit_and_report_shell(const std::vector<ViewForShell>& views,
@@ -201,7 +313,9 @@ ShellReport fit_and_report_shell(const std::vector<ViewForShell>& views,
     sv.observer = v.observer;
     if (v.front.found) {
       sv.central_pa_deg = v.front.central_pa_deg;
-      sv.width_deg = v.front.width_deg;
+      // A front round the occulter on both sides of the Sun has no single PA: a halo for
+      // the fit's start (fit/shell_fit.hpp, width ≥ 300°).
+      sv.width_deg = v.front.encircles ? 360.0 : v.front.width_deg;
     } else {  // analyst points only: their mean PA and extent
       double ss = 0.0, sc = 0.0, lo = 360.0, hi = -360.0;
       for (std::size_t i = before; i < points.size(); ++i) {
@@ -234,6 +348,7 @@ ShellReport fit_and_report_shell(const std::vector<ViewForShell>& views,
   fit::ShellFit fit = fit::fit_shell(fit_views, points, options);
   if (!fit.ok) {
     report.problems.push_back("no shell fit: " + fit.problem + ".");
+    name_views_without_cme(views, used, points, nullptr, report);
     return report;
   }
   // The same fit to the fronts' outer edges (the threshold edge of imaging/front): the
@@ -251,6 +366,8 @@ ShellReport fit_and_report_shell(const std::vector<ViewForShell>& views,
   report.boundary = boundary_block(fit);
   if (report.boundary.is_null())
     report.problems.push_back("the fitted apex law never reaches 21.5 R☉: no boundary values.");
+  judge_shell(fit, points, used.size(), report);
+  name_views_without_cme(views, used, points, &fit, report);
   for (std::size_t i = 0; i < used.size(); ++i) {
     fs::create_directories(out_dir / used[i]->name);
     draw_shell(*used[i], fit, points, static_cast<int>(i), out_dir / used[i]->name / "shell.png");

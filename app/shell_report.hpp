@@ -5,7 +5,10 @@
 // three times.
 //
 // Units at this interface: degrees, km/s, m/s², R☉, ISO 8601 UTC; σ under `sigma` with
-// the same keys. `shell.covariance` {keys, matrix} is the fit's covariance in those keys'
+// the same keys. What the data leave open is marked: `shell.direction_basis` ("views",
+// "source region" or "none"), `shell.not_constrained` (the keys of quantities the data do
+// not fix), `shell.at_bound` (keys left on a solver bound) and `shell.status` ("ok", or
+// "partial" when the fit failed in a way its numbers do not show). `shell.covariance` {keys, matrix} is the fit's covariance in those keys'
 // units — what the arrival ensemble (fit/arrival) draws from.
 #pragma once
 
@@ -40,6 +43,14 @@ struct ShellReport {
   nlohmann::json shell;                // null when there is no fit
   nlohmann::json boundary;             // null when there is no fit or the apex never reaches 21.5 R☉
   std::vector<std::string> problems;   // sentences for result.json
+  // Not empty: no arrival estimate may be made from this shell, and why (a direction the
+  // data do not constrain, or a failed fit: singular covariance, a parameter on its
+  // bound, a boundary crossing before the data).
+  std::string arrival_withheld;
+  // Not empty: an arrival estimate holds only under this assumption (one view, the
+  // direction taken from the source region).
+  std::string arrival_condition;
+  int views_without_cme = 0;           // views that see no CME while another does (each named in problems)
 };
 
 // Fits the shell over the views that found a CME (or have analyst points), writes each

@@ -268,7 +268,7 @@ HeightCrossing time_at_height(const HeightTimeFit& fit, double height_rs) {
     const Eigen::Vector3d to_rs(1.0, 1.0 / kSolarRadiusKm, 1.0 / (1000.0 * kSolarRadiusKm));
     const Eigen::Matrix3d cov_rs = to_rs.asDiagonal() * fit.covariance * to_rs.asDiagonal();
     const Eigen::Vector3d g = -Eigen::Vector3d(1.0, tau, 0.5 * tau * tau) / slope;
-    out.sigma_s = std::sqrt(std::max(0.0, g.dot(cov_rs * g)));
+    out.sigma_s = fit.coverage_factor * std::sqrt(std::max(0.0, g.dot(cov_rs * g)));
   }
   return out;
 }
@@ -296,7 +296,9 @@ HeightTimeFit fit_height_time(const std::vector<HeightTimePoint>& points, const 
     // Huber loss with δ = 1.345 ŝ (Huber's constant for 95 % efficiency at the normal —
     // common practice), ŝ from the residual MAD of the plain fit, then once more from the
     // first robust fit's residuals, whose MAD an outlier no longer inflates.
-    const double floor = 1e-9 * std::max(1.0, max_abs);
+    // The floor: rounding for data exact to it, else the measurement's own resolution, so
+    // that δ never shrinks below what the points can resolve.
+    const double floor = std::max(1e-9 * std::max(1.0, max_abs), d.has_sigma ? 0.0 : options.resolution_rs);
     for (int pass = 0; pass < 2 && s.ok; ++pass) {
       fit.robust_scale = robust_scale(whitened_residuals(d, s.theta), p, floor);
       fit.huber_delta = 1.345 * fit.robust_scale;
@@ -330,28 +332,40 @@ HeightTimeFit fit_height_time(const std::vector<HeightTimePoint>& points, const 
   fit.law.accel_m_s2 = s.theta[2] / (T * T) * 1000.0 * kSolarRadiusKm;
 
   fit.covariance_scaled = !d.has_sigma;
-  fit.sigmas_known = d.has_sigma || fit.dof > 0;
+  // Without σ the scale comes from the scatter, and n − p ≤ 1 degrees of freedom cannot
+  // give one worth stating (kinematics.hpp).
+  fit.sigmas_known = d.has_sigma || fit.dof > 1;
   double scale = 1.0;  // with σ: the covariance stands as Ceres gives it
   if (!d.has_sigma && fit.dof > 0) {
     // No σ given: each residual had σ = 1 R☉ in the problem, so scale the covariance by
     // the estimated residual variance — s² = SSR/(n − p) for plain fits, ŝ² (robust MAD
-    // scale) for robust ones, which an outlier does not inflate.
+    // scale) for robust ones, which an outlier does not inflate, but never below SSR/(n − p)
+    // when the MAD rests on too few residuals, nor below the resolution (kinematics.hpp).
     fit.residual_variance = fit.chi_square / fit.dof;
-    scale = options.robust && n > p ? fit.robust_scale * fit.robust_scale : fit.residual_variance;
+    scale = fit.residual_variance;
+    if (options.robust && n > p) {
+      constexpr int kFewDof = 6;  // below this the MAD is too unstable to trust alone (our choice)
+      const double robust2 = fit.robust_scale * fit.robust_scale;
+      scale = fit.dof < kFewDof ? std::max(robust2, fit.residual_variance) : robust2;
+    }
+    scale = std::max(scale, options.resolution_rs * options.resolution_rs);
+    fit.coverage_factor = coverage_factor(fit.dof);
   } else if (d.has_sigma && fit.dof > 0) {
     fit.residual_variance = fit.chi_square / fit.dof;  // reduced χ²
   }
   const Eigen::Vector3d to_physical(1.0, kSolarRadiusKm / T, 1000.0 * kSolarRadiusKm / (T * T));
   if (fit.sigmas_known) {
     fit.covariance = scale * (to_physical.asDiagonal() * s.covariance * to_physical.asDiagonal());
-    fit.height_sigma_rs = std::sqrt(fit.covariance(0, 0));
-    fit.speed_sigma_km_s = std::sqrt(fit.covariance(1, 1));
-    fit.accel_sigma_m_s2 = p == 3 ? std::sqrt(fit.covariance(2, 2)) : 0.0;
+    const double k = fit.coverage_factor;
+    fit.height_sigma_rs = k * std::sqrt(fit.covariance(0, 0));
+    fit.speed_sigma_km_s = k * std::sqrt(fit.covariance(1, 1));
+    fit.accel_sigma_m_s2 = p == 3 ? k * std::sqrt(fit.covariance(2, 2)) : 0.0;
   } else {
     fit.covariance.setConstant(kNaN);
-    fit.problem = "the " + std::string(to_string(options.model)) + " law passes exactly through its " +
-                  std::to_string(n) + " points, so its uncertainties are unknown; they need " +
-                  std::to_string(p + 1) + " points, or a sigma for each point";
+    fit.problem = "the " + std::string(to_string(options.model)) + " law has " + std::to_string(n) +
+                  " points for its " + std::to_string(p) +
+                  " parameters, too few to estimate its uncertainties from their scatter; they need " +
+                  std::to_string(p + 2) + " points, or a sigma for each point";
   }
 
   fit.onset = time_at_height(fit, kOnsetHeightRs);
@@ -366,6 +380,60 @@ HeightTimeFit fit_height_time(const std::vector<HeightTimePoint>& points, const 
   return fit;
 }
 
+double student_t_central(double t, int dof) {
+  // Abramowitz & Stegun (1964) 26.7.3 (ν odd) and 26.7.4 (ν even), θ = atan(t/√ν):
+  //   ν odd:  A = (2/π) [θ + sin θ (cos θ + (2/3) cos³θ + … + (2·4…(ν−3))/(1·3…(ν−2)) cos^(ν−2) θ)]
+  //   ν even: A = sin θ [1 + (1/2) cos²θ + (1·3)/(2·4) cos⁴θ + … + (1·3…(ν−3))/(2·4…(ν−2)) cos^(ν−2) θ]
+  if (!(t > 0.0) || dof < 1) return 0.0;
+  const double theta = std::atan(t / std::sqrt(static_cast<double>(dof)));
+  const double c = std::cos(theta), c2 = c * c, sn = std::sin(theta);
+  if (dof % 2 == 1) {
+    double sum = 0.0, term = c;  // the bracket's terms: c, (2/3)c³, (2·4)/(3·5)c⁵, …
+    if (dof >= 3) {
+      sum = term;
+      for (int k = 3; k <= dof - 2; k += 2) {
+        term *= c2 * (k - 1.0) / k;
+        sum += term;
+      }
+    }
+    return 2.0 / kPi * (theta + sn * sum);
+  }
+  double sum = 1.0, term = 1.0;  // 1, (1/2)c², (1·3)/(2·4)c⁴, …
+  for (int k = 2; k <= dof - 2; k += 2) {
+    term *= c2 * (k - 1.0) / k;
+    sum += term;
+  }
+  return sn * sum;
+}
+
+double coverage_factor(int dof) {
+  if (dof < 1) return kNaN;
+  const double target = std::erf(std::sqrt(2.0));  // P(|Z| < 2), 0.9545
+  // Bisection on the monotone A(t|ν) between 2 (the normal limit) and a t far beyond
+  // t_1(0.97725) ≈ 14.0.
+  double lo = 2.0, hi = 64.0;
+  for (int i = 0; i < 100; ++i) {
+    const double mid = 0.5 * (lo + hi);
+    (student_t_central(mid, dof) < target ? lo : hi) = mid;
+  }
+  return 0.5 * (lo + hi) / 2.0;
+}
+
+void add_definition_spread(HeightTimeFit& fit, const HeightTimeFit& other) {
+  if (fit.status != FitStatus::ok || other.status != FitStatus::ok || !fit.sigmas_known) return;
+  const double t = fit.law.ref_time_s;
+  const Eigen::Vector3d spread(0.5 * std::abs(fit.law.height_rs - other.law.height_at(t)),
+                               0.5 * std::abs(fit.law.speed_km_s - other.law.speed_at(t)),
+                               0.5 * std::abs(fit.law.accel_m_s2 - other.law.accel_m_s2));
+  fit.definition_spread = spread;
+  fit.height_sigma_rs = std::hypot(fit.height_sigma_rs, spread(0));
+  fit.speed_sigma_km_s = std::hypot(fit.speed_sigma_km_s, spread(1));
+  if (fit.model == HeightTimeModel::quadratic) fit.accel_sigma_m_s2 = std::hypot(fit.accel_sigma_m_s2, spread(2));
+  for (auto [mine, theirs] : {std::pair{&fit.onset, &other.onset}, std::pair{&fit.boundary, &other.boundary}})
+    if (mine->found && theirs->found && std::isfinite(mine->sigma_s))
+      mine->sigma_s = std::hypot(mine->sigma_s, 0.5 * std::abs(mine->time_s - theirs->time_s));
+}
+
 namespace {
 
 // AICc of a finished fit on n points (formula in kinematics.hpp).
@@ -378,10 +446,11 @@ double aicc(const HeightTimeFit& fit, bool has_sigma, double ssr_floor_rs2) {
 
 }  // namespace
 
-ModelChoice choose_height_time_model(const std::vector<HeightTimePoint>& points, bool robust, double min_aicc_gain) {
+ModelChoice choose_height_time_model(const std::vector<HeightTimePoint>& points, bool robust, double min_aicc_gain,
+                                     double resolution_rs) {
   ModelChoice out;
-  out.linear = fit_height_time(points, {HeightTimeModel::linear, robust});
-  out.quadratic = fit_height_time(points, {HeightTimeModel::quadratic, robust});
+  out.linear = fit_height_time(points, {HeightTimeModel::linear, robust, resolution_rs});
+  out.quadratic = fit_height_time(points, {HeightTimeModel::quadratic, robust, resolution_rs});
   out.chosen = out.linear;
   if (out.linear.status != FitStatus::ok) {
     out.reason = "no linear fit: " + out.linear.problem;

@@ -46,6 +46,11 @@ enum class FitStatus {
 struct HeightTimeOptions {
   HeightTimeModel model = HeightTimeModel::linear;
   bool robust = false;  // Huber loss; scale from the residual MAD of a plain fit first
+  // The measurement's own 1σ height resolution per point, R☉ (e.g. a height grid step
+  // Δ as Δ/√12, the variance of uniform rounding — common practice): the residual scale
+  // estimated from the scatter is never taken below it, so points that happen to lie on a
+  // line cannot give σ of nothing. 0: no floor. Ignored when the points carry σ.
+  double resolution_rs = 0.0;
 };
 
 // When the fitted law reaches a given height, going upward.
@@ -71,16 +76,31 @@ struct HeightTimeFit {
   ApexLaw law;
 
   // Covariance of (height_rs, speed_km_s, accel_m_s2) at t_ref, from ceres::Covariance.
-  // Without per-point σ it is scaled by the residual variance s² = SSR/(n − p) (the σ
-  // are then unknown and estimated from the scatter, covariance_scaled = true); with σ
-  // it is taken as is — the σ are believed (covariance_scaled = false). For robust fits
-  // s is the robust residual scale below. Linear fits: the accel row and column are 0.
+  // Without per-point σ it is scaled by the residual variance s² (the σ are then unknown
+  // and estimated from the scatter, covariance_scaled = true):
+  //   s² = max(SSR/(n − p), resolution_rs²)                                  plain fits
+  //   s² = max(ŝ², resolution_rs²), and at least SSR/(n − p) when n − p < 6  robust fits
+  // (the MAD of a handful of residuals is too unstable to judge outliers by: that of a
+  // line through 3 points is exactly 0). With σ it is taken as is — the σ are believed
+  // (covariance_scaled = false). Linear fits: the accel row and column are 0.
   Eigen::Matrix3d covariance = Eigen::Matrix3d::Zero();
+  // The reported σ: √diag(covariance) × coverage_factor, plus any definition spread
+  // (add_definition_spread) in quadrature. NaN when sigmas_known is false.
   double height_sigma_rs = std::numeric_limits<double>::quiet_NaN();
   double speed_sigma_km_s = std::numeric_limits<double>::quiet_NaN();
   double accel_sigma_m_s2 = std::numeric_limits<double>::quiet_NaN();
-  bool sigmas_known = false;       // false when n = p and no σ given: exact through the points
+  // False without per-point σ when n ≤ p + 1: a scale estimated from n − p ≤ 1 degrees
+  // of freedom says nearly nothing (Student's t with 1 dof has no variance), so the fit
+  // states no σ at all and `problem` says why.
+  bool sigmas_known = false;
   bool covariance_scaled = false;
+  // Small-sample widening of the reported σ when the scale is estimated from the scatter:
+  // k = t_ν(0.97725) / 2, ν = n − p, so that ±2σ is the Student-t interval of the normal
+  // ±2σ coverage (95.45 %; Student 1908 — common practice). 1 when σ are given.
+  double coverage_factor = 1.0;
+  // Half the difference between this law and one fitted to another reasonable definition
+  // of the same leading edge (add_definition_spread), per parameter; 0 when none.
+  Eigen::Vector3d definition_spread = Eigen::Vector3d::Zero();
 
   int dof = 0;                          // n − p
   double chi_square = 0.0;              // Σ ((h_i − h(t_i)) / σ_i)², σ_i = 1 R☉ when not given
@@ -101,6 +121,22 @@ struct HeightTimeFit {
 
 // Fits the chosen model to the points (any order).
 HeightTimeFit fit_height_time(const std::vector<HeightTimePoint>& points, const HeightTimeOptions& options = {});
+
+// P(|T| < t) for Student's t with `dof` ≥ 1 degrees of freedom, by the closed-form finite
+// series of Abramowitz & Stegun (1964) 26.7.3–26.7.4.
+double student_t_central(double t, int dof);
+
+// k = t_ν(0.97725) / 2 (above): the t at which student_t_central equals erf(√2), halved.
+double coverage_factor(int dof);
+
+// Folds the systematic of the leading edge's definition into `fit`: `other` is the same
+// model fitted to the same view's edge by another reasonable definition (e.g. the outer
+// threshold edge instead of the band's edge_fraction edge). Each of (h at fit's t_ref, v,
+// a) gets σ_sys = |θ − θ_other| / 2 added in quadrature to its reported σ, and the onset
+// and 21.5 R☉ times likewise by half the difference of the two fits' crossings — the
+// same construction as fit/shell_fit.hpp merge_edge_fits. No-op unless both fits are ok
+// and fit has sigmas.
+void add_definition_spread(HeightTimeFit& fit, const HeightTimeFit& other);
 
 // When the fitted law rises through height_rs: the root of h(t) = height_rs where
 // h′(t) > 0 (a quadratic has at most one), with σ from the fit covariance by first-order
@@ -124,8 +160,9 @@ struct ModelChoice {
   std::string reason;  // one sentence: why this model
 };
 
+// resolution_rs: HeightTimeOptions::resolution_rs for both fits.
 ModelChoice choose_height_time_model(const std::vector<HeightTimePoint>& points, bool robust = false,
-                                     double min_aicc_gain = 2.0);
+                                     double min_aicc_gain = 2.0, double resolution_rs = 0.0);
 
 const char* to_string(HeightTimeModel model);  // "linear" | "quadratic"
 const char* to_string(FitStatus status);       // "ok", "too few points", ...

@@ -4,6 +4,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdio>
 #include <limits>
 #include <map>
 #include <memory>
@@ -279,16 +280,31 @@ void normalise(Params& x) {
   x.shape[0] = t;
 }
 
+// The largest angle between two views' central-PA planes (direction_from_planes), deg.
+double plane_spread_deg(const std::vector<ShellView>& views) {
+  std::vector<Eigen::Vector3d> normals;
+  for (const ShellView& v : views)
+    if (v.width_deg < 300.0)
+      normals.push_back(v.observer.heeq_p_obs_km().normalized().cross(heeq_sky_direction(v.observer, v.central_pa_deg)).normalized());
+  double widest = 0.0;
+  for (std::size_t i = 0; i < normals.size(); ++i)
+    for (std::size_t j = i + 1; j < normals.size(); ++j)
+      widest = std::max(widest, std::acos(std::clamp(std::abs(normals[i].dot(normals[j])), 0.0, 1.0)) * kDegPerRad);
+  return widest;
+}
+
 // Candidate apex directions for the start.
 std::vector<Eigen::Vector3d> start_directions(const std::vector<ShellView>& views, const ShellFitOptions& options,
                                               bool& constrained, bool& held) {
   constrained = true;
   held = false;
   std::vector<Eigen::Vector3d> out;
-  if (auto d = direction_from_planes(views)) {
-    out.push_back(*d);
-    return out;
-  }
+  const auto planes = direction_from_planes(views);
+  if (planes) out.push_back(*planes);
+  // Planes a few degrees apart fix the start's direction poorly (their intersection
+  // moves by tens of degrees for a degree of central PA): more starts then, along the
+  // first view's plane, as below — two views stay two views (issue 11).
+  if (planes && plane_spread_deg(views) >= kPlanesWellApartDeg) return out;
   std::vector<const ShellView*> with_pa, halos;
   for (const ShellView& v : views) (v.width_deg >= 300.0 ? halos : with_pa).push_back(&v);
   if (views.size() == 1 && options.source_lon_lat_deg) {
@@ -311,8 +327,10 @@ std::vector<Eigen::Vector3d> start_directions(const std::vector<ShellView>& view
         if (a > 0.0) out.push_back((a * sky + b * toward).normalized());
       }
     }
-    if (!out.empty()) return out;
-    constrained = false;
+    if (!out.empty() && !planes) return out;
+    // One view: nothing but a source region could fix the direction. Two or more: the
+    // fit's covariance decides (fit_shell).
+    constrained = views.size() >= 2;
     for (const double eps_deg : {-60.0, -30.0, 0.0, 30.0, 60.0}) {
       const double e = eps_deg * kRadPerDeg;
       out.push_back(std::cos(e) * sky + std::sin(e) * toward);
@@ -455,9 +473,12 @@ std::optional<Eigen::Vector3d> direction_from_planes(const std::vector<ShellView
   }
   if (skies.size() < 2) return std::nullopt;
   const Eigen::SelfAdjointEigenSolver<Eigen::Matrix3d> eig(scatter);
-  // Planes within ~5° of each other (second eigenvalue ≈ sin² of the angle between them)
-  // leave the line along them undetermined.
-  if (eig.eigenvalues()(1) < std::pow(std::sin(5.0 * kRadPerDeg), 2)) return std::nullopt;
+  // Two unit normals at an angle θ give the eigenvalues 1 ± cos θ (and 0), so the middle
+  // one is 1 − cos θ = 2 sin²(θ/2) ≈ θ²/2 — not sin²θ. Planes within kPlanesApartMinDeg of
+  // each other leave the line along them undetermined for the start; the fit then starts
+  // from several directions in those planes (start_directions) and its covariance says
+  // how well the views fix the direction.
+  if (eig.eigenvalues()(1) < 2.0 * std::pow(std::sin(0.5 * kPlanesApartMinDeg * kRadPerDeg), 2)) return std::nullopt;
   Eigen::Vector3d dir = eig.eigenvectors().col(0).normalized();
   double toward = 0.0;
   for (const Eigen::Vector3d& sky : skies) toward += dir.dot(sky);
@@ -511,6 +532,7 @@ ShellFit fit_shell(const std::vector<ShellView>& views, const std::vector<EdgePo
   bool constrained = true, held = false;
   const std::vector<Eigen::Vector3d> directions = start_directions(views, options, constrained, held);
   fit.direction_constrained = constrained || held;
+  fit.direction_held = held;
   double widest = 0.0;
   for (const ShellView& v : views)
     if (v.width_deg < 300.0) widest = std::max(widest, v.width_deg);
@@ -666,7 +688,22 @@ ShellFit fit_shell(const std::vector<ShellView>& views, const std::vector<EdgePo
   }
   for (int i = 0; i < kShellParams; ++i) fit.sigma[static_cast<std::size_t>(i)] = have_cov ? std::sqrt(std::max(0.0, fit.covariance(i, i))) : kNaN;
   if (options.law == ApexLawKind::linear) fit.sigma[kAccel] = 0.0;
-  if (held) {
+  fit.covariance_ok = have_cov;
+  if (!held && constrained &&
+      !(have_cov && fit.sigma[kLon] * kDegPerRad <= kDirectionConstrainedDeg &&
+        fit.sigma[kLat] * kDegPerRad <= kDirectionConstrainedDeg)) {
+    // Two or more views, but the full fit's covariance leaves the direction loose (or
+    // cannot be computed): the views do not constrain it.
+    constrained = false;
+    fit.direction_constrained = false;
+    char text[200];
+    std::snprintf(text, sizeof text,
+                  "%zu views, but the fit's covariance leaves the direction unconstrained (σ lon %.0f°, lat %.0f°; limit %.0f°)",
+                  views.size(), fit.sigma[kLon] * kDegPerRad, fit.sigma[kLat] * kDegPerRad, kDirectionConstrainedDeg);
+    fit.notes.push_back(text);
+    fit.sigma[kLon] = std::max(std::isfinite(fit.sigma[kLon]) ? fit.sigma[kLon] : 0.0, kUnconstrainedLonSigmaDeg * kRadPerDeg);
+    fit.sigma[kLat] = std::max(std::isfinite(fit.sigma[kLat]) ? fit.sigma[kLat] : 0.0, kUnconstrainedLatSigmaDeg * kRadPerDeg);
+  } else if (held) {
     fit.sigma[kLon] = fit.sigma[kLat] = options.source_sigma_deg * kRadPerDeg;
     fit.notes.push_back("one view: the direction is the source region's, held fixed; its σ is the stated " +
                         std::to_string(static_cast<int>(options.source_sigma_deg)) + "° allowance");
@@ -674,6 +711,18 @@ ShellFit fit_shell(const std::vector<ShellView>& views, const std::vector<EdgePo
     fit.sigma[kLon] = kUnconstrainedLonSigmaDeg * kRadPerDeg;
     fit.sigma[kLat] = kUnconstrainedLatSigmaDeg * kRadPerDeg;
     fit.notes.push_back("one view and no source region: the direction is unconstrained (wide σ)");
+  }
+  // Parameters the solver left on a bound of run_solve (x before normalise: the bounds
+  // apply to the raw values; lat is not wrapped, so it is the same).
+  const auto on = [](double value, double bound) { return std::abs(value - bound) <= 1e-6 * std::max(1.0, std::abs(bound)); };
+  if (!held && constrained && (on(x.direction[1], -0.49 * kPi) || on(x.direction[1], 0.49 * kPi))) fit.at_bound.push_back("lat_deg");
+  if (on(x.shape[1], 1.0 * kRadPerDeg) || on(x.shape[1], 75.0 * kRadPerDeg)) fit.at_bound.push_back("half_angle_deg");
+  if (on(x.shape[2], 0.03) || on(x.shape[2], 0.85)) fit.at_bound.push_back("aspect_ratio");
+  if (options.law != ApexLawKind::free_per_time) {
+    if (on(x.law[0], 1.0) || on(x.law[0], 300.0)) fit.at_bound.push_back("apex_height_rs");
+    if (on(x.law[1], 10.0) || on(x.law[1], 6000.0)) fit.at_bound.push_back("speed_km_s");
+    if (options.law == ApexLawKind::quadratic && (on(x.law[2], -1000.0) || on(x.law[2], 1000.0)))
+      fit.at_bound.push_back("accel_m_s2");
   }
   fit.ok = true;
   return fit;

@@ -33,6 +33,10 @@
 // widest PA span; aspect ratio 0.3; the height law from the outermost leading edge of the
 // least foreshortened view. Six tilts × two half-angles are started on a quarter of the
 // points; the three best are refined on all points and the lowest cost is kept.
+// Planes fewer than kPlanesWellApartDeg apart also start from five directions along the
+// first view's plane (ε = 0, ±30°, ±60° out of its sky plane). Two or more views always
+// fit the direction; the full fit's covariance decides whether it is constrained
+// (kDirectionConstrainedDeg), never the start.
 // One view: the event's source region fixes the direction (held constant, σ stated by the
 // caller); with no source the direction is searched over a grid, and the result says it
 // is unconstrained and carries wide σ (kUnconstrainedLonSigmaDeg, …).
@@ -63,6 +67,13 @@ namespace occulta::fit {
 // the circle in longitude, a sixth in latitude — our choice, stated in the result.
 inline constexpr double kUnconstrainedLonSigmaDeg = 90.0;
 inline constexpr double kUnconstrainedLatSigmaDeg = 60.0;
+// Two or more views: the direction counts as constrained when the full fit's covariance
+// gives σ lon and σ lat at most this (our choice: wider, and a hit on a target 30° off
+// the axis is a coin toss). Central-PA planes closer than kPlanesApartMinDeg give no
+// start direction; closer than kPlanesWellApartDeg, more starts along them as well.
+inline constexpr double kDirectionConstrainedDeg = 30.0;
+inline constexpr double kPlanesApartMinDeg = 0.5;
+inline constexpr double kPlanesWellApartDeg = 10.0;
 
 // One observed leading-edge point.
 struct EdgePoint {
@@ -117,6 +128,9 @@ struct ShellFit {
       Eigen::Matrix<double, kShellParams, kShellParams>::Zero();
   std::array<double, kShellParams> sigma{};  // √diag, with the held-direction σ filled in
   bool direction_constrained = true;
+  bool direction_held = false;               // one view: the source region's direction, held fixed
+  bool covariance_ok = false;                // ceres::Covariance succeeded (else σ are NaN)
+  std::vector<std::string> at_bound;         // shell-block keys of parameters left on a solver bound
   double covariance_inflation = 1.0;         // the design effect, applied above
   std::array<double, kShellParams> systematic{};  // σ_sys added by merge_edge_fits (0: none)
 

@@ -5,6 +5,7 @@
 #include <cmath>
 #include <cstdint>
 #include <limits>
+#include <map>
 #include <numeric>
 
 #include <opencv2/imgproc.hpp>
@@ -214,7 +215,9 @@ std::vector<int> usable_track_rows(const PolarSequence& s, const FrontOptions& o
 
 }  // namespace
 
-std::vector<TrackPoint> follow_track(const PolarSequence& s, double pa_deg, int from_frame, const FrontOptions& o) {
+std::vector<TrackPoint> follow_track(const PolarSequence& s, double pa_deg, int from_frame, const FrontOptions& o,
+                                     TrackCensoring* censored) {
+  TrackCensoring count;
   RowRange range;
   const std::vector<int> rows = usable_track_rows(s, o, range);
   const int frames = int(s.frames.size()) - from_frame;
@@ -267,15 +270,25 @@ std::vector<TrackPoint> follow_track(const PolarSequence& s, double pa_deg, int 
   // outer side: climb to the band's local peak, then outward to where the profile falls
   // below edge_fraction × peak (linear between rows; a half-maximum edge is common practice).
   std::vector<TrackPoint> track;
+  bool left_field = false;  // a frame's edge already lay at or beyond the field stop
   double floor_rs = -std::numeric_limits<double>::infinity();
   for (int k = 0; k < frames; ++k) {
     int i = path[k];
-    if (i < 0 || v[k][i] < o.threshold_sigma) continue;
+    if (i < 0) continue;
+    if (v[k][i] < o.threshold_sigma) {
+      // Nothing significant on the path: no front in this frame — or one that has run out
+      // of the data, when the path (which never falls) is at the top of the field or in a
+      // missing block. Those are censored.
+      if (left_field || (!track.empty() && i >= n - 3)) ++count.at_field_stop;
+      else if (!has_data[k][i]) ++count.at_data_gap;
+      continue;
+    }
     while (i + 1 < n && v[k][i + 1] > v[k][i]) ++i;
     const float peak = v[k][i];
     const float level = float(o.edge_fraction) * peak;
     double height = s.polar.height_rs(rows[i]);
     bool blind = false;  // the band has no data just outside the front (a missing block)
+    bool fell = false;   // the profile fell to the level below the field stop
     for (int j = i; j + 1 < n; ++j) {
       if (!has_data[k][j + 1]) {
         blind = true;
@@ -284,15 +297,67 @@ std::vector<TrackPoint> follow_track(const PolarSequence& s, double pa_deg, int 
       if (v[k][j + 1] < level) {
         const double f = (v[k][j] - level) / std::max(1e-6f, v[k][j] - v[k][j + 1]);
         height = s.polar.height_rs(rows[j]) + f * s.polar.height_step_rs;
+        fell = true;
         break;
       }
     }
-    if (blind) continue;
+    // Censored: the edge lies in a gap, at or beyond the field stop, or the band is still
+    // brightest on the lowest usable row (the front not yet clear of the occulter).
+    if (blind) {
+      ++count.at_data_gap;
+      continue;
+    }
+    if (!fell) {
+      ++count.at_field_stop;
+      left_field = true;
+      continue;
+    }
+    if (i == 0 && n > 1 && v[k][1] < v[k][0]) {
+      ++count.behind_occulter;
+      continue;
+    }
     height = std::max(height, floor_rs);  // the refinement keeps the track from falling
     floor_rs = height;
     track.push_back({from_frame + k, s.utc_s[from_frame + k], pa_deg, height, double(peak)});
   }
+  if (censored) *censored = count;
   return track;
+}
+
+bool height_measurable(const PolarSequence& s, int frame, double pa_deg, double height_rs, double margin_rs,
+                       std::string& why) {
+  const PolarGrid& g = s.polar;
+  if (frame < 0 || frame >= int(s.frames.size())) {
+    why = "outside the frames";
+    return false;
+  }
+  const std::vector<float> profile = band_profile(s.frames[std::size_t(frame)], g, pa_deg, 2.0);
+  const double row = (height_rs - g.height_rs(0)) / g.height_step_rs;
+  const int margin = std::max(1, int(std::ceil(margin_rs / g.height_step_rs - 1e-9)));
+  const int at = int(std::lround(row));
+  if (at >= g.height_count || at < 0) {
+    why = at < 0 ? "behind the occulter" : "at the field stop";
+    return false;
+  }
+  // Walk outward and inward from the point: the first row without data within the margin
+  // says which edge of the data it sits at.
+  for (int d = 0; d <= margin; ++d) {
+    const int up = at + d;
+    if (up >= g.height_count || !std::isfinite(profile[std::size_t(std::max(0, up))])) {
+      bool beyond = true;  // nothing but missing rows from here to the top: the field stop
+      for (int r = std::max(0, up); r < g.height_count; ++r) beyond &= !std::isfinite(profile[std::size_t(r)]);
+      why = beyond ? "at the field stop" : "at a data gap";
+      return false;
+    }
+    const int down = at - d;
+    if (down < 0 || !std::isfinite(profile[std::size_t(down)])) {
+      bool below = true;  // nothing but missing rows down to the bottom: the occulter
+      for (int r = std::min(down, g.height_count - 1); r >= 0; --r) below &= !std::isfinite(profile[std::size_t(r)]);
+      why = below ? "behind the occulter" : "at a data gap";
+      return false;
+    }
+  }
+  return true;
 }
 
 Front find_front(const PolarSequence& s, const FrontOptions& o) {
@@ -367,8 +432,79 @@ Front find_front(const PolarSequence& s, const FrontOptions& o) {
   front.onset_utc_s = s.utc_s[front.onset_frame];
   front.last_frame = chain.back()->frame;
 
-  // Step 4 and the span: the union of the chain's regions.
+  // Step 3b, a halo: a CME heading along the line of sight shows as a front round the
+  // occulter, brightest where the line of sight grazes its flanks — often on two opposite
+  // sides, with fainter parts between that the threshold splits off. Another chain that
+  // moves with the chosen one is the same front: in ≥ min_frames frames of the chosen
+  // chain it lies apart from it in PA with its outer edge at the same height (within
+  // companion_height_fraction of the height above the lowest row examined, at least 3
+  // rows). Its regions join the chain's (up to three such chains).
+  std::vector<const Region*> joined;
+  {
+    std::map<int, const Region*> main_at;  // frame → the chosen chain's region there
+    for (const Region* r : chain) main_at[r->frame] = r;
+    std::vector<std::vector<uint8_t>> taken(frames);
+    for (int k = 0; k < frames; ++k) {
+      taken[k].assign(regions[k].size(), 0);
+      for (size_t i = 0; i < regions[k].size(); ++i)
+        if (auto m = main_at.find(k); m != main_at.end() && overlaps(regions[k][i], *m->second)) taken[k][i] = 1;
+    }
+    const auto matches = [&](const Region& r) {
+      const auto m = main_at.find(r.frame);
+      if (m == main_at.end()) return false;
+      const double above_rows = std::max(0, m->second->row_hi - rows.lo);
+      const double tolerance = std::max(3.0, o.companion_height_fraction * above_rows);
+      return std::abs(r.row_hi - m->second->row_hi) <= tolerance;
+    };
+    for (int round = 0; round < 3; ++round) {
+      std::vector<std::vector<Link>> cl(frames);
+      int end_frame = -1, end_index = -1;
+      double end_total = 0.0;
+      for (int k = 0; k < frames; ++k) {
+        cl[k].assign(regions[k].size(), Link{});
+        for (size_t i = 0; i < regions[k].size(); ++i) {
+          const Region& r = regions[k][i];
+          if (taken[k][i] || !matches(r)) {
+            cl[k][i].length = 0;  // not a companion's link
+            continue;
+          }
+          Link link{r.score, 1, -1, r.row_hi};
+          if (k > 0)
+            for (size_t j = 0; j < regions[k - 1].size(); ++j) {
+              const Region& q = regions[k - 1][j];
+              const Link& ql = cl[k - 1][j];
+              if (ql.length == 0 || r.row_hi + 1 < q.row_hi || !overlaps(r, q)) continue;
+              if (ql.total + r.score > link.total) link = Link{ql.total + r.score, ql.length + 1, int(j), ql.first_row_hi};
+            }
+          cl[k][i] = link;
+          const bool rises = (r.row_hi - link.first_row_hi) * g.height_step_rs >= o.min_rise_rs - 1e-9;
+          if (link.length >= o.min_frames && rises && link.total > end_total) {
+            end_total = link.total;
+            end_frame = k;
+            end_index = int(i);
+          }
+        }
+      }
+      if (end_frame < 0) break;
+      for (int k = end_frame, i = end_index; i >= 0; i = cl[k][i].prev, --k) {
+        joined.push_back(&regions[k][i]);
+        taken[k][i] = 1;
+        // Regions of that frame overlapping the companion are not another companion.
+        for (size_t j = 0; j < regions[k].size(); ++j)
+          if (overlaps(regions[k][j], regions[k][i])) taken[k][j] = 1;
+      }
+    }
+  }
+
+  // Step 4 and the span: the union of the chain's regions (and its companions').
   std::vector<uint8_t> occupied(g.pa_count, 0);
+  for (const Region* r : joined)
+    for (int c = 0; c < g.pa_count; ++c)
+      if (r->outer_row[c] >= 0 && r->frame >= front.onset_frame && r->frame <= front.last_frame) {
+        occupied[c] = 1;
+        front.leading_edge_rs[r->frame][c] = float(g.height_rs(r->outer_row[c]));
+      }
+  front.companion_regions = int(joined.size());
   for (const Region* r : chain)
     for (int c = 0; c < g.pa_count; ++c)
       if (r->outer_row[c] >= 0) {
@@ -377,15 +513,22 @@ Front find_front(const PolarSequence& s, const FrontOptions& o) {
       }
   const auto [first_col, span_cols] = covering_arc(occupied);
   front.width_deg = span_cols * g.pa_step_deg;
+  // Fronts on both sides of the Sun (no gap of half a turn): the CME runs along the line
+  // of sight, toward or away from the observer.
+  front.encircles = !joined.empty() && front.width_deg > 180.0;
   front.pa_from_deg = g.pa_deg(first_col);
   front.pa_to_deg = std::fmod(g.pa_deg(first_col) + (span_cols - 1) * g.pa_step_deg, 360.0);
   front.central_pa_deg = central_pa(front.leading_edge_rs, first_col, span_cols, g.height_rs(rows.lo), g);
 
-  // The PA of the outermost front: in the last chain frame whose front is still below the
-  // field stop (else the onset frame), the middle of the columns at its highest row.
+  // The PA of the outermost front: in the last chain frame before the front first reaches
+  // the field stop (else the onset frame), the middle of the columns at its highest row.
+  // Not any later frame below the stop: once the nose has left the field, what remains
+  // below it is a flank, and a track there runs slower than the leading edge (issue 11).
   const Region* at = chain.front();
-  for (const Region* r : chain)
-    if (r->row_hi < rows.hi) at = r;
+  for (const Region* r : chain) {
+    if (r->row_hi >= rows.hi) break;
+    at = r;
+  }
   std::vector<uint8_t> top(g.pa_count, 0);
   for (int c = 0; c < g.pa_count; ++c) top[c] = at->outer_row[c] == at->row_hi;
   const auto [top_first, top_cols] = covering_arc(top);
@@ -394,7 +537,7 @@ Front find_front(const PolarSequence& s, const FrontOptions& o) {
   // Step 5. A region with no front that can be followed outward over min_frames frames
   // is not a CME: a residual of a steep static structure (a streamer's edge moved by
   // pointing jitter) can persist and rise a little, but leaves no significant track.
-  front.track = follow_track(s, front.central_pa_deg, front.onset_frame, o);
+  front.track = follow_track(s, front.central_pa_deg, front.onset_frame, o, &front.track_censored);
   const std::vector<TrackPoint> outer = follow_track(s, front.outermost_pa_deg, front.onset_frame, o);
   if (int(std::max(front.track.size(), outer.size())) < o.min_frames) {
     Front none;

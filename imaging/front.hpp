@@ -21,6 +21,11 @@
 //     one's outer edge is not lower (within one row); the best-scoring chain (Σ σ over its
 //     pixels) of ≥ min_frames frames whose outer edge rises by ≥ min_rise_rs is the CME.
 //     Static streamers cancel in running differences; a single-frame blob has no chain.
+//  3b. Halos: other chains that move with the best one — apart from it in PA, their
+//     outer edge at its height (within companion_height_fraction) in ≥ min_frames of its
+//     frames — are the same front seen round the occulter, and join it. With them, a front
+//     on both sides of the Sun (span over 180°) `encircles`: the CME runs along the line of
+//     sight (fit/shell_fit then treats the view as a halo).
 //  4. Leading edge per PA per frame: the outermost row of the chain's region in each PA.
 //     The span is the arc covering every PA the chain's regions occupy; the central PA is
 //     the PA centroid of the sky the front swept through within the span: each PA weighted
@@ -34,7 +39,9 @@
 //     jump_free_km_s cost jump_penalty_per_1000_km_s (per 1000 km/s above), those above
 //     max_speed_km_s are impossible. The path runs along the front's bright band; each
 //     point is then moved to the band's outer side, where it falls to edge_fraction × its
-//     peak, and dropped where the band has no data there (a missing block).
+//     peak, and dropped — censored, counted in TrackCensoring — where the band has no
+//     data there (a missing block), never falls to that level below the field stop, or
+//     peaks on the lowest usable row.
 // Every threshold below is our choice, tuned on `occulta synth` events (front_test.cpp).
 #pragma once
 
@@ -61,6 +68,7 @@ struct FrontOptions {
   double jump_penalty_per_1000_km_s = 5.0;  // σ per 1000 km/s above jump_free_km_s
   double max_speed_km_s = 5000.0;      // faster is not a CME front
   double edge_fraction = 0.75;         // the leading edge: where the front's band falls to this × its peak
+  double companion_height_fraction = 0.15;  // step 3b: a companion chain's outer edge, × height above the lowest row
 };
 
 struct TrackPoint {
@@ -69,6 +77,18 @@ struct TrackPoint {
   double pa_deg = 0.0;
   double height_rs = 0.0;
   double sigma = 0.0;        // the band-median running difference there, σ
+};
+
+// Frames whose leading edge the track could not measure, by why (step 5): the front's
+// band does not fall to edge_fraction × its peak below the outer field stop (the edge
+// lies at or beyond it), runs into a missing block (a data gap), or peaks on the lowest
+// usable row (behind the occulter still). Such frames add no point: a height pinned at
+// the field stop is not the front's height, and would bend the law (issue 11).
+struct TrackCensoring {
+  int at_field_stop = 0;
+  int at_data_gap = 0;
+  int behind_occulter = 0;
+  int total() const { return at_field_stop + at_data_gap + behind_occulter; }
 };
 
 struct Front {
@@ -83,17 +103,29 @@ struct Front {
   double width_deg = 0.0;          // sky width: the span's extent
   double central_pa_deg = 0.0;     // where the CME is centred: the swept sky's PA centroid (step 4)
   double outermost_pa_deg = 0.0;   // PA of the highest leading edge in the chain's frames
+  int companion_regions = 0;       // regions of other chains moving with it (step 3b)
+  bool encircles = false;          // with them, fronts on both sides of the Sun: a halo-like view
   // [frame][PA column]: height in R☉ of the region's outermost significant pixel, NaN where
   // the region is absent (all NaN outside onset_frame..last_frame).
   std::vector<std::vector<float>> leading_edge_rs;
   std::vector<TrackPoint> track;   // significant points only, from the onset frame on
+  TrackCensoring track_censored;   // frames `track` left out, by why
 };
 
 // The whole analysis (steps 1–5). Expects ≥ 2 frames, all on sequence.polar.
 Front find_front(const PolarSequence& sequence, const FrontOptions& options = {});
 
 // Step 5 alone, e.g. at a PA the analyst chose: frames from_frame.. of the sequence.
+// Frames it could not measure are counted in `censored` when given.
 std::vector<TrackPoint> follow_track(const PolarSequence& sequence, double pa_deg, int from_frame,
-                                     const FrontOptions& options = {});
+                                     const FrontOptions& options = {}, TrackCensoring* censored = nullptr);
+
+// Whether a height at `pa_deg` in frame `frame` lies where an edge can be measured: at
+// least `margin_rs` inside the frame's data along that PA band (above the lowest row
+// with data, below the highest, with no missing rows between it and either). Sets `why`
+// ("at the field stop", "at a data gap", "behind the occulter") when not. The analyst's
+// points obey the same rule as the automatic track (issue 11).
+bool height_measurable(const PolarSequence& sequence, int frame, double pa_deg, double height_rs, double margin_rs,
+                       std::string& why);
 
 }  // namespace occulta::imaging

@@ -19,7 +19,7 @@ TEST_CASE("demo: summarises the committed sample event, every frame usable") {
   CHECK(run.output.find("problem") == std::string::npos);
 
   // The shell fit beside the truth, and the arrival estimate with its caution at the end.
-  CHECK(run.output.find("shell (true, from all views)") != std::string::npos);
+  CHECK(run.output.find("shell (direction measured from 2 views)") != std::string::npos);
   CHECK(run.output.find("shell (truth)") != std::string::npos);
   const std::string caution = "operational space-weather warnings come from the responsible national forecasting services.";
   const auto at = run.output.rfind(caution);

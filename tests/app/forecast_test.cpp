@@ -105,10 +105,10 @@ TEST_CASE("forecast: the table with its caution and arrival.json with histograms
   REQUIRE(again.exit_code == 0);
   // All but the provenance's elapsed time, which is the clock's.
   const auto estimate = [](const fs::path& path) {
-    json doc = occulta::fit::read_json_file(path);
-    CHECK(doc["provenance"]["inputs"].size() == 1);
-    doc["provenance"].erase("elapsed_s");
-    return doc;
+    json file = occulta::fit::read_json_file(path);
+    CHECK(file["provenance"]["inputs"].size() == 1);
+    file["provenance"].erase("elapsed_s");
+    return file;
   };
   CHECK(estimate(dir / "again/arrival.json") == estimate(out / "arrival.json"));
   const auto other = forecast(args + " --seed 9 --out " + shell_quote((dir / "other").string()));
@@ -223,4 +223,25 @@ TEST_CASE("forecast: bad input gives one sentence naming the file and the fault"
   const fs::path event = write(dir / "bad.event.json", {{"id", "e"}, {"views", {{{"name", "a"}, {"files", "a/*.fits"}}}}, {"forecast", {{"wind_km_s", {300}}}}});
   says(good + " --event " + shell_quote(event.string()),
        event.string() + ": forecast.wind_km_s must be [lo, hi], two numbers.");
+}
+
+TEST_CASE("forecast: no estimate from an unconstrained direction or a failed shell fit; an assumed one is conditional") {
+  // Issue 11 / 13: the verb keeps measure's rule (app/shell_report.hpp).
+  const fs::path dir = occulta::test::scratch_dir("forecast_weak");
+  json result = handwritten_result();
+  result["shell"]["direction_basis"] = "none";
+  auto run = forecast(shell_quote(write(dir / "none.json", result).string()));
+  CHECK(run.exit_code == 1);
+  CHECK(run.output.find("do not constrain") != std::string::npos);
+  CHECK(run.output.find("hit") == std::string::npos);
+  result["shell"]["direction_basis"] = "views";
+  result["shell"]["status"] = "partial";
+  run = forecast(shell_quote(write(dir / "failed.json", result).string()));
+  CHECK(run.exit_code == 1);
+  CHECK(run.output.find("fit failed") != std::string::npos);
+  result["shell"]["direction_basis"] = "source region";
+  result["shell"]["status"] = "ok";
+  run = forecast(shell_quote(write(dir / "source.json", result).string()) + " --members 200");
+  CHECK(run.exit_code == 0);
+  CHECK(run.output.find("conditional") != std::string::npos);
 }

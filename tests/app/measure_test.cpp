@@ -93,9 +93,14 @@ TEST_CASE("measure: central PA, sky speed and onset of synthetic events against 
     ++case_index;
     CAPTURE(case_index);
     const Run r = synth_and_measure("measure_truth", scenario(e));
-    // Exit 0 only when nothing is reported (README "Exit codes"); a view that sees no CME is.
+    // Issue 11: a view that sees no CME while another does makes the result partial, and
+    // is named among the problems; otherwise the result is ok. Exit 0 only when nothing is
+    // reported (README "Exit codes").
+    bool all_found = true;
+    for (const auto& v : r.result["views"]) all_found = all_found && v["found"] == true;
     CHECK(r.exit_code == (r.result["problems"].empty() ? 0 : 1));
-    CHECK(r.result["status"] == "ok");
+    CHECK(r.result["status"] == (all_found ? "ok" : "partial"));
+    if (!all_found) CHECK(r.result["problems"].dump().find("sees no CME while another view does") != std::string::npos);
     for (const auto& v : r.result["views"]) {
       const std::string name = v["name"].get<std::string>();
       CAPTURE(name);
@@ -198,3 +203,59 @@ TEST_CASE("measure: an unreadable view makes the result partial; the analyst's t
   }
 }
 
+
+TEST_CASE("measure: a fast CME that leaves the field keeps its speed; a failed shell fit is a problem") {
+  // Issue 11: at 2300 km/s the front reaches the field stop within the sequence. Frames
+  // where its edge lies at or beyond the stop are censored, not measured, so the sky speed
+  // stays within the issue's 7 % of the truth (fit/truth.hpp view_truth, as above) in
+  // every view, and no acceleration beyond its own 2σ appears when the truth has none.
+  const Run r = synth_and_measure("measure_fast", scenario({-15, 5, 20, 25, 0.30, 2300, 0, 5e5, 3, 31}));
+  const occulta::imaging::FrontOptions finder;
+  const double lo = 2.5 + finder.inner_margin_rs, hi = 14.5 - finder.outer_margin_rs;
+  int compared = 0, censored = 0;
+  for (const auto& v : r.result["views"]) {
+    const std::string name = v["name"].get<std::string>();
+    CAPTURE(name);
+    const occulta::fit::ViewTruth t = occulta::fit::view_truth(r.truth, name, lo, hi);
+    if (t.frames_in_field < 4) continue;
+    REQUIRE(v["found"] == true);
+    ++compared;
+    censored += v["censored_points"]["at_field_stop"].get<int>();
+    CAPTURE(v.dump());
+    CHECK(v["sky_speed_km_s"].get<double>() == doctest::Approx(t.sky_speed_km_s).epsilon(0.07));
+    if (v["kinematic_model"] == "quadratic")
+      CHECK(std::abs(v["sky_accel_m_s2"].get<double>()) <= 2.0 * v["sky_accel_m_s2_sigma"].get<double>());
+    CHECK(v["law_ref_time"].is_string());
+  }
+  CHECK(compared >= 1);
+  CHECK(censored >= 1);  // the front did leave the field, and those frames were not measured
+
+  // Issue 13: an analyst's points all at one time give the shell no speed: its
+  // covariance is singular. The shell is then "partial", named among the problems, and
+  // no arrival is computed from it.
+  json points = json::array();
+  const double t0 = occulta::imaging::utc_seconds_from_iso("2031-07-09T03:20:00");
+  for (const char* view : {"left", "right"})
+    for (int i = 0; i < 6; ++i)
+      points.push_back({{"view", view}, {"time", occulta::imaging::iso_from_utc_seconds(t0)},
+                        {"pa_deg", (std::string(view) == "left" ? 250.0 : 80.0) + 5.0 * i},
+                        {"height_rs", 5.0 + 0.2 * i}, {"origin", "analyst"}});
+  std::ofstream(r.out.parent_path() / "one_time.track.json") << json{{"points", points}}.dump();
+  const std::string bin = shell_quote(occulta::test::occulta_binary().string());
+  const fs::path out = r.out.parent_path() / "one_time";
+  const auto run = run_command(bin + " measure --quiet " + shell_quote((r.frames / "measure-event.event.json").string()) +
+                               " --out " + shell_quote(out.string()) + " --track " +
+                               shell_quote((r.out.parent_path() / "one_time.track.json").string()));
+  INFO(run.output);
+  const json result = occulta::fit::read_json_file(out / "result.json");
+  CHECK(run.exit_code == 1);
+  CHECK(result["status"] == "partial");
+  CHECK_FALSE(result.contains("arrival"));
+  if (result["shell"].is_object()) {
+    CHECK(result["shell"]["status"] == "partial");
+    CHECK(result["problems"].dump().find("shell fit failed") != std::string::npos);
+    CHECK(result.contains("arrival_withheld"));
+  } else {
+    CHECK(result["problems"].dump().find("no shell fit") != std::string::npos);
+  }
+}

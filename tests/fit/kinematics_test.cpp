@@ -192,8 +192,11 @@ TEST_CASE("kinematics: straight-line covariance matches sigma_v^2 = s^2 / sum (t
   CHECK(fit.covariance(0, 0) == doctest::Approx(s2 / n).epsilon(1e-9));
   CHECK(fit.covariance(1, 1) == doctest::Approx(s2 / sxx * kSolarRadiusKm * kSolarRadiusKm).epsilon(1e-9));
   CHECK(std::abs(fit.covariance(0, 1)) < 1e-9 * std::sqrt(fit.covariance(0, 0) * fit.covariance(1, 1)));
-  CHECK(fit.speed_sigma_km_s == doctest::Approx(std::sqrt(s2 / sxx) * kSolarRadiusKm).epsilon(1e-9));
-  CHECK(fit.height_sigma_rs == doctest::Approx(std::sqrt(s2 / n)).epsilon(1e-9));
+  // The reported σ are the standard errors widened by k = t_ν(0.97725)/2 (kinematics.hpp),
+  // itself checked against scipy below.
+  CHECK(fit.coverage_factor == doctest::Approx(coverage_factor(7)).epsilon(1e-12));
+  CHECK(fit.speed_sigma_km_s == doctest::Approx(fit.coverage_factor * std::sqrt(s2 / sxx) * kSolarRadiusKm).epsilon(1e-9));
+  CHECK(fit.height_sigma_rs == doctest::Approx(fit.coverage_factor * std::sqrt(s2 / n)).epsilon(1e-9));
   CHECK(fit.accel_sigma_m_s2 == 0.0);
 }
 
@@ -404,8 +407,9 @@ TEST_CASE("kinematics: onset and 21.5 Rs times invert the fitted law exactly") {
         out->push_back((-v + std::sqrt(v * v - 2.0 * a * c)) / a);  // rising root for a > 0
       }
     }
-    CHECK(standard_deviation(onsets) == doctest::Approx(fit.onset.sigma_s).epsilon(0.05));
-    CHECK(standard_deviation(boundaries) == doctest::Approx(fit.boundary.sigma_s).epsilon(0.05));
+    // The reported σ carry the small-sample widening k (kinematics.hpp); the covariance does not.
+    CHECK(standard_deviation(onsets) * fit.coverage_factor == doctest::Approx(fit.onset.sigma_s).epsilon(0.05));
+    CHECK(standard_deviation(boundaries) * fit.coverage_factor == doctest::Approx(fit.boundary.sigma_s).epsilon(0.05));
   }
   SUBCASE("an accelerating law that turns around above 1 Rs gives no onset, and says why") {
     // h = 6 + v τ + ½ a τ² with its lowest point (≈ 6 R☉) just before the data:
@@ -469,11 +473,21 @@ TEST_CASE("kinematics: too few points, repeated times and bad values are reporte
     CHECK(std::isnan(fit.speed_sigma_km_s));
     CHECK(std::isnan(fit.onset.sigma_s));
     CHECK(fit.onset.found);
-    CHECK(fit.problem.find("need 3 points, or a sigma for each point") != std::string::npos);
+    CHECK(fit.problem.find("need 4 points, or a sigma for each point") != std::string::npos);
     const HeightTimeFit quad = fit_height_time({points[0], points[2], points[5]}, {HeightTimeModel::quadratic, false});
     REQUIRE(quad.status == FitStatus::ok);
     CHECK_FALSE(quad.sigmas_known);
-    CHECK(quad.problem.find("need 4 points") != std::string::npos);
+    CHECK(quad.problem.find("need 5 points") != std::string::npos);
+  }
+  SUBCASE("p + 1 points without sigma: one degree of freedom states no sigma either") {
+    for (const bool robust : {false, true}) {
+      const HeightTimeFit fit = fit_height_time({points[0], points[2], points[5]}, {HeightTimeModel::linear, robust, 0.01});
+      REQUIRE(fit.status == FitStatus::ok);
+      CHECK_FALSE(fit.sigmas_known);
+      CHECK(std::isnan(fit.speed_sigma_km_s));
+      CHECK(std::isnan(fit.onset.sigma_s));
+      CHECK(fit.problem.find("need 4 points") != std::string::npos);
+    }
   }
   SUBCASE("exactly p points with sigma: sigma_v from the two heights' sigmas") {
     HeightTimePoint a = points[1], b = points[4];
@@ -514,7 +528,7 @@ TEST_CASE("kinematics: reported sigmas are honest over 200 noisy realisations") 
       const HeightTimeFit fit = fit_height_time(make_points(truth, 10, 0.1, rng), {HeightTimeModel::linear, false});
       REQUIRE(fit.status == FitStatus::ok);
       speeds.push_back(fit.law.speed_km_s);
-      sigmas.push_back(fit.speed_sigma_km_s);
+      sigmas.push_back(fit.speed_sigma_km_s / fit.coverage_factor);  // the standard error itself
     }
     CHECK(standard_deviation(speeds) == doctest::Approx(mean(sigmas)).epsilon(0.15));
     CHECK(mean(speeds) == doctest::Approx(truth.speed_km_s).epsilon(3.0 * mean(sigmas) / std::sqrt(200.0) / 800.0));
@@ -541,7 +555,7 @@ TEST_CASE("kinematics: reported sigmas are honest over 200 noisy realisations") 
       const HeightTimeFit fit = fit_height_time(make_points(truth, 14, 0.1, rng), {HeightTimeModel::linear, true});
       REQUIRE(fit.status == FitStatus::ok);
       speeds.push_back(fit.law.speed_km_s);
-      sigmas.push_back(fit.speed_sigma_km_s);
+      sigmas.push_back(fit.speed_sigma_km_s / fit.coverage_factor);
     }
     // The MAD scale is noisier than s, so allow its own spread: 25 %.
     CHECK(standard_deviation(speeds) == doctest::Approx(mean(sigmas)).epsilon(0.25));
@@ -591,4 +605,98 @@ TEST_CASE("kinematics: the model choice takes a quadratic only when AICc says it
     CHECK(robust.chosen.model == HeightTimeModel::linear);
     CHECK(robust.chosen.robust);
   }
+}
+
+TEST_CASE("kinematics: the small-sample widening equals scipy's Student-t quantile") {
+  // Reference: scipy.stats.t (Debian's python3-scipy) via tests/external/student_t_reference.py;
+  // the series is Abramowitz & Stegun 26.7.3–26.7.4.
+  const auto run = occulta::test::run_python("tests/external/student_t_reference.py", "1 2 3 4 5 7 12 31 200");
+  REQUIRE_MESSAGE(run.exit_code == 0, run.output);
+  for (const nlohmann::json& line : occulta::test::json_lines(run.output)) {
+    const int dof = line["dof"].get<int>();
+    CAPTURE(dof);
+    CHECK(coverage_factor(dof) == doctest::Approx(line["t"].get<double>() / 2.0).epsilon(1e-9));
+    CHECK(student_t_central(2.5, dof) == doctest::Approx(line["central"].get<double>()).epsilon(1e-12));
+  }
+}
+
+TEST_CASE("kinematics: tracks of 3, 4 and 5 frames: sigmas cover the truth and never fall below the resolution") {
+  // Issue 11: over ≥ 20 noisy realisations the truth lies within 2σ in ≥ 85 % of them,
+  // and no σ falls below the floor set by the height resolution. The fit is measure's:
+  // robust, linear unless AICc prefers a quadratic, scale floored at Δ/√12 for a grid step
+  // Δ = 0.1 R☉. The floor of the speed's σ for a scale s is s/√Σ(t − t̄)² (the straight-
+  // line formula, Bevington & Robinson ch. 6). 3 frames: no σ at all, with the reason.
+  const ApexLaw truth = make_law(3.0, 700.0, 0.0);
+  const double step_rs = 0.1, resolution_rs = step_rs / std::sqrt(12.0);
+  std::mt19937_64 rng(2031);
+  for (const int frames : {3, 4, 5}) {
+    CAPTURE(frames);
+    int covered = 0, onset_covered = 0, realisations = 0;
+    for (int k = 0; k < 40; ++k) {
+      // The heights a grid of rows would give: noise of 0.1 R☉, then rounded to the step.
+      std::vector<HeightTimePoint> points = make_points(truth, frames, 0.1, rng);
+      for (HeightTimePoint& q : points) q.height_rs = step_rs * std::round(q.height_rs / step_rs);
+      const HeightTimeFit fit = choose_height_time_model(points, true, 2.0, resolution_rs).chosen;
+      REQUIRE(fit.status == FitStatus::ok);
+      if (frames == 3) {
+        CHECK_FALSE(fit.sigmas_known);
+        CHECK(std::isnan(fit.speed_sigma_km_s));
+        CHECK(fit.problem.find("too few to estimate its uncertainties") != std::string::npos);
+        continue;
+      }
+      ++realisations;
+      double t_mean = 0.0, sxx = 0.0;
+      for (const auto& q : points) t_mean += q.time_s / frames;
+      for (const auto& q : points) sxx += (q.time_s - t_mean) * (q.time_s - t_mean);
+      const double floor_km_s = resolution_rs / std::sqrt(sxx) * kSolarRadiusKm;
+      CHECK(fit.speed_sigma_km_s >= floor_km_s * (1.0 - 1e-9));
+      covered += std::abs(fit.law.speed_km_s - truth.speed_km_s) <= 2.0 * fit.speed_sigma_km_s;
+      // The true onset: h(t) = 1 R☉ on the true law.
+      const double onset_true = truth.ref_time_s + (1.0 - truth.height_rs) / (truth.speed_km_s / kSolarRadiusKm);
+      REQUIRE(fit.onset.found);
+      onset_covered += std::abs(fit.onset.time_s - onset_true) <= 2.0 * fit.onset.sigma_s;
+    }
+    if (frames == 3) continue;
+    CAPTURE(covered);
+    CAPTURE(onset_covered);
+    CHECK(covered >= 0.85 * realisations);
+    CHECK(onset_covered >= 0.85 * realisations);
+  }
+}
+
+TEST_CASE("kinematics: points exactly on a line still get sigmas of at least the resolution") {
+  // Issue 11: the MAD of a line's residuals can be exactly 0 (repeated heights, or points
+  // on the line); the scale is then the resolution floor, not rounding noise.
+  std::vector<HeightTimePoint> points;
+  for (int i = 0; i < 6; ++i) points.push_back({kStart + kCadence * i, 3.0 + 0.5 * i, 0.0});
+  const double resolution_rs = 0.05;
+  for (const bool robust : {false, true}) {
+    const HeightTimeFit fit = fit_height_time(points, {HeightTimeModel::linear, robust, resolution_rs});
+    REQUIRE(fit.status == FitStatus::ok);
+    REQUIRE(fit.sigmas_known);
+    double sxx = 0.0;
+    for (int i = 0; i < 6; ++i) sxx += std::pow(kCadence * (i - 2.5), 2);
+    // s = the floor exactly, widened by k for ν = 4 (both formulas as above).
+    CHECK(fit.speed_sigma_km_s ==
+          doctest::Approx(coverage_factor(4) * resolution_rs / std::sqrt(sxx) * kSolarRadiusKm).epsilon(1e-6));
+    CHECK(fit.onset.sigma_s > 0.0);
+  }
+}
+
+TEST_CASE("kinematics: another definition of the edge widens the sigmas by half the difference") {
+  // kinematics.hpp add_definition_spread: σ² → σ² + (Δ/2)² per parameter (our
+  // construction, the same as fit/shell_fit.hpp merge_edge_fits).
+  std::mt19937_64 rng(7);
+  const auto points = make_points(make_law(3.0, 800.0, 0.0), 8, 0.1, rng);
+  std::vector<HeightTimePoint> outer = points;
+  for (std::size_t i = 0; i < outer.size(); ++i) outer[i].height_rs += 0.2 + 0.05 * static_cast<double>(i);
+  HeightTimeFit fit = fit_height_time(points, {HeightTimeModel::linear, true});
+  const HeightTimeFit other = fit_height_time(outer, {HeightTimeModel::linear, true});
+  const double before = fit.speed_sigma_km_s, onset_before = fit.onset.sigma_s;
+  add_definition_spread(fit, other);
+  const double half_dv = 0.5 * std::abs(fit.law.speed_km_s - other.law.speed_km_s);
+  CHECK(half_dv > 0.0);
+  CHECK(fit.speed_sigma_km_s == doctest::Approx(std::hypot(before, half_dv)).epsilon(1e-12));
+  CHECK(fit.onset.sigma_s ==
+        doctest::Approx(std::hypot(onset_before, 0.5 * std::abs(fit.onset.time_s - other.onset.time_s))).epsilon(1e-12));
 }

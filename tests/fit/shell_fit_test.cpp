@@ -314,3 +314,47 @@ TEST_CASE("shell fit: the boundary crossing follows the law, with σ") {
   fit.law.speed_km_s = -5.0;
   CHECK_FALSE(apex_crossing(fit, 21.5).found);
 }
+
+TEST_CASE("shell fit: two views whose central-PA planes are 1–7° apart are still two views") {
+  // Issue 11: an equatorial CME near one observer's limb, both observers near the
+  // ecliptic — the planes through each observer, Sun centre and the CME nearly coincide.
+  // The full fit must still find the direction (within the issue's 4°, σ below 5°), and
+  // never take the one-view path. The planes' angle is computed here from the truth's
+  // direction d: the angle between the normals ô₁ × d and ô₂ × d (Inhester 2006).
+  struct Case {
+    double lon, lat;
+    imaging::Observer a, b;
+  };
+  const std::vector<Case> cases = {
+      {100, 3, observer(0, 1.5, 1.0), observer(-50, -1, 0.97)},
+      {80, 5, observer(0, 1, 1.0), observer(-60, -1.5, 0.97)},
+      {80, 6, observer(0, 1, 1.0), observer(-60, -1.5, 0.97)},
+      {85, 2, observer(0, 0.5, 1.0), observer(-70, 1, 1.02)},
+  };
+  for (const Case& k : cases) {
+    const Truth truth{make(k.lon, k.lat, 10, 3.0, 28, 0.35), 900.0, 0.0};
+    const Eigen::Vector3d d(std::cos(k.lat * kRadPerDeg) * std::cos(k.lon * kRadPerDeg),
+                            std::cos(k.lat * kRadPerDeg) * std::sin(k.lon * kRadPerDeg), std::sin(k.lat * kRadPerDeg));
+    const Eigen::Vector3d n1 = k.a.heeq_p_obs_km().normalized().cross(d).normalized();
+    const Eigen::Vector3d n2 = k.b.heeq_p_obs_km().normalized().cross(d).normalized();
+    const double planes_deg = std::acos(std::min(1.0, std::abs(n1.dot(n2)))) * kDegPerRad;
+    CAPTURE(k.lon);
+    CAPTURE(k.lat);
+    CAPTURE(planes_deg);
+    REQUIRE(planes_deg >= 1.0);
+    REQUIRE(planes_deg <= 7.0);
+    const Observed o = observe(truth, {k.a, k.b}, 12, cadence_for(truth.speed_km_s), 0.15, 31);
+    const ShellFit fit = fit_shell(o.views, o.points);
+    REQUIRE(fit.ok);
+    CAPTURE(fit.shell.lon * kDegPerRad);
+    CAPTURE(fit.shell.lat * kDegPerRad);
+    CAPTURE(fit.sigma[kLon] * kDegPerRad);
+    CAPTURE(fit.sigma[kLat] * kDegPerRad);
+    CHECK(fit.direction_constrained);
+    CHECK(angle_deg(fit.shell.lon, truth.shell.lon) < 4.0);
+    CHECK(angle_deg(fit.shell.lat, truth.shell.lat) < 4.0);
+    CHECK(fit.sigma[kLon] * kDegPerRad < 5.0);
+    CHECK(fit.sigma[kLat] * kDegPerRad < 5.0);
+    for (const std::string& note : fit.notes) CHECK(note.find("one view") == std::string::npos);
+  }
+}

@@ -6,6 +6,7 @@
 #include <cmath>
 #include <cstdio>
 #include <fstream>
+#include <limits>
 #include <string>
 
 #include <doctest/doctest.h>
@@ -239,4 +240,55 @@ TEST_CASE("front: no detection on quiet sequences") {
     CHECK(front.why_not.rfind("no CME found", 0) == 0);
     CHECK(front.track.empty());
   }
+}
+
+TEST_CASE("front: edges at the field stop, at a data gap or behind the occulter are censored, not measured") {
+  // Issue 11: a front that runs out of the field must add no heights pinned at the stop.
+  // Planted: a band 15 rows thick, 8σ, moving out 26 rows a frame through a field of 200
+  // rows with no data above row 179 (the field stop; the finder examines rows up to 175,
+  // 0.2 R☉ below it), and a missing block over rows 118–140 in frame 4 (a data gap). Frames where the band's outer side lies beyond the
+  // last row with data, or runs into the gap, must be counted, and no point may come
+  // from them; every other frame gives its edge within a row of the planted one.
+  occulta::imaging::PolarSequence s;
+  s.polar.pa_step_deg = 1.0;
+  s.polar.pa_count = 360;
+  s.polar.height_min_rs = 2.5;
+  s.polar.height_step_rs = 0.06;
+  s.polar.height_count = 200;
+  constexpr int kStopRow = 180;
+  for (int k = 0; k < 10; ++k) {
+    cv::Mat f(200, 360, CV_32FC1, cv::Scalar(0.0f));
+    const int top = 20 + 26 * k;  // the band covers rows top − 15 … top − 1
+    if (top - 15 < 200) f(cv::Rect(40, std::max(0, top - 15), 40, std::min(top, 200) - std::max(0, top - 15))) = 8.0f;
+    f.rowRange(kStopRow, 200).setTo(std::numeric_limits<float>::quiet_NaN());
+    if (k == 4) f(cv::Rect(0, 118, 360, 23)).setTo(std::numeric_limits<float>::quiet_NaN());
+    s.frames.push_back(f);
+    s.utc_s.push_back(1.0e9 + 600.0 * k);
+  }
+  occulta::imaging::TrackCensoring censored;
+  const auto track = occulta::imaging::follow_track(s, 60.0, 0, {}, &censored);
+  CAPTURE(censored.at_field_stop);
+  CAPTURE(censored.at_data_gap);
+  // Frames 0–5 have their band's top (row 20 + 26k) inside the field, except frame 4's
+  // (row 124, in the gap); frame 6's band (rows 161–175) runs up to the last examined row
+  // without falling, and from frame 7 on the band lies beyond it: 4 frames at the stop.
+  CHECK(censored.at_data_gap == 1);
+  CHECK(censored.at_field_stop == 4);
+  CHECK(track.size() == 5);
+  for (const auto& p : track) {
+    CAPTURE(p.frame);
+    CHECK(p.frame != 4);
+    CHECK(p.frame <= 5);
+    const double planted_rs = s.polar.height_rs(20 + 26 * p.frame);
+    CHECK(std::abs(p.height_rs - planted_rs) <= 1.0 * s.polar.height_step_rs);
+  }
+  // The analyst's points obey the same rule.
+  std::string why;
+  CHECK(occulta::imaging::height_measurable(s, 2, 60.0, s.polar.height_rs(70), 0.1, why));
+  CHECK_FALSE(occulta::imaging::height_measurable(s, 2, 60.0, s.polar.height_rs(179), 0.1, why));
+  CHECK(why == "at the field stop");
+  CHECK_FALSE(occulta::imaging::height_measurable(s, 4, 60.0, s.polar.height_rs(117), 0.1, why));
+  CHECK(why == "at a data gap");
+  CHECK_FALSE(occulta::imaging::height_measurable(s, 2, 60.0, 2.0, 0.1, why));
+  CHECK(why == "behind the occulter");
 }
