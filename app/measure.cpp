@@ -189,7 +189,8 @@ ViewOutcome measure_view(const Event& event, const EventView& view, const Track*
   }
   v["track_origin"] = by_analyst ? "analyst" : "auto";
   // How far above the noise the front stood: the largest band-median running difference
-  // on the automatic track, in σ (imaging/front.hpp) — what a detection limit is stated in.
+  // on the automatic track, in σ (imaging/front.hpp; the track caps it at 50) — what a
+  // detection limit is stated in.
   double contrast = 0.0;
   for (const imaging::TrackPoint& p : auto_track) contrast = std::max(contrast, p.sigma);
   v["front_contrast_sigma"] = auto_track.empty() ? json(nullptr) : json(contrast);

@@ -331,7 +331,7 @@ std::vector<Eigen::Vector3d> start_directions(const std::vector<ShellView>& view
     // One view: nothing but a source region could fix the direction. Two or more: the
     // fit's covariance decides (fit_shell).
     constrained = views.size() >= 2;
-    for (const double eps_deg : {-60.0, -30.0, 0.0, 30.0, 60.0}) {
+    for (const double eps_deg : {-85.0, -60.0, -30.0, 0.0, 30.0, 60.0, 85.0}) {
       const double e = eps_deg * kRadPerDeg;
       out.push_back(std::cos(e) * sky + std::sin(e) * toward);
     }

@@ -33,8 +33,9 @@
 // widest PA span; aspect ratio 0.3; the height law from the outermost leading edge of the
 // least foreshortened view. Six tilts × two half-angles are started on a quarter of the
 // points; the three best are refined on all points and the lowest cost is kept.
-// Planes fewer than kPlanesWellApartDeg apart also start from five directions along the
-// first view's plane (ε = 0, ±30°, ±60° out of its sky plane). Two or more views always
+// Planes fewer than kPlanesWellApartDeg apart also start from seven directions along the
+// first view's plane (ε = 0, ±30°, ±60°, ±85° out of its sky plane: ±85° are nearly
+// toward and away from that observer, where a CME seen as a partial halo there lies). Two or more views always
 // fit the direction; the full fit's covariance decides whether it is constrained
 // (kDirectionConstrainedDeg), never the start.
 // One view: the event's source region fixes the direction (held constant, σ stated by the

@@ -331,7 +331,8 @@ bool height_measurable(const PolarSequence& s, int frame, double pa_deg, double 
     why = "outside the frames";
     return false;
   }
-  const std::vector<float> profile = band_profile(s.frames[std::size_t(frame)], g, pa_deg, 2.0);
+  const std::vector<float> profile =
+      band_profile(s.frames[std::size_t(frame)], g, pa_deg, FrontOptions{}.track_half_width_deg);
   const double row = (height_rs - g.height_rs(0)) / g.height_step_rs;
   const int margin = std::max(1, int(std::ceil(margin_rs / g.height_step_rs - 1e-9)));
   const int at = int(std::lround(row));

@@ -659,6 +659,8 @@ TEST_CASE("kinematics: tracks of 3, 4 and 5 frames: sigmas cover the truth and n
     if (frames == 3) continue;
     CAPTURE(covered);
     CAPTURE(onset_covered);
+    MESSAGE(frames << " frames: speed within 2σ in " << covered << " of " << realisations << ", onset in "
+                   << onset_covered);
     CHECK(covered >= 0.85 * realisations);
     CHECK(onset_covered >= 0.85 * realisations);
   }
