@@ -1,0 +1,173 @@
+// The window's pictures of the committed sample event (sample_frames/, two views) and the
+// window drawn headless from plain state: what each display holds, the cursor's inverse
+// mapping, nearest-time matching, and snapshots that follow the state.
+#include <cmath>
+
+#include <doctest/doctest.h>
+
+#include "tests/support/support.hpp"
+#include "viewer/pictures.hpp"
+#include "viewer/ui.hpp"
+
+namespace {
+using namespace occulta::viewer;
+namespace fs = std::filesystem;
+
+ViewSource sample_view(const std::string& name) {
+  ViewSource source;
+  source.name = name;
+  for (const auto& entry : fs::directory_iterator(occulta::test::source_path("sample_frames") / name))
+    if (entry.path().extension() == ".fits") source.files.push_back(entry.path());
+  source.options.occulter_rs = std::make_pair(2.5, 14.5);  // as the sample's event file says
+  source.options.median_filter = 5;
+  return source;
+}
+
+// The sample's two views, loaded once for every test case here (the chain is the slow part).
+const std::vector<ViewPictures>& sample() {
+  static const std::vector<ViewPictures> views = [] {
+    std::vector<ViewPictures> v;
+    v.push_back(load_view(sample_view("east"), 256));
+    v.push_back(load_view(sample_view("west"), 256));
+    return v;
+  }();
+  return views;
+}
+
+struct Spread {
+  double median_abs = 0.0;
+  double finite_fraction = 0.0;
+};
+
+Spread spread(const cv::Mat& image) {
+  std::vector<float> values;
+  for (int r = 0; r < image.rows; ++r)
+    for (int c = 0; c < image.cols; ++c)
+      if (std::isfinite(image.at<float>(r, c))) values.push_back(std::abs(image.at<float>(r, c)));
+  if (values.empty()) return {};
+  std::nth_element(values.begin(), values.begin() + std::ptrdiff_t(values.size() / 2), values.end());
+  return {values[values.size() / 2], double(values.size()) / double(image.total())};
+}
+
+WindowState sample_state() {
+  WindowState s;
+  s.views = {"east", "west"};
+  s.width = 960;
+  s.height = 600;
+  apply(s, action::Timeline{frame_times(sample())});
+  return s;
+}
+
+double mean_abs_difference(const Framebuffer& a, const Framebuffer& b) {
+  REQUIRE(a.pixels.size() == b.pixels.size());
+  double sum = 0;
+  for (std::size_t i = 0; i < a.pixels.size(); ++i)
+    for (int k = 0; k < 24; k += 8) sum += std::abs(int((a.pixels[i] >> k) & 0xFF) - int((b.pixels[i] >> k) & 0xFF));
+  return sum / (3.0 * double(a.pixels.size()));
+}
+
+}  // namespace
+
+TEST_CASE("each view of the sample gives a picture per running difference, every display in σ") {
+  for (const ViewPictures& view : sample()) {
+    CAPTURE(view.name);
+    REQUIRE(view.error.empty());
+    CHECK(view.frames.size() == 15);  // 16 frames, the first has no previous one
+    CHECK(view.grid.width <= 256);
+    CHECK(view.grid.height <= 256);
+    CHECK(view.radii.inner_rs == 2.5);
+    CHECK(view.radii.outer_rs == 14.5);
+    for (std::size_t i = 1; i < view.frames.size(); ++i) CHECK(view.frames[i].utc_s > view.frames[i - 1].utc_s);
+    const FramePictures& f = view.frames[7];
+    for (Display d : displays()) {
+      CAPTURE(display_name(d));
+      const cv::Mat& image = f.image(d);
+      REQUIRE(!image.empty());
+      CHECK(image.type() == CV_32F);
+      if (d == Display::polar) {
+        CHECK(image.cols == view.polar.pa_count);
+        CHECK(image.rows == view.polar.height_count);
+      } else {
+        CHECK(image.cols == view.grid.width);
+        CHECK(image.rows == view.grid.height);
+      }
+      // In σ: half the data within about one σ̂ of zero (0.6745 σ for Gaussian noise, the
+      // MAD's definition; the CME and downscaling move it), and the annulus between the
+      // occulter and the field stop mostly has data.
+      const Spread s = spread(image);
+      CHECK(s.median_abs > 0.1);
+      CHECK(s.median_abs < 2.0);
+      CHECK(s.finite_fraction > 0.3);
+    }
+  }
+}
+
+TEST_CASE("views with different frame times are matched by nearest time") {
+  ViewPictures a, b;
+  for (double t : {0.0, 100.0, 200.0}) a.frames.push_back(FramePictures{t, {}, {}, {}, {}, {}});
+  for (double t : {40.0, 260.0}) b.frames.push_back(FramePictures{t, {}, {}, {}, {}, {}});
+  CHECK(frame_times({a, b}) == std::vector<double>{0, 40, 100, 200, 260});
+  CHECK(nearest_frame(a, 40) == 0);
+  CHECK(nearest_frame(a, 150) == 1);  // a tie: the earlier
+  CHECK(nearest_frame(b, 100) == 0);
+  CHECK(nearest_frame(b, 200) == 1);
+  CHECK(nearest_frame(ViewPictures{}, 5) == -1);
+}
+
+TEST_CASE("the cursor's sky position is the inverse of the panel's drawing; PA runs from north through east") {
+  PlotFrame sky{ImVec2(100, 50), ImVec2(500, 450), Axis{-15, 15, ""}, Axis{-15, 15, ""}};
+  const DataPoint p = sky_at(sky, Display::running_difference, sky.to_pixel(3.0, -4.0));
+  CHECK(p.x == doctest::Approx(3.0));
+  CHECK(p.y == doctest::Approx(-4.0));
+  // Polar panels: PA 90° is east, which is −x (Thompson 2006, PA counter-clockwise from
+  // north through east); PA 0° north (+y); PA 180° south.
+  PlotFrame polar{ImVec2(0, 0), ImVec2(720, 300), Axis{0, 360, ""}, Axis{2.5, 14.5, ""}};
+  const DataPoint east = sky_at(polar, Display::polar, polar.to_pixel(90.0, 5.0));
+  CHECK(east.x == doctest::Approx(-5.0));
+  CHECK(east.y == doctest::Approx(0.0).epsilon(1e-9));
+  const DataPoint north = sky_at(polar, Display::polar, polar.to_pixel(0.0, 6.0));
+  CHECK(north.y == doctest::Approx(6.0));
+  const DataPoint south = sky_at(polar, Display::polar, polar.to_pixel(180.0, 7.0));
+  CHECK(south.y == doctest::Approx(-7.0));
+}
+
+TEST_CASE("the value under the cursor is the displayed image's, also through the polar unwrap") {
+  const ViewPictures& east = sample().front();
+  const FramePictures& f = east.frames[10];
+  // A sky position on the grid: the pixel (c, r) is at ((c − cx)·s, (r − cy)·s) R☉.
+  const int c = 200, r = 60;
+  const double x = (c - east.grid.sun_center_px.x()) * east.grid.rs_per_px;
+  const double y = (r - east.grid.sun_center_px.y()) * east.grid.rs_per_px;
+  CHECK(value_at(east, f, Display::running_difference, x, y) == f.running_difference.at<float>(r, c));
+  CHECK(value_at(east, f, Display::nrgf, x, y) == f.nrgf.at<float>(r, c));
+  // PA 90°, 6 R☉ (east) lies on polar column 90/step, row (6 − h0)/Δh.
+  const int col = int(std::lround(90.0 / east.polar.pa_step_deg));
+  const int row = int(std::lround((6.0 - east.polar.height_min_rs) / east.polar.height_step_rs));
+  CHECK(value_at(east, f, Display::polar, -6.0, 0.0) == f.polar.at<float>(row, col));
+  CHECK(std::isnan(value_at(east, f, Display::running_difference, 100.0, 0.0)));
+}
+
+TEST_CASE("the window drawn headless follows the state, and only the state") {
+  WindowState s = sample_state();
+  apply(s, action::Frame{7});
+  const Framebuffer a = draw_window_headless(s, sample());
+  CHECK(a.width == 960);
+  CHECK(a.height == 600);
+  CHECK(mean_abs_difference(a, draw_window_headless(s, sample())) == 0.0);  // deterministic
+  WindowState step = s;
+  apply(step, action::Step{1});
+  const double stepped = mean_abs_difference(a, draw_window_headless(step, sample()));
+  WindowState base = s;
+  apply(base, action::ShowDisplay{Display::base_difference});
+  const double based = mean_abs_difference(a, draw_window_headless(base, sample()));
+  WindowState polar = s;
+  apply(polar, action::ShowDisplay{Display::polar});
+  const double polared = mean_abs_difference(a, draw_window_headless(polar, sample()));
+  MESSAGE("mean |Δ| per channel: step ", stepped, ", base difference ", based, ", polar ", polared);
+  CHECK(stepped > 0.5);
+  CHECK(based > 0.5);
+  CHECK(polared > 2.0);
+  WindowState one = s;
+  apply(one, action::Focus{"west"});
+  CHECK(mean_abs_difference(a, draw_window_headless(one, sample())) > 2.0);
+}
