@@ -82,6 +82,21 @@ struct Gl {
   }
 };
 
+// Keys pressed since the last frame (ui.hpp Key), from GLFW's key callback; Dear ImGui's
+// backend chains to it (it is installed first).
+std::vector<Key> g_pressed;
+
+void on_key(GLFWwindow*, int key, int, int action, int) {
+  if (action != GLFW_PRESS && action != GLFW_REPEAT) return;
+  switch (key) {
+    case GLFW_KEY_LEFT: g_pressed.push_back(Key::left); break;
+    case GLFW_KEY_RIGHT: g_pressed.push_back(Key::right); break;
+    case GLFW_KEY_HOME: g_pressed.push_back(Key::home); break;
+    case GLFW_KEY_END: g_pressed.push_back(Key::end); break;
+    default: break;
+  }
+}
+
 std::string last_glfw_error() {
   const char* text = nullptr;
   glfwGetError(&text);
@@ -191,6 +206,7 @@ int present(WindowState state, std::vector<ViewSource> sources, const std::vecto
   io.BackendFlags |= ImGuiBackendFlags_RendererHasVtxOffset;
   const HeadlessOptions look;  // the same font, size and background as the snapshots
   const Texture font = load_font(look.font_file, look.font_pixels);
+  glfwSetKeyCallback(window, on_key);
   if (use_gl) ImGui_ImplGlfw_InitForOpenGL(window, true);
   else ImGui_ImplGlfw_InitForOther(window, true);
 
@@ -207,6 +223,9 @@ int present(WindowState state, std::vector<ViewSource> sources, const std::vecto
         apply(state, action::Timeline{frame_times(views)});
       }
       if (loader.done() && !script_applied) {
+        for (const ViewPictures& v : views)
+          if (!v.error.empty()) err << "occulta view: " << v.error << '\n';
+        err << "occulta view: loaded " << views.size() << " view(s), " << state.timeline_utc_s.size() << " frame times.\n";
         for (const Action& a : script) apply(state, a);
         script_applied = true;
         if (state.width > 0) glfwSetWindowSize(window, state.width, state.height);
@@ -228,7 +247,8 @@ int present(WindowState state, std::vector<ViewSource> sources, const std::vecto
       textures.push_back(font);
       ImGui_ImplGlfw_NewFrame();
       ImGui::NewFrame();
-      const std::vector<Action> actions = draw_window(state, shown, views, loading);
+      const std::vector<Action> actions = draw_window(state, shown, views, loading, g_pressed);
+      g_pressed.clear();
       ImGui::Render();
       Framebuffer fb(w, h, look.background);
       render(*ImGui::GetDrawData(), textures, fb);

@@ -41,12 +41,13 @@ bool typed(char c) {
   return false;
 }
 
-void keys(const WindowState& state, std::vector<Action>& out) {
-  if (ImGui::IsKeyPressed(ImGui::GetKeyIndex(ImGuiKey_RightArrow))) out.push_back(action::Step{1});
-  if (ImGui::IsKeyPressed(ImGui::GetKeyIndex(ImGuiKey_LeftArrow))) out.push_back(action::Step{-1});
-  if (ImGui::IsKeyPressed(ImGui::GetKeyIndex(ImGuiKey_Home), false)) out.push_back(action::Frame{0});
-  if (ImGui::IsKeyPressed(ImGui::GetKeyIndex(ImGuiKey_End), false))
-    out.push_back(action::Frame{int(state.timeline_utc_s.size()) - 1});
+void keys(const WindowState& state, std::span<const Key> pressed, std::vector<Action>& out) {
+  for (Key key : pressed) switch (key) {
+      case Key::right: out.push_back(action::Step{1}); break;
+      case Key::left: out.push_back(action::Step{-1}); break;
+      case Key::home: out.push_back(action::Frame{0}); break;
+      case Key::end: out.push_back(action::Frame{int(state.timeline_utc_s.size()) - 1}); break;
+    }
   if (typed(' ')) out.push_back(state.playing ? Action{action::Pause{}} : Action{action::Play{}});
   for (std::size_t i = 0; i < displays().size(); ++i)
     if (typed(char('1' + i))) out.push_back(action::ShowDisplay{displays()[i]});
@@ -111,14 +112,15 @@ void radius_scale(ImDrawList& draw, const PlotFrame& frame) {
   draw.AddText(ImVec2(right.x - 0.5f * px - 0.5f * size.x, right.y - 4 - size.y), IM_COL32_WHITE, label);
 }
 
-// One view's panel in [lo, hi]; the cursor's action when it is over the image.
-void view_panel(const WindowState& state, const ShownView& shown, ImVec2 lo, ImVec2 hi, std::vector<Action>& out) {
+// One view's panel in [lo, hi]; the cursor's action when it is over the image. Whether
+// the mouse is over the image.
+bool view_panel(const WindowState& state, const ShownView& shown, ImVec2 lo, ImVec2 hi, std::vector<Action>& out) {
   ImDrawList& draw = *ImGui::GetWindowDrawList();
   const ViewPictures& view = *shown.view;
   if (!view.error.empty() || shown.frame < 0) {
     draw.AddText(ImGui::GetFont(), ImGui::GetFontSize(), ImVec2(lo.x + 8, lo.y + 8), view.error.empty() ? IM_COL32_WHITE : kProblem,
                  (view.name + ": " + (view.error.empty() ? "loading…" : view.error)).c_str(), nullptr, hi.x - lo.x - 16);
-    return;
+    return false;
   }
   const FramePictures& f = view.frames[std::size_t(shown.frame)];
   const bool polar = state.display == Display::polar;
@@ -164,7 +166,9 @@ void view_panel(const WindowState& state, const ShownView& shown, ImVec2 lo, ImV
     const DataPoint sky = sky_at(frame, state.display, mouse);
     if (!state.hover || state.hover->view != view.name || state.hover->x_rs != sky.x || state.hover->y_rs != sky.y)
       out.push_back(action::HoverAt{view.name, sky.x, sky.y});
+    return true;
   }
+  return false;
 }
 
 void readout(const WindowState& state, const std::vector<ShownView>& shown) {
@@ -266,14 +270,15 @@ std::vector<Texture> textures_of(const std::vector<ShownView>& shown) {
 }
 
 std::vector<Action> draw_window(const WindowState& state, const std::vector<ShownView>& shown,
-                                const std::vector<ViewPictures>& views, const LoadingShown& loading) {
+                                const std::vector<ViewPictures>& views, const LoadingShown& loading,
+                                std::span<const Key> pressed) {
   std::vector<Action> out;
   ImGui::SetNextWindowPos(ImVec2(0, 0));
   ImGui::SetNextWindowSize(ImVec2(float(state.width), float(state.height)));
   ImGui::Begin("occulta", nullptr,
                ImGuiWindowFlags_NoDecoration | ImGuiWindowFlags_NoMove | ImGuiWindowFlags_NoSavedSettings |
                    ImGuiWindowFlags_NoBringToFrontOnFocus);
-  keys(state, out);
+  keys(state, pressed, out);
   toolbar(state, views, out);
   ImGui::Separator();
   // The panels take what the readout and the timeline leave.
@@ -285,9 +290,12 @@ std::vector<Action> draw_window(const WindowState& state, const std::vector<Show
     ImGui::TextUnformatted(loading.done ? "No view could be loaded." : "Loading…");
   } else {
     const float w = avail.x / float(shown.size());
+    bool over_image = false;
     for (std::size_t i = 0; i < shown.size(); ++i)
-      view_panel(state, shown[i], ImVec2(std::floor(lo.x + i * w), lo.y), ImVec2(std::floor(lo.x + (i + 1) * w) - 6, lo.y + panels_h),
-                 out);
+      over_image |= view_panel(state, shown[i], ImVec2(std::floor(lo.x + i * w), lo.y),
+                               ImVec2(std::floor(lo.x + (i + 1) * w) - 6, lo.y + panels_h), out);
+    // The mouse left the images (a snapshot has no mouse: its hover stays as scripted).
+    if (state.hover && !over_image && ImGui::IsMousePosValid()) out.push_back(action::Leave{});
   }
   ImGui::Dummy(ImVec2(avail.x, panels_h));
   ImGui::Separator();

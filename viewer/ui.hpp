@@ -45,9 +45,15 @@ struct LoadingShown {
   std::string loading;
 };
 
+// Keys that are not characters, pressed (or repeated) since the last frame. The window
+// collects them from GLFW itself: Dear ImGui 1.86 keeps only whether a key is down, so a
+// press and release between two frames (a quick tap, xdotool) would be lost.
+enum class Key { left, right, home, end };
+
 // Draws the whole window (DisplaySize = state's size) between NewFrame and Render.
 std::vector<Action> draw_window(const WindowState& state, const std::vector<ShownView>& shown,
-                                const std::vector<ViewPictures>& views, const LoadingShown& loading = {});
+                                const std::vector<ViewPictures>& views, const LoadingShown& loading = {},
+                                std::span<const Key> pressed = {});
 
 // The window with no display: the state drawn by viewer/headless at its size.
 Framebuffer draw_window_headless(const WindowState& state, const std::vector<ViewPictures>& views,
