@@ -20,11 +20,9 @@ constexpr ImU32 kLimb = IM_COL32(255, 255, 255, 150);      // 1 R☉
 constexpr ImU32 kCursor = IM_COL32(80, 255, 120, 255);
 constexpr ImU32 kProblem = IM_COL32(255, 120, 100, 255);
 
-std::string scale_label(Display display) {
-  if (display == Display::calibrated) return "log brightness (σ)";
-  if (display == Display::polar) return "polar running difference (σ)";
-  return std::string(display_label(display)) + " (σ)";
-}
+// The colour bar's label: short, so that it fits beside the title on a small panel; the
+// toolbar says which display the σ are of.
+std::string scale_label(Display display) { return display == Display::calibrated ? "log I (σ)" : "σ"; }
 
 std::string clock(double utc_s) {
   std::string iso = imaging::iso_from_utc_seconds(utc_s, 0);
@@ -125,7 +123,7 @@ bool view_panel(const WindowState& state, const ShownView& shown, ImVec2 lo, ImV
   const FramePictures& f = view.frames[std::size_t(shown.frame)];
   const bool polar = state.display == Display::polar;
   PanelAxes axes;
-  axes.title = view.name + " · " + clock(f.utc_s);
+  axes.title = view.name + " · " + clock(f.utc_s).substr(11, 8);  // the date is on the timeline
   if (polar) {
     axes.x = Axis{0.0, 360.0, "position angle (°, from north through east)"};
     axes.y = Axis{shown.panel.extent.bottom, shown.panel.extent.top, "height (R☉)"};

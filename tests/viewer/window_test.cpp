@@ -2,6 +2,10 @@
 // window drawn headless from plain state: what each display holds, the cursor's inverse
 // mapping, nearest-time matching, and snapshots that follow the state.
 #include <cmath>
+#include <cstdlib>
+
+#include <opencv2/imgcodecs.hpp>
+#include <opencv2/imgproc.hpp>
 
 #include <doctest/doctest.h>
 
@@ -170,4 +174,56 @@ TEST_CASE("the window drawn headless follows the state, and only the state") {
   WindowState one = s;
   apply(one, action::Focus{"west"});
   CHECK(mean_abs_difference(a, draw_window_headless(one, sample())) > 2.0);
+}
+
+// Golden pictures of a few states of the sample (tests/viewer/golden/, made by this test
+// with OCCULTA_UPDATE_GOLDENS=1 and looked at before committing). Tolerance: mean |Δ| ≤ 1
+// level per channel and at most 1 % of pixels more than 24 levels off, for the float
+// rounding GCC and clang may do differently in the chain and in Dear ImGui's geometry.
+TEST_CASE("golden snapshots of the sample: running difference, polar, one view's NRGF with the cursor") {
+  struct Golden {
+    const char* file;
+    std::vector<Action> actions;
+  };
+  const std::vector<Golden> goldens{
+      {"running_difference.png", {action::Frame{9}, action::Colours{ColourTable::blue_red}}},
+      {"polar.png", {action::Frame{9}, action::ShowDisplay{Display::polar}, action::Contrast{-2, 4}}},
+      {"east_nrgf.png",
+       {action::Frame{12}, action::Focus{"east"}, action::ShowDisplay{Display::nrgf}, action::HoverAt{"east", 8.0, 1.5}}},
+  };
+  const bool update = std::getenv("OCCULTA_UPDATE_GOLDENS") != nullptr;
+  for (const Golden& g : goldens) {
+    CAPTURE(g.file);
+    WindowState s = sample_state();
+    s.width = 800;
+    s.height = 500;
+    for (const Action& a : g.actions) apply(s, a);
+    const Framebuffer full = draw_window_headless(s, sample());
+    // Kept at half size (OpenCV INTER_AREA, 2 × 2 means) so that the committed files stay
+    // small; layout, text and images still show at that size.
+    cv::Mat rgba(full.height, full.width, CV_8UC4, const_cast<std::uint32_t*>(full.pixels.data())), bgr, picture;
+    cv::cvtColor(rgba, bgr, cv::COLOR_RGBA2BGR);
+    cv::resize(bgr, picture, cv::Size(full.width / 2, full.height / 2), 0, 0, cv::INTER_AREA);
+    const fs::path golden = occulta::test::source_path("tests/viewer/golden") / g.file;
+    if (update) cv::imwrite(golden.string(), picture);
+    const cv::Mat expected = cv::imread(golden.string(), cv::IMREAD_COLOR);
+    REQUIRE(!expected.empty());
+    REQUIRE(expected.size() == picture.size());
+    double sum = 0;
+    long far = 0;
+    for (int y = 0; y < picture.rows; ++y)
+      for (int x = 0; x < picture.cols; ++x) {
+        int worst = 0;
+        for (int k = 0; k < 3; ++k) {
+          const int d = std::abs(int(picture.at<cv::Vec3b>(y, x)[k]) - int(expected.at<cv::Vec3b>(y, x)[k]));
+          sum += d;
+          worst = std::max(worst, d);
+        }
+        far += worst > 24;
+      }
+    const double mean = sum / (3.0 * double(picture.total())), far_fraction = double(far) / double(picture.total());
+    MESSAGE(std::string(g.file), ": mean |Δ| ", mean, ", pixels off by > 24: ", 100 * far_fraction, " %");
+    CHECK(mean <= 1.0);
+    CHECK(far_fraction <= 0.01);
+  }
 }
