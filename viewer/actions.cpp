@@ -20,6 +20,8 @@ template <class... F>
 struct Overloaded : F... {
   using F::operator()...;
 };
+template <class... F>
+Overloaded(F...) -> Overloaded<F...>;  // clang 14 does not deduce aggregates' arguments yet
 
 int last_frame(const WindowState& s) { return std::max(0, int(s.timeline_utc_s.size()) - 1); }
 
