@@ -48,9 +48,10 @@ int view(const ViewOptions& options, std::ostream& out, std::ostream& err) {
   if (options.snapshot.empty()) return viewer::present(std::move(state), std::move(sources), script, err);
 
   std::vector<viewer::ViewPictures> views;
+  int status = 0;  // 1: drawn, but a view could not be loaded (the picture says which)
   for (const viewer::ViewSource& source : sources) {
     views.push_back(viewer::load_view(source));
-    if (!views.back().error.empty()) err << "occulta view: " << views.back().error << '\n';
+    if (!views.back().error.empty()) err << "occulta view: " << views.back().error << '\n', status = 1;
   }
   viewer::apply(state, viewer::action::Timeline{viewer::frame_times(views)});
   for (const viewer::Action& a : script) viewer::apply(state, a);
@@ -58,7 +59,7 @@ int view(const ViewOptions& options, std::ostream& out, std::ostream& err) {
   out << "wrote " << options.snapshot << " (" << state.width << "×" << state.height << ", "
       << viewer::display_label(state.display) << ", frame " << state.frame + 1 << " of " << state.timeline_utc_s.size()
       << ")\n";
-  return 0;
+  return status;
 }
 
 }  // namespace occulta::app

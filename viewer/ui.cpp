@@ -67,18 +67,25 @@ void keys(const WindowState& state, std::span<const Key> pressed, std::vector<Ac
   if (typed('q')) out.push_back(action::Quit{});
 }
 
+// Continues the line when `width` more pixels fit on it, else starts a new one.
+void same_line_if_fits(float width) {
+  const float right = ImGui::GetWindowPos().x + ImGui::GetWindowContentRegionMax().x;
+  ImGui::SameLine(0, 24);
+  if (ImGui::GetCursorScreenPos().x + width > right) ImGui::NewLine();
+}
+
 void toolbar(const WindowState& state, const std::vector<ViewPictures>& views, std::vector<Action>& out) {
   ImGui::TextUnformatted("Show");
   for (Display d : displays()) {
     ImGui::SameLine();
     if (ImGui::RadioButton(std::string(display_label(d)).c_str(), state.display == d)) out.push_back(action::ShowDisplay{d});
   }
-  ImGui::SameLine(0, 24);
+  same_line_if_fits(280);
   float range[2] = {float(state.sigma_lo), float(state.sigma_hi)};
   ImGui::SetNextItemWidth(170);
   if (ImGui::DragFloatRange2("contrast (σ)", &range[0], &range[1], 0.05f, -100.0f, 100.0f, "%.1f", "%.1f"))
     out.push_back(action::Contrast{range[0], range[1]});
-  ImGui::SameLine(0, 24);
+  same_line_if_fits(180);
   ImGui::SetNextItemWidth(110);
   if (ImGui::BeginCombo("colours", std::string(colour_table_name(state.colours)).c_str())) {
     for (ColourTable t : colour_tables())
@@ -86,7 +93,9 @@ void toolbar(const WindowState& state, const std::vector<ViewPictures>& views, s
     ImGui::EndCombo();
   }
   if (views.size() > 1) {
-    ImGui::SameLine(0, 24);
+    float names = 0;
+    for (const ViewPictures& v : views) names += ImGui::CalcTextSize(v.name.c_str()).x + 40;
+    same_line_if_fits(names + 80);
     ImGui::TextUnformatted("View");
     ImGui::SameLine();
     if (ImGui::RadioButton("all", state.focus.empty())) out.push_back(action::Focus{""});
