@@ -133,7 +133,7 @@ TEST_CASE("view --snapshot draws the sample with a script's state") {
   CHECK(png.rows == 500);
 }
 
-TEST_CASE("view: a bad script, size or input is one sentence, and no PNG") {
+TEST_CASE("view: a bad script or size or input is one sentence and no PNG") {
   const fs::path dir = occulta::test::scratch_dir("view_faults");
   const std::string png = shell_quote((dir / "x.png").string());
   occulta::test::spit(dir / "bad.json", R"([{"do": "display", "mode": "sideways"}])");
@@ -157,10 +157,10 @@ TEST_CASE("view with no display says so and points to --snapshot") {
   CHECK(run.output.find("--snapshot") != std::string::npos);
 }
 
-TEST_CASE("view opens a window under Xvfb with GLX; keys give the same picture as --snapshot") {
+TEST_CASE("view opens a window under Xvfb with GLX and keys give the same picture as --snapshot") {
   window_matches_snapshot("view_window_glx", true);
 }
 
-TEST_CASE("view opens a window under Xvfb without GLX (X11 image puts); keys give the same picture") {
+TEST_CASE("view opens a window under Xvfb without GLX (X11 image puts) and keys give the same picture") {
   window_matches_snapshot("view_window_x11", false);
 }

@@ -31,7 +31,7 @@ std::string fault_of(const json& script) {
 
 }  // namespace
 
-TEST_CASE("the timeline is the views' frame times, sorted, once each; frames and steps stay on it") {
+TEST_CASE("the timeline is the views' frame times sorted and once each — frames and steps stay on it") {
   WindowState s = two_views_five_times();
   CHECK(s.timeline_utc_s == std::vector<double>{100, 200, 300, 400, 500});
   CHECK(displayed_time(s) == 100.0);
@@ -58,7 +58,7 @@ TEST_CASE("the timeline is the views' frame times, sorted, once each; frames and
   CHECK(empty.frame == 0);
 }
 
-TEST_CASE("display, focus, contrast, colours, play, resize, hover and quit actions") {
+TEST_CASE("the display focus contrast colours play resize hover and quit actions") {
   WindowState s = two_views_five_times();
   apply(s, action::ShowDisplay{Display::nrgf});
   CHECK(s.display == Display::nrgf);
@@ -91,7 +91,7 @@ TEST_CASE("display, focus, contrast, colours, play, resize, hover and quit actio
   CHECK(s.quit);
 }
 
-TEST_CASE("display names round-trip; every display has one") {
+TEST_CASE("every display's name round-trips") {
   for (Display d : displays()) CHECK(display_named(display_name(d)) == d);
   CHECK(!display_named("Running_Difference"));
 }
@@ -119,7 +119,7 @@ TEST_CASE("a script gives the actions the window's controls give") {
   CHECK(s.hover->y_rs == 6.0);
 }
 
-TEST_CASE("a bad script is one sentence naming the file, the action and the fault") {
+TEST_CASE("a bad script is one sentence naming the file and the action and the fault") {
   CHECK(fault_of(json::object()) == "bad.json: must be a JSON list of actions [{\"do\": …}, …].");
   CHECK(fault_of(json::parse(R"([3])")) == "bad.json: action 1 is not an object {\"do\": …}.");
   CHECK(fault_of(json::parse(R"([{"index": 3}])")) == "bad.json: action 1 has no \"do\" naming what to do.");

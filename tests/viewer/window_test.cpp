@@ -72,7 +72,7 @@ double mean_abs_difference(const Framebuffer& a, const Framebuffer& b) {
 
 }  // namespace
 
-TEST_CASE("each view of the sample gives a picture per running difference, every display in σ") {
+TEST_CASE("each view of the sample gives a picture per running difference with every display in σ") {
   for (const ViewPictures& view : sample()) {
     CAPTURE(view.name);
     REQUIRE(view.error.empty());
@@ -118,7 +118,7 @@ TEST_CASE("views with different frame times are matched by nearest time") {
   CHECK(nearest_frame(ViewPictures{}, 5) == -1);
 }
 
-TEST_CASE("the cursor's sky position is the inverse of the panel's drawing; PA runs from north through east") {
+TEST_CASE("the cursor's sky position is the inverse of the panel's drawing — PA runs from north through east") {
   PlotFrame sky{ImVec2(100, 50), ImVec2(500, 450), Axis{-15, 15, ""}, Axis{-15, 15, ""}};
   const DataPoint p = sky_at(sky, Display::running_difference, sky.to_pixel(3.0, -4.0));
   CHECK(p.x == doctest::Approx(3.0));
@@ -135,7 +135,7 @@ TEST_CASE("the cursor's sky position is the inverse of the panel's drawing; PA r
   CHECK(south.y == doctest::Approx(-7.0));
 }
 
-TEST_CASE("the value under the cursor is the displayed image's, also through the polar unwrap") {
+TEST_CASE("the value under the cursor is the displayed image's — also through the polar unwrap") {
   const ViewPictures& east = sample().front();
   const FramePictures& f = east.frames[10];
   // A sky position on the grid: the pixel (c, r) is at ((c − cx)·s, (r − cy)·s) R☉.
@@ -151,7 +151,7 @@ TEST_CASE("the value under the cursor is the displayed image's, also through the
   CHECK(std::isnan(value_at(east, f, Display::running_difference, 100.0, 0.0)));
 }
 
-TEST_CASE("the window drawn headless follows the state, and only the state") {
+TEST_CASE("the window drawn headless follows the state and only the state") {
   WindowState s = sample_state();
   apply(s, action::Frame{7});
   const Framebuffer a = draw_window_headless(s, sample());
@@ -180,7 +180,7 @@ TEST_CASE("the window drawn headless follows the state, and only the state") {
 // with OCCULTA_UPDATE_GOLDENS=1 and looked at before committing). Tolerance: mean |Δ| ≤ 1
 // level per channel and at most 1 % of pixels more than 24 levels off, for the float
 // rounding GCC and clang may do differently in the chain and in Dear ImGui's geometry.
-TEST_CASE("golden snapshots of the sample: running difference, polar, one view's NRGF with the cursor") {
+TEST_CASE("golden snapshots of the sample — running difference and polar and one view's NRGF with the cursor") {
   struct Golden {
     const char* file;
     std::vector<Action> actions;
