@@ -4,6 +4,7 @@
 #include <cmath>
 #include <cstdio>
 #include <string>
+#include <string_view>
 #include <vector>
 
 #include <imgui.h>
@@ -16,10 +17,11 @@ namespace occulta::app {
 
 namespace {
 
-constexpr int kWidth = 860, kHeight = 440;  // pixels
+constexpr int kWidth = 860, kHeight = 480;  // pixels
 constexpr int kAboutBins = 40;
 const ImU32 kBar = IM_COL32(150, 150, 162, 255), kOuter = IM_COL32(255, 170, 60, 255),
-            kMedian = IM_COL32(255, 90, 80, 255), kText = IM_COL32(225, 225, 225, 255);
+            kMedian = IM_COL32(255, 90, 80, 255), kText = IM_COL32(225, 225, 225, 255),
+            kCaution = IM_COL32(170, 170, 170, 255);
 
 // "YYYY-MM-DD hh:mm" (UTC).
 std::string minute(double utc_s) {
@@ -42,13 +44,25 @@ std::string duration(double s) {
   return text;
 }
 
+// The caution (fit::kArrivalCaution) on two lines at the bottom of the picture, split after
+// its semicolon; returns the height it takes.
+float draw_caution(ImDrawList& draw) {
+  const std::string_view caution = fit::kArrivalCaution;
+  const std::size_t split = caution.find("; ");
+  const std::string lines[2] = {std::string(caution.substr(0, split + 1)), std::string(caution.substr(split + 2))};
+  const float line = ImGui::GetFontSize(), pad = 4.0f, top = kHeight - pad - 2 * line;
+  for (int i = 0; i < 2; ++i) draw.AddText(ImVec2(pad * 2, std::floor(top + i * line)), kCaution, lines[i].c_str());
+  return kHeight - top + pad;
+}
+
 void draw_histogram(const fit::TargetArrival& a, double boundary_utc_s) {
   ImDrawList& draw = *ImGui::GetBackgroundDrawList();
+  const float caution_px = draw_caution(draw);
   char text[256];
   if (a.hits == 0) {
     std::snprintf(text, sizeof text, "%s: no member of %d reaches it", a.target.name.c_str(), a.members);
     const ImVec2 size = ImGui::CalcTextSize(text);
-    draw.AddText(ImVec2(std::floor((kWidth - size.x) / 2), std::floor((kHeight - size.y) / 2)), kText, text);
+    draw.AddText(ImVec2(std::floor((kWidth - size.x) / 2), std::floor((kHeight - caution_px - size.y) / 2)), kText, text);
     return;
   }
   // Bins of one UTC tick step (whole minutes, hours or days) over the hits' range, so that
@@ -70,7 +84,7 @@ void draw_histogram(const fit::TargetArrival& a, double boundary_utc_s) {
   const double top = viewer::nice_range(0.0, 1.4 * peak, 5).y;
 
   const viewer::PlotFrame frame = viewer::layout_plot(
-      ImVec2(0, 0), ImVec2(kWidth, kHeight), viewer::Axis{edges.front(), edges.back(), "arrival time (UTC)", true},
+      ImVec2(0, 0), ImVec2(kWidth, kHeight - caution_px), viewer::Axis{edges.front(), edges.back(), "arrival time (UTC)", true},
       viewer::Axis{0.0, top, "members per " + duration(bin) + " bin", false});
   viewer::draw_bars(draw, frame, edges, counts, kBar);
   viewer::draw_axes(draw, frame);

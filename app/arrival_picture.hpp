@@ -1,8 +1,8 @@
 // app/arrival_picture.hpp — a PNG histogram of one target's arrival times, for a person:
 // arrival time across on a UTC axis (dates with their year where they change), members per
 // bin up, the 5th/50th/95th percentiles marked and listed with their UTC times and hours
-// after the boundary time. Drawn with the plotting layer (viewer/plot.hpp) and rendered
-// headless (viewer/headless.hpp), DejaVu Sans.
+// after the boundary time; the caution (fit::kArrivalCaution) along the bottom. Drawn with
+// the plotting layer (viewer/plot.hpp) and rendered headless (viewer/headless.hpp), DejaVu Sans.
 #pragma once
 
 #include <filesystem>

@@ -20,10 +20,15 @@
 //   Arithmetic is in 8 bits with exact rounding of x/255.
 // - Coverage: a pixel is drawn when its centre is inside the triangle (edge functions,
 //   Pineda 1988, "A Parallel Algorithm for Polygon Rasterization", SIGGRAPH '88). Centres
-//   exactly on an edge follow the top-left rule of Direct3D 10+ (in these y-down
-//   coordinates), so two triangles sharing an edge cover each pixel along it exactly once
-//   (what OpenGL 4.6 §14.6.1 also requires, from memory). Vertices are snapped to 1/256 px
-//   (8 sub-pixel bits, as Mesa's llvmpipe does) and clamped to ±2²⁰ px.
+//   exactly on an edge follow the top-left rule, so two triangles sharing an edge cover
+//   each pixel along it exactly once (what OpenGL 4.6 §14.6.1 requires, from memory). We
+//   take "top" in OpenGL's window coordinates, y up, as Mesa's llvmpipe does (measured in
+//   tests/viewer), so in these y-down rows a left edge and a *bottom* edge are in: a
+//   rectangle covers the centres with x0 ≤ x < x1 and y0 < y ≤ y1. (Direct3D
+//   applies the same rule with y down and takes top edges; over Dear ImGui's draw data
+//   that choice moved whole rows against the OpenGL reference, where lines and rectangles
+//   end on half pixels.) Vertices are snapped to 1/256 px (8 sub-pixel bits, as llvmpipe)
+//   and clamped to ±2²⁰ px.
 // - Clipping: each command's ClipRect is mapped to pixels and truncated to integers the way
 //   Dear ImGui's OpenGL2 backend computes its glScissor box; a pixel is drawn when its
 //   centre is inside.
@@ -88,10 +93,11 @@ struct RasterCounts {
 };
 
 // Draws every command list of `draw_data` over `framebuffer`, in order. Every ImTextureID
-// the commands use must be in `textures` (std::invalid_argument otherwise, naming none of
-// the user's files: it is a programming error). User callbacks are called as Dear ImGui's
-// backends call them; ImDrawCallback_ResetRenderState is a no-op here (no state to reset).
-// Pixels outside the framebuffer are never touched, whatever DisplaySize says.
+// the commands use must be in `textures`, with texels and a positive size
+// (std::invalid_argument otherwise: a programming error, not bad input; what was drawn
+// before stays). User callbacks are called as Dear ImGui's backends call them;
+// ImDrawCallback_ResetRenderState is a no-op here (no state to reset). Pixels outside
+// the framebuffer are never touched, whatever DisplaySize says.
 RasterCounts render(const ImDrawData& draw_data, std::span<const Texture> textures, Framebuffer& framebuffer);
 
 }  // namespace occulta::viewer

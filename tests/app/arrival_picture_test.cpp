@@ -58,6 +58,12 @@ TEST_CASE("arrival picture: bars, markers and the no-hit sentence") {
   CHECK(bar_columns_low < picture.width / 2);
   CHECK(median_columns == 2);  // the p50 marker, two pixels wide
 
+  // The caution's two lines along the bottom, below the axis label: text there.
+  int caution_pixels = 0;
+  for (int y = picture.height - 36; y < picture.height; ++y)
+    for (int x = 0; x < picture.width; ++x) caution_pixels += (picture.at(x, y) & 0xFF) > 120;
+  CHECK(caution_pixels > 300);
+
   // No member arrives: one sentence, no bars.
   occulta::fit::TargetArrival none;
   none.target.name = "probe";

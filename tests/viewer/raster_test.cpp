@@ -110,8 +110,10 @@ TEST_CASE("raster: triangles sharing edges cover every pixel exactly once (top-l
   CHECK(wrong == 0);
 }
 
-TEST_CASE("raster: a rectangle covers the pixels whose centres have x0 ≤ x < x1 and y0 ≤ y < y1") {
-  // Left and top edges through pixel centres are in, right and bottom ones out (top-left rule).
+TEST_CASE("raster: a rectangle covers the pixels whose centres have x0 ≤ x < x1 and y0 < y ≤ y1") {
+  // Edges through pixel centres: left ones in, right ones out; and, the top-left rule
+  // taken with OpenGL's y up (raster.hpp), bottom ones (in these y-down rows) in and top
+  // ones out. The rectangle (2.5, 3.5)–(6.5, 5.5): columns 2–5, rows 4–5.
   for (const bool fast : {true, false}) {
     test::HandDrawn scene(12, 12);
     scene.command(kNoClip, kWhite.id);
@@ -122,8 +124,10 @@ TEST_CASE("raster: a rectangle covers the pixels whose centres have x0 ≤ x < x
     Framebuffer fb(12, 12, rgba(0, 0, 0));
     const RasterCounts counts = render(scene.data, {&kWhite, 1}, fb);
     CHECK(counts.rectangles == (fast ? 1 : 0));
+    long wrong = 0;
     for (int y = 0; y < 12; ++y)
-      for (int x = 0; x < 12; ++x) CHECK(channel(fb.at(x, y), 0) == ((x >= 2 && x <= 5 && y >= 3 && y <= 4) ? 255u : 0u));
+      for (int x = 0; x < 12; ++x) wrong += channel(fb.at(x, y), 0) != ((x >= 2 && x <= 5 && y >= 4 && y <= 5) ? 255u : 0u);
+    CHECK(wrong == 0);
   }
 }
 
@@ -258,12 +262,46 @@ TEST_CASE("raster: a fragment is texel × vertex colour (GL_MODULATE), each prod
   CHECK(fb.at(1, 1) == rgba(200, 50, 0, 255));
 }
 
+TEST_CASE("raster: user callbacks run in order between draws; ResetRenderState is skipped") {
+  // A callback sees what was drawn before it and nothing after (it runs where it stands).
+  struct Seen {
+    const Framebuffer* fb = nullptr;
+    std::uint32_t pixel = 0;
+    int calls = 0;
+  } seen;
+  test::HandDrawn scene(4, 4);
+  Framebuffer fb(4, 4, rgba(0, 0, 0));
+  seen.fb = &fb;
+  scene.command(kNoClip, kWhite.id);
+  scene.rect({0, 0}, {4, 4}, {0, 0}, {0, 0}, rgba(255, 0, 0));
+  ImDrawCmd callback;
+  callback.UserCallback = [](const ImDrawList*, const ImDrawCmd* cmd) {
+    auto* s = static_cast<Seen*>(cmd->UserCallbackData);
+    s->pixel = s->fb->at(1, 1);
+    ++s->calls;
+  };
+  callback.UserCallbackData = &seen;
+  scene.list->CmdBuffer.push_back(callback);
+  ImDrawCmd reset;
+  reset.UserCallback = ImDrawCallback_ResetRenderState;
+  scene.list->CmdBuffer.push_back(reset);
+  scene.command(kNoClip, kWhite.id);
+  scene.rect({0, 0}, {4, 4}, {0, 0}, {0, 0}, rgba(0, 0, 255));
+  render(scene.data, {&kWhite, 1}, fb);
+  CHECK(seen.calls == 1);
+  CHECK(seen.pixel == rgba(255, 0, 0));
+  CHECK(fb.at(1, 1) == rgba(0, 0, 255));
+}
+
 TEST_CASE("raster: a texture id missing from the table is an error, and nothing is drawn out of bounds") {
   test::HandDrawn scene(8, 8);
   scene.command(kNoClip, reinterpret_cast<ImTextureID>(99));
   scene.rect({0, 0}, {8, 8}, {0, 0}, {0, 0}, rgba(255, 0, 0));
   Framebuffer fb(8, 8, rgba(0, 0, 0));
   CHECK_THROWS_AS(render(scene.data, {&kWhite, 1}, fb), std::invalid_argument);
+  const Texture empty{reinterpret_cast<ImTextureID>(99), 0, 0, nullptr};
+  CHECK_THROWS_AS(render(scene.data, {&empty, 1}, fb), std::invalid_argument);
+  CHECK(fb.at(3, 3) == rgba(0, 0, 0));
 
   // A display larger than the framebuffer, and vertices far outside it or not numbers.
   test::HandDrawn huge(5000, 5000);

@@ -2,17 +2,17 @@
 // ImDrawData drawn by Dear ImGui's own OpenGL2 backend (imgui_impl_opengl2, in Debian's
 // libimgui.a) on Mesa's off-screen software OpenGL (OSMesa, llvmpipe) and by ours.
 //
-// Tolerance, measured. Both renderers snap vertices to 1/256 px and blend in 8 bits, but
-// they round differently: llvmpipe rounds the fragment colour and each blend product on
-// its own and interpolates in its own fixed point, so most differing pixels differ by one
-// level. Large differences are isolated rows: where a horizontal edge runs exactly through
-// pixel centres (ImGui draws lines at +½ px), our top-left rule takes the row on the top
-// edge and llvmpipe, which applies its rule in OpenGL's y-up window, the row on the bottom
-// edge (seen at the first pixel of a line, the last row of a rectangle). Measured with
-// Mesa 22.3.6: 99.90–100 % of pixels within 2/255, mean difference 0.003–0.12/255, per
-// scene. We require, per scene, ≥ 99.8 % of pixels within 2/255 in every channel and a
-// mean absolute difference below 0.2/255. Checked to fail: with every vertex of ours moved
-// one pixel right, every scene breaks both (within 2/255: 70–99.5 %, mean 0.28–9.5/255).
+// Tolerance, measured. Both renderers snap vertices to 1/256 px, apply the top-left rule
+// with OpenGL's y up and blend in 8 bits, but they round differently: llvmpipe rounds the
+// fragment colour and each blend product on its own and interpolates in its own fixed
+// point, so differing pixels differ by one or two levels. Measured with Mesa 22.3.6, per
+// scene of 640 × 480: at most one pixel differs by more than 2/255 (the end of one thin
+// line), the mean difference is 0.003–0.09/255. We require, per scene, at most 10 pixels
+// differing by more than 2/255 in any channel and a mean absolute difference below
+// 0.15/255. Checked to fail: with every vertex of ours moved one pixel right, every
+// scene breaks both (mean 0.28–9.5/255); with the top-left rule taken with y down
+// (Direct3D's way), text, shapes and images break the first (17, 181 and 300 pixels,
+// whole rows at the ends of rectangles and lines, up to 214/255).
 #include <GL/gl.h>
 #include <GL/osmesa.h>
 #include <backends/imgui_impl_opengl2.h>
@@ -56,6 +56,7 @@ std::vector<std::uint8_t> test_picture(bool with_alpha) {
 }
 
 struct Comparison {
+  long beyond_2 = 0;     // pixels with a channel differing by more than 2
   double within_2 = 0;   // fraction of pixels whose channels all differ by ≤ 2
   int worst = 0;         // largest channel difference
   int worst_x = 0, worst_y = 0;
@@ -79,6 +80,7 @@ Comparison compare(const Framebuffer& ours, const Framebuffer& reference) {
       sum += d;
     }
     close += pixel_worst <= 2;
+    c.beyond_2 += pixel_worst > 2;
     if (pixel_worst > c.worst) {
       c.worst = pixel_worst;
       c.worst_x = int(k % std::size_t(ours.width));
@@ -93,9 +95,9 @@ Comparison compare(const Framebuffer& ours, const Framebuffer& reference) {
 }
 
 // Both renderers, one ImGui context, one OSMesa context.
-class Bench {
+class TwoRenderers {
  public:
-  Bench() {
+  TwoRenderers() {
     setenv("LP_NUM_THREADS", "0", 1);  // llvmpipe draws on this thread: quicker to start, no threads left behind
     gl_ = OSMesaCreateContextExt(OSMESA_RGBA, 0, 0, 0, nullptr);
     REQUIRE(gl_ != nullptr);
@@ -119,15 +121,15 @@ class Bench {
     add_picture(translucent_, GL_LINEAR, Sampling::bilinear);
     add_picture(opaque_, GL_NEAREST, Sampling::nearest);
   }
-  ~Bench() {
+  ~TwoRenderers() {
     glDeleteTextures(GLsizei(gl_textures_.size()), gl_textures_.data());
     ImGui_ImplOpenGL2_Shutdown();
     ImGui::DestroyContext(imgui_);
     OSMesaMakeCurrent(nullptr, nullptr, 0, 0, 0);
     OSMesaDestroyContext(gl_);
   }
-  Bench(const Bench&) = delete;
-  Bench& operator=(const Bench&) = delete;
+  TwoRenderers(const TwoRenderers&) = delete;
+  TwoRenderers& operator=(const TwoRenderers&) = delete;
 
   // The GL texture names, as ImTextureIDs: the linear opaque, linear translucent and nearest pictures.
   ImTextureID picture(int i) const { return textures_[std::size_t(i) + 1].id; }
@@ -158,6 +160,9 @@ class Bench {
     Framebuffer again(kWidth, kHeight, kBackground);
     render(*draw_data, textures_, again);
     CHECK_MESSAGE(again.pixels == ours.pixels, "the same draw data must give the same pixels");
+    long translucent = 0;  // source over keeps an opaque framebuffer opaque (raster.hpp)
+    for (const std::uint32_t p : ours.pixels) translucent += (p >> 24) != 255;
+    CHECK(translucent == 0);
 
     const std::filesystem::path dir = test::scratch_dir("viewer-reference-" + name);
     Framebuffer difference(kWidth, kHeight, 0);
@@ -174,7 +179,7 @@ class Bench {
     write_png(difference, dir / "difference_x16.png");
 
     const Comparison c = compare(ours, reference);
-    MESSAGE(name << ": " << 100.0 * c.within_2 << " % of pixels within 2/255, mean " << c.mean << "/255, worst " << c.worst
+    MESSAGE(name << ": " << c.beyond_2 << " pixels beyond 2/255 (" << 100.0 * c.within_2 << " % within), mean " << c.mean << "/255, worst " << c.worst
                  << "/255 at (" << c.worst_x << ", " << c.worst_y << "): ours " << rgb_text(c.ours_there) << ", reference "
                  << rgb_text(c.reference_there));
     return c;
@@ -204,8 +209,8 @@ class Bench {
 };
 
 void check(const Comparison& c) {
-  CHECK(c.within_2 >= 0.998);
-  CHECK(c.mean < 0.2);
+  CHECK(c.beyond_2 <= 10);
+  CHECK(c.mean < 0.15);
 }
 
 void place(const char* title, ImVec2 pos, ImVec2 size) {
@@ -217,11 +222,11 @@ void place(const char* title, ImVec2 pos, ImVec2 size) {
 }  // namespace
 
 TEST_CASE("raster: matches Dear ImGui's OpenGL2 backend on Mesa's software GL (OSMesa)") {
-  Bench bench;
+  TwoRenderers renderers;
 
   SUBCASE("text") {
     RasterCounts counts;
-    check(bench.run("text", [] {
+    check(renderers.run("text", [] {
       place("Text of several sizes", ImVec2(10, 10), ImVec2(420, 300));
       for (int i = 0; i < 6; ++i) ImGui::Text("Line %d: height 4.35 R\u2609, PA 271.5\u00b0, 3.2 \u03c3 — the quick brown fox", i);
       ImGui::TextColored(ImVec4(1.0f, 0.6f, 0.2f, 1.0f), "Coloured text, σ ≈ 1.5, ΔT = 12 min");
@@ -238,7 +243,7 @@ TEST_CASE("raster: matches Dear ImGui's OpenGL2 backend on Mesa's software GL (O
   }
 
   SUBCASE("lines") {
-    check(bench.run("lines", [] {
+    check(renderers.run("lines", [] {
       ImDrawList* bg = ImGui::GetBackgroundDrawList();
       for (int i = 0; i < 12; ++i) {
         const float angle = 0.13f * float(i), thickness = 0.6f + 0.45f * float(i);
@@ -258,7 +263,7 @@ TEST_CASE("raster: matches Dear ImGui's OpenGL2 backend on Mesa's software GL (O
   }
 
   SUBCASE("filled shapes") {
-    check(bench.run("shapes", [] {
+    check(renderers.run("shapes", [] {
       ImDrawList* bg = ImGui::GetBackgroundDrawList();
       bg->AddRectFilled(ImVec2(20, 20), ImVec2(220, 140), IM_COL32(200, 60, 60, 255), 12.0f);
       bg->AddRectFilled(ImVec2(120.5f, 80.25f), ImVec2(300.75f, 200.5f), IM_COL32(60, 200, 90, 128));
@@ -275,27 +280,27 @@ TEST_CASE("raster: matches Dear ImGui's OpenGL2 backend on Mesa's software GL (O
 
   SUBCASE("images") {
     RasterCounts counts;
-    check(bench.run("images", [&bench] {
+    check(renderers.run("images", [&renderers] {
       ImDrawList* bg = ImGui::GetBackgroundDrawList();
-      bg->AddImage(bench.picture(0), ImVec2(10, 10), ImVec2(310.5f, 310.5f), ImVec2(0.1f, 0.1f), ImVec2(0.35f, 0.35f));  // magnified ×4.8
-      bg->AddImage(bench.picture(0), ImVec2(330, 10), ImVec2(430, 110));                                                 // reduced to 100 px
-      bg->AddImage(bench.picture(1), ImVec2(330, 120), ImVec2(586, 376), ImVec2(0, 0), ImVec2(1, 1), IM_COL32(255, 200, 160, 230));
+      bg->AddImage(renderers.picture(0), ImVec2(10, 10), ImVec2(310.5f, 310.5f), ImVec2(0.1f, 0.1f), ImVec2(0.35f, 0.35f));  // magnified ×4.8
+      bg->AddImage(renderers.picture(0), ImVec2(330, 10), ImVec2(430, 110));                                                 // reduced to 100 px
+      bg->AddImage(renderers.picture(1), ImVec2(330, 120), ImVec2(586, 376), ImVec2(0, 0), ImVec2(1, 1), IM_COL32(255, 200, 160, 230));
       // Nearest, with no pixel centre exactly on a texel boundary (there the texel taken
       // depends on each renderer's rounding: with u1 = 0.3, pixel 37's centre is at s = 16.0).
-      bg->AddImage(bench.picture(2), ImVec2(450, 10), ImVec2(630, 110), ImVec2(0, 0), ImVec2(0.29f, 0.17f));
-      bg->AddImageRounded(bench.picture(0), ImVec2(20, 330), ImVec2(200, 470), ImVec2(0, 0), ImVec2(1, 1), IM_COL32_WHITE, 20.0f);
-      bg->AddImageQuad(bench.picture(0), ImVec2(260, 330), ImVec2(330, 350), ImVec2(310, 470), ImVec2(220, 440));
+      bg->AddImage(renderers.picture(2), ImVec2(450, 10), ImVec2(630, 110), ImVec2(0, 0), ImVec2(0.29f, 0.17f));
+      bg->AddImageRounded(renderers.picture(0), ImVec2(20, 330), ImVec2(200, 470), ImVec2(0, 0), ImVec2(1, 1), IM_COL32_WHITE, 20.0f);
+      bg->AddImageQuad(renderers.picture(0), ImVec2(260, 330), ImVec2(330, 350), ImVec2(310, 470), ImVec2(220, 440));
     }, &counts));
     CHECK(counts.rectangles >= 4);
   }
 
   SUBCASE("clip rectangles") {
-    check(bench.run("clips", [&bench] {
+    check(renderers.run("clips", [&renderers] {
       ImDrawList* bg = ImGui::GetBackgroundDrawList();
       bg->PushClipRect(ImVec2(40.3f, 30.6f), ImVec2(250.8f, 170.2f));
       bg->AddRectFilled(ImVec2(0, 0), ImVec2(640, 480), IM_COL32(80, 120, 200, 255));
       bg->AddText(ImVec2(30, 100), IM_COL32_WHITE, "text cut by a clip rectangle at fractional coordinates");
-      bg->AddImage(bench.picture(0), ImVec2(200, 140), ImVec2(400, 340));
+      bg->AddImage(renderers.picture(0), ImVec2(200, 140), ImVec2(400, 340));
       bg->PopClipRect();
       place("A window with a scrolled child", ImVec2(300, 60), ImVec2(320, 380));
       ImGui::BeginChild("scrolled", ImVec2(0, 200), true);
@@ -307,8 +312,49 @@ TEST_CASE("raster: matches Dear ImGui's OpenGL2 backend on Mesa's software GL (O
     }));
   }
 
+  SUBCASE("widgets") {
+    check(renderers.run("widgets", [] {
+      place("Widgets", ImVec2(10, 10), ImVec2(300, 460));
+      static bool flag = true;
+      static int choice = 1, item = 0;
+      static float value = 0.37f, drag = 2.5f, colour[4] = {0.9f, 0.4f, 0.1f, 0.8f};
+      static char text[32] = "running difference";
+      ImGui::Checkbox("a checkbox", &flag);
+      ImGui::RadioButton("one", &choice, 0);
+      ImGui::SameLine();
+      ImGui::RadioButton("two", &choice, 1);
+      ImGui::SliderFloat("slider", &value, 0.0f, 1.0f);
+      ImGui::DragFloat("drag", &drag, 0.1f);
+      ImGui::InputText("text", text, sizeof text);
+      const char* items[] = {"calibrated", "running difference", "base difference"};
+      ImGui::Combo("combo", &item, items, 3);
+      ImGui::ColorEdit4("colour", colour);
+      const float samples[8] = {0.1f, 0.5f, 0.3f, 0.9f, 0.6f, 0.2f, 0.8f, 0.4f};
+      ImGui::PlotLines("lines", samples, 8, 0, nullptr, 0.0f, 1.0f, ImVec2(0, 50));
+      ImGui::PlotHistogram("histogram", samples, 8, 0, nullptr, 0.0f, 1.0f, ImVec2(0, 50));
+      ImGui::ProgressBar(0.62f);
+      ImGui::SetNextItemOpen(true);
+      if (ImGui::TreeNode("a tree node")) {
+        ImGui::BulletText("a bullet");
+        ImGui::TreePop();
+      }
+      if (ImGui::BeginTable("table", 3, ImGuiTableFlags_Borders | ImGuiTableFlags_RowBg)) {
+        for (int row = 0; row < 3; ++row)
+          for (int column = 0; column < 3; ++column) {
+            ImGui::TableNextColumn();
+            ImGui::Text("%d,%d", row, column);
+          }
+        ImGui::EndTable();
+      }
+      ImGui::End();
+      place("Colour picker", ImVec2(320, 10), ImVec2(310, 330));
+      ImGui::ColorPicker4("picker", colour, ImGuiColorEditFlags_PickerHueWheel);
+      ImGui::End();
+    }));
+  }
+
   SUBCASE("the demo window") {
-    check(bench.run("demo", [] {
+    check(renderers.run("demo", [] {
       ImGui::SetNextWindowPos(ImVec2(20, 20));
       ImGui::SetNextWindowSize(ImVec2(600, 440));
       ImGui::ShowDemoWindow();
