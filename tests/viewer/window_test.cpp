@@ -227,3 +227,61 @@ TEST_CASE("golden snapshots of the sample — running difference and polar and o
     CHECK(far_fraction <= 0.01);
   }
 }
+
+namespace {
+
+// One frame of draw_window in a fresh context with these characters typed and keys
+// pressed: the actions it asks for.
+std::vector<Action> actions_for_input(const WindowState& state, const std::string& typed, std::vector<Key> pressed = {}) {
+  ImGuiContext* previous = ImGui::GetCurrentContext();
+  ImGuiContext* context = ImGui::CreateContext();
+  ImGui::SetCurrentContext(context);
+  ImGuiIO& io = ImGui::GetIO();
+  io.IniFilename = nullptr;
+  io.DisplaySize = ImVec2(float(state.width), float(state.height));
+  io.DeltaTime = 1.0f / 60.0f;
+  load_font(default_font_file(), 15.0f);
+  const std::vector<ShownView> shown = shown_views(state, sample());
+  for (char c : typed) io.AddInputCharacter(static_cast<unsigned char>(c));
+  ImGui::NewFrame();
+  std::vector<Action> out = draw_window(state, shown, sample(), {}, pressed);
+  ImGui::Render();
+  ImGui::DestroyContext(context);
+  ImGui::SetCurrentContext(previous);
+  return out;
+}
+
+WindowState applied(WindowState s, const std::vector<Action>& actions) {
+  for (const Action& a : actions) apply(s, a);
+  return s;
+}
+
+}  // namespace
+
+TEST_CASE("keys give the actions a script gives") {
+  WindowState s = sample_state();
+  apply(s, action::Frame{4});
+  CHECK(actions_for_input(s, "").empty());  // no input, no mouse: nothing asked
+  CHECK(applied(s, actions_for_input(s, "", {Key::right})).frame == 5);
+  CHECK(applied(s, actions_for_input(s, "", {Key::left, Key::left})).frame == 2);
+  CHECK(applied(s, actions_for_input(s, "", {Key::end})).frame == 14);
+  CHECK(applied(s, actions_for_input(s, "", {Key::home})).frame == 0);
+  CHECK(applied(s, actions_for_input(s, "1")).display == Display::calibrated);
+  CHECK(applied(s, actions_for_input(s, "3")).display == Display::base_difference);
+  CHECK(applied(s, actions_for_input(s, "5")).display == Display::polar);
+  CHECK(applied(s, actions_for_input(s, " ")).playing);
+  WindowState playing = s;
+  apply(playing, action::Play{});
+  CHECK(!applied(playing, actions_for_input(playing, " ")).playing);
+  CHECK(applied(s, actions_for_input(s, "c")).colours == ColourTable::blue_red);
+  // v: all → east → west → all.
+  WindowState v1 = applied(s, actions_for_input(s, "v"));
+  CHECK(v1.focus == "east");
+  WindowState v2 = applied(v1, actions_for_input(v1, "v"));
+  CHECK(v2.focus == "west");
+  CHECK(applied(v2, actions_for_input(v2, "v")).focus.empty());
+  // [ narrows and ] widens the ±3 σ range by a quarter about its middle.
+  CHECK(applied(s, actions_for_input(s, "[")).sigma_hi == doctest::Approx(2.4));
+  CHECK(applied(s, actions_for_input(s, "]")).sigma_lo == doctest::Approx(-3.75));
+  CHECK(applied(s, actions_for_input(s, "q")).quit);
+}
