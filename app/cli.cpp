@@ -19,6 +19,7 @@
 #include "app/synth.hpp"
 #include "fit/strict_json.hpp"
 #include "imaging/input_error.hpp"
+#include "app/view.hpp"
 
 namespace occulta::app {
 
@@ -141,6 +142,15 @@ int run(int argc, char** argv) {
   demo_cmd->add_option("--sample", demo_options.sample_dir, "The sample event's folder")->capture_default_str();
   demo_cmd->add_option("--out", demo_options.out_dir, "Folder for what the demo measures")->capture_default_str();
 
+  ViewOptions view_options;
+  auto* view_cmd = cli.add_subcommand("view", "Open the analyst's window on an event, or draw it into a PNG (--snapshot)");
+  view_cmd->add_option("input", view_options.input, "Event file (*.event.json) or a folder of FITS frames")->required();
+  view_cmd->add_option("--snapshot", view_options.snapshot, "Draw the window into this PNG instead (no display needed)");
+  view_cmd->add_option("--size", view_options.size, "Window size WIDTHxHEIGHT in pixels")->capture_default_str();
+  view_cmd->add_option("--script", view_options.script, "JSON list of window actions to apply first");
+  view_cmd->add_option("--median", view_options.median, "Median filter size against cosmic rays (0, 3 or 5)")
+      ->capture_default_str()->check(CLI::IsMember({0, 3, 5}));
+
   // Before CLI11 parses: an unknown verb or option names itself and the nearest known
   // one (CLI11 would first complain of something else, such as a missing --out).
   std::vector<CLI::App*> verbs = cli.get_subcommands({});
@@ -192,6 +202,7 @@ int run(int argc, char** argv) {
       check_out_dir(demo_options.out_dir);
       return demo(demo_options, std::cout, std::cerr);
     }
+    if (*view_cmd) return view(view_options, std::cout, std::cerr);
   } catch (const imaging::InputError& e) {
     if (e.source().starts_with("--")) {
       err_usage(e.what());

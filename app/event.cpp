@@ -1,10 +1,14 @@
 #include "app/event.hpp"
 
 #include <algorithm>
+#include <cctype>
 #include <cmath>
+#include <cstdio>
+#include <map>
 #include <sstream>
 #include <glob.h>
 
+#include "app/inspect.hpp"
 #include "fit/arrival_json.hpp"
 #include "fit/json_file.hpp"
 #include "fit/strict_json.hpp"
@@ -185,6 +189,44 @@ imaging::ChainOptions chain_options(const Event& event, const EventView& view, i
   chain.base_time_utc_s = event.base_time_s;
   chain.median_filter = median_filter;
   return chain;
+}
+
+// A folder of frames as an event: views grouped by who observed (OBSRVTRY, else
+// TELESCOP, else the observer's Stonyhurst position rounded to 1°).
+Event event_from_folder(const std::filesystem::path& dir) {
+  Event event;
+  event.path = dir;
+  event.id = std::filesystem::absolute(dir).lexically_normal().filename().string();
+  // The id names files (track.json's event_id): the safe set of fit/strict_json.hpp.
+  for (char& c : event.id)
+    if (!std::isalnum(static_cast<unsigned char>(c)) && c != '-' && c != '_') c = '_';
+  if (event.id.empty()) event.id = "event";
+  std::map<std::string, EventView> views;
+  for (const std::filesystem::path& file : collect_fits_paths({dir.string()})) {
+    std::string name;
+    try {
+      const imaging::Header header = imaging::read_fits_header(file);
+      if (auto o = header.text("OBSRVTRY"); o && !o->empty()) name = *o;
+      else if (auto t = header.text("TELESCOP"); t && !t->empty()) name = *t;
+      else if (auto lon = header.number("HGLN_OBS"), lat = header.number("HGLT_OBS"); lon && lat) {
+        char key[64];
+        std::snprintf(key, sizeof key, "lon%+.0f_lat%+.0f", *lon, *lat);
+        name = key;
+      } else {
+        name = "unknown-observer";
+      }
+    } catch (const imaging::InputError&) {
+      name = "unreadable";  // the chain reports each such frame
+    }
+    for (char& c : name)
+      if (!std::isalnum(static_cast<unsigned char>(c)) && c != '-' && c != '_') c = '_';
+    EventView& view = views[name];
+    view.name = name;
+    view.files.push_back(file);
+  }
+  if (views.empty()) throw imaging::InputError(dir.string(), "holds no FITS files");
+  for (auto& [name, view] : views) event.views.push_back(std::move(view));
+  return event;
 }
 
 }  // namespace occulta::app

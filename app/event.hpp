@@ -60,6 +60,11 @@ struct WindowSplit {
 };
 WindowSplit apply_window(const Event& event, const EventView& view);
 
+// A folder of frames as an event: views grouped by who observed (OBSRVTRY, else TELESCOP,
+// else the observer's Stonyhurst position rounded to 1°), named by that. InputError when
+// the folder holds no FITS files.
+Event event_from_folder(const std::filesystem::path& dir);
+
 // What the event file says about a view, as options of the imaging chain: its observer,
 // its occulter radii, the event's base time; median filter size as given.
 imaging::ChainOptions chain_options(const Event& event, const EventView& view, int median_filter);

@@ -33,44 +33,6 @@ using nlohmann::json;
 
 namespace {
 
-// A folder of frames as an event: views grouped by who observed (OBSRVTRY, else
-// TELESCOP, else the observer's Stonyhurst position rounded to 1°).
-Event event_from_folder(const fs::path& dir) {
-  Event event;
-  event.path = dir;
-  event.id = fs::absolute(dir).lexically_normal().filename().string();
-  // The id names files (track.json's event_id): the safe set of fit/strict_json.hpp.
-  for (char& c : event.id)
-    if (!std::isalnum(static_cast<unsigned char>(c)) && c != '-' && c != '_') c = '_';
-  if (event.id.empty()) event.id = "event";
-  std::map<std::string, EventView> views;
-  for (const fs::path& file : collect_fits_paths({dir.string()})) {
-    std::string name;
-    try {
-      const imaging::Header header = imaging::read_fits_header(file);
-      if (auto o = header.text("OBSRVTRY"); o && !o->empty()) name = *o;
-      else if (auto t = header.text("TELESCOP"); t && !t->empty()) name = *t;
-      else if (auto lon = header.number("HGLN_OBS"), lat = header.number("HGLT_OBS"); lon && lat) {
-        char key[64];
-        std::snprintf(key, sizeof key, "lon%+.0f_lat%+.0f", *lon, *lat);
-        name = key;
-      } else {
-        name = "unknown-observer";
-      }
-    } catch (const imaging::InputError&) {
-      name = "unreadable";  // the chain reports each such frame
-    }
-    for (char& c : name)
-      if (!std::isalnum(static_cast<unsigned char>(c)) && c != '-' && c != '_') c = '_';
-    EventView& view = views[name];
-    view.name = name;
-    view.files.push_back(file);
-  }
-  if (views.empty()) throw imaging::InputError(dir.string(), "holds no FITS files");
-  for (auto& [name, view] : views) event.views.push_back(std::move(view));
-  return event;
-}
-
 json number_or_null(double value) { return std::isfinite(value) ? json(value) : json(nullptr); }
 json time_or_null(const fit::HeightCrossing& c) {
   return c.found && std::isfinite(c.time_s) ? json(imaging::iso_from_utc_seconds(c.time_s, 3)) : json(nullptr);

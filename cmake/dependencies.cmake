@@ -25,6 +25,8 @@ endforeach()
 # linked); its TrueType loader calls Debian's libstb, which imgui.pc requires.
 pkg_check_modules(IMGUI REQUIRED IMPORTED_TARGET imgui)
 find_package(glfw3 3.3 REQUIRED)
+# The window's no-OpenGL path puts images with Xlib (viewer/present.cpp).
+find_package(X11 REQUIRED)
 # The font every picture and the window use: DejaVu Sans from fonts-dejavu-core.
 find_file(OCCULTA_FONT_FILE DejaVuSans.ttf PATHS /usr/share/fonts/truetype/dejavu NO_DEFAULT_PATH REQUIRED)
 # Tests only: Mesa's off-screen software OpenGL (libosmesa6-dev), the reference renderer

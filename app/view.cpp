@@ -1,0 +1,65 @@
+// app/view.cpp — see view.hpp.
+#include "app/view.hpp"
+
+#include <filesystem>
+#include <ostream>
+
+#include "app/event.hpp"
+#include "imaging/input_error.hpp"
+#include "viewer/present.hpp"
+#include "viewer/script.hpp"
+#include "viewer/ui.hpp"
+
+namespace occulta::app {
+namespace fs = std::filesystem;
+
+namespace {
+
+// "1280x800" → {1280, 800}, within the window sizes the viewer accepts.
+std::pair<int, int> parse_size(const std::string& text) {
+  int w = 0, h = 0;
+  char x = 0, extra = 0;
+  if (std::sscanf(text.c_str(), "%d%c%d%c", &w, &x, &h, &extra) != 3 || (x != 'x' && x != 'X') ||
+      w < viewer::kMinWindowPx || h < viewer::kMinWindowPx || w > viewer::kMaxWindowPx || h > viewer::kMaxWindowPx)
+    throw imaging::InputError("--size", "must be WIDTHxHEIGHT in pixels, each from " + std::to_string(viewer::kMinWindowPx) +
+                                            " to " + std::to_string(viewer::kMaxWindowPx) + " (e.g. 1280x800)");
+  return {w, h};
+}
+
+}  // namespace
+
+int view(const ViewOptions& options, std::ostream& out, std::ostream& err) {
+  const auto [width, height] = parse_size(options.size);
+  // Read everything that can be wrong before any work: the script, then the event.
+  const std::vector<viewer::Action> script =
+      options.script.empty() ? std::vector<viewer::Action>{} : viewer::read_script(options.script);
+  const fs::path input = options.input;
+  const Event event = fs::is_directory(input) ? event_from_folder(input) : read_event(input);
+
+  std::vector<viewer::ViewSource> sources;
+  viewer::WindowState state;
+  state.width = width;
+  state.height = height;
+  for (const EventView& v : event.views) {
+    sources.push_back({v.name, v.files, chain_options(event, v, options.median)});
+    state.views.push_back(v.name);
+  }
+
+  if (options.snapshot.empty()) return viewer::present(std::move(state), std::move(sources), script, err);
+
+  std::vector<viewer::ViewPictures> views;
+  int status = 0;  // 1: drawn, but a view could not be loaded (the picture says which)
+  for (const viewer::ViewSource& source : sources) {
+    views.push_back(viewer::load_view(source));
+    if (!views.back().error.empty()) err << "occulta view: " << views.back().error << '\n', status = 1;
+  }
+  viewer::apply(state, viewer::action::Timeline{viewer::frame_times(views)});
+  for (const viewer::Action& a : script) viewer::apply(state, a);
+  viewer::write_png(viewer::draw_window_headless(state, views), options.snapshot);
+  out << "wrote " << options.snapshot << " (" << state.width << "×" << state.height << ", "
+      << viewer::display_label(state.display) << ", frame " << state.frame + 1 << " of " << state.timeline_utc_s.size()
+      << ")\n";
+  return status;
+}
+
+}  // namespace occulta::app

@@ -1,0 +1,146 @@
+// viewer/script.cpp — see script.hpp.
+#include "viewer/script.hpp"
+
+#include <cmath>
+#include <limits>
+#include <set>
+
+#include "fit/json_file.hpp"
+#include "imaging/input_error.hpp"
+
+namespace occulta::viewer {
+namespace {
+using nlohmann::json;
+
+// One action object being read: its arguments, checked as they are taken.
+class Arguments {
+ public:
+  Arguments(const json& object, std::string source, std::size_t index, std::string name)
+      : object_(object), source_(std::move(source)), where_("action " + std::to_string(index + 1) + " (" + name + ")") {}
+
+  [[noreturn]] void fail(const std::string& problem) const { throw imaging::InputError(source_, where_ + ": " + problem); }
+
+  const json& take(const char* key) {
+    taken_.insert(key);
+    if (!object_.contains(key)) fail(std::string("needs \"") + key + "\"");
+    return object_.at(key);
+  }
+  bool has(const char* key) const { return object_.contains(key); }
+
+  double number(const char* key) {
+    const json& v = take(key);
+    if (!v.is_number() || !std::isfinite(v.get<double>())) fail(std::string("\"") + key + "\" must be a number");
+    return v.get<double>();
+  }
+  int integer(const char* key) {
+    const json& v = take(key);
+    if (!v.is_number_integer() || std::abs(v.get<double>()) > 1e9) fail(std::string("\"") + key + "\" must be a whole number");
+    return v.get<int>();
+  }
+  bool boolean(const char* key) {
+    const json& v = take(key);
+    if (!v.is_boolean()) fail(std::string("\"") + key + "\" must be true or false");
+    return v.get<bool>();
+  }
+  std::string text(const char* key) {
+    const json& v = take(key);
+    if (!v.is_string()) fail(std::string("\"") + key + "\" must be text");
+    return v.get<std::string>();
+  }
+
+  // Every argument must have been taken: a misspelt one is a fault, not a default.
+  void finish() const {
+    for (const auto& [key, value] : object_.items())
+      if (key != "do" && !taken_.count(key)) fail("has no argument \"" + key + "\"");
+  }
+
+ private:
+  const json& object_;
+  std::string source_;
+  std::string where_;
+  std::set<std::string> taken_;
+};
+
+std::string joined_display_names() {
+  std::string names;
+  for (Display d : displays()) names += (names.empty() ? "" : ", ") + std::string(display_name(d));
+  return names;
+}
+
+std::string joined_table_names() {
+  std::string names;
+  for (ColourTable t : colour_tables()) names += (names.empty() ? "" : ", ") + std::string(colour_table_name(t));
+  return names;
+}
+
+Action parse_action(const json& item, const std::string& source, std::size_t index) {
+  const std::string where = "action " + std::to_string(index + 1);
+  if (!item.is_object()) throw imaging::InputError(source, where + " is not an object {\"do\": …}");
+  if (!item.contains("do") || !item.at("do").is_string())
+    throw imaging::InputError(source, where + " has no \"do\" naming what to do");
+  const std::string name = item.at("do").get<std::string>();
+  Arguments args(item, source, index, name);
+  Action action = action::Quit{};
+  if (name == "frame") {
+    action = action::Frame{args.integer("index")};
+  } else if (name == "step") {
+    action::Step step{args.integer("by"), false};
+    if (args.has("wrap")) step.wrap = args.boolean("wrap");
+    action = step;
+  } else if (name == "display") {
+    const std::string mode = args.text("mode");
+    const auto display = display_named(mode);
+    if (!display) args.fail("mode \"" + mode + "\" is not one of " + joined_display_names());
+    action = action::ShowDisplay{*display};
+  } else if (name == "view") {
+    std::string view = args.text("name");
+    if (view == "all") view.clear();
+    action = action::Focus{view};
+  } else if (name == "contrast") {
+    const double lo = args.number("lo_sigma"), hi = args.number("hi_sigma");
+    if (!(lo < hi)) args.fail("lo_sigma must be below hi_sigma");
+    action = action::Contrast{lo, hi};
+  } else if (name == "colours") {
+    const std::string table = args.text("table");
+    const auto found = colour_table_named(table);
+    if (!found) args.fail("table \"" + table + "\" is not one of " + joined_table_names());
+    action = action::Colours{*found};
+  } else if (name == "play") {
+    action = action::Play{};
+  } else if (name == "pause") {
+    action = action::Pause{};
+  } else if (name == "resize") {
+    const int w = args.integer("width"), h = args.integer("height");
+    if (w < kMinWindowPx || h < kMinWindowPx || w > kMaxWindowPx || h > kMaxWindowPx)
+      args.fail("width and height must be between " + std::to_string(kMinWindowPx) + " and " +
+                std::to_string(kMaxWindowPx) + " pixels");
+    action = action::Resize{w, h};
+  } else if (name == "hover") {
+    action = action::HoverAt{args.text("view"), args.number("x"), args.number("y")};
+  } else if (name == "leave") {
+    action = action::Leave{};
+  } else if (name == "quit") {
+    action = action::Quit{};
+  } else {
+    throw imaging::InputError(source, where + ": \"" + name +
+                                          "\" is not an action (frame, step, display, view, contrast, colours, "
+                                          "play, pause, resize, hover, leave, quit)");
+  }
+  args.finish();
+  return action;
+}
+
+}  // namespace
+
+std::vector<Action> parse_script(const nlohmann::json& script, const std::string& source) {
+  if (!script.is_array()) throw imaging::InputError(source, "must be a JSON list of actions [{\"do\": …}, …]");
+  std::vector<Action> actions;
+  for (std::size_t i = 0; i < script.size(); ++i) actions.push_back(parse_action(script[i], source, i));
+  return actions;
+}
+
+std::vector<Action> read_script(const std::filesystem::path& path) {
+  return parse_script(fit::read_json_file(path), path.string());
+}
+
+}  // namespace occulta::viewer

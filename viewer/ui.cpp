@@ -1,0 +1,328 @@
+// viewer/ui.cpp — see ui.hpp.
+#include "viewer/ui.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <cstdint>
+#include <cstdio>
+#include <numbers>
+
+#include "imaging/time.hpp"
+
+namespace occulta::viewer {
+namespace {
+
+constexpr double kDeg = std::numbers::pi / 180.0;
+
+// Colours of our own for the overlays.
+constexpr ImU32 kOcculter = IM_COL32(255, 196, 64, 230);   // occulter edge and field stop
+constexpr ImU32 kLimb = IM_COL32(255, 255, 255, 150);      // 1 R☉
+constexpr ImU32 kCursor = IM_COL32(80, 255, 120, 255);
+constexpr ImU32 kProblem = IM_COL32(255, 120, 100, 255);
+
+// The colour bar's label: short, so that it fits beside the title on a small panel; the
+// toolbar says which display the σ are of.
+std::string scale_label(Display display) { return display == Display::calibrated ? "log I (σ)" : "σ"; }
+
+std::string clock(double utc_s) {
+  std::string iso = imaging::iso_from_utc_seconds(utc_s, 0);
+  std::replace(iso.begin(), iso.end(), 'T', ' ');
+  return iso + " UTC";
+}
+
+// Characters typed this frame (the keys of ui.hpp), unless a text field has them.
+bool typed(char c) {
+  const ImGuiIO& io = ImGui::GetIO();
+  if (io.WantTextInput) return false;
+  for (int i = 0; i < io.InputQueueCharacters.Size; ++i)
+    if (io.InputQueueCharacters[i] == ImWchar(c)) return true;
+  return false;
+}
+
+void keys(const WindowState& state, std::span<const Key> pressed, std::vector<Action>& out) {
+  for (Key key : pressed) switch (key) {
+      case Key::right: out.push_back(action::Step{1}); break;
+      case Key::left: out.push_back(action::Step{-1}); break;
+      case Key::home: out.push_back(action::Frame{0}); break;
+      case Key::end: out.push_back(action::Frame{int(state.timeline_utc_s.size()) - 1}); break;
+    }
+  if (typed(' ')) out.push_back(state.playing ? Action{action::Pause{}} : Action{action::Play{}});
+  for (std::size_t i = 0; i < displays().size(); ++i)
+    if (typed(char('1' + i))) out.push_back(action::ShowDisplay{displays()[i]});
+  if (typed('c')) {
+    const auto tables = colour_tables();
+    const auto at = std::find(tables.begin(), tables.end(), state.colours) - tables.begin();
+    out.push_back(action::Colours{tables[std::size_t(at + 1) % tables.size()]});
+  }
+  if (typed('v') && !state.views.empty()) {  // all → the first view → … → the last → all
+    const auto at = std::find(state.views.begin(), state.views.end(), state.focus);
+    std::string next = state.views.front();
+    if (!state.focus.empty()) next = (at == state.views.end() || at + 1 == state.views.end()) ? std::string() : *(at + 1);
+    out.push_back(action::Focus{next});
+  }
+  // Narrow / widen by a quarter, about the middle of the range.
+  const double mid = 0.5 * (state.sigma_lo + state.sigma_hi), half = 0.5 * (state.sigma_hi - state.sigma_lo);
+  if (typed('[')) out.push_back(action::Contrast{mid - half / 1.25, mid + half / 1.25});
+  if (typed(']')) out.push_back(action::Contrast{mid - half * 1.25, mid + half * 1.25});
+  if (typed('q')) out.push_back(action::Quit{});
+}
+
+// Continues the line when `width` more pixels fit on it, else starts a new one.
+void same_line_if_fits(float width) {
+  const float right = ImGui::GetWindowPos().x + ImGui::GetWindowContentRegionMax().x;
+  ImGui::SameLine(0, 24);
+  if (ImGui::GetCursorScreenPos().x + width > right) ImGui::NewLine();
+}
+
+void toolbar(const WindowState& state, const std::vector<ViewPictures>& views, std::vector<Action>& out) {
+  ImGui::TextUnformatted("Show");
+  for (Display d : displays()) {
+    ImGui::SameLine();
+    if (ImGui::RadioButton(std::string(display_label(d)).c_str(), state.display == d)) out.push_back(action::ShowDisplay{d});
+  }
+  same_line_if_fits(280);
+  float range[2] = {float(state.sigma_lo), float(state.sigma_hi)};
+  ImGui::SetNextItemWidth(170);
+  if (ImGui::DragFloatRange2("contrast (σ)", &range[0], &range[1], 0.05f, -100.0f, 100.0f, "%.1f", "%.1f"))
+    out.push_back(action::Contrast{range[0], range[1]});
+  same_line_if_fits(180);
+  ImGui::SetNextItemWidth(110);
+  if (ImGui::BeginCombo("colours", std::string(colour_table_name(state.colours)).c_str())) {
+    for (ColourTable t : colour_tables())
+      if (ImGui::Selectable(std::string(colour_table_name(t)).c_str(), t == state.colours)) out.push_back(action::Colours{t});
+    ImGui::EndCombo();
+  }
+  if (views.size() > 1) {
+    float names = 0;
+    for (const ViewPictures& v : views) names += ImGui::CalcTextSize(v.name.c_str()).x + 40;
+    same_line_if_fits(names + 80);
+    ImGui::TextUnformatted("View");
+    ImGui::SameLine();
+    if (ImGui::RadioButton("all", state.focus.empty())) out.push_back(action::Focus{""});
+    for (const ViewPictures& v : views) {
+      ImGui::SameLine();
+      if (ImGui::RadioButton(v.name.c_str(), state.focus == v.name)) out.push_back(action::Focus{v.name});
+    }
+  }
+}
+
+// A short bar of a whole number of R☉ at the bottom right of a sky panel, labelled.
+void radius_scale(ImDrawList& draw, const PlotFrame& frame) {
+  const double width_rs = std::abs(frame.x.hi - frame.x.lo);
+  const double bar_rs = width_rs > 20 ? 5.0 : (width_rs > 6 ? 2.0 : 1.0);
+  const ImVec2 right(frame.pixel_max.x - 10, frame.pixel_max.y - 12);
+  const float px = float(bar_rs / width_rs * (frame.pixel_max.x - frame.pixel_min.x));
+  draw.AddRectFilled(ImVec2(right.x - px, right.y - 2), ImVec2(right.x, right.y + 1), IM_COL32_WHITE);
+  char label[32];
+  std::snprintf(label, sizeof label, "%g R☉", bar_rs);
+  const ImVec2 size = ImGui::CalcTextSize(label);
+  draw.AddText(ImVec2(right.x - 0.5f * px - 0.5f * size.x, right.y - 4 - size.y), IM_COL32_WHITE, label);
+}
+
+// One view's panel in [lo, hi]; the cursor's action when it is over the image. Whether
+// the mouse is over the image.
+bool view_panel(const WindowState& state, const ShownView& shown, ImVec2 lo, ImVec2 hi, std::vector<Action>& out) {
+  ImDrawList& draw = *ImGui::GetWindowDrawList();
+  const ViewPictures& view = *shown.view;
+  if (!view.error.empty() || shown.frame < 0) {
+    draw.AddText(ImGui::GetFont(), ImGui::GetFontSize(), ImVec2(lo.x + 8, lo.y + 8), view.error.empty() ? IM_COL32_WHITE : kProblem,
+                 (view.name + ": " + (view.error.empty() ? "loading…" : view.error)).c_str(), nullptr, hi.x - lo.x - 16);
+    return false;
+  }
+  const FramePictures& f = view.frames[std::size_t(shown.frame)];
+  const bool polar = state.display == Display::polar;
+  PanelAxes axes;
+  axes.title = view.name + " · " + clock(f.utc_s).substr(11, 8);  // the date is on the timeline
+  if (polar) {
+    axes.x = Axis{0.0, 360.0, "position angle (°, from north through east)"};
+    axes.y = Axis{shown.panel.extent.bottom, shown.panel.extent.top, "height (R☉)"};
+  } else {
+    // West to the right, north up: x and y as the registered grid has them.
+    axes.x = Axis{shown.panel.extent.left, shown.panel.extent.right, "x (R☉, west)"};
+    axes.y = Axis{shown.panel.extent.bottom, shown.panel.extent.top, "y (R☉, north)"};
+    axes.equal_scale = true;
+  }
+  const PlotFrame frame = draw_image_panel(draw, lo, hi, shown.panel, axes);
+  if (!polar) {
+    draw_circle(draw, frame, 0, 0, 1.0, kLimb, 1.0f);
+    draw_circle(draw, frame, 0, 0, view.radii.inner_rs, kOcculter);
+    draw_circle(draw, frame, 0, 0, view.radii.outer_rs, kOcculter);
+    draw_north_east(draw, frame);
+    radius_scale(draw, frame);
+  } else {
+    const DataPoint inner[2] = {{0, view.radii.inner_rs}, {360, view.radii.inner_rs}};
+    const DataPoint outer[2] = {{0, view.radii.outer_rs}, {360, view.radii.outer_rs}};
+    draw_line(draw, frame, inner, kOcculter);
+    draw_line(draw, frame, outer, kOcculter);
+  }
+  // The cursor: a mark where the state says it is (on every panel of that view).
+  if (state.hover && state.hover->view == view.name) {
+    const double x = state.hover->x_rs, y = state.hover->y_rs;
+    double px = x, py = y;
+    if (polar) {
+      px = std::fmod(std::atan2(-x, y) / kDeg + 360.0, 360.0);
+      py = std::hypot(x, y);
+    }
+    const ImVec2 p = frame.to_pixel(px, py);
+    draw.AddCircle(p, 6.0f, kCursor, 16, 1.5f);
+  }
+  // The mouse over the image becomes a hover action (the plot's inverse mapping).
+  const ImVec2 mouse = ImGui::GetIO().MousePos;
+  if (ImGui::IsWindowHovered() && mouse.x >= frame.pixel_min.x && mouse.x < frame.pixel_max.x && mouse.y >= frame.pixel_min.y &&
+      mouse.y < frame.pixel_max.y) {
+    const DataPoint sky = sky_at(frame, state.display, mouse);
+    if (!state.hover || state.hover->view != view.name || state.hover->x_rs != sky.x || state.hover->y_rs != sky.y)
+      out.push_back(action::HoverAt{view.name, sky.x, sky.y});
+    return true;
+  }
+  return false;
+}
+
+void readout(const WindowState& state, const std::vector<ShownView>& shown) {
+  if (!state.hover) {
+    ImGui::TextDisabled("Point at a frame for its position angle, height and value.");
+    return;
+  }
+  for (const ShownView& s : shown) {
+    if (s.view->name != state.hover->view || s.frame < 0) continue;
+    const FramePictures& f = s.view->frames[std::size_t(s.frame)];
+    const double x = state.hover->x_rs, y = state.hover->y_rs;
+    const double pa = std::fmod(std::atan2(-x, y) / kDeg + 360.0, 360.0), h = std::hypot(x, y);
+    const double v = value_at(*s.view, f, state.display, x, y);
+    char text[256];
+    if (std::isfinite(v))
+      std::snprintf(text, sizeof text, "%s   PA %.1f°   height %.2f R☉   %s %+.2f σ   frame %s", s.view->name.c_str(), pa, h,
+                    std::string(display_label(state.display)).c_str(), v, clock(f.utc_s).c_str());
+    else
+      std::snprintf(text, sizeof text, "%s   PA %.1f°   height %.2f R☉   no data   frame %s", s.view->name.c_str(), pa, h,
+                    clock(f.utc_s).c_str());
+    ImGui::TextUnformatted(text);
+    return;
+  }
+  ImGui::TextDisabled("Point at a frame for its position angle, height and value.");
+}
+
+void timeline(const WindowState& state, const std::vector<ShownView>& shown, const LoadingShown& loading,
+              std::vector<Action>& out) {
+  const int n = int(state.timeline_utc_s.size());
+  if (ImGui::ArrowButton("back", ImGuiDir_Left)) out.push_back(action::Step{-1});
+  ImGui::SameLine();
+  if (ImGui::Button(state.playing ? "pause" : "play", ImVec2(60, 0)))
+    out.push_back(state.playing ? Action{action::Pause{}} : Action{action::Play{}});
+  ImGui::SameLine();
+  if (ImGui::ArrowButton("forward", ImGuiDir_Right)) out.push_back(action::Step{1});
+  ImGui::SameLine();
+  const std::string now = n > 0 ? clock(displayed_time(state)) : std::string("no frames yet");
+  ImGui::TextUnformatted(now.c_str());
+  ImGui::SameLine();
+  int frame = state.frame + 1;  // people count frames from 1
+  ImGui::SetNextItemWidth(-1);
+  char format[32];
+  std::snprintf(format, sizeof format, "frame %%d of %d", std::max(n, 1));
+  if (ImGui::SliderInt("##time", &frame, 1, std::max(n, 1), format, ImGuiSliderFlags_AlwaysClamp) && n > 0)
+    out.push_back(action::Frame{frame - 1});
+  // Each view's frame nearest the displayed time: cadences differ between views.
+  std::string matched;
+  for (const ShownView& s : shown)
+    if (s.frame >= 0)
+      matched += (matched.empty() ? "shown: " : "   ") + s.view->name + " " +
+                 clock(s.view->frames[std::size_t(s.frame)].utc_s).substr(11, 8);
+  ImGui::TextUnformatted(matched.c_str());
+  if (!loading.done) {
+    ImGui::SameLine(0, 24);
+    char text[128];
+    std::snprintf(text, sizeof text, "loading %s: frame %d of %d (view %d of %d)", loading.loading.c_str(), loading.frame,
+                  loading.frames, loading.view + 1, loading.views);
+    const float fraction = loading.views > 0 ? (loading.view + (loading.frames > 0 ? float(loading.frame) / loading.frames : 0.0f)) / loading.views : 0.0f;
+    ImGui::ProgressBar(fraction, ImVec2(-1, 0), text);
+  }
+}
+
+}  // namespace
+
+DataPoint sky_at(const PlotFrame& frame, Display display, ImVec2 pixel) {
+  const DataPoint d = frame.to_data(pixel);
+  if (display != Display::polar) return d;
+  // PA counter-clockwise from north through east (east = −x).
+  return {-d.y * std::sin(d.x * kDeg), d.y * std::cos(d.x * kDeg)};
+}
+
+std::vector<ShownView> shown_views(const WindowState& state, const std::vector<ViewPictures>& views) {
+  std::vector<ShownView> shown;
+  const double now = displayed_time(state);
+  for (const ViewPictures& v : views) {
+    if (!state.focus.empty() && v.name != state.focus) continue;
+    ShownView s;
+    s.view = &v;
+    s.frame = std::isfinite(now) ? nearest_frame(v, now) : -1;
+    if (s.frame >= 0) {
+      const FramePictures& f = v.frames[std::size_t(s.frame)];
+      const ColourScale scale{state.colours, state.sigma_lo, state.sigma_hi, scale_label(state.display)};
+      const ImageExtent extent = state.display == Display::polar ? polar_extent(v.polar) : sky_extent(v.grid);
+      // Ids 1, 2, …: never the font atlas' (an address).
+      s.panel = make_image_panel(f.image(state.display), extent, scale,
+                                 reinterpret_cast<ImTextureID>(std::uintptr_t(shown.size() + 1)),
+                                 state.display == Display::polar ? Sampling::nearest : Sampling::bilinear);
+    }
+    shown.push_back(std::move(s));
+  }
+  return shown;
+}
+
+std::vector<Texture> textures_of(const std::vector<ShownView>& shown) {
+  std::vector<Texture> textures;
+  for (const ShownView& s : shown)
+    if (s.frame >= 0) textures.push_back(s.panel.texture);
+  return textures;
+}
+
+std::vector<Action> draw_window(const WindowState& state, const std::vector<ShownView>& shown,
+                                const std::vector<ViewPictures>& views, const LoadingShown& loading,
+                                std::span<const Key> pressed) {
+  std::vector<Action> out;
+  ImGui::SetNextWindowPos(ImVec2(0, 0));
+  ImGui::SetNextWindowSize(ImVec2(float(state.width), float(state.height)));
+  ImGui::Begin("occulta", nullptr,
+               ImGuiWindowFlags_NoDecoration | ImGuiWindowFlags_NoMove | ImGuiWindowFlags_NoSavedSettings |
+                   ImGuiWindowFlags_NoBringToFrontOnFocus);
+  keys(state, pressed, out);
+  toolbar(state, views, out);
+  ImGui::Separator();
+  // The panels take what the readout and the timeline leave.
+  const float line = ImGui::GetFrameHeightWithSpacing();
+  const ImVec2 lo = ImGui::GetCursorScreenPos();
+  const ImVec2 avail = ImGui::GetContentRegionAvail();
+  const float panels_h = std::max(50.0f, avail.y - 4 * line - 8);
+  if (shown.empty()) {
+    ImGui::TextUnformatted(loading.done ? "No view could be loaded." : "Loading…");
+  } else {
+    const float w = avail.x / float(shown.size());
+    bool over_image = false;
+    for (std::size_t i = 0; i < shown.size(); ++i)
+      over_image |= view_panel(state, shown[i], ImVec2(std::floor(lo.x + i * w), lo.y),
+                               ImVec2(std::floor(lo.x + (i + 1) * w) - 6, lo.y + panels_h), out);
+    // The mouse left the images (a snapshot has no mouse: its hover stays as scripted).
+    if (state.hover && !over_image && ImGui::IsMousePosValid()) out.push_back(action::Leave{});
+  }
+  ImGui::Dummy(ImVec2(avail.x, panels_h));
+  ImGui::Separator();
+  readout(state, shown);
+  for (const ViewPictures& v : views)
+    for (const std::string& problem : v.problems) {
+      ImGui::SameLine(0, 24);
+      ImGui::TextColored(ImGui::ColorConvertU32ToFloat4(kProblem), "%s: %s", v.name.c_str(), problem.c_str());
+      break;  // one line: the first problem of each view
+    }
+  timeline(state, shown, loading, out);
+  ImGui::End();
+  return out;
+}
+
+Framebuffer draw_window_headless(const WindowState& state, const std::vector<ViewPictures>& views,
+                                 const HeadlessOptions& options) {
+  const std::vector<ShownView> shown = shown_views(state, views);
+  const std::vector<Texture> textures = textures_of(shown);
+  return draw_headless(state.width, state.height, [&] { (void)draw_window(state, shown, views); }, textures, options);
+}
+
+}  // namespace occulta::viewer

@@ -1,0 +1,66 @@
+// viewer/ui.hpp — the analyst's window drawn from plain state: draw_window() draws a
+// WindowState and the views' pictures with Dear ImGui and returns the actions the person
+// asked for (buttons, sliders, keys, the cursor over a panel); it changes nothing
+// (STYLE.md "The window is a function of plain state"; actions.hpp applies them).
+//
+// Layout, in the order an analyst works: the display and contrast controls at the top (find
+// the event: which difference, how much contrast), the views side by side in the middle,
+// north up about Sun centre (see it), the readout under the cursor, and the timeline at the
+// bottom (see it move: play, step, slide).
+//
+// Keys (characters, so any keyboard layout): → / ← step a frame, space play/pause,
+// 1–5 the displays (calibrated, running difference, base difference, NRGF, polar),
+// c the next colour table, v the next view alone (then all), [ and ] narrow and widen the
+// contrast, Home / End the first and last frame, q quit. Each gives the same action a
+// script does.
+#pragma once
+
+#include <span>
+#include <string>
+#include <vector>
+
+#include "viewer/actions.hpp"
+#include "viewer/headless.hpp"
+#include "viewer/image_panel.hpp"
+#include "viewer/pictures.hpp"
+
+namespace occulta::viewer {
+
+// One shown view's image, coloured as the state says: made before the frame is drawn,
+// because the renderer needs every texture the frame uses.
+struct ShownView {
+  const ViewPictures* view = nullptr;
+  int frame = -1;  // index into view->frames: the frame nearest the displayed time; −1: none yet
+  ImagePanel panel;
+};
+
+std::vector<ShownView> shown_views(const WindowState& state, const std::vector<ViewPictures>& views);
+
+// The textures of shown_views, for the renderer.
+std::vector<Texture> textures_of(const std::vector<ShownView>& shown);
+
+struct LoadingShown {
+  bool done = true;
+  int view = 0, views = 0, frame = 0, frames = 0;
+  std::string loading;
+};
+
+// Keys that are not characters, pressed (or repeated) since the last frame. The window
+// collects them from GLFW itself: Dear ImGui 1.86 keeps only whether a key is down, so a
+// press and release between two frames (a quick tap, xdotool) would be lost.
+enum class Key { left, right, home, end };
+
+// Draws the whole window (DisplaySize = state's size) between NewFrame and Render.
+std::vector<Action> draw_window(const WindowState& state, const std::vector<ShownView>& shown,
+                                const std::vector<ViewPictures>& views, const LoadingShown& loading = {},
+                                std::span<const Key> pressed = {});
+
+// The window with no display: the state drawn by viewer/headless at its size.
+Framebuffer draw_window_headless(const WindowState& state, const std::vector<ViewPictures>& views,
+                                 const HeadlessOptions& options = {});
+
+// The sky position under a panel pixel: the plot's inverse mapping (for the polar display,
+// its (PA, height) turned into a sky position).
+DataPoint sky_at(const PlotFrame& frame, Display display, ImVec2 pixel);
+
+}  // namespace occulta::viewer
