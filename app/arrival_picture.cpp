@@ -5,13 +5,13 @@
 #include <cstdio>
 #include <string>
 
-#include <opencv2/imgcodecs.hpp>
 #include <opencv2/imgproc.hpp>
 
 #include "app/quicklook.hpp"
 #include "fit/json_file.hpp"
 #include "imaging/input_error.hpp"
 #include "imaging/time.hpp"
+#include "viewer/png.hpp"
 
 namespace occulta::app {
 
@@ -97,8 +97,8 @@ cv::Mat arrival_histogram(const fit::TargetArrival& a, double boundary_utc_s) {
 void write_arrival_histogram(const std::filesystem::path& path, const fit::TargetArrival& arrival,
                              double boundary_utc_s) {
   // Encoded in memory and written whole or not at all, like occulta's other outputs.
-  std::vector<uchar> bytes;
-  if (!cv::imencode(".png", arrival_histogram(arrival, boundary_utc_s), bytes))
+  const std::vector<unsigned char> bytes = viewer::encode_png(arrival_histogram(arrival, boundary_utc_s));
+  if (bytes.empty())
     throw imaging::InputError(path.string(), "cannot be encoded as PNG");
   fit::write_text_file(path, std::string(bytes.begin(), bytes.end()));
 }
