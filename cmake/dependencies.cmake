@@ -19,7 +19,8 @@ foreach(module core imgproc)
   find_library(OPENCV_${module}_LIBRARY opencv_${module} REQUIRED)
   target_link_libraries(occulta_opencv INTERFACE ${OPENCV_${module}_LIBRARY})
 endforeach()
-# Tests only: reading PNGs back. The program itself encodes PNGs with libstb
+pkg_check_modules(PNG REQUIRED IMPORTED_TARGET libpng)  # viewer/png.hpp
+# Tests only: reading PNGs back. The program itself encodes PNGs with libpng
 # (viewer/png.hpp): imgcodecs' ~110 dependent libraries cost every process ~0.2 s at start.
 find_library(OPENCV_imgcodecs_LIBRARY opencv_imgcodecs REQUIRED)
 
