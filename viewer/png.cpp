@@ -27,10 +27,12 @@ bool encode(const cv::Mat& picture, int color_type, std::vector<unsigned char>* 
     return false;
   }
   png_set_write_fn(png, out, append, no_flush);
-  // Fast settings for pictures of few grey levels and flat areas (what OpenCV's own PNG
-  // writer uses by default: zlib level 1, run-length strategy).
+  // OpenCV's own PNG writer's defaults (zlib level 1, run-length strategy, the "sub"
+  // filter on every row): fast, and the files come out as cv::imwrite wrote them. Letting
+  // libpng choose the filter per row costs twice the time.
   png_set_compression_level(png, 1);
   png_set_compression_strategy(png, Z_RLE);
+  png_set_filter(png, PNG_FILTER_TYPE_BASE, PNG_FILTER_SUB);
   png_set_IHDR(png, info, png_uint_32(picture.cols), png_uint_32(picture.rows), 8, color_type, PNG_INTERLACE_NONE,
                PNG_COMPRESSION_TYPE_DEFAULT, PNG_FILTER_TYPE_DEFAULT);
   png_write_info(png, info);

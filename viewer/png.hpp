@@ -1,5 +1,5 @@
 // viewer/png.hpp — 8-bit pictures encoded as PNG in memory, with libpng (Debian's
-// libpng-dev; zlib level 1, run-length strategy: fast for quicklooks).
+// libpng-dev), with the settings OpenCV's PNG writer uses by default.
 //
 // Why not cv::imwrite / cv::imencode: Debian's libopencv_imgcodecs pulls in GDAL, GDCM,
 // libheif and ~110 more shared libraries, whose loading and static set-up cost every
