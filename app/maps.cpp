@@ -105,8 +105,9 @@ std::string map_view(const Event& event, const EventView& view, const MapsOption
             with_caption(grey_picture(polar.frames.back(), 4.0),
                          view.name + " " + when + " PA 0-360 across, height up, +-4 sigma"));
 
+  const double strongest_pa = strongest_change_pa(polar);  // a pass over the whole cube: once
   std::vector<double> pas = o.pa_deg;
-  if (pas.empty()) pas.push_back(strongest_change_pa(polar));
+  if (pas.empty()) pas.push_back(strongest_pa);
   const double t0 = polar.utc_s.front(), t1 = polar.utc_s.back();
   const int columns = std::max<int>(360, int(polar.utc_s.size()) * 16);  // real time across, gaps kept
   for (double pa : pas) {
@@ -128,7 +129,7 @@ std::string map_view(const Event& event, const EventView& view, const MapsOption
   char line[200];
   std::snprintf(line, sizeof line, "%-8s %3d frames  %3zu differences  heights %.2f-%.2f R☉  strongest change at PA %.0f",
                 view.name.c_str(), run.frames_used, polar.frames.size(), polar.polar.height_rs(0),
-                polar.polar.height_rs(polar.polar.height_count - 1), strongest_change_pa(polar));
+                polar.polar.height_rs(polar.polar.height_count - 1), strongest_pa);
   return line;
 }
 

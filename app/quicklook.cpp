@@ -2,11 +2,12 @@
 
 #include <cmath>
 
-#include <opencv2/imgcodecs.hpp>
 #include <opencv2/imgproc.hpp>
 
+#include "fit/json_file.hpp"
 #include "imaging/input_error.hpp"
 #include "imaging/polar.hpp"
+#include "viewer/png.hpp"
 
 namespace occulta::app {
 
@@ -69,13 +70,10 @@ cv::Mat with_caption(const cv::Mat& picture, const std::string& caption) {
 }
 
 void write_png(const std::filesystem::path& path, const cv::Mat& picture) {
-  bool written = false;
-  try {
-    written = cv::imwrite(path.string(), picture);
-  } catch (const cv::Exception& e) {
-    throw imaging::InputError(path.string(), std::string("cannot be written as PNG (") + e.what() + ")");
-  }
-  if (!written) throw imaging::InputError(path.string(), "cannot be written as PNG");
+  // Encoded in memory (viewer/png.hpp) and written whole or not at all.
+  const std::vector<unsigned char> bytes = viewer::encode_png(picture);
+  if (bytes.empty()) throw imaging::InputError(path.string(), "cannot be written as PNG");
+  fit::write_text_file(path, std::string(bytes.begin(), bytes.end()));
 }
 
 }  // namespace occulta::app

@@ -11,14 +11,18 @@ find_package(Threads REQUIRED)
 find_package(OpenSSL REQUIRED)  # SHA-256 of the inputs, for a result's provenance
 
 # OpenCV: Debian's per-module -dev packages ship headers and libraries but the CMake
-# config only comes with the full meta-package, so the three modules we use are found here.
+# config only comes with the full meta-package, so the modules we use are found here.
 find_path(OPENCV_INCLUDE_DIR opencv2/core.hpp PATH_SUFFIXES opencv4 REQUIRED)
 add_library(occulta_opencv INTERFACE)
 target_include_directories(occulta_opencv SYSTEM INTERFACE ${OPENCV_INCLUDE_DIR})
-foreach(module core imgproc imgcodecs)
+foreach(module core imgproc)
   find_library(OPENCV_${module}_LIBRARY opencv_${module} REQUIRED)
   target_link_libraries(occulta_opencv INTERFACE ${OPENCV_${module}_LIBRARY})
 endforeach()
+pkg_check_modules(PNG REQUIRED IMPORTED_TARGET libpng)  # viewer/png.hpp
+# Tests only: reading PNGs back. The program itself encodes PNGs with libpng
+# (viewer/png.hpp): imgcodecs' ~110 dependent libraries cost every process ~0.2 s at start.
+find_library(OPENCV_imgcodecs_LIBRARY opencv_imgcodecs REQUIRED)
 
 # The analyst's window (viewer/). Dear ImGui 1.86 (libimgui-dev): the core, the demo and
 # every platform/renderer backend in one static libimgui.a (only the objects referenced are

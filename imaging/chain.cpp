@@ -26,6 +26,9 @@ struct FrameLoader {
   std::vector<bool> failed;
   PolarGrid polar;         // set before the first to_polar_frame
   PolarMaps source_maps;   // raw frame → polar grid, for the cache's current registration
+  // What the tables of every registration share (the samples' grid pixels, the keep-mask
+  // unwrapped): built at the first to_polar_frame, after the cache got the view's mask.
+  std::optional<PolarSampling> sampling;
   int maps_built_for = 0;  // cache.builds() when source_maps were made
   cv::Mat background, grid_background;  // polar and registered grid; empty: none
   cv::Mat median_scratch;  // read()'s only, reused frame to frame: no new 4 MB allocation per frame
@@ -59,12 +62,15 @@ struct FrameLoader {
 
   // Straight from the raw frame to the polar grid: one remap whose tables compose the
   // registration's affine with the unwrapping (polar.hpp), rebuilt only when the cache
-  // builds a new registration (the frame's geometry changed).
+  // builds a new registration (the frame's geometry changed: real pointing moves every
+  // frame, so then only the affine part is redone — bit-identical tables, polar.hpp).
   void to_polar_frame(std::size_t k, const FitsImage& image, cv::Mat& out) {
     const SequenceFrame& frame = sequence.frames[k];
     const Registration& registration = cache.for_geometry(frame.geometry);
     if (cache.builds() != maps_built_for) {
-      source_maps = make_polar_maps(registration, cache.grid(), polar);
+      // Every registration of one cache carries the same drop mask (the cache's keep-mask).
+      if (!sampling) sampling = make_polar_sampling(cache.grid(), polar, registration.drop);
+      source_maps = make_polar_maps(registration, *sampling);
       maps_built_for = cache.builds();
     }
     to_polar(image.pixels, source_maps, out);
@@ -99,7 +105,7 @@ ViewRun run_view(const std::string& view, const std::vector<std::filesystem::pat
   // Occulter and field-stop radii: event file, else header, else the first readable frame
   // (registered onto the grid, where the radii are found; its raw pixels start the stream).
   FrameLoader loader{sequence, options, RegistrationCache(run.grid), run.problems, std::vector<bool>(n, false),
-                     {}, {}, 0, {}, {}, {}};
+                     {}, {}, {}, 0, {}, {}, {}};
   std::optional<FitsImage> first_image;
   std::size_t first_index = n;
   if (options.occulter_rs) {

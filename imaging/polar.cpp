@@ -42,10 +42,9 @@ double grid_height_rs(const RegisteredGrid& grid, cv::Point2d pixel) {
 
 namespace {
 
-// Tables for a polar grid whose grid pixel (x, y) is read from image pixel A · (x, y, 1).
-PolarMaps polar_tables(const RegisteredGrid& grid, const PolarGrid& polar, const cv::Matx23d& a, cv::Size source) {
-  PolarMaps maps{grid, polar, {}, {}, source, {}};
-  cv::Mat map(polar.height_count, polar.pa_count, CV_32FC2);
+// Each polar sample's registered-grid pixel, in double (polar.hpp's formula).
+cv::Mat grid_pixels(const RegisteredGrid& grid, const PolarGrid& polar) {
+  cv::Mat xy(polar.height_count, polar.pa_count, CV_64FC2);
   std::vector<double> sin_pa(polar.pa_count), cos_pa(polar.pa_count);
   for (int j = 0; j < polar.pa_count; ++j) {
     sin_pa[j] = std::sin(polar.pa_deg(j) * kRadPerDeg);
@@ -53,9 +52,23 @@ PolarMaps polar_tables(const RegisteredGrid& grid, const PolarGrid& polar, const
   }
   for (int i = 0; i < polar.height_count; ++i) {
     const double r = polar.height_rs(i) / grid.rs_per_px;
+    auto* p = xy.ptr<cv::Vec2d>(i);
+    for (int j = 0; j < polar.pa_count; ++j)
+      p[j] = {grid.sun_center_px.x() - r * sin_pa[j], grid.sun_center_px.y() + r * cos_pa[j]};
+  }
+  return xy;
+}
+
+// Tables for polar samples at grid pixels `xy` read from image pixel A · (x, y, 1).
+PolarMaps polar_tables(const RegisteredGrid& grid, const PolarGrid& polar, const cv::Mat& xy, const cv::Matx23d& a,
+                       cv::Size source) {
+  PolarMaps maps{grid, polar, {}, {}, source, {}};
+  cv::Mat map(xy.size(), CV_32FC2);
+  for (int i = 0; i < xy.rows; ++i) {
+    const auto* p = xy.ptr<cv::Vec2d>(i);
     auto* m = map.ptr<cv::Vec2f>(i);
-    for (int j = 0; j < polar.pa_count; ++j) {
-      const double x = grid.sun_center_px.x() - r * sin_pa[j], y = grid.sun_center_px.y() + r * cos_pa[j];
+    for (int j = 0; j < xy.cols; ++j) {
+      const double x = p[j][0], y = p[j][1];
       m[j] = {float(a(0, 0) * x + a(0, 1) * y + a(0, 2)), float(a(1, 0) * x + a(1, 1) * y + a(1, 2))};
     }
   }
@@ -66,21 +79,34 @@ PolarMaps polar_tables(const RegisteredGrid& grid, const PolarGrid& polar, const
 }  // namespace
 
 PolarMaps make_polar_maps(const RegisteredGrid& grid, const PolarGrid& polar) {
-  return polar_tables(grid, polar, cv::Matx23d(1, 0, 0, 0, 1, 0), cv::Size(grid.width, grid.height));
+  return polar_tables(grid, polar, grid_pixels(grid, polar), cv::Matx23d(1, 0, 0, 0, 1, 0),
+                      cv::Size(grid.width, grid.height));
 }
 
-PolarMaps make_polar_maps(const Registration& registration, const RegisteredGrid& grid, const PolarGrid& polar) {
-  PolarMaps maps = polar_tables(grid, polar, registration.grid_to_source,
-                                cv::Size(registration.source.width, registration.source.height));
-  if (!registration.drop.empty()) {
+PolarSampling make_polar_sampling(const RegisteredGrid& grid, const PolarGrid& polar, const cv::Mat& drop_on_grid) {
+  PolarSampling sampling{grid, polar, grid_pixels(grid, polar), {}};
+  if (!drop_on_grid.empty()) {
     // The mask unwrapped the way a masked registered frame is: NaN on the masked grid
     // pixels, through the grid's own tables, so the same samples come out NaN.
     cv::Mat pattern(grid.height, grid.width, CV_32FC1, cv::Scalar(0.0)), unwrapped;
-    pattern.setTo(std::numeric_limits<double>::quiet_NaN(), registration.drop);
-    to_polar(pattern, make_polar_maps(grid, polar), unwrapped);
-    cv::compare(unwrapped, unwrapped, maps.drop, cv::CMP_NE);  // NaN ≠ NaN
+    pattern.setTo(std::numeric_limits<double>::quiet_NaN(), drop_on_grid);
+    to_polar(pattern, polar_tables(grid, polar, sampling.grid_xy, cv::Matx23d(1, 0, 0, 0, 1, 0),
+                                   cv::Size(grid.width, grid.height)),
+             unwrapped);
+    cv::compare(unwrapped, unwrapped, sampling.drop, cv::CMP_NE);  // NaN ≠ NaN
   }
+  return sampling;
+}
+
+PolarMaps make_polar_maps(const Registration& registration, const PolarSampling& sampling) {
+  PolarMaps maps = polar_tables(sampling.grid, sampling.polar, sampling.grid_xy, registration.grid_to_source,
+                                cv::Size(registration.source.width, registration.source.height));
+  maps.drop = sampling.drop;
   return maps;
+}
+
+PolarMaps make_polar_maps(const Registration& registration, const RegisteredGrid& grid, const PolarGrid& polar) {
+  return make_polar_maps(registration, make_polar_sampling(grid, polar, registration.drop));
 }
 
 void to_polar(const cv::Mat& image, const PolarMaps& maps, cv::Mat& out) {

@@ -64,6 +64,22 @@ PolarMaps make_polar_maps(const RegisteredGrid& grid, const PolarGrid& polar);
 // a masked registered frame is unwrapped.
 PolarMaps make_polar_maps(const Registration& registration, const RegisteredGrid& grid, const PolarGrid& polar);
 
+// What make_polar_maps(registration, grid, polar) computes that does not depend on the
+// registration's affine: each polar sample's grid pixel (CV_64FC2, the formula above, in
+// double) and the polar drop mask of the grid's keep-mask. A view whose pointing moves
+// every frame builds this once; each new pointing then costs only the affine over the
+// samples and cv::convertMaps. make_polar_maps(registration, sampling) gives tables
+// bit-identical to make_polar_maps(registration, grid, polar) when `drop_on_grid` equals
+// registration.drop (the same doubles go through the same operations).
+struct PolarSampling {
+  RegisteredGrid grid;
+  PolarGrid polar;
+  cv::Mat grid_xy;  // CV_64FC2 on the polar grid
+  cv::Mat drop;     // CV_8UC1 on the polar grid (empty: none)
+};
+PolarSampling make_polar_sampling(const RegisteredGrid& grid, const PolarGrid& polar, const cv::Mat& drop_on_grid);
+PolarMaps make_polar_maps(const Registration& registration, const PolarSampling& sampling);
+
 // `image` is what the tables sample (maps.source). `out` reallocated only when its size or
 // type differ.
 void to_polar(const cv::Mat& image, const PolarMaps& maps, cv::Mat& out);

@@ -97,7 +97,10 @@ void register_frame(const cv::Mat& source_pixels, const Registration& registrati
 
 const Registration& RegistrationCache::for_geometry(const ImageGeometry& source) {
   if (!last_ || !same_mapping(last_->source, source)) {
-    last_ = make_registration(source, grid_, keep_);
+    // The drop mask is the same for every registration of the view: made once, shared.
+    if (!keep_.empty() && drop_.empty()) drop_ = keep_ == 0;
+    last_ = make_registration(source, grid_);
+    last_->drop = drop_;
     ++builds_;
   }
   return *last_;

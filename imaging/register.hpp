@@ -79,6 +79,7 @@ class RegistrationCache {
  private:
   RegisteredGrid grid_;
   cv::Mat keep_;
+  cv::Mat drop_;  // keep_ == 0, made at the first build
   std::optional<Registration> last_;
   int builds_ = 0;
 };

@@ -8,10 +8,10 @@
 #include <vector>
 
 #include <opencv2/core.hpp>
-#include <opencv2/imgcodecs.hpp>
 #include <opencv2/imgproc.hpp>
 
 #include "imaging/input_error.hpp"
+#include "viewer/png.hpp"
 
 namespace occulta::viewer {
 namespace {
@@ -113,7 +113,10 @@ void write_png(const Framebuffer& picture, const std::filesystem::path& path) {
   partial += ".partial.png";
   bool written = false;
   try {
-    written = cv::imwrite(partial.string(), encoded);
+    const std::vector<unsigned char> bytes = encode_png(encoded);
+    std::ofstream file(partial, std::ios::binary);
+    file.write(reinterpret_cast<const char*>(bytes.data()), std::streamsize(bytes.size()));
+    written = !bytes.empty() && file.good();
   } catch (const cv::Exception&) {
     written = false;
   }

@@ -6,8 +6,10 @@
 // ≤ 1.5 × what imaging::read_fits (cfitsio read + decompress + scaling) needs alone; and
 // memory per view does not grow with the number of frames beyond the polar cube.
 //
-// Writes N synthetic frames (a corona falling off with height, noise, an occulter and
-// field stop, a bright front moving out) into a temporary folder, then prints, pinned to
+// Writes N synthetic frames (bench_frames.hpp: a corona falling off with height, noise, an
+// occulter and field stop, a bright front moving out, and a pointing that moves by up to
+// ±2 px from frame to frame, so the remap tables are rebuilt for every frame, as real
+// pointing makes them) into a temporary folder, then prints, pinned to
 // one core and on all cores (the chain reads the next frame on a thread of its own either
 // way): the load average, read time per frame, chain time per frame without and with the
 // 5×5 median filter (occulta maps' default), their ratios to the read, each stage's time
@@ -39,58 +41,17 @@
 #include "imaging/geometry.hpp"
 #include "imaging/time.hpp"
 
+#include "bench_frames.hpp"
+
 namespace fs = std::filesystem;
 namespace oi = occulta::imaging;
 
 namespace {
 
-constexpr int kSize = 1024;
-constexpr double kT0 = 9.7e8;  // an invented time in 2030
+constexpr int kSize = occulta::bench::kFrameSize;
 
 double seconds_since(std::chrono::steady_clock::time_point start) {
   return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
-}
-
-std::vector<fs::path> write_frames(const fs::path& dir, int count) {
-  oi::GeometrySpec spec;
-  spec.width = spec.height = kSize;
-  spec.observer = oi::observer_from_degrees(0.0, 3.0, 0.99 * occulta::kAuKm);
-  spec.sun_center_px = {511.7, 514.2};
-  const double rs_arcsec = oi::solar_angular_radius_rad(spec.observer.dist_km) * occulta::kArcsecPerRad;
-  const double rs_per_px = 16.0 / 512.0;
-  spec.arcsec_per_px = rs_per_px * rs_arcsec;
-  spec.roll_deg = 1.5;
-  cv::RNG rng(424242);
-  std::vector<fs::path> paths;
-  cv::Mat pixels(kSize, kSize, CV_32FC1), noise(kSize, kSize, CV_32FC1);
-  for (int k = 0; k < count; ++k) {
-    rng.fill(noise, cv::RNG::NORMAL, 0.0, 1.0);
-    const double front_rs = 3.0 + 0.6 * k;
-    for (int y = 0; y < kSize; ++y)
-      for (int x = 0; x < kSize; ++x) {
-        const double dx = (x - spec.sun_center_px.x()) * rs_per_px, dy = (y - spec.sun_center_px.y()) * rs_per_px;
-        const double h = std::hypot(dx, dy);
-        if (h < 2.2 || h > 15.5) {
-          pixels.at<float>(y, x) = std::numeric_limits<float>::quiet_NaN();
-          continue;
-        }
-        const double pa = std::atan2(-dx, dy);
-        double v = 4e4 / (h * h * h) * (1.0 + 0.3 * std::cos(2 * pa));
-        if (std::abs(pa - 1.2) < 0.4 && std::abs(h - front_rs) < 0.4) v *= 1.3;
-        // DN for a 10 s exposure; noise ∝ √signal as photon noise is.
-        pixels.at<float>(y, x) = float(10.0 * (v + std::sqrt(v) * noise.at<float>(y, x)));
-      }
-    oi::Header header;
-    oi::write_geometry(header, spec);
-    header.set_text("DATE-OBS", oi::iso_from_utc_seconds(kT0 + 720.0 * k));
-    header.set_real("EXPTIME", 10.0);
-    paths.push_back(dir / ("frame" + std::to_string(1000 + k) + ".fits"));
-    oi::FitsWriteOptions options;
-    options.pixels = oi::FitsWriteOptions::Pixels::ScaledInt16;
-    options.rice = true;
-    oi::write_fits(paths.back(), pixels, header, options);
-  }
-  return paths;
 }
 
 // Seconds per frame, best of `passes`.
@@ -131,10 +92,13 @@ void print_stage_times(const std::vector<fs::path>& paths, int passes) {
   oi::RegistrationCache cache(grid, oi::annulus_keep_mask(grid, radii));
   const oi::PolarGrid polar = oi::make_polar_grid(grid, radii.inner_rs, radii.outer_rs);
   // The chain's path: raw frame → polar grid in one remap (registration composed in),
-  // tables built once per geometry; the median runs on the raw frame first.
-  const oi::PolarMaps maps = oi::make_polar_maps(cache.for_geometry(sequence.frames.front().geometry), grid, polar);
-  enum { kRead, kPolar, kRate, kMedian, kDifference, kSigma, kDivide, kStages };
-  const char* names[kStages] = {"read_fits", "register+polar", "DN/s", "median 5 (raw frame)", "difference", "ring σ", "÷σ"};
+  // tables built per pointing (each frame's: the pointing moves) from the shared sampling;
+  // the median runs on the raw frame first.
+  const oi::PolarSampling sampling =
+      oi::make_polar_sampling(grid, polar, cache.for_geometry(sequence.frames.front().geometry).drop);
+  enum { kRead, kTables, kPolar, kRate, kMedian, kDifference, kSigma, kDivide, kStages };
+  const char* names[kStages] = {"read_fits", "tables (new pointing)", "register+polar", "DN/s", "median 5 (raw frame)",
+                                "difference", "ring σ", "÷σ"};
   std::vector<double> best(kStages, 1e30);
   for (int p = 0; p < passes; ++p) {
     std::vector<double> sum(kStages, 0.0);
@@ -151,6 +115,8 @@ void print_stage_times(const std::vector<fs::path>& paths, int passes) {
       // detector pixels (imaging/chain.cpp), then one remap to the polar grid.
       oi::median_filter(image.pixels, 5, median_scratch);
       lap(kMedian);
+      const oi::PolarMaps maps = oi::make_polar_maps(cache.for_geometry(sequence.frames[k].geometry), sampling);
+      lap(kTables);
       oi::to_polar(image.pixels, maps, current);
       lap(kPolar);
       oi::to_rate(current, *sequence.frames[k].exposure_s);
@@ -212,7 +178,7 @@ int main(int argc, char** argv) {
   int status = 0;
   try {
     std::printf("chain_bench: writing %d frames %d² int16 Rice-compressed into %s\n", frames, kSize, dir.c_str());
-    const auto paths = write_frames(dir, frames);
+    const auto paths = occulta::bench::write_bench_frames(dir, frames);
     std::printf("  file size %.2f MB per frame\n", fs::file_size(paths.front()) / 1e6);
     const int all = cv::getNumberOfCPUs();
     cpu_set_t every;

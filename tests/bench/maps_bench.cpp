@@ -1,0 +1,116 @@
+// tests/bench/maps_bench.cpp — `occulta maps` as a user runs it (the whole process, outputs
+// written) against the floor: a bare cfitsio program reading the same files
+// (read_floor.cpp).
+//
+// Budget (issue 18): `occulta maps`, whole process on both cores, ≤ 1.5 × the read; goal
+// 1.0 (the chain hides behind reading the next frames).
+//
+// Writes N frames of 1024² int16 Rice (bench_frames.hpp: the pointing moves by up to ±2 px
+// from frame to frame) and a one-view event file, then runs, paired in one loop so that
+// both see the same load: read_floor on the files; `occulta maps` with its default 5×5
+// median; `occulta maps --median 0`. Each is a fresh process (fork/exec through
+// std::system). Prints each one's median wall time and the median of the paired ratios,
+// and its CPU time (user + system of the child, getrusage RUSAGE_CHILDREN): on a loaded
+// machine wall time includes others' work, CPU time does not. `--short` (the test suite)
+// uses 6 frames and one round and fails only when a run fails. `--write DIR N` only writes
+// N frames and DIR/bench.event.json and keeps them (for profiling by hand).
+#include <sys/resource.h>
+#include <unistd.h>
+
+#include <algorithm>
+#include <chrono>
+#include <cstdio>
+#include <cstdlib>
+#include <cstring>
+#include <filesystem>
+#include <fstream>
+#include <string>
+#include <vector>
+
+#include "bench_frames.hpp"
+
+namespace fs = std::filesystem;
+
+namespace {
+
+struct Cost {
+  double wall_s = 0.0, cpu_s = 0.0;
+};
+
+double children_cpu_s() {
+  rusage usage{};
+  getrusage(RUSAGE_CHILDREN, &usage);
+  return usage.ru_utime.tv_sec + usage.ru_stime.tv_sec + 1e-6 * (usage.ru_utime.tv_usec + usage.ru_stime.tv_usec);
+}
+
+Cost run(const std::string& command) {
+  const double cpu0 = children_cpu_s();
+  const auto t0 = std::chrono::steady_clock::now();
+  const int status = std::system(command.c_str());
+  const double wall = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+  if (status != 0) throw std::runtime_error("failed (status " + std::to_string(status) + "): " + command);
+  return {wall, children_cpu_s() - cpu0};
+}
+
+double median(std::vector<double> v) {
+  std::sort(v.begin(), v.end());
+  return v.size() % 2 ? v[v.size() / 2] : 0.5 * (v[v.size() / 2 - 1] + v[v.size() / 2]);
+}
+
+}  // namespace
+
+static void write_event(const fs::path& dir, int frames) {
+  fs::create_directories(dir / "view");
+  occulta::bench::write_bench_frames(dir / "view", frames);
+  std::ofstream(dir / "bench.event.json") << R"({"id": "bench", "views": [{"name": "view", "files": ["view/*.fits"]}]})";
+}
+
+int main(int argc, char** argv) {
+  if (argc == 4 && std::strcmp(argv[1], "--write") == 0) {
+    write_event(argv[2], std::atoi(argv[3]));
+    return 0;
+  }
+  const bool short_mode = argc > 1 && std::strcmp(argv[1], "--short") == 0;
+  const int frames = short_mode ? 6 : 30;
+  const int rounds = short_mode ? 1 : 5;
+  const fs::path dir = fs::temp_directory_path() / ("occulta-maps-bench-" + std::to_string(::getpid()));
+  int status = 0;
+  try {
+    std::printf("maps_bench: writing %d frames %d² int16 Rice-compressed, pointing moving up to ±2 px frame to frame, "
+                "into %s\n", frames, occulta::bench::kFrameSize, dir.c_str());
+    write_event(dir, frames);
+    std::vector<fs::path> paths;
+    for (const auto& entry : fs::directory_iterator(dir / "view")) paths.push_back(entry.path());
+    std::sort(paths.begin(), paths.end());
+    std::string files;
+    for (const auto& p : paths) files += " '" + p.string() + "'";
+    const std::string read = std::string("'") + OCCULTA_READ_FLOOR + "'" + files + " > /dev/null";
+    const std::string maps = std::string("'") + OCCULTA_EXECUTABLE + "' maps '" + (dir / "bench.event.json").string() +
+                             "' --out '" + (dir / "out").string() + "' > /dev/null";
+    double load[3] = {0, 0, 0};
+    if (getloadavg(load, 3) < 0) load[0] = -1;
+    std::printf("  load average before timing %.2f (1 min): others' work inflates wall times, not CPU times\n", load[0]);
+    std::vector<double> read_wall, read_cpu, maps_wall, maps_cpu, plain_wall, plain_cpu;
+    std::vector<double> ratio_wall, ratio_plain_wall, ratio_cpu, ratio_plain_cpu;
+    for (int r = 0; r < rounds; ++r) {
+      const Cost c_read = run(read), c_maps = run(maps), c_plain = run(maps + " --median 0");
+      read_wall.push_back(c_read.wall_s), read_cpu.push_back(c_read.cpu_s);
+      maps_wall.push_back(c_maps.wall_s), maps_cpu.push_back(c_maps.cpu_s);
+      plain_wall.push_back(c_plain.wall_s), plain_cpu.push_back(c_plain.cpu_s);
+      ratio_wall.push_back(c_maps.wall_s / c_read.wall_s), ratio_plain_wall.push_back(c_plain.wall_s / c_read.wall_s);
+      ratio_cpu.push_back(c_maps.cpu_s / c_read.cpu_s), ratio_plain_cpu.push_back(c_plain.cpu_s / c_read.cpu_s);
+    }
+    std::printf("  %d frames, median of %d paired rounds, whole processes:\n", frames, rounds);
+    std::printf("    read floor (cfitsio only)   wall %.3f s, CPU %.3f s\n", median(read_wall), median(read_cpu));
+    std::printf("    occulta maps (5×5 median)   wall %.3f s, CPU %.3f s; ratio to the read: wall %.2f (budget 1.5), "
+                "CPU %.2f\n", median(maps_wall), median(maps_cpu), median(ratio_wall), median(ratio_cpu));
+    std::printf("    occulta maps --median 0     wall %.3f s, CPU %.3f s; ratio to the read: wall %.2f (budget 1.5), "
+                "CPU %.2f\n", median(plain_wall), median(plain_cpu), median(ratio_plain_wall), median(ratio_plain_cpu));
+  } catch (const std::exception& e) {
+    std::fprintf(stderr, "maps_bench: %s\n", e.what());
+    status = 1;
+  }
+  std::error_code ignored;
+  fs::remove_all(dir, ignored);
+  return status;
+}
