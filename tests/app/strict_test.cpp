@@ -6,6 +6,7 @@
 // the bad ones are refused by both.
 #include <fstream>
 #include <functional>
+#include <map>
 
 #include <doctest/doctest.h>
 #include <nlohmann/json.hpp>
@@ -56,9 +57,12 @@ json result_doc() {
 }
 
 // The one tiny event shared by every case (made once).
-fs::path frames_dir() {
-  static const fs::path dir = occulta::test::synthesize_event("strict_frames", kScenario) / "frames";
-  return dir;
+// The frames of the table's cases. The window case makes its own copy of the same event:
+// CTest runs cases at once, and each must own the folders it writes into.
+fs::path frames_dir(const std::string& name = "strict_frames") {
+  static std::map<std::string, fs::path> made;
+  if (!made.count(name)) made[name] = occulta::test::synthesize_event(name, kScenario) / "frames";
+  return made[name];
 }
 
 struct Case {
@@ -259,8 +263,13 @@ TEST_CASE("strict: bad inputs across every verb give one sentence and the promis
 }
 
 TEST_CASE("strict: the window is applied, frames outside it named, and a window without frames is a problem") {
-  const fs::path f = frames_dir();
+  const fs::path f = frames_dir("strict_window_frames");
   const fs::path d = occulta::test::scratch_dir("strict_window");
+  {
+    json empty = event_doc();
+    empty["window"] = {{"start", "2031-03-15T00:00:00"}, {"end", "2031-03-15T01:00:00"}};
+    write(f / "window_empty.event.json", empty);
+  }
   json event = event_doc();
   event["window"] = {{"start", "2031-03-14T06:05:00"}, {"end", "2031-03-14T06:45:00"}};  // leaves out 06:00
   write(f / "window.event.json", event);

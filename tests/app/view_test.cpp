@@ -142,7 +142,7 @@ TEST_CASE("view: a bad script or size or input is one sentence and no PNG") {
   CHECK(run.exit_code == 1);
   CHECK(run.output.find("bad.json: action 1 (display): mode \"sideways\" is not one of") != std::string::npos);
   run = run_command(occulta_cmd() + " view " + sample_event() + " --size 12x9000 --snapshot " + png);
-  CHECK(run.exit_code == 1);
+  CHECK(run.exit_code == 2);  // a fault named by an option is usage (README "Exit codes")
   CHECK(run.output.find("--size: must be WIDTHxHEIGHT") != std::string::npos);
   run = run_command(occulta_cmd() + " view " + shell_quote(dir.string()) + " --snapshot " + png);
   CHECK(run.exit_code == 1);
