@@ -61,12 +61,18 @@ cv::Mat arrival_histogram(const fit::TargetArrival& a, double boundary_utc_s) {
   // Axes, with about eight hour ticks.
   cv::line(picture, {kLeft, base}, {kLeft + kWidth, base}, kAxis);
   cv::line(picture, {kLeft, kTop}, {kLeft, base}, kAxis);
+  // The tick count is an integer bounded here, whatever span the times have: a loop on
+  // `h += step` never ended for a span of 10¹⁵ h (the step vanished beside h).
   double step = 1.0;
   for (const double s : {1.0, 2.0, 3.0, 6.0, 12.0, 24.0, 48.0, 96.0, 192.0, 384.0, 768.0}) {
     step = s;
     if ((h1 - h0) / s <= 10.0) break;
   }
-  for (double h = std::ceil(h0 / step) * step; h <= h1 + 1e-9; h += step) {
+  while ((h1 - h0) / step > 10.0 && std::isfinite(step)) step *= 2.0;
+  const double first_tick = std::ceil(h0 / step) * step;
+  const double ticks = std::floor((h1 + 1e-9 - first_tick) / step);
+  for (int k = 0; std::isfinite(ticks) && k <= std::min(ticks, 12.0); ++k) {
+    const double h = first_tick + k * step;
     const int x = x_of(h);
     cv::line(picture, {x, base}, {x, base + 5}, kAxis);
     char label[32];

@@ -10,6 +10,7 @@
 #include "app/maps.hpp"
 #include "app/measure.hpp"
 #include "app/synth.hpp"
+#include "imaging/fits.hpp"
 
 namespace occulta::app {
 
@@ -78,6 +79,12 @@ int run(int argc, char** argv) {
   demo_cmd->add_option("--sample", demo_options.sample_dir, "The sample event's folder")->capture_default_str();
   demo_cmd->add_option("--out", demo_options.out_dir, "Folder for what the demo measures")->capture_default_str();
 
+  // FITS checksums (FITS Standard 4.0 §4.4.2.7): a mismatch is refused unless asked.
+  bool checksum_warn_only = false;
+  for (CLI::App* reads_fits : {inspect_cmd, maps_cmd, measure_cmd, demo_cmd})
+    reads_fits->add_flag("--checksum-warn-only", checksum_warn_only,
+                         "Read FITS files whose CHECKSUM/DATASUM do not match, with a warning (default: refuse them)");
+
   try {
     cli.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {
@@ -91,6 +98,7 @@ int run(int argc, char** argv) {
     return 2;
   }
 
+  if (checksum_warn_only) imaging::set_checksum_policy(imaging::ChecksumPolicy::Warn);
   try {
     if (*inspect_cmd) return inspect(inspect_options, std::cout, std::cerr);
     if (*synth_cmd) return synth(synth_options, std::cout, std::cerr);

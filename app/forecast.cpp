@@ -9,6 +9,7 @@
 #include <stdexcept>
 
 #include "app/arrival_picture.hpp"
+#include "app/output_set.hpp"
 #include "fit/arrival_json.hpp"
 #include "fit/json_file.hpp"
 #include "imaging/input_error.hpp"
@@ -76,6 +77,11 @@ json run_forecast(const ForecastOptions& o, std::ostream& err) {
         << " gives no uncertainty for the shell (no shell.covariance or shell.sigma): the spread is that of the wind "
            "and drag ranges alone.\n";
 
+  // The ensemble's size is the user's, bounded: each member costs memory and time.
+  constexpr int kMaxMembers = 1'000'000;
+  if (o.members < 1 || o.members > kMaxMembers)
+    throw imaging::InputError("--members", std::to_string(o.members) + " is outside 1–" + std::to_string(kMaxMembers) +
+                                               ", the ensemble sizes occulta runs");
   fit::EnsembleOptions ensemble;
   ensemble.members = o.members;
   ensemble.seed = o.seed;
@@ -96,6 +102,9 @@ json run_forecast(const ForecastOptions& o, std::ostream& err) {
 
   if (!o.out_dir.empty()) {
     fs::create_directories(o.out_dir);
+    // The previous run's arrival.json goes first, then its histograms; this run's
+    // arrival.json is written last (app/output_set.hpp).
+    retire_previous_outputs(o.out_dir, OutputNames{"arrival.json", {"arrival_*.png"}, {}}, {});
     for (const fit::TargetArrival& a : arrivals)
       write_arrival_histogram(fs::path(o.out_dir) / ("arrival_" + a.target.name + ".png"), a, utc_s);
     fit::write_json_file(fs::path(o.out_dir) / "arrival.json", doc);

@@ -1,11 +1,14 @@
 #include "app/quicklook.hpp"
 
 #include <cmath>
+#include <string_view>
+#include <vector>
 
 #include <opencv2/imgcodecs.hpp>
 #include <opencv2/imgproc.hpp>
 
 #include "imaging/input_error.hpp"
+#include "imaging/output_file.hpp"
 #include "imaging/polar.hpp"
 
 namespace occulta::app {
@@ -69,13 +72,17 @@ cv::Mat with_caption(const cv::Mat& picture, const std::string& caption) {
 }
 
 void write_png(const std::filesystem::path& path, const cv::Mat& picture) {
-  bool written = false;
+  // Encoded in memory, then written whole or not at all (imaging/output_file.hpp): a
+  // killed run never leaves a truncated picture under its final name.
+  std::vector<uchar> bytes;
+  bool encoded = false;
   try {
-    written = cv::imwrite(path.string(), picture);
+    encoded = cv::imencode(".png", picture, bytes);
   } catch (const cv::Exception& e) {
     throw imaging::InputError(path.string(), std::string("cannot be written as PNG (") + e.what() + ")");
   }
-  if (!written) throw imaging::InputError(path.string(), "cannot be written as PNG");
+  if (!encoded) throw imaging::InputError(path.string(), "cannot be encoded as PNG");
+  imaging::write_file_atomically(path, std::string_view(reinterpret_cast<const char*>(bytes.data()), bytes.size()));
 }
 
 }  // namespace occulta::app
