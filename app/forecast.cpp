@@ -77,11 +77,6 @@ json run_forecast(const ForecastOptions& o, std::ostream& err) {
         << " gives no uncertainty for the shell (no shell.covariance or shell.sigma): the spread is that of the wind "
            "and drag ranges alone.\n";
 
-  // The ensemble's size is the user's, bounded: each member costs memory and time.
-  constexpr int kMaxMembers = 1'000'000;
-  if (o.members < 1 || o.members > kMaxMembers)
-    throw imaging::InputError("--members", std::to_string(o.members) + " is outside 1–" + std::to_string(kMaxMembers) +
-                                               ", the ensemble sizes occulta runs");
   fit::EnsembleOptions ensemble;
   ensemble.members = o.members;
   ensemble.seed = o.seed;

@@ -485,6 +485,17 @@ bool is_gzip(const std::filesystem::path& path) {
   return head.size() >= 2 && static_cast<unsigned char>(head[0]) == 0x1f && static_cast<unsigned char>(head[1]) == 0x8b;
 }
 
+bool is_gzip(std::span<const std::byte> bytes) {
+  return bytes.size() >= 2 && bytes[0] == std::byte{0x1f} && bytes[1] == std::byte{0x8b};
+}
+
+// The bytes a gzip file held: FITS, never gzip again (one level of compression is what
+// the bound in fits_gzip.cpp is about).
+FitsImage read_gunzipped(const std::vector<std::byte>& plain, const std::string& name) {
+  if (is_gzip(std::span<const std::byte>(plain))) throw InputError(name, "it is gzip-compressed twice; occulta uncompresses FITS files once");
+  return read_fits_memory(plain, name);
+}
+
 }  // namespace
 
 FitsImage read_fits(const std::filesystem::path& path) {
@@ -492,7 +503,7 @@ FitsImage read_fits(const std::filesystem::path& path) {
   if (is_gzip(path)) {
     const std::unique_ptr<std::FILE, int (*)(std::FILE*)> file(std::fopen(path.c_str(), "rb"), std::fclose);
     if (!file) throw InputError(path.string(), "the file cannot be opened for reading");
-    return read_fits_memory(fits_detail::gunzip_fits(file.get(), path.string()), path.string());
+    return read_gunzipped(fits_detail::gunzip_fits(file.get(), path.string()), path.string());
   }
   FitsHandle file = open_disk(path);
   return read_open(file.get(), disk_size(file.get()), disk_reader(path), path.string());
@@ -506,15 +517,12 @@ Header read_fits_header(const std::filesystem::path& path) {
 }
 
 FitsImage read_fits_memory(std::span<const std::byte> bytes, std::string name) {
-  if (bytes.size() >= 2 && bytes[0] == std::byte{0x1f} && bytes[1] == std::byte{0x8b}) {
+  if (is_gzip(bytes)) {
     // gzip-compressed (RFC 1952): uncompressed under a bound (fits_gzip.cpp), once.
     const std::unique_ptr<std::FILE, int (*)(std::FILE*)> file(
         fmemopen(const_cast<std::byte*>(bytes.data()), bytes.size(), "rb"), std::fclose);
     if (!file) throw InputError(name, "its gzip-compressed bytes cannot be opened");
-    const std::vector<std::byte> plain = fits_detail::gunzip_fits(file.get(), name);
-    if (plain.size() >= 2 && plain[0] == std::byte{0x1f} && plain[1] == std::byte{0x8b})
-      throw InputError(name, "it is gzip-compressed twice; occulta uncompresses FITS files once");
-    return read_fits_memory(plain, name);
+    return read_gunzipped(fits_detail::gunzip_fits(file.get(), name), name);
   }
   check_start(std::string_view(reinterpret_cast<const char*>(bytes.data()), std::min(bytes.size(), kBlock)),
               bytes.size(), name);
