@@ -34,6 +34,11 @@ struct HduWalk {
   std::size_t next_hdu = 0;      // offset of the next HDU's header
   bool finished = false;         // the bytes at next_hdu begin no HDU: only trailing records follow
   std::size_t limit = kBlock * 1000;  // before the first header is whole: a header's worth
+  // The header being scanned: how far, and what it said so far.
+  std::size_t scanned = 0;
+  long long bitpix = 0, naxis = 0, pcount = 0, gcount = 1;
+  bool groups = false;
+  std::array<long long, 1000> axes{};
 
   // Integer value of a card, when it holds one (the reader checks the header in full later).
   static std::optional<long long> integer(std::string_view card) {
@@ -59,11 +64,16 @@ struct HduWalk {
         limit = next_hdu + kTrailingBytes;
         return;
       }
-      // The header: cards up to END, within kMaxGzipHeaderCards.
-      long long bitpix = 0, naxis = 0, pcount = 0, gcount = 1;
-      bool groups = false;
-      std::array<long long, 1000> axes{};
-      std::size_t at = next_hdu;
+      // The header: cards up to END, within 1000 blocks; the scan resumes where the
+      // previous call stopped, so that a long header costs one pass, not one per chunk.
+      if (scanned < next_hdu) {
+        scanned = next_hdu;
+        bitpix = naxis = pcount = 0;
+        gcount = 1;
+        groups = false;
+        axes.fill(0);
+      }
+      std::size_t& at = scanned;
       bool whole = false;
       for (; at + 80 <= bytes.size() && at < next_hdu + 1000 * kBlock; at += 80) {
         const std::string_view card = bytes.substr(at, 80);
@@ -92,6 +102,7 @@ struct HduWalk {
         return;
       }
       const std::size_t data_start = (at + 80 + kBlock - 1) / kBlock * kBlock;
+      scanned = 0;  // the next header starts afresh
       // Data size, clamped: anything near the cap is refused as too large anyway.
       long double elements = 0;
       if (naxis > 0 && naxis <= 999) {
