@@ -20,6 +20,7 @@
 #include "fit/strict_json.hpp"
 #include "imaging/input_error.hpp"
 #include "app/view.hpp"
+#include "imaging/fits.hpp"
 
 namespace occulta::app {
 
@@ -151,6 +152,12 @@ int run(int argc, char** argv) {
   view_cmd->add_option("--median", view_options.median, "Median filter size against cosmic rays (0, 3 or 5)")
       ->capture_default_str()->check(CLI::IsMember({0, 3, 5}));
 
+  // FITS checksums (FITS Standard 4.0 §4.4.2.7): a mismatch is refused unless asked.
+  bool checksum_warn_only = false;
+  for (CLI::App* reads_fits : {inspect_cmd, maps_cmd, measure_cmd, demo_cmd, view_cmd})
+    reads_fits->add_flag("--checksum-warn-only", checksum_warn_only,
+                         "Read FITS files whose CHECKSUM/DATASUM do not match, with a warning (default: refuse them)");
+
   // Before CLI11 parses: an unknown verb or option names itself and the nearest known
   // one (CLI11 would first complain of something else, such as a missing --out).
   std::vector<CLI::App*> verbs = cli.get_subcommands({});
@@ -178,6 +185,7 @@ int run(int argc, char** argv) {
     return 2;
   }
 
+  if (checksum_warn_only) imaging::set_checksum_policy(imaging::ChecksumPolicy::Warn);
   // Exit codes (README "Exit codes"): a fault named by an option is usage (2); a fault of
   // a file or folder, given as an argument or as an option's value, is an input problem (1).
   try {

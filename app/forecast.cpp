@@ -13,6 +13,7 @@
 #include "app/arrival_picture.hpp"
 #include "app/event.hpp"
 #include "app/provenance.hpp"
+#include "app/output_set.hpp"
 #include "fit/arrival_json.hpp"
 #include "fit/json_file.hpp"
 #include "imaging/input_error.hpp"
@@ -129,6 +130,9 @@ json run_forecast(const ForecastOptions& o, std::ostream& err) {
                                  std::chrono::duration<double>(std::chrono::steady_clock::now() - started).count());
   if (!o.out_dir.empty()) {
     fs::create_directories(o.out_dir);
+    // The previous run's arrival.json goes first, then its histograms; this run's
+    // arrival.json is written last (app/output_set.hpp).
+    retire_previous_outputs(o.out_dir, OutputNames{"arrival.json", {"arrival_*.png"}, {}}, {});
     for (const fit::TargetArrival& a : arrivals)
       write_arrival_histogram(fs::path(o.out_dir) / ("arrival_" + a.target.name + ".png"), a, utc_s);
     fit::write_json_file(fs::path(o.out_dir) / "arrival.json", doc);

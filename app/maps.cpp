@@ -5,6 +5,7 @@
 #include <ostream>
 
 #include "app/event.hpp"
+#include "app/output_set.hpp"
 #include "app/quicklook.hpp"
 #include "imaging/chain.hpp"
 #include "imaging/input_error.hpp"
@@ -139,6 +140,20 @@ int maps(const MapsOptions& o, std::ostream& out, std::ostream& err) {
   if (fs::is_directory(o.event))
     throw imaging::InputError(o.event, "is a folder; `maps` needs an event file (*.event.json) naming the views' frames");
   const Event event = read_event(o.event);
+  // What a run writes per view: checked against the event's globs before any work, and
+  // the previous run's set removed (app/output_set.hpp).
+  const OutputNames names{"", {}, {"polar.fits", "running_difference.png", "polar_running_difference.png",
+                                   "time_height_pa*.png", "nrgf.png"}};
+  std::vector<fs::path> outputs;
+  std::vector<std::string> view_names;
+  for (const EventView& view : event.views) {
+    view_names.push_back(view.name);
+    for (const char* name : {"polar.fits", "running_difference.png", "polar_running_difference.png", "nrgf.png"})
+      outputs.push_back(fs::path(o.out_dir) / view.name / name);
+    for (const double pa : o.pa_deg) outputs.push_back(fs::path(o.out_dir) / view.name / ("time_height_pa" + pa_label(pa) + ".png"));
+  }
+  check_outputs_outside_inputs(event, outputs, o.out_dir);  // an unusable --out: exit 1, as out_dir.hpp
+  retire_previous_outputs(o.out_dir, names, view_names);
   std::vector<std::string> problems;
   int mapped = 0;
   for (const EventView& listed : event.views) {

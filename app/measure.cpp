@@ -11,6 +11,7 @@
 #include <opencv2/imgproc.hpp>
 
 #include "app/event.hpp"
+#include "app/output_set.hpp"
 #include "app/forecast.hpp"
 #include "app/inspect.hpp"
 #include "app/provenance.hpp"
@@ -341,7 +342,20 @@ json run_measure(const MeasureOptions& o, std::ostream& err) {
     spans.push_back({view.name, splits.back().first_utc_s, splits.back().last_utc_s});
   }
   if (analyst) check_track_matches(*analyst, o.track, event.id, spans);
+  // What a run writes: checked against the inputs' globs before any work; the previous
+  // run's set removed, its result.json first; this run's result.json written last
+  // (app/output_set.hpp).
+  const OutputNames names{"result.json", {"result.csv", "track.json"}, {"time_height.png", "front.png", "shell.png"}};
+  std::vector<fs::path> outputs;
+  std::vector<std::string> view_names;
+  for (const std::string& name : {names.seal, names.top[0], names.top[1]}) outputs.push_back(fs::path(o.out_dir) / name);
+  for (const EventView& view : event.views) {
+    view_names.push_back(view.name);
+    for (const std::string& name : names.per_view) outputs.push_back(fs::path(o.out_dir) / view.name / name);
+  }
+  check_outputs_outside_inputs(event, outputs, o.out_dir);  // an unusable --out: exit 1, as out_dir.hpp
   fs::create_directories(o.out_dir);
+  retire_previous_outputs(o.out_dir, names, view_names);
 
   json views = json::array();
   std::vector<std::string> problems;
@@ -430,9 +444,9 @@ json run_measure(const MeasureOptions& o, std::ostream& err) {
                   {"track", o.track.empty() ? json(nullptr) : json(o.track)},
                   {"apex_law", o.apex_law}};
   result["provenance"] = provenance(inputs, options, elapsed);
-  fit::write_json_file(fs::path(o.out_dir) / "result.json", result);
   write_csv_row(fs::path(o.out_dir) / "result.csv", result);
   write_track(fs::path(o.out_dir) / "track.json", used);
+  fit::write_json_file(fs::path(o.out_dir) / "result.json", result);  // the seal, last
   for (const auto& p : result["problems"]) err << "occulta: problem: " << p.get<std::string>() << '\n';
   return result;
 }

@@ -1,11 +1,14 @@
 #include "app/quicklook.hpp"
 
 #include <cmath>
+#include <string_view>
+#include <vector>
 
 #include <opencv2/imgproc.hpp>
 
 #include "fit/json_file.hpp"
 #include "imaging/input_error.hpp"
+#include "imaging/output_file.hpp"
 #include "imaging/polar.hpp"
 #include "viewer/png.hpp"
 
@@ -70,10 +73,12 @@ cv::Mat with_caption(const cv::Mat& picture, const std::string& caption) {
 }
 
 void write_png(const std::filesystem::path& path, const cv::Mat& picture) {
-  // Encoded in memory (viewer/png.hpp) and written whole or not at all.
+  // Encoded in memory (viewer/png.hpp), then written whole or not at all
+  // (imaging/output_file.hpp): a killed run never leaves a truncated picture under its
+  // final name.
   const std::vector<unsigned char> bytes = viewer::encode_png(picture);
-  if (bytes.empty()) throw imaging::InputError(path.string(), "cannot be written as PNG");
-  fit::write_text_file(path, std::string(bytes.begin(), bytes.end()));
+  if (bytes.empty()) throw imaging::InputError(path.string(), "cannot be encoded as PNG");
+  imaging::write_file_atomically(path, std::string_view(reinterpret_cast<const char*>(bytes.data()), bytes.size()));
 }
 
 }  // namespace occulta::app

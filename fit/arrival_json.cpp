@@ -75,6 +75,34 @@ Eigen::Matrix<double, kLaunchSize, 1> launch_column(const std::string& key, doub
   return c;
 }
 
+// A launch spread wider than the quantity's whole range says the fit did not constrain
+// the shell; an ensemble drawn from it is noise (a speed variance of 10³⁰ km²/s² gave
+// arrival years near −8×10⁸). Bounds of our own, generous: the fastest CMEs reach about
+// 3500 km/s (value from memory), so σ(speed) up to 3000 km/s still means something; an
+// angle's σ beyond 90° or the boundary time's beyond 10 days means nothing.
+void check_launch_spread(const LaunchCovariance& covariance, const std::string& source) {
+  const struct {
+    int index;
+    const char* what;
+    double bound, shown_per_unit;
+    const char* unit;
+  } limits[] = {{kLaunchSpeed, "the speed at the boundary", 3000.0, 1.0, " km/s"},
+                {kLaunchLon, "the longitude", 0.5 * kPi, kDegPerRad, "°"},
+                {kLaunchLat, "the latitude", 0.5 * kPi, kDegPerRad, "°"},
+                {kLaunchTilt, "the tilt", 0.5 * kPi, kDegPerRad, "°"},
+                {kLaunchHalfAngle, "the half angle", 0.5 * kPi, kDegPerRad, "°"},
+                {kLaunchAspectRatio, "the aspect ratio", 1.0, 1.0, ""},
+                {kLaunchTime, "the boundary time", 10.0 * 86400.0, 1.0 / 3600.0, " h"}};
+  for (const auto& l : limits) {
+    const double variance = covariance(l.index, l.index);
+    if (!(std::isfinite(variance) && std::sqrt(variance) <= l.bound))
+      throw InputError(source, "the shell's uncertainty gives " + std::string(l.what) + " a standard deviation of " +
+                                   format(std::sqrt(variance) * l.shown_per_unit) + l.unit + ", more than " +
+                                   format(l.bound * l.shown_per_unit) + l.unit +
+                                   ": the fit did not constrain the shell, and an arrival estimate from it would be noise");
+  }
+}
+
 // The shell-space covariance and its keys: shell.covariance, else shell.sigma squared.
 bool shell_covariance(const json& shell, const std::string& source, std::vector<std::string>& keys,
                       Eigen::MatrixXd& matrix, std::string& from) {
@@ -197,6 +225,7 @@ ArrivalInput read_arrival_input(const json& result, const std::string& source) {
     for (size_t k = 0; k < keys.size(); ++k)
       jacobian.col(static_cast<Eigen::Index>(k)) = launch_column(keys[k], dt_s, l.speed_km_s, a_km_s2);
     in.covariance = jacobian * matrix * jacobian.transpose();
+    check_launch_spread(in.covariance, source);
   }
   return in;
 }

@@ -5,6 +5,7 @@
 #include <iterator>
 
 #include "imaging/input_error.hpp"
+#include "imaging/output_file.hpp"
 
 namespace occulta::fit {
 
@@ -39,16 +40,7 @@ void write_json_file(const std::filesystem::path& path, const nlohmann::json& do
 }
 
 void write_text_file(const std::filesystem::path& path, const std::string& text) {
-  const std::filesystem::path pending = path.string() + ".part";
-  {
-    std::ofstream out(pending);
-    if (!out) throw imaging::InputError(path.string(), "cannot be written");
-    out << text;
-    if (!out) throw imaging::InputError(path.string(), "could not be written in full");
-  }
-  std::error_code error;
-  std::filesystem::rename(pending, path, error);
-  if (error) throw imaging::InputError(path.string(), "could not be moved into place (" + error.message() + ")");
+  imaging::write_file_atomically(path, text);  // temporary, fsync, rename
 }
 
 }  // namespace occulta::fit

@@ -150,9 +150,11 @@ SkyTruth sky_truth(const ShellParams& shell, const imaging::Observer& observer, 
 
 SynthResult synthesize(const Scenario& s, const fs::path& out_dir, const SynthProgress& progress) {
   SynthResult result;
+  check_synth_fits(s, out_dir);
   std::error_code ec;
   fs::create_directories(out_dir, ec);
   if (ec) throw imaging::InputError(out_dir.string(), "cannot be made as a folder (" + ec.message() + ")");
+  clear_previous_synth(out_dir, s.id);
 
   const int views = int(s.observers.size());
   const int total = views * s.frames;
@@ -232,7 +234,7 @@ SynthResult synthesize(const Scenario& s, const fs::path& out_dir, const SynthPr
       header.set_real("EXPTIME", s.exposure_s, "exposure time, s");
       header.set_text("BUNIT", "DN", "detector counts");
       header.set_text("OBSRVTRY", o.name, "invented observer (synthetic)");
-      header.set_text("TELESCOP", "occulta synth", "synthetic coronagraph frame");
+      header.set_text("TELESCOP", kSynthTelescope, "synthetic coronagraph frame");
       header.set_text("OBJECT", s.id, "scenario id");
       header.set_real("OCC_IN", s.occulter_inner_rs, "occulter radius, R_sun");
       header.set_real("OCC_OUT", s.occulter_outer_rs, "field-stop radius, R_sun");
@@ -261,8 +263,6 @@ SynthResult synthesize(const Scenario& s, const fs::path& out_dir, const SynthPr
                       {"window", {{"start", imaging::iso_from_utc_seconds(s.frame_time(0), 3)},
                                   {"end", imaging::iso_from_utc_seconds(s.frame_time(s.frames - 1), 3)}}},
                       {"base_time", imaging::iso_from_utc_seconds(s.frame_time(0), 3)}};
-  result.event_file = out_dir / (s.id + ".event.json");
-  write_json_file(result.event_file, event);
 
   json observers = json::array();
   for (const auto& o : s.observers)
@@ -292,6 +292,8 @@ SynthResult synthesize(const Scenario& s, const fs::path& out_dir, const SynthPr
       {"frames", truth_frames}};
   result.truth_file = out_dir / (s.id + ".truth.json");
   write_json_file(result.truth_file, truth);
+  result.event_file = out_dir / (s.id + ".event.json");
+  write_json_file(result.event_file, event);  // the seal, last: the frames and truth are whole
   return result;
 }
 

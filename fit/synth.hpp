@@ -11,6 +11,7 @@
 // files.
 #pragma once
 
+#include <cstdint>
 #include <filesystem>
 #include <functional>
 #include <string>
@@ -47,8 +48,29 @@ struct SynthResult {
 // Called after each frame is written: (frames done, frames in all).
 using SynthProgress = std::function<void(int, int)>;
 
+// The TELESCOP every synthetic frame carries: how synth knows its own frames again.
+inline constexpr const char* kSynthTelescope = "occulta synth";
+
+// Most bytes one synth run writes (16 GB): a stated bound of our own, far above what the
+// tests and the sample need (a few MB), below what fills a working disk unawares.
+inline constexpr std::uintmax_t kMaxSynthBytes = 16'000'000'000;
+
+// Bytes the scenario's frames take at most (uncompressed pixels and headers).
+std::uintmax_t synth_output_bytes(const Scenario& scenario);
+
+// Refuses (InputError) a scenario whose frames exceed kMaxSynthBytes or the free space of
+// out_dir's disk — before anything is written.
+void check_synth_fits(const Scenario& scenario, const std::filesystem::path& out_dir);
+
+// Removes what an earlier synth run wrote in out_dir — its event file first, its truth
+// file, frames <view>/<view>_NNN.fits whose TELESCOP is kSynthTelescope, and the
+// temporaries of a killed run — and nothing else, so that a view's glob then matches
+// only this run's frames.
+void clear_previous_synth(const std::filesystem::path& out_dir, const std::string& id);
+
 // Writes everything under out_dir (made if missing): out_dir/<view>/<view>_NNN.fits,
-// out_dir/<id>.event.json, out_dir/<id>.truth.json. Files are written whole or not at all.
+// out_dir/<id>.truth.json, then out_dir/<id>.event.json last (check_synth_fits and
+// clear_previous_synth first). Files are written whole or not at all.
 SynthResult synthesize(const Scenario& scenario, const std::filesystem::path& out_dir,
                        const SynthProgress& progress = {});
 

@@ -7,12 +7,15 @@
 #include <charconv>
 #include <functional>
 #include <cmath>
+#include <cstdio>
 #include <cstring>
+#include <memory>
 #include <fstream>
 #include <limits>
 #include <optional>
 #include <system_error>
 
+#include "imaging/fits_card_check.hpp"
 #include "imaging/fits_cfitsio.hpp"
 #include "imaging/fits_rice_check.hpp"
 #include "imaging/input_error.hpp"
@@ -28,8 +31,8 @@ constexpr std::size_t kBlock = 2880;  // FITS Standard 4.0 §3.1: files are 2880
 // What can be said from the first bytes alone, before cfitsio sees them.
 void check_start(std::string_view head, std::uintmax_t size, const std::string& source) {
   if (size == 0) throw InputError(source, "the file is empty (0 bytes), so it holds no FITS image");
-  // gzip-compressed FITS (a whole file compressed, not the tiled convention): cfitsio
-  // uncompresses disk files of this kind itself.
+  // gzip-compressed FITS (a whole file compressed, not the tiled convention): the
+  // readers uncompress it under a bound first (fits_gzip.cpp).
   if (head.size() >= 2 && static_cast<unsigned char>(head[0]) == 0x1f && static_cast<unsigned char>(head[1]) == 0x8b)
     return;
   // §4.4.1.1: a FITS file begins with the card SIMPLE = T, the keyword in columns 1–8
@@ -73,6 +76,24 @@ long long raw_integer(fitsfile* file, const char* key, const std::string& source
 // The file's bytes at an offset (fewer at its end): the disk file or the memory copy.
 using ByteReader = std::function<std::string(long long offset, std::size_t count)>;
 
+// The header that begins at `offset`: whole 2880-byte blocks up to the one holding the
+// END card (FITS Standard 4.0 §4.4.1), or to the end of the file when there is none
+// (cfitsio then says so). A header is bounded, so a file cannot make this read without end.
+constexpr std::size_t kMaxHeaderBlocks = 1000;  // 36 000 cards; occulta's frames have a few hundred
+
+std::string header_bytes(const ByteReader& read, long long offset, int hdu_number, const std::string& source) {
+  std::string bytes;
+  for (std::size_t block = 0; block < kMaxHeaderBlocks; ++block) {
+    const std::string more = read(offset + static_cast<long long>(bytes.size()), kBlock);
+    bytes += more;
+    for (std::size_t at = bytes.size() - more.size(); at + 80 <= bytes.size(); at += 80)
+      if (std::string_view(bytes).substr(at, 8) == "END     ") return bytes;
+    if (more.size() < kBlock) return bytes;
+  }
+  throw InputError(source, "the header of HDU " + std::to_string(hdu_number) + " has no END card in its first " +
+                               std::to_string(kMaxHeaderBlocks * kBlock / 80) + " cards, more than occulta reads");
+}
+
 // FITS Standard 4.0 §4.4.1: an HDU begins with SIMPLE or XTENSION, BITPIX, NAXIS,
 // NAXIS1…NAXISn, then (extensions) PCOUNT, GCOUNT and (tables, §7.2.1 and §7.3.1)
 // TFIELDS, in this order, all integers. Checked here before cfitsio parses a header:
@@ -81,7 +102,7 @@ using ByteReader = std::function<std::string(long long offset, std::size_t count
 // outside ASCII, found by fits_fuzz: ffgttb() fails, and the table set-up then callocs
 // by an uninitialised field count, as valgrind shows).
 void check_mandatory_cards(const ByteReader& read, long long offset, int hdu_number, const std::string& source) {
-  const std::string bytes = read(offset, 80 * (6 + 999));
+  const std::string bytes = header_bytes(read, offset, hdu_number, source);
   auto card = [&](std::size_t index) {
     return index * 80 + 80 <= bytes.size() ? std::string_view(bytes).substr(index * 80, 80) : std::string_view();
   };
@@ -178,6 +199,7 @@ void check_mandatory_cards(const ByteReader& read, long long offset, int hdu_num
                                    kind.starts_with("'TABLE'"));
   integer(1, "BITPIX");
   const long long naxis = integer(2, "NAXIS");
+  fits_detail::check_card_values(bytes, extension && kind.starts_with("'TABLE"), hdu, source);
   if (naxis < 0 || naxis > 999)
     throw InputError(source, hdu + "NAXIS is " + std::to_string(naxis) + ", outside 0–999 (FITS Standard 4.0 §4.4.1)");
   for (long long axis = 1; axis <= naxis; ++axis) integer(2 + axis, "NAXIS" + std::to_string(axis));
@@ -373,6 +395,8 @@ FitsImage read_open(fitsfile* file, long long file_size, const ByteReader& read,
   image.bitpix = choice.bitpix;
   image.compressed = choice.compressed;
   image.header = read_header(file, choice, source);
+  fits_detail::check_checksums(
+      file, source, choice.hdu == 0 ? "its primary image" : "its image in HDU " + std::to_string(choice.hdu + 1));
 
   image.pixels.create(static_cast<int>(choice.height), static_cast<int>(choice.width), CV_32FC1);
   // cfitsio applies BSCALE/BZERO (§4.4.2.5: physical = BZERO + BSCALE × stored) and turns
@@ -454,20 +478,52 @@ FitsHandle open_disk(const std::filesystem::path& path) {
   return FitsHandle(raw);
 }
 
+bool is_gzip(const std::filesystem::path& path) {
+  std::uintmax_t size = 0;
+  const std::string head = read_start(path, size);
+  check_start(head, size, path.string());
+  return head.size() >= 2 && static_cast<unsigned char>(head[0]) == 0x1f && static_cast<unsigned char>(head[1]) == 0x8b;
+}
+
+bool is_gzip(std::span<const std::byte> bytes) {
+  return bytes.size() >= 2 && bytes[0] == std::byte{0x1f} && bytes[1] == std::byte{0x8b};
+}
+
+// The bytes a gzip file held: FITS, never gzip again (one level of compression is what
+// the bound in fits_gzip.cpp is about).
+FitsImage read_gunzipped(const std::vector<std::byte>& plain, const std::string& name) {
+  if (is_gzip(std::span<const std::byte>(plain))) throw InputError(name, "it is gzip-compressed twice; occulta uncompresses FITS files once");
+  return read_fits_memory(plain, name);
+}
+
 }  // namespace
 
 FitsImage read_fits(const std::filesystem::path& path) {
+  // A gzip-compressed file is uncompressed here under a bound, not by cfitsio (fits_gzip.cpp).
+  if (is_gzip(path)) {
+    const std::unique_ptr<std::FILE, int (*)(std::FILE*)> file(std::fopen(path.c_str(), "rb"), std::fclose);
+    if (!file) throw InputError(path.string(), "the file cannot be opened for reading");
+    return read_gunzipped(fits_detail::gunzip_fits(file.get(), path.string()), path.string());
+  }
   FitsHandle file = open_disk(path);
   return read_open(file.get(), disk_size(file.get()), disk_reader(path), path.string());
 }
 
 Header read_fits_header(const std::filesystem::path& path) {
+  if (is_gzip(path)) return read_fits(path).header;
   FitsHandle file = open_disk(path);
   const Choice choice = choose_image(file.get(), disk_size(file.get()), disk_reader(path), path.string());
   return read_header(file.get(), choice, path.string());
 }
 
 FitsImage read_fits_memory(std::span<const std::byte> bytes, std::string name) {
+  if (is_gzip(bytes)) {
+    // gzip-compressed (RFC 1952): uncompressed under a bound (fits_gzip.cpp), once.
+    const std::unique_ptr<std::FILE, int (*)(std::FILE*)> file(
+        fmemopen(const_cast<std::byte*>(bytes.data()), bytes.size(), "rb"), std::fclose);
+    if (!file) throw InputError(name, "its gzip-compressed bytes cannot be opened");
+    return read_gunzipped(fits_detail::gunzip_fits(file.get(), name), name);
+  }
   check_start(std::string_view(reinterpret_cast<const char*>(bytes.data()), std::min(bytes.size(), kBlock)),
               bytes.size(), name);
   // cfitsio takes the buffer as writable and may reallocate it: it gets a private copy,

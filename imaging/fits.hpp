@@ -17,6 +17,7 @@
 #include <cstddef>
 #include <cstdint>
 #include <filesystem>
+#include <functional>
 #include <optional>
 #include <span>
 #include <string>
@@ -70,6 +71,14 @@ struct FitsImage {
 // Largest image we agree to allocate: refuses NAXISn products beyond this before any
 // allocation (a header can claim anything).
 inline constexpr std::size_t kMaxPixels = std::size_t{1} << 28;  // 268 M pixels, 1 GiB float32
+
+// What a reader does when the image's HDU has CHECKSUM or DATASUM (FITS Standard 4.0
+// §4.4.2.7) and its bytes do not match: refuse the file (the default: a damaged tile
+// decodes to wrong pixels without any other sign), or pass one sentence to `warn` and
+// read it. Process-wide, set once from the command line before any file is read; an
+// empty `warn` keeps the current sink (standard error).
+enum class ChecksumPolicy { Refuse, Warn };
+void set_checksum_policy(ChecksumPolicy policy, std::function<void(const std::string&)> warn = {});
 
 FitsImage read_fits(const std::filesystem::path& path);
 

@@ -2,7 +2,9 @@
 // the header code share on top of cfitsio. Nothing outside imaging/ includes it.
 #pragma once
 
+#include <cstdio>
 #include <memory>
+#include <vector>
 #include <string>
 #include <string_view>
 
@@ -38,5 +40,19 @@ HeaderCard parse_card(std::string_view card);
 // holds, as cfitsio reconstructs it), long strings joined (FITS Standard 4.0 §4.2.1.2).
 // Returns the cfitsio status.
 int read_header_cards(fitsfile* file, bool compressed, Header& header);
+
+// Verifies the current HDU's CHECKSUM and DATASUM when it has them (FITS Standard 4.0
+// §4.4.2.7); a mismatch is refused or reported as set_checksum_policy() says. `where`
+// begins the sentence ("its primary image").
+void check_checksums(fitsfile* file, const std::string& source, const std::string& where);
+
+// The most bytes a gzip-compressed FITS file may hold uncompressed (1 GiB: occulta's
+// largest float32 image, kMaxPixels × 4 bytes).
+inline constexpr std::size_t kMaxGzipBytes = kMaxPixels * 4;
+
+// A gzip-compressed FITS file (RFC 1952) uncompressed with zlib, refused as soon as it
+// holds more than its FITS headers account for (fits_gzip.cpp says how).
+// Reads `file` from where it stands to its end.
+std::vector<std::byte> gunzip_fits(std::FILE* file, const std::string& source);
 
 }  // namespace occulta::imaging::fits_detail

@@ -1,6 +1,5 @@
 // imaging/fits_write.cpp — writing one image as FITS with cfitsio: float32 or int16 with
 // BSCALE/BZERO, optionally Rice tile-compressed; the file appears whole or not at all.
-#include <atomic>
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
@@ -9,11 +8,11 @@
 #include <system_error>
 #include <vector>
 
-#include <unistd.h>
 
 #include "imaging/fits.hpp"
 #include "imaging/fits_cfitsio.hpp"
 #include "imaging/input_error.hpp"
+#include "imaging/output_file.hpp"
 
 namespace occulta::imaging {
 
@@ -41,17 +40,6 @@ class PendingFile {
   bool done_ = false;
 };
 
-std::filesystem::path pending_path(const std::filesystem::path& target) {
-  static std::atomic<unsigned> counter{0};
-  // Hidden, and unique per process and call, so concurrent writers never share one.
-  std::string name(1, '.');
-  name.append(target.filename().string());
-  name.append(".part-");
-  name.append(std::to_string(::getpid()));
-  name.push_back('-');
-  name.append(std::to_string(counter++));
-  return target.parent_path() / name;
-}
 
 // The shortest of 15–17 significant digits that reads back as the same double, so a
 // header value survives a round trip exactly (FITS Standard 4.0 §4.2.4 real values).
@@ -300,9 +288,7 @@ void write_atomically(const std::filesystem::path& path, const std::function<voi
     if (status != 0)
       throw InputError(source, "it cannot be written: finishing the file failed, " + fits_detail::describe_status(status));
   }
-  std::filesystem::rename(pending.path(), path, error);
-  if (error)
-    throw InputError(source, "it cannot be written: moving the finished file into place failed (" + error.message() + ")");
+  commit_pending(pending.path(), path);  // fsync, rename, fsync the folder
   pending.done();
 }
 

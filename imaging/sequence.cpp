@@ -37,6 +37,11 @@ ViewSequence scan_view(const std::string& view, const std::vector<std::filesyste
                        const std::optional<Observer>& observer) {
   ViewSequence sequence;
   sequence.view = view;
+  // The number of frames is the input's (a glob can match anything): bounded before
+  // any is read, as everything downstream grows with it (time axes, tracks).
+  if (paths.size() > kMaxFramesPerView)
+    throw InputError(view, "it has " + std::to_string(paths.size()) + " frames, more than occulta reads in one view (" +
+                               std::to_string(kMaxFramesPerView) + "); narrow its globs or the event's window");
   std::vector<std::string> identities;
   for (const auto& path : paths) {
     try {

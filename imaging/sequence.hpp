@@ -17,6 +17,7 @@
 // view's grid.
 #pragma once
 
+#include <cstddef>
 #include <filesystem>
 #include <optional>
 #include <string>
@@ -40,6 +41,9 @@ struct ViewSequence {
   std::vector<SequenceFrame> frames;   // oldest first, one per time
   std::vector<std::string> problems;   // sentences: skipped, duplicates, missing exposure
 };
+
+// Most frames in one view (a month at a 12-minute cadence is 3600): more is refused.
+inline constexpr std::size_t kMaxFramesPerView = 10000;
 
 // `observer` (an event file's) replaces the headers' HGLN_OBS/HGLT_OBS/DSUN_OBS.
 ViewSequence scan_view(const std::string& view, const std::vector<std::filesystem::path>& paths,

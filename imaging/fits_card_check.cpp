@@ -1,0 +1,124 @@
+// imaging/fits_card_check.cpp — the values of the cards cfitsio converts, checked before
+// it sees them (why: fits_card_check.hpp).
+#include "imaging/fits_card_check.hpp"
+
+#include <algorithm>
+#include <array>
+#include <cerrno>
+#include <charconv>
+#include <cmath>
+#include <cstdlib>
+
+#include "imaging/input_error.hpp"
+
+namespace occulta::imaging::fits_detail {
+
+namespace {
+
+enum class Type { Other, Integer, Number, IntegerOrText };
+
+bool numbered(std::string_view key, std::string_view stem) {
+  return key.size() > stem.size() && key.size() <= 8 && key.starts_with(stem) &&
+         std::all_of(key.begin() + static_cast<std::ptrdiff_t>(stem.size()), key.end(),
+                     [](char c) { return c >= '0' && c <= '9'; });
+}
+
+// The keywords cfitsio 4.2 reads as numbers when it opens an HDU, reads its pixels or
+// reconstructs a tile-compressed image's header (FITS Standard 4.0 §4.4.1–4.4.2, §7.2–7.3;
+// tiled convention, Pence et al. 2009 §4), and their types there.
+Type type_of(std::string_view key, bool ascii_table) {
+  static constexpr std::array<std::string_view, 19> integers = {
+      "BITPIX",  "NAXIS",   "PCOUNT",  "GCOUNT", "TFIELDS",  "THEAP", "BLANK",
+      "EXTVER",  "EXTLEVEL", "ZBITPIX", "ZNAXIS", "ZPCOUNT", "ZGCOUNT", "ZBLANK",
+      "ZDITHER0", "ZTHEAP",  "ZEXTVER", "ZEXTLEVEL", "ZBLOCKED"};
+  if (std::find(integers.begin(), integers.end(), key) != integers.end()) return Type::Integer;
+  for (std::string_view stem : {"NAXIS", "ZNAXIS", "ZTILE", "TBCOL"})
+    if (numbered(key, stem)) return Type::Integer;
+  // §7.2.2: an ASCII table's TNULLn is a string; §7.3.2: a binary table's an integer.
+  if (numbered(key, "TNULL")) return ascii_table ? Type::IntegerOrText : Type::Integer;
+  for (std::string_view name : {"BSCALE", "BZERO", "ZSCALE", "ZZERO"})
+    if (key == name) return Type::Number;
+  for (std::string_view stem : {"TSCAL", "TZERO", "ZVAL"})
+    if (numbered(key, stem)) return Type::Number;
+  return Type::Other;
+}
+
+// §4.2.3: an optional sign and digits.
+bool is_integer(std::string_view value) {
+  const bool negative = !value.empty() && value.front() == '-';
+  if (!value.empty() && (value.front() == '+' || negative)) value.remove_prefix(1);
+  if (value.empty() || value.front() < '0' || value.front() > '9') return false;
+  // Read with its sign so that −2⁶³ is in range and +2⁶³ is not.
+  long long number = 0;
+  const std::string text = (negative ? "-" : "") + std::string(value);
+  const auto [end, error] = std::from_chars(text.data(), text.data() + text.size(), number);
+  return error == std::errc() && end == text.data() + text.size();
+}
+
+// §4.2.4: a sign, digits with an optional decimal point, an optional exponent E or D
+// (cfitsio also takes e and d); finite in a double, as cfitsio's strtod-based ffc2dd needs.
+bool is_number(std::string_view value) {
+  std::size_t at = 0;
+  auto digits = [&] {
+    const std::size_t start = at;
+    while (at < value.size() && value[at] >= '0' && value[at] <= '9') ++at;
+    return at - start;
+  };
+  if (at < value.size() && (value[at] == '+' || value[at] == '-')) ++at;
+  std::size_t mantissa = digits();
+  if (at < value.size() && value[at] == '.') {
+    ++at;
+    mantissa += digits();
+  }
+  if (mantissa == 0) return false;
+  if (at < value.size() && (value[at] == 'E' || value[at] == 'D' || value[at] == 'e' || value[at] == 'd')) {
+    ++at;
+    if (at < value.size() && (value[at] == '+' || value[at] == '-')) ++at;
+    if (digits() == 0) return false;
+  }
+  if (at != value.size()) return false;
+  std::string text(value);
+  std::replace(text.begin(), text.end(), 'D', 'E');
+  std::replace(text.begin(), text.end(), 'd', 'e');
+  errno = 0;
+  const double number = std::strtod(text.c_str(), nullptr);
+  return errno != ERANGE && std::isfinite(number);
+}
+
+std::string shown(std::string_view value) {
+  std::string text(value.substr(0, 40));
+  for (char& c : text)
+    if (c < ' ' || c > '~') c = '?';  // readable text in the sentence
+  return value.size() > 40 ? text + "…" : text;
+}
+
+}  // namespace
+
+void check_card_values(std::string_view cards, bool ascii_table, const std::string& hdu, const std::string& source) {
+  for (std::size_t at = 0; at + 80 <= cards.size(); at += 80) {
+    const std::string_view card = cards.substr(at, 80);
+    if (card.starts_with("END     ")) return;
+    std::string_view key = card.substr(0, 8);
+    while (!key.empty() && key.back() == ' ') key.remove_suffix(1);
+    const Type type = type_of(key, ascii_table);
+    if (type == Type::Other || card[8] != '=') continue;  // no value indicator: cfitsio sees no value
+    const std::string name(key);
+    if (card[9] != ' ')
+      throw InputError(source, hdu + name + " has \"=\" without the space after it that makes a value indicator "
+                                   "(FITS Standard 4.0 §4.1.2.2)");
+    std::string_view value = card.substr(10);
+    while (!value.empty() && value.front() == ' ') value.remove_prefix(1);
+    if (type == Type::IntegerOrText && value.starts_with('\'')) continue;  // a string: cfitsio copies it
+    value = value.substr(0, value.find('/'));
+    while (!value.empty() && value.back() == ' ') value.remove_suffix(1);
+    if (value.empty())
+      throw InputError(source, hdu + name + " has no value, and it must be a number (FITS Standard 4.0 §4.2)");
+    if (type == Type::Number ? !is_number(value) : !is_integer(value))
+      throw InputError(source, hdu + name + " is \"" + shown(value) + "\", not " +
+                                   (type == Type::Number ? "a number" : "an integer") +
+                                   " within 64 bits (FITS Standard 4.0 " +
+                                   (type == Type::Number ? "§4.2.4" : "§4.2.3") + ")");
+  }
+}
+
+}  // namespace occulta::imaging::fits_detail
