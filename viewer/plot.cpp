@@ -47,9 +47,14 @@ namespace {
 
 // The whole multiples k·step inside [lo, hi] (lo < hi) as k: a tick a rounding error
 // outside an edge still counts, and each value is k·step (no accumulated sum).
+// No ticks (an empty range) when there would be more than kMostTicks, or when k is so
+// large that k + 1 == k in double: the loops over k then always end (issue 13: no loop
+// runs on an input-controlled value without a bound).
 std::pair<double, double> multiples(double lo, double hi, double step) {
-  constexpr double kSlack = 1e-9;
-  return {std::ceil(lo / step - kSlack), std::floor(hi / step + kSlack)};
+  constexpr double kSlack = 1e-9, kMostTicks = 1000.0;
+  const double k0 = std::ceil(lo / step - kSlack), k1 = std::floor(hi / step + kSlack);
+  if (!(k1 - k0 <= kMostTicks) || k0 + 1.0 == k0 || k1 + 1.0 == k1) return {1.0, 0.0};
+  return {k0, k1};
 }
 
 }  // namespace
