@@ -1,8 +1,11 @@
 // tests/fuzz/fuzz_file.hpp — for targets whose reader takes a path: the fuzz input as a
-// file under a fixed name in a per-process scratch folder (rewritten for every input).
+// file under a fixed name in a per-process scratch folder (rewritten for every input,
+// removed at exit). The folder is under TMPDIR: the campaign and the suite point that at
+// /dev/shm where it exists, since on ext4 every rewrite is flushed to disk.
 #pragma once
 
 #include <cstddef>
+#include <cstdlib>
 #include <cstdint>
 #include <filesystem>
 #include <fstream>
@@ -17,6 +20,11 @@ inline std::filesystem::path fuzz_file(const std::uint8_t* data, std::size_t siz
     const std::filesystem::path dir =
         std::filesystem::temp_directory_path() / ("occulta-fuzz-" + std::to_string(::getpid()));
     std::filesystem::create_directories(dir);
+    std::atexit([] {
+      std::error_code ignored;
+      std::filesystem::remove_all(
+          std::filesystem::temp_directory_path(ignored) / ("occulta-fuzz-" + std::to_string(::getpid())), ignored);
+    });
     return dir;
   }();
   const std::filesystem::path path = folder / name;
