@@ -100,8 +100,21 @@ void check_card_values(std::string_view cards, bool ascii_table, const std::stri
     if (card.starts_with("END     ")) return;
     std::string_view key = card.substr(0, 8);
     while (!key.empty() && key.back() == ' ') key.remove_suffix(1);
+    if (card[8] != '=') {
+      // cfitsio 4.2 also reads a value whose "=" stands elsewhere: the name runs to the
+      // first space or "=", and an "=" after it (past spaces) starts the value
+      // (fits_fuzz: "BLANK  =" with "=" in column 8 gave BLANK a 60-byte value, and
+      // ffc2j overflowed its message buffer on it). A typed keyword written so is refused.
+      const std::size_t name_end = std::min(card.find_first_of(" ="), card.size());
+      const std::size_t equals = card.find_first_not_of(' ', name_end);
+      if (name_end == 0 || equals == std::string_view::npos || card[equals] != '=') continue;
+      const std::string_view name = card.substr(0, name_end);
+      if (type_of(name, ascii_table) == Type::Other) continue;
+      throw InputError(source, hdu + std::string(name) + " has its value indicator \"=\" in column " +
+                                   std::to_string(equals + 1) + ", not in column 9 (FITS Standard 4.0 §4.1.2.2)");
+    }
     const Type type = type_of(key, ascii_table);
-    if (type == Type::Other || card[8] != '=') continue;  // no value indicator: cfitsio sees no value
+    if (type == Type::Other) continue;
     const std::string name(key);
     if (card[9] != ' ')
       throw InputError(source, hdu + name + " has \"=\" without the space after it that makes a value indicator "

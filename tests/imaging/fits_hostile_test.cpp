@@ -157,6 +157,23 @@ TEST_CASE("fits hostile: an integer card cfitsio converts must hold an integer w
       CHECK(std::string(e.what()).find("BLANK") != std::string::npos);
     }
   }
+  // cfitsio 4.2 also reads a value whose "=" is not in column 9 (the name runs to the
+  // first space): "BLANK  =" followed by 60 letters overflowed ffc2j's message buffer
+  // (the fast fuzz campaign, tests/fuzz/corpus/fits_fuzz/fuzz-blank-equals-in-column-8.fits).
+  // §4.1.2.2 puts the value indicator in columns 9–10, so such a typed card is refused.
+  for (const std::string& card : {"BLANK  =  " + std::string(60, 'A'), std::string("BLANK= -32768")}) {
+    std::string bad = good;
+    bad.replace(blank, 80, (card + std::string(80, ' ')).substr(0, 80));
+    try {
+      read_fits_memory(std::as_bytes(std::span(bad)), "bad");
+      FAIL("read the card \"" << card << "\"");
+    } catch (const InputError& e) {
+      check_one_sentence(e.what(), "bad");
+      CHECK(std::string(e.what()).find("BLANK has its value indicator \"=\" in column ") != std::string::npos);
+    }
+  }
+  CHECK(refusal(occulta::test::source_path("tests/fuzz/corpus/fits_fuzz/fuzz-blank-equals-in-column-8.fits"))
+            .find("has its value indicator") != std::string::npos);
   // −2⁶³ is a 64-bit integer (FITS Standard 4.0 §4.2.3 sets no range; cfitsio reads long long).
   std::string edge = good;
   const std::string lowest = "-9223372036854775808";
