@@ -2,7 +2,9 @@
 // (but its provenance), result.csv and track.json are exactly what the library's writers
 // (fit/result_file.hpp, fit/track.hpp) make of the same call — run here on a worker
 // thread, as the window runs it — on the committed sample, with and without an
-// analyst's track; and the progress it reports comes in stage order, view by view.
+// analyst's track; the progress it reports comes in stage order, view by view; and the
+// checksum policy in its options decides whether a damaged frame is read.
+#include <algorithm>
 #include <thread>
 
 #include <doctest/doctest.h>
@@ -142,4 +144,44 @@ TEST_CASE("measurement: measure's files are the library's writers of the same ca
   CHECK(analyst.measurement.views[0].points.size() + analyst.measurement.views[0].censored.total() == points.size());
   check_files_are_the_writers(analyst, out_track);
   check_progress(analyst, 2);
+}
+
+TEST_CASE("measurement: the checksum policy in the options refuses or reads a frame whose CHECKSUM does not match") {
+  const fs::path dir = occulta::test::scratch_dir("measurement-checksum");
+  fs::copy(occulta::test::source_path("sample_frames"), dir / "sample", fs::copy_options::recursive);
+  // One header comment changed after writing: the HDU's CHECKSUM no longer matches (FITS
+  // Standard 4.0 §4.4.2.7), the pixels are untouched.
+  const fs::path damaged = dir / "sample" / "east" / "east_005.fits";
+  std::string bytes = occulta::test::slurp(damaged);
+  const std::size_t at = bytes.find("detector counts");
+  REQUIRE(at != std::string::npos);
+  bytes[at] = 'D';
+  occulta::test::spit(damaged, bytes);
+  const fs::path event = dir / "sample" / "sample-2031-03-14.event.json";
+
+  const auto east_frames_used = [](const occulta::fit::Measurement& m) {
+    REQUIRE(!m.views.empty());
+    REQUIRE(m.views[0].name == "east");
+    return m.views[0].frames_used;
+  };
+  const auto names_damaged = [](const occulta::fit::Measurement& m) {
+    return std::any_of(m.problems.begin(), m.problems.end(), [](const std::string& p) {
+      return p.find("east_005.fits") != std::string::npos && p.find("CHECKSUM") != std::string::npos;
+    });
+  };
+  // The process-wide policy set the other way each time: only the options' can decide.
+  occulta::imaging::set_checksum_policy(occulta::imaging::ChecksumPolicy::Warn, [](const std::string&) {});
+  occulta::fit::MeasurementOptions options;
+  options.checksum_policy = occulta::imaging::ChecksumPolicy::Refuse;
+  const occulta::fit::Measurement refused = occulta::fit::measure_event(event, {}, options);
+  CHECK(names_damaged(refused));
+  CHECK(east_frames_used(refused) == 15);
+  CHECK(refused.views[1].frames_used == 16);
+
+  occulta::imaging::set_checksum_policy(occulta::imaging::ChecksumPolicy::Refuse);
+  options.checksum_policy = occulta::imaging::ChecksumPolicy::Warn;
+  const occulta::fit::Measurement read = occulta::fit::measure_event(event, {}, options);
+  CHECK(!names_damaged(read));
+  CHECK(east_frames_used(read) == 16);
+  occulta::imaging::set_checksum_policy(occulta::imaging::ChecksumPolicy::Refuse);
 }
