@@ -17,7 +17,11 @@
 //
 // Threads: measure_event touches no global state but the FITS checksum policy, and only
 // when options.checksum_policy is set (imaging/fits.hpp; it is guarded by a mutex). It
-// writes nothing and prints nothing: call it from a worker thread and show `progress`.
+// writes nothing and prints nothing: call it from a worker thread (as the window's loader
+// already runs the imaging chain) and show `progress`. The arrival ensemble is seeded
+// (EnsembleOptions::seed): the same input gives the same struct.
+// Memory: each view keeps its polar running differences (frames × heights × PAs floats),
+// what the pictures and the window draw; the Cartesian frames are not kept.
 // Bad input: imaging::InputError (one sentence naming the file and the fault) from
 // load_measurement_input; a view that cannot be used is a problem, the others go on.
 #pragma once
