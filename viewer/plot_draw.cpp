@@ -207,6 +207,23 @@ void draw_legend(ImDrawList& draw, const PlotFrame& frame, std::span<const Legen
   }
 }
 
+float draw_legend_row(ImDrawList& draw, ImVec2 at, std::span<const LegendEntry> entries, const PlotStyle& style) {
+  const float line = line_px(), pad = style.pad_px, sample = 2.0f * line;
+  const float mid = std::floor(at.y + line / 2);
+  float x = std::floor(at.x);
+  for (const LegendEntry& e : entries) {
+    if (e.box) {
+      const float side = std::floor(line * 0.6f);
+      pixels(draw, x + (sample - side) / 2, mid - side / 2, x + (sample + side) / 2, mid + side / 2, e.colour);
+    } else {
+      pixels(draw, x, mid - 1, x + sample, mid + 1, e.colour);
+    }
+    text(draw, ImVec2(x + sample + pad, at.y), style.text, e.label);
+    x += std::ceil(sample + pad + text_size(e.label).x + 3.0f * pad);
+  }
+  return x - std::floor(at.x);
+}
+
 void draw_line(ImDrawList& draw, const PlotFrame& frame, std::span<const DataPoint> points, ImU32 colour,
                float thickness_px) {
   draw.PushClipRect(frame.pixel_min, frame.pixel_max, true);
