@@ -8,8 +8,6 @@
 #include <ostream>
 #include <sstream>
 
-#include <opencv2/imgproc.hpp>
-
 #include "app/event.hpp"
 #include "app/output_set.hpp"
 #include "app/forecast.hpp"
@@ -45,55 +43,56 @@ struct ViewOutcome {
   ViewForShell for_shell;
 };
 
-// Quicklook: the time–height map at the track's PA with the track points (yellow) and
-// the fitted law (red) drawn over it.
+// Quicklook: the time–height map at the track's PA with the track points (yellow rings)
+// and the fitted law (red) drawn over it, on UTC time and height axes.
 void draw_time_height(const imaging::PolarSequence& polar, double pa_deg, const std::vector<TrackPoint>& points,
                       const fit::HeightTimeFit* fit, const std::string& caption, const fs::path& path) {
   const imaging::TimeMap th = imaging::time_height(polar, pa_deg, 2.0);
   const double t0 = polar.utc_s.front(), t1 = polar.utc_s.back();
   const int columns = std::max<int>(360, int(polar.utc_s.size()) * 16);
-  const cv::Mat values = imaging::render_on_time_axis(th, t0, t1, columns);
-  const int scale = picture_scale(values);
-  cv::Mat picture;
-  cv::cvtColor(grey_picture(values, 4.0), picture, cv::COLOR_GRAY2BGR);
-  const auto at = [&](double t, double h) {
-    const double x = t1 > t0 ? (t - t0) / (t1 - t0) * (columns - 1) : 0.0;
-    return picture_point(x, (h - th.axis_start) / th.axis_step, values.rows, scale);
-  };
+  QuicklookPanel panel{Plane::time_height, imaging::render_on_time_axis(th, t0, t1, columns),
+                       viewer::time_map_extent(th, t0, t1), sigma_scale(4.0, "running difference (σ)"), caption, {}, {}};
+  Overlay track{Overlay::Shape::rings, {}, kPointMark, "track points"};
+  for (const TrackPoint& p : points) track.points.push_back({p.utc_s, p.height_rs});
+  if (!track.points.empty()) panel.overlays.push_back(std::move(track));
   if (fit && fit->status == fit::FitStatus::ok) {
-    std::vector<cv::Point> line;
+    char label[96];
+    std::snprintf(label, sizeof label, "fitted law (%s, %.0f km/s on the sky)", fit::to_string(fit->model),
+                  fit->law.speed_km_s);
+    Overlay law{Overlay::Shape::line, {}, kFitMark, label};
     for (int k = 0; k <= 100; ++k) {
       const double t = t0 + (t1 - t0) * k / 100.0;
-      line.push_back(at(t, fit->law.height_at(t)));
+      law.points.push_back({t, fit->law.height_at(t)});
     }
-    cv::polylines(picture, line, false, cv::Scalar(60, 60, 255), 2, cv::LINE_AA);
+    panel.overlays.push_back(std::move(law));
   }
-  for (const TrackPoint& p : points) cv::circle(picture, at(p.utc_s, p.height_rs), 5, cv::Scalar(0, 230, 255), 2, cv::LINE_AA);
-  write_png(path, with_caption(picture, caption));
+  write_quicklook(path, {&panel, 1});
 }
 
 // Quicklook: the last running difference of the CME with its leading edge (yellow) and
-// the two PAs that bound it (green), north up.
+// the two PAs that bound it (green), north up, on axes in R☉ about Sun centre.
 void draw_front(const cv::Mat& difference, const imaging::RegisteredGrid& grid, const imaging::PolarGrid& polar,
                 const imaging::Front& front, int frame, const std::string& caption, const fs::path& path) {
-  const int scale = picture_scale(difference);
-  cv::Mat picture;
-  cv::cvtColor(grey_picture(difference, 4.0), picture, cv::COLOR_GRAY2BGR);
-  const auto at = [&](double pa, double h) {
-    const cv::Point2d p = imaging::grid_pixel(grid, pa, h);
-    return picture_point(p.x, p.y, difference.rows, scale);
-  };
+  QuicklookPanel panel{Plane::sky, difference, viewer::sky_extent(grid), sigma_scale(4.0, "running difference (σ)"),
+                       caption, polar_radii(polar), {}};
   if (front.found) {
     const double outer = polar.height_rs(polar.height_count - 1);
-    for (const double pa : {front.pa_from_deg, front.pa_to_deg})
-      cv::line(picture, at(pa, polar.height_rs(0)), at(pa, outer), cv::Scalar(80, 220, 80), 1, cv::LINE_AA);
+    Overlay span{Overlay::Shape::line, {}, kSpanMark, "PA span"};
+    for (const double pa : {front.pa_from_deg, front.pa_to_deg}) {
+      span.points.push_back(sky_point(pa, polar.height_rs(0)));
+      span.points.push_back(sky_point(pa, outer));
+      span.points.push_back({NAN, NAN});
+    }
+    Overlay edge{Overlay::Shape::dots, {}, kPointMark, "leading edge"};
     if (frame >= 0 && frame < int(front.leading_edge_rs.size()))
       for (int c = 0; c < polar.pa_count; ++c) {
         const float h = front.leading_edge_rs[frame][c];
-        if (std::isfinite(h)) cv::circle(picture, at(polar.pa_deg(c), h), 1, cv::Scalar(0, 230, 255), -1);
+        if (std::isfinite(h)) edge.points.push_back(sky_point(polar.pa_deg(c), h));
       }
+    panel.overlays.push_back(std::move(edge));
+    panel.overlays.push_back(std::move(span));
   }
-  write_png(path, with_caption(picture, caption));
+  write_quicklook(path, {&panel, 1});
 }
 
 ViewOutcome measure_view(const Event& event, const EventView& view, const Track* analyst, const MeasureOptions& o,
@@ -233,13 +232,13 @@ ViewOutcome measure_view(const Event& event, const EventView& view, const Track*
                     : v["central_pa_deg"].is_number() ? v["central_pa_deg"].get<double>() : 0.0;
   if (!points.empty()) v["track_pa_deg"] = pa;
   char caption[200];
-  std::snprintf(caption, sizeof caption, "%s PA %.0f: height up, time across; %s track, fit line", view.name.c_str(), pa,
-                by_analyst ? "analyst" : "auto");
+  std::snprintf(caption, sizeof caption, "%s · time–height along PA %.0f° (median over ±2°) · %s track",
+                view.name.c_str(), pa, by_analyst ? "the analyst's" : "automatic");
   draw_time_height(polar, pa, points, have_fit ? &chosen : nullptr, caption, dir / "time_height.png");
   const int last = int(polar.frames.size()) - 1;
   const int shown = front.found ? std::min(front.last_frame, last) : last;
-  std::snprintf(caption, sizeof caption, "%s %s running difference, +-4 sigma, north up; front and PA span",
-                view.name.c_str(), imaging::iso_from_utc_seconds(polar.utc_s[shown], 0).substr(0, 16).c_str());
+  std::snprintf(caption, sizeof caption, "%s · running difference, north up · %s UTC", view.name.c_str(),
+                imaging::iso_from_utc_seconds(polar.utc_s[shown], 0).substr(0, 16).replace(10, 1, " ").c_str());
   draw_front(cartesian_from_polar(polar.frames[shown], run.grid, polar.polar), run.grid, polar.polar, front, shown,
              caption, dir / "front.png");
 

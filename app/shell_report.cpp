@@ -5,8 +5,6 @@
 #include <cmath>
 #include <cstdio>
 
-#include <opencv2/imgproc.hpp>
-
 #include "app/quicklook.hpp"
 #include "fit/kinematics.hpp"
 #include "imaging/constants.hpp"
@@ -124,7 +122,7 @@ json boundary_block(const fit::ShellFit& fit) {
 
 // Quicklook: three running differences (first, middle and last frame with points) with
 // the fitted shell's outline (cyan: its largest sky height per 1° of PA) and the points
-// the fit used there (yellow), north up, side by side.
+// the fit used there (yellow), north up, side by side on axes in R☉ about Sun centre.
 void draw_shell(const ViewForShell& v, const fit::ShellFit& fit, const std::vector<fit::EdgePoint>& points,
                 int view_index, const fs::path& path) {
   std::vector<int> frames;
@@ -136,37 +134,38 @@ void draw_shell(const ViewForShell& v, const fit::ShellFit& fit, const std::vect
       }
   if (frames.empty()) return;
   const std::vector<int> shown = {frames.front(), frames[frames.size() / 2], frames.back()};
-  std::vector<cv::Mat> panels;
+  std::vector<QuicklookPanel> panels;
   for (const int k : shown) {
-    const cv::Mat difference = cartesian_from_polar(v.polar.frames[static_cast<std::size_t>(k)], v.grid, v.polar.polar);
-    const int scale = picture_scale(difference);
-    cv::Mat picture;
-    cv::cvtColor(grey_picture(difference, 4.0), picture, cv::COLOR_GRAY2BGR);
-    const auto at = [&](double pa, double h) {
-      const cv::Point2d p = imaging::grid_pixel(v.grid, pa, h);
-      return picture_point(p.x, p.y, difference.rows, scale);
-    };
     const double t = v.polar.utc_s[static_cast<std::size_t>(k)];
     const fit::ShellParams shell = fit::shell_at(fit, t);
     const fit::SkyOutline outline = fit::sky_outline(fit::make_mesh(shell, {16, 96, 72}), shell, v.observer, 1.0);
-    const std::size_t bins = outline.max_height_rs.size();
-    for (const fit::EdgePoint& p : points)
-      if (p.view == view_index && std::abs(p.time_s - t) < 1.0)
-        cv::circle(picture, at(p.pa_deg, p.height_rs), 1, cv::Scalar(0, 230, 255), -1, cv::LINE_AA);
-    for (std::size_t b = 0; b < bins; ++b) {
-      const double h0 = outline.max_height_rs[b], h1 = outline.max_height_rs[(b + 1) % bins];
-      if (std::isfinite(h0) && std::isfinite(h1))
-        cv::line(picture, at((b + 0.5) * outline.bin_deg, h0), at((b + 1.5) * outline.bin_deg, h1),
-                 cv::Scalar(255, 230, 0), 1, cv::LINE_AA);
-    }
-    char caption[160];
-    std::snprintf(caption, sizeof caption, "%s %s apex %.1f R_sun", v.name.c_str(),
+    char title[160];
+    std::snprintf(title, sizeof title, "%s · %s UTC · apex %.1f R☉", v.name.c_str(),
                   imaging::iso_from_utc_seconds(t, 0).substr(11, 5).c_str(), shell.apex_height_rs);
-    panels.push_back(with_caption(picture, caption));
+    QuicklookPanel panel{Plane::sky,
+                         cartesian_from_polar(v.polar.frames[static_cast<std::size_t>(k)], v.grid, v.polar.polar),
+                         viewer::sky_extent(v.grid),
+                         sigma_scale(4.0, "running difference (σ)"),
+                         title,
+                         polar_radii(v.polar.polar),
+                         {}};
+    Overlay fitted{Overlay::Shape::dots, {}, kPointMark, "points fitted"};
+    for (const fit::EdgePoint& p : points)
+      if (p.view == view_index && std::abs(p.time_s - t) < 1.0) fitted.points.push_back(sky_point(p.pa_deg, p.height_rs));
+    // The outline through the middle of each PA bin, around through north, broken where a
+    // bin has no height.
+    Overlay edge{Overlay::Shape::line, {}, kShellMark, "shell outline"};
+    const std::size_t bins = outline.max_height_rs.size();
+    for (std::size_t b = 0; b <= bins && bins > 0; ++b) {
+      const double h = outline.max_height_rs[b % bins];
+      edge.points.push_back(std::isfinite(h) ? sky_point((double(b % bins) + 0.5) * outline.bin_deg, h)
+                                             : viewer::DataPoint{NAN, NAN});
+    }
+    panel.overlays.push_back(std::move(fitted));
+    panel.overlays.push_back(std::move(edge));
+    panels.push_back(std::move(panel));
   }
-  cv::Mat row;
-  cv::hconcat(panels, row);
-  write_png(path, with_caption(row, v.name + ": fitted shell outline (cyan) and the points it fits (yellow), +-4 sigma, north up"));
+  write_quicklook(path, panels, v.name + ": the fitted shell's outline over three running differences, with the points it fits");
 }
 
 // What the data leave open, and whether the fit failed in a way that its numbers do not
