@@ -23,7 +23,8 @@ std::vector<viewer::LegendEntry> legend_of(const QuicklookPanel& p) {
   std::vector<viewer::LegendEntry> entries;
   if (p.plane == Plane::sky && p.radii) entries.push_back({"occulter edge, field stop", kOcculterMark, false});
   for (const Overlay& o : p.overlays)
-    if (!o.label.empty()) entries.push_back({o.label, o.colour, o.shape != Overlay::Shape::line});
+    if (!o.label.empty())
+      entries.push_back({o.label, o.colour, o.shape == Overlay::Shape::dots, o.shape == Overlay::Shape::rings});
   return entries;
 }
 

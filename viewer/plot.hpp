@@ -147,7 +147,8 @@ void draw_title(ImDrawList& draw, const PlotFrame& frame, std::string_view title
 struct LegendEntry {
   std::string label;
   ImU32 colour = IM_COL32_WHITE;
-  bool box = false;  // a filled box (bars, areas) rather than a line sample
+  bool box = false;   // a filled box (bars, areas, points) rather than a line sample
+  bool ring = false;  // an open circle (points drawn as rings), rather than either
 };
 
 // The entries one under the other in a box at the data area's top-right corner, below

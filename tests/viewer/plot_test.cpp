@@ -635,4 +635,34 @@ TEST_CASE("plot: a legend row lays its entries side by side, each a sample and i
   CHECK(second_label_left > samples[1].max.x);
 }
 
+TEST_CASE("plot: a ring sample in a legend row is an open circle centred in the sample's place") {
+  const LegendEntry ring[] = {{"track points", IM_COL32(255, 225, 0, 255), false, true}};
+  const ImVec2 at(20.0f, 40.0f);
+  float line = 0.0f;
+  const Framebuffer picture = draw_headless(200, 100, [&] {
+    line = ImGui::GetFontSize();
+    draw_legend_row(*ImGui::GetBackgroundDrawList(), at, ring);
+  });
+  // Centred in the sample's place (two text lines wide, middle of the line), radius 0.3 line:
+  // the ring's colour on the circle, the background at its centre.
+  const float cx = at.x + line, cy = std::floor(at.y + line / 2), r = 0.3f * line;
+  const auto yellow = [&](int x, int y) {  // the ring's colour, at least half covering the pixel
+    const std::uint32_t p = picture.at(x, y);
+    return (p & 0xFF) > 130 && ((p >> 8) & 0xFF) > 120 && ((p >> 16) & 0xFF) < 60;
+  };
+  int on_circle = 0;
+  for (int k = 0; k < 16; ++k) {
+    const double a = k * 2.0 * 3.141592653589793 / 16;
+    const int x = int(std::floor(cx + r * std::cos(a))), y = int(std::floor(cy + r * std::sin(a)));
+    bool near = false;
+    for (int dy = -1; dy <= 1; ++dy)
+      for (int dx = -1; dx <= 1; ++dx) near = near || yellow(x + dx, y + dy);
+    on_circle += near;
+  }
+  write_png(picture, test::scratch_dir("plot-legend-ring") / "ring.png");
+  CHECK(on_circle == 16);
+  CHECK(picture.at(int(cx), int(cy)) == HeadlessOptions{}.background);
+  CHECK_FALSE(yellow(int(cx + 2.0f * r), int(cy)));
+}
+
 }  // namespace occulta::viewer
