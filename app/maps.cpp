@@ -99,12 +99,14 @@ std::string map_view(const fit::Event& event, const fit::EventView& view, const 
   imaging::write_fits_cube(dir / "polar.fits", polar.frames, cube_header(polar.polar, view.name, event.id), "FRAMES",
                            {{"TIME", "", {}, iso}, {"UTC_S", "s", polar.utc_s, {}}});
 
-  const std::string when = iso.back().substr(0, 16);
-  write_png(dir / "running_difference.png",
-            with_caption(grey_picture(last_difference, 4.0), view.name + " " + when + " running difference, +-4 sigma, north up"));
-  write_png(dir / "polar_running_difference.png",
-            with_caption(grey_picture(polar.frames.back(), 4.0),
-                         view.name + " " + when + " PA 0-360 across, height up, +-4 sigma"));
+  const std::string when = " · " + iso.back().substr(0, 16).replace(10, 1, " ") + " UTC";
+  const std::string difference = "running difference (σ)";
+  QuicklookPanel sky{Plane::sky, last_difference, viewer::sky_extent(run.grid), sigma_scale(4.0, difference),
+                     view.name + " · running difference, north up" + when, run.radii, {}};
+  write_quicklook(dir / "running_difference.png", {&sky, 1});
+  QuicklookPanel unwrapped{Plane::polar, polar.frames.back(), viewer::polar_extent(polar.polar),
+                           sigma_scale(4.0, difference), view.name + " · running difference, unwrapped" + when, {}, {}};
+  write_quicklook(dir / "polar_running_difference.png", {&unwrapped, 1});
 
   const double strongest_pa = strongest_change_pa(polar);  // a pass over the whole cube: once
   std::vector<double> pas = o.pa_deg;
@@ -113,18 +115,21 @@ std::string map_view(const fit::Event& event, const fit::EventView& view, const 
   const int columns = std::max<int>(360, int(polar.utc_s.size()) * 16);  // real time across, gaps kept
   for (double pa : pas) {
     const imaging::TimeMap th = imaging::time_height(polar, pa, 2.0);
-    const cv::Mat picture = imaging::render_on_time_axis(th, t0, t1, columns);
-    char caption[160];
-    std::snprintf(caption, sizeof caption, "%s PA %.0f: height %.1f-%.1f R_sun up, time across, +-4 sigma",
-                  view.name.c_str(), pa, th.axis_start, th.axis_start + th.axis_step * (th.values.rows - 1));
-    write_png(dir / ("time_height_pa" + pa_label(pa) + ".png"), with_caption(grey_picture(picture, 4.0), caption));
+    char title[160];
+    std::snprintf(title, sizeof title, "%s · time–height along PA %.0f° (median over ±2°) · running difference",
+                  view.name.c_str(), pa);
+    QuicklookPanel map{Plane::time_height, imaging::render_on_time_axis(th, t0, t1, columns),
+                       viewer::time_map_extent(th, t0, t1), sigma_scale(4.0, difference), title, {}, {}};
+    write_quicklook(dir / ("time_height_pa" + pa_label(pa) + ".png"), {&map, 1});
   }
   if (o.nrgf) {
     const imaging::PolarMaps maps = imaging::make_polar_maps(run.grid, run.polar);
     cv::Mat polar_frame;
     imaging::to_polar(last_registered, maps, polar_frame);
-    write_png(dir / "nrgf.png", with_caption(grey_picture(imaging::nrgf(polar_frame), 3.0),
-                                             view.name + " " + when + " NRGF (Morgan et al. 2006), PA across, height up"));
+    QuicklookPanel filtered{Plane::polar, imaging::nrgf(polar_frame), viewer::polar_extent(run.polar),
+                            sigma_scale(3.0, "NRGF (σ)"),
+                            view.name + " · NRGF (Morgan et al. 2006), unwrapped" + when, {}, {}};
+    write_quicklook(dir / "nrgf.png", {&filtered, 1});
   }
 
   char line[200];

@@ -5,8 +5,6 @@
 #include <cmath>
 #include <cstdio>
 
-#include <opencv2/imgproc.hpp>
-
 #include "app/quicklook.hpp"
 #include "imaging/polar.hpp"
 #include "imaging/time.hpp"
@@ -16,60 +14,61 @@ namespace fs = std::filesystem;
 
 namespace {
 
-// Quicklook: the time–height map at the track's PA with the track points (yellow) and
-// the fitted law (red) drawn over it.
+// Quicklook: the time–height map at the track's PA with the track points (yellow rings)
+// and the fitted law (red) drawn over it, on UTC time and height axes.
 void draw_time_height(const imaging::PolarSequence& polar, double pa_deg, const std::vector<fit::TrackPoint>& points,
                       const fit::HeightTimeFit* fit, const std::string& caption, const fs::path& path) {
   const imaging::TimeMap th = imaging::time_height(polar, pa_deg, 2.0);
   const double t0 = polar.utc_s.front(), t1 = polar.utc_s.back();
   const int columns = std::max<int>(360, int(polar.utc_s.size()) * 16);
-  const cv::Mat values = imaging::render_on_time_axis(th, t0, t1, columns);
-  const int scale = picture_scale(values);
-  cv::Mat picture;
-  cv::cvtColor(grey_picture(values, 4.0), picture, cv::COLOR_GRAY2BGR);
-  const auto at = [&](double t, double h) {
-    const double x = t1 > t0 ? (t - t0) / (t1 - t0) * (columns - 1) : 0.0;
-    return picture_point(x, (h - th.axis_start) / th.axis_step, values.rows, scale);
-  };
+  QuicklookPanel panel{Plane::time_height, imaging::render_on_time_axis(th, t0, t1, columns),
+                       viewer::time_map_extent(th, t0, t1), sigma_scale(4.0, "running difference (σ)"), caption, {}, {}};
+  Overlay track{Overlay::Shape::rings, {}, kPointMark, "track points"};
+  for (const fit::TrackPoint& p : points) track.points.push_back({p.utc_s, p.height_rs});
+  if (!track.points.empty()) panel.overlays.push_back(std::move(track));
   if (fit && fit->status == fit::FitStatus::ok) {
-    std::vector<cv::Point> line;
+    char label[96];
+    std::snprintf(label, sizeof label, "fitted law (%s, %.0f km/s on the sky)", fit::to_string(fit->model),
+                  fit->law.speed_km_s);
+    Overlay law{Overlay::Shape::line, {}, kFitMark, label};
     for (int k = 0; k <= 100; ++k) {
       const double t = t0 + (t1 - t0) * k / 100.0;
-      line.push_back(at(t, fit->law.height_at(t)));
+      law.points.push_back({t, fit->law.height_at(t)});
     }
-    cv::polylines(picture, line, false, cv::Scalar(60, 60, 255), 2, cv::LINE_AA);
+    panel.overlays.push_back(std::move(law));
   }
-  for (const fit::TrackPoint& p : points) cv::circle(picture, at(p.utc_s, p.height_rs), 5, cv::Scalar(0, 230, 255), 2, cv::LINE_AA);
-  write_png(path, with_caption(picture, caption));
+  write_quicklook(path, {&panel, 1});
 }
 
 // Quicklook: the last running difference of the CME with its leading edge (yellow) and
-// the two PAs that bound it (green), north up.
+// the two PAs that bound it (green), north up, on axes in R☉ about Sun centre.
 void draw_front(const cv::Mat& difference, const imaging::RegisteredGrid& grid, const imaging::PolarGrid& polar,
                 const imaging::Front& front, int frame, const std::string& caption, const fs::path& path) {
-  const int scale = picture_scale(difference);
-  cv::Mat picture;
-  cv::cvtColor(grey_picture(difference, 4.0), picture, cv::COLOR_GRAY2BGR);
-  const auto at = [&](double pa, double h) {
-    const cv::Point2d p = imaging::grid_pixel(grid, pa, h);
-    return picture_point(p.x, p.y, difference.rows, scale);
-  };
+  QuicklookPanel panel{Plane::sky, difference, viewer::sky_extent(grid), sigma_scale(4.0, "running difference (σ)"),
+                       caption, polar_radii(polar), {}};
   if (front.found) {
     const double outer = polar.height_rs(polar.height_count - 1);
-    for (const double pa : {front.pa_from_deg, front.pa_to_deg})
-      cv::line(picture, at(pa, polar.height_rs(0)), at(pa, outer), cv::Scalar(80, 220, 80), 1, cv::LINE_AA);
+    Overlay span{Overlay::Shape::line, {}, kSpanMark, "PA span"};
+    for (const double pa : {front.pa_from_deg, front.pa_to_deg}) {
+      span.points.push_back(sky_point(pa, polar.height_rs(0)));
+      span.points.push_back(sky_point(pa, outer));
+      span.points.push_back({NAN, NAN});
+    }
+    Overlay edge{Overlay::Shape::dots, {}, kPointMark, "leading edge"};
     if (frame >= 0 && frame < int(front.leading_edge_rs.size()))
       for (int c = 0; c < polar.pa_count; ++c) {
         const float h = front.leading_edge_rs[frame][c];
-        if (std::isfinite(h)) cv::circle(picture, at(polar.pa_deg(c), h), 1, cv::Scalar(0, 230, 255), -1);
+        if (std::isfinite(h)) edge.points.push_back(sky_point(polar.pa_deg(c), h));
       }
+    panel.overlays.push_back(std::move(edge));
+    panel.overlays.push_back(std::move(span));
   }
-  write_png(path, with_caption(picture, caption));
+  write_quicklook(path, {&panel, 1});
 }
 
 // Quicklook: three running differences (first, middle and last frame with points) with
 // the fitted shell's outline (cyan: its largest sky height per 1° of PA) and the points
-// the fit used there (yellow), north up, side by side.
+// the fit used there (yellow), north up, side by side on axes in R☉ about Sun centre.
 void draw_shell(const fit::ViewMeasurement& v, const fit::ShellFit& fit, const std::vector<fit::EdgePoint>& points,
                 int view_index, const fs::path& path) {
   std::vector<int> frames;
@@ -81,37 +80,38 @@ void draw_shell(const fit::ViewMeasurement& v, const fit::ShellFit& fit, const s
       }
   if (frames.empty()) return;
   const std::vector<int> shown = {frames.front(), frames[frames.size() / 2], frames.back()};
-  std::vector<cv::Mat> panels;
+  std::vector<QuicklookPanel> panels;
   for (const int k : shown) {
-    const cv::Mat difference = cartesian_from_polar(v.polar.frames[static_cast<std::size_t>(k)], v.grid, v.polar.polar);
-    const int scale = picture_scale(difference);
-    cv::Mat picture;
-    cv::cvtColor(grey_picture(difference, 4.0), picture, cv::COLOR_GRAY2BGR);
-    const auto at = [&](double pa, double h) {
-      const cv::Point2d p = imaging::grid_pixel(v.grid, pa, h);
-      return picture_point(p.x, p.y, difference.rows, scale);
-    };
     const double t = v.polar.utc_s[static_cast<std::size_t>(k)];
     const fit::ShellParams shell = fit::shell_at(fit, t);
     const fit::SkyOutline outline = fit::sky_outline(fit::make_mesh(shell, {16, 96, 72}), shell, v.observer, 1.0);
-    const std::size_t bins = outline.max_height_rs.size();
-    for (const fit::EdgePoint& p : points)
-      if (p.view == view_index && std::abs(p.time_s - t) < 1.0)
-        cv::circle(picture, at(p.pa_deg, p.height_rs), 1, cv::Scalar(0, 230, 255), -1, cv::LINE_AA);
-    for (std::size_t b = 0; b < bins; ++b) {
-      const double h0 = outline.max_height_rs[b], h1 = outline.max_height_rs[(b + 1) % bins];
-      if (std::isfinite(h0) && std::isfinite(h1))
-        cv::line(picture, at((b + 0.5) * outline.bin_deg, h0), at((b + 1.5) * outline.bin_deg, h1),
-                 cv::Scalar(255, 230, 0), 1, cv::LINE_AA);
-    }
-    char caption[160];
-    std::snprintf(caption, sizeof caption, "%s %s apex %.1f R_sun", v.name.c_str(),
+    char title[160];
+    std::snprintf(title, sizeof title, "%s · %s UTC · apex %.1f R☉", v.name.c_str(),
                   imaging::iso_from_utc_seconds(t, 0).substr(11, 5).c_str(), shell.apex_height_rs);
-    panels.push_back(with_caption(picture, caption));
+    QuicklookPanel panel{Plane::sky,
+                         cartesian_from_polar(v.polar.frames[static_cast<std::size_t>(k)], v.grid, v.polar.polar),
+                         viewer::sky_extent(v.grid),
+                         sigma_scale(4.0, "running difference (σ)"),
+                         title,
+                         polar_radii(v.polar.polar),
+                         {}};
+    Overlay fitted{Overlay::Shape::dots, {}, kPointMark, "points fitted"};
+    for (const fit::EdgePoint& p : points)
+      if (p.view == view_index && std::abs(p.time_s - t) < 1.0) fitted.points.push_back(sky_point(p.pa_deg, p.height_rs));
+    // The outline through the middle of each PA bin, around through north, broken where a
+    // bin has no height.
+    Overlay edge{Overlay::Shape::line, {}, kShellMark, "shell outline"};
+    const std::size_t bins = outline.max_height_rs.size();
+    for (std::size_t b = 0; b <= bins && bins > 0; ++b) {
+      const double h = outline.max_height_rs[b % bins];
+      edge.points.push_back(std::isfinite(h) ? sky_point((double(b % bins) + 0.5) * outline.bin_deg, h)
+                                             : viewer::DataPoint{NAN, NAN});
+    }
+    panel.overlays.push_back(std::move(fitted));
+    panel.overlays.push_back(std::move(edge));
+    panels.push_back(std::move(panel));
   }
-  cv::Mat row;
-  cv::hconcat(panels, row);
-  write_png(path, with_caption(row, v.name + ": fitted shell outline (cyan) and the points it fits (yellow), +-4 sigma, north up"));
+  write_quicklook(path, panels, v.name + ": the fitted shell's outline over three running differences, with the points it fits");
 }
 
 void draw_view(const fit::ViewMeasurement& v, const fs::path& dir) {
@@ -120,13 +120,13 @@ void draw_view(const fit::ViewMeasurement& v, const fs::path& dir) {
                     : std::isfinite(v.central_pa_deg) ? v.central_pa_deg
                                                                : 0.0;
   char caption[200];
-  std::snprintf(caption, sizeof caption, "%s PA %.0f: height up, time across; %s track, fit line", v.name.c_str(), pa,
-                v.by_analyst ? "analyst" : "auto");
+  std::snprintf(caption, sizeof caption, "%s · time–height along PA %.0f° (median over ±2°) · %s track",
+                v.name.c_str(), pa, v.by_analyst ? "the analyst's" : "automatic");
   draw_time_height(polar, pa, v.points, v.kinematics ? &*v.kinematics : nullptr, caption, dir / "time_height.png");
   const int last = int(polar.frames.size()) - 1;
   const int shown = v.front.found ? std::min(v.front.last_frame, last) : last;
-  std::snprintf(caption, sizeof caption, "%s %s running difference, +-4 sigma, north up; front and PA span",
-                v.name.c_str(), imaging::iso_from_utc_seconds(polar.utc_s[shown], 0).substr(0, 16).c_str());
+  std::snprintf(caption, sizeof caption, "%s · running difference, north up · %s UTC", v.name.c_str(),
+                imaging::iso_from_utc_seconds(polar.utc_s[shown], 0).substr(0, 16).replace(10, 1, " ").c_str());
   draw_front(cartesian_from_polar(polar.frames[shown], v.grid, polar.polar), v.grid, polar.polar, v.front, shown,
              caption, dir / "front.png");
 }

@@ -3,14 +3,16 @@
 
 #include <algorithm>
 #include <fstream>
-#include <stdexcept>
 #include <iterator>
+#include <stdexcept>
+#include <string_view>
 #include <vector>
 
 #include <opencv2/core.hpp>
 #include <opencv2/imgproc.hpp>
 
 #include "imaging/input_error.hpp"
+#include "imaging/output_file.hpp"
 #include "viewer/png.hpp"
 
 namespace occulta::viewer {
@@ -108,25 +110,11 @@ void write_png(const Framebuffer& picture, const std::filesystem::path& path) {
   const bool opaque = std::all_of(picture.pixels.begin(), picture.pixels.end(), [](std::uint32_t p) { return (p >> 24) == 255; });
   cv::Mat encoded;
   cv::cvtColor(rgba_view, encoded, opaque ? cv::COLOR_RGBA2BGR : cv::COLOR_RGBA2BGRA);
-
-  std::filesystem::path partial = path;
-  partial += ".partial.png";
-  bool written = false;
-  try {
-    const std::vector<unsigned char> bytes = encode_png(encoded);
-    std::ofstream file(partial, std::ios::binary);
-    file.write(reinterpret_cast<const char*>(bytes.data()), std::streamsize(bytes.size()));
-    written = !bytes.empty() && file.good();
-  } catch (const cv::Exception&) {
-    written = false;
-  }
-  std::error_code renamed;
-  if (written) std::filesystem::rename(partial, path, renamed);
-  if (!written || renamed) {
-    std::error_code ignored;
-    std::filesystem::remove(partial, ignored);
-    throw imaging::InputError(path.string(), "cannot be written as PNG");
-  }
+  const std::vector<unsigned char> bytes = encode_png(encoded);
+  if (bytes.empty()) throw imaging::InputError(path.string(), "cannot be encoded as PNG");
+  // Whole or not at all (imaging/output_file.hpp): a killed run never leaves a truncated
+  // picture under its final name.
+  imaging::write_file_atomically(path, std::string_view(reinterpret_cast<const char*>(bytes.data()), bytes.size()));
 }
 
 }  // namespace occulta::viewer

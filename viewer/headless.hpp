@@ -3,7 +3,7 @@
 //
 // draw_headless() gives the caller's ImGui calls a fresh ImGui context of the requested
 // size, with our font, and draws the frame with viewer/raster (same pixels on every
-// machine: no GPU, no display). write_png() writes a framebuffer with OpenCV.
+// machine: no GPU, no display). write_png() writes a framebuffer as PNG (viewer/png).
 //
 // Conventions: sizes in framebuffer pixels (FramebufferScale 1); pixels as in raster.hpp
 // (row 0 at the top, bytes R, G, B, A). The font is DejaVu Sans (fonts-dejavu-core) through
@@ -49,9 +49,9 @@ struct HeadlessOptions {
 Framebuffer draw_headless(int width, int height, const std::function<void()>& frame,
                           std::span<const Texture> textures = {}, const HeadlessOptions& options = {});
 
-// Writes `picture` as a PNG (OpenCV): RGB when every pixel is opaque, RGBA otherwise.
-// The PNG is written under a temporary name beside `path` and renamed over it, so a
-// failure (an imaging::InputError naming the file) leaves an earlier file whole.
+// Writes `picture` as a PNG (viewer/png.hpp): RGB when every pixel is opaque, RGBA
+// otherwise; whole or not at all (imaging::write_file_atomically), so a failure (an
+// imaging::InputError naming the file) leaves an earlier file whole.
 void write_png(const Framebuffer& picture, const std::filesystem::path& path);
 
 }  // namespace occulta::viewer

@@ -127,9 +127,31 @@ std::vector<Tick> utc_ticks(double lo_s, double hi_s, int about) {
   return ticks;
 }
 
+std::vector<Tick> degree_ticks(double lo, double hi, double min_step_deg) {
+  if (!std::isfinite(lo) || !std::isfinite(hi) || lo == hi) return {};
+  double step = 90.0;
+  for (const double s : {1.0, 2.0, 5.0, 10.0, 15.0, 30.0, 45.0, 90.0})
+    if (s >= min_step_deg) {
+      step = s;
+      break;
+    }
+  const double a = std::min(lo, hi), b = std::max(lo, hi);
+  std::vector<Tick> ticks;
+  // At most 361 ticks: a step of 1° over a full turn.
+  for (double k = std::ceil(a / step - 1e-9); k * step <= b + 1e-9 * step && ticks.size() <= 361; k += 1.0) {
+    const double v = k * step;
+    char label[32];
+    std::snprintf(label, sizeof label, "%.0f", std::abs(v));
+    ticks.push_back({v, (v < 0.0 ? "\u2212" : "") + std::string(label), {}});
+  }
+  return ticks;
+}
+
 std::vector<Tick> axis_ticks(const Axis& axis, float length_px, float spacing_px) {
   const int about = std::max(2, static_cast<int>(std::abs(length_px) / spacing_px));
   if (axis.utc) return utc_ticks(axis.lo, axis.hi, about);
+  if (axis.degrees && length_px != 0.0f)
+    return degree_ticks(axis.lo, axis.hi, 0.75 * spacing_px * std::abs(axis.hi - axis.lo) / std::abs(length_px));
   // Heckbert's steps are loose: a fixed axis may keep few of them inside (2–30 R☉ in steps
   // of 10 keeps 3, in steps of 50 none). Twice as many are asked for, at most three times,
   // until it has 2 labels, or 4 where it has room for them.

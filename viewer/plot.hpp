@@ -32,6 +32,7 @@ struct Axis {
   double lo = 0.0, hi = 1.0;
   std::string label;  // the quantity and its unit: "height (R☉)"; "time (UTC)"
   bool utc = false;   // values are UTC seconds since 2000: ticks at whole minutes, hours, days
+  bool degrees = false;  // values are angles in degrees: ticks at multiples of 1, 2, 5, 10, 15, 30, 45, 90°
 };
 
 struct DataPoint {
@@ -89,7 +90,14 @@ double utc_tick_step(double lo_s, double hi_s, int about);
 // date differs from the tick before.
 std::vector<Tick> utc_ticks(double lo_s, double hi_s, int about);
 
-// The ticks an axis this many pixels long gets (value or UTC), about one per spacing_px.
+// Ticks of an angle axis at multiples of the smallest of 1, 2, 5, 10, 15, 30, 45 and 90°
+// that are at least min_step_deg apart (steps that divide the circle and its quadrants,
+// so a PA axis shows north, east, south and west; common practice), labelled as
+// value_ticks does.
+std::vector<Tick> degree_ticks(double lo, double hi, double min_step_deg);
+
+// The ticks an axis this many pixels long gets (value, UTC or degrees), about one per
+// spacing_px; a degree axis' labels are short, so its ticks may come 3/4 of that apart.
 // A value axis that Heckbert's rule leaves with fewer than 2 ticks inside (4 where it is
 // ≥ 4 spacings long) asks for twice as many, up to three times.
 std::vector<Tick> axis_ticks(const Axis& axis, float length_px, float spacing_px);
@@ -139,13 +147,19 @@ void draw_title(ImDrawList& draw, const PlotFrame& frame, std::string_view title
 struct LegendEntry {
   std::string label;
   ImU32 colour = IM_COL32_WHITE;
-  bool box = false;  // a filled box (bars, areas) rather than a line sample
+  bool box = false;   // a filled box (bars, areas, points) rather than a line sample
+  bool ring = false;  // an open circle (points drawn as rings), rather than either
 };
 
 // The entries one under the other in a box at the data area's top-right corner, below
 // `rows_above` text lines left free (for draw_marker's labels).
 void draw_legend(ImDrawList& draw, const PlotFrame& frame, std::span<const LegendEntry> entries, int rows_above = 0,
                  const PlotStyle& style = {});
+
+// The entries side by side on one text line from `at` (its top-left corner), each a sample
+// (line or box) and its label: a legend outside the data area, where it hides nothing.
+// Returns the width it took.
+float draw_legend_row(ImDrawList& draw, ImVec2 at, std::span<const LegendEntry> entries, const PlotStyle& style = {});
 
 // A polyline through the points (data units), clipped to the data area; a NaN point
 // breaks the line.

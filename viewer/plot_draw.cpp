@@ -195,7 +195,9 @@ void draw_legend(ImDrawList& draw, const PlotFrame& frame, std::span<const Legen
   float y = box_min.y + pad;
   for (const LegendEntry& e : entries) {
     const float mid = std::floor(y + line / 2);
-    if (e.box) {
+    if (e.ring) {
+      draw.AddCircle(ImVec2(box_min.x + pad + sample / 2, mid), line * 0.3f, e.colour, 16, 2.0f);
+    } else if (e.box) {
       const float side = std::floor(line * 0.6f);
       pixels(draw, box_min.x + pad + (sample - side) / 2, mid - side / 2, box_min.x + pad + (sample + side) / 2,
              mid + side / 2, e.colour);
@@ -205,6 +207,25 @@ void draw_legend(ImDrawList& draw, const PlotFrame& frame, std::span<const Legen
     text(draw, ImVec2(box_min.x + pad + sample + pad, y), style.text, e.label);
     y += line;
   }
+}
+
+float draw_legend_row(ImDrawList& draw, ImVec2 at, std::span<const LegendEntry> entries, const PlotStyle& style) {
+  const float line = line_px(), pad = style.pad_px, sample = 2.0f * line;
+  const float mid = std::floor(at.y + line / 2);
+  float x = std::floor(at.x);
+  for (const LegendEntry& e : entries) {
+    if (e.ring) {
+      draw.AddCircle(ImVec2(x + sample / 2, mid), line * 0.3f, e.colour, 16, 2.0f);
+    } else if (e.box) {
+      const float side = std::floor(line * 0.6f);
+      pixels(draw, x + (sample - side) / 2, mid - side / 2, x + (sample + side) / 2, mid + side / 2, e.colour);
+    } else {
+      pixels(draw, x, mid - 1, x + sample, mid + 1, e.colour);
+    }
+    text(draw, ImVec2(x + sample + pad, at.y), style.text, e.label);
+    x += std::ceil(sample + pad + text_size(e.label).x + 3.0f * pad);
+  }
+  return x - std::floor(at.x);
 }
 
 void draw_line(ImDrawList& draw, const PlotFrame& frame, std::span<const DataPoint> points, ImU32 colour,

@@ -1,11 +1,14 @@
 // `occulta maps` on synthetic events of known truth: the cube and quicklooks it writes,
 // and where the time–height ridge lies against the truth's sky-plane leading edge.
 #include <fstream>
+#include <utility>
+#include <vector>
 
 #include <doctest/doctest.h>
 #include <nlohmann/json.hpp>
 #include <opencv2/imgcodecs.hpp>
 
+#include "app/quicklook.hpp"
 #include "fit/event.hpp"
 #include "imaging/chain.hpp"
 #include "imaging/time.hpp"
@@ -51,9 +54,19 @@ TEST_CASE("maps: writes the polar cube and the quicklooks for each view") {
   REQUIRE(run.exit_code == 0);
   for (const char* view : {"one", "two"}) {
     CAPTURE(view);
-    for (const char* png : {"running_difference.png", "polar_running_difference.png", "time_height_pa090.png",
-                            "time_height_pa270.png", "nrgf.png"})
-      CHECK(!cv::imread((out / view / png).string()).empty());
+    // Each picture one panel of its plane's size (app/quicklook: axes, colour bar, title).
+    using occulta::app::Plane;
+    for (const auto& [png, plane] : std::vector<std::pair<const char*, Plane>>{{"running_difference.png", Plane::sky},
+                                                                            {"polar_running_difference.png", Plane::polar},
+                                                                            {"time_height_pa090.png", Plane::time_height},
+                                                                            {"time_height_pa270.png", Plane::time_height},
+                                                                            {"nrgf.png", Plane::polar}}) {
+      const std::string name = png;  // not a structured binding: clang 14 cannot capture those
+      CAPTURE(name);
+      const cv::Mat picture = cv::imread((out / view / png).string());
+      CHECK(picture.cols == occulta::app::panel_size(plane).width);
+      CHECK(picture.rows == occulta::app::panel_size(plane).height);
+    }
     // astropy.io.fits reads the cube (Debian's python3-astropy): 8 differences of 9 frames,
     // PA along NAXIS1 at 0.5° steps covering 360°.
     const auto read = occulta::test::run_python("tests/external/read_cube.py", shell_quote((out / view / "polar.fits").string()));

@@ -6,6 +6,7 @@
 #include <opencv2/imgcodecs.hpp>
 
 #include "imaging/input_error.hpp"
+#include "imaging/output_file.hpp"
 #include "tests/support/support.hpp"
 #include "viewer/headless.hpp"
 
@@ -74,7 +75,8 @@ TEST_CASE("headless: a panel drawn with no display, written as PNG, reads back t
     }
   }
   CHECK(mismatched == 0);
-  CHECK_FALSE(std::filesystem::exists(dir / "test_panel.png.partial.png"));
+  for (const auto& entry : std::filesystem::directory_iterator(dir))  // no temporary left beside it
+    CHECK_FALSE(imaging::is_pending_name(entry.path().filename().string()));
 
   // The caller's context is current again when the frame throws.
   CHECK_THROWS_AS(draw_headless(64, 64, [] { throw std::runtime_error("a frame that fails"); }), std::runtime_error);
@@ -110,12 +112,19 @@ TEST_CASE("headless: a missing font and an unwritable PNG are one-sentence error
   test::spit(dir / "earlier.png", "an earlier file");
   const Framebuffer small(4, 4, rgba(1, 2, 3));
   CHECK_THROWS_AS(write_png(small, dir / "no_such_folder" / "x.png"), imaging::InputError);
-  // A failed write leaves the earlier file whole (the temporary name is made unwritable by
-  // a folder standing there; permissions would not stop root).
-  std::filesystem::create_directories(dir / "earlier.png.partial.png");
-  CHECK_THROWS_AS(write_png(small, dir / "earlier.png"), imaging::InputError);
-  CHECK(test::slurp(dir / "earlier.png") == "an earlier file");
-  std::filesystem::remove(dir / "earlier.png.partial.png");
+  // A target that cannot be replaced (a folder stands there; permissions would not stop
+  // root) is an error naming it, leaves the folder as it was and no temporary beside it.
+  std::filesystem::create_directories(dir / "folder.png" / "inside");
+  try {
+    write_png(small, dir / "folder.png");
+    FAIL("a folder in the way must be an error");
+  } catch (const imaging::InputError& e) {
+    CHECK(std::string(e.what()).find((dir / "folder.png").string()) == 0);
+  }
+  CHECK(std::filesystem::is_directory(dir / "folder.png" / "inside"));
+  for (const auto& entry : std::filesystem::directory_iterator(dir))
+    CHECK_FALSE(imaging::is_pending_name(entry.path().filename().string()));
+  // An earlier file is replaced whole.
   write_png(small, dir / "earlier.png");
   CHECK(cv::imread((dir / "earlier.png").string()).rows == 4);
 }

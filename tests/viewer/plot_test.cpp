@@ -581,3 +581,88 @@ TEST_CASE("plot: a rendered sky panel in R☉ with the limb, an occulter edge, N
 }
 
 }  // namespace occulta::viewer
+
+namespace occulta::viewer {
+
+TEST_CASE("plot: angle ticks fall on multiples that divide the quadrants") {
+  // Steps 1, 2, 5, 10, 15, 30, 45, 90° (common practice for angle axes: a PA axis then
+  // marks north 0°, east 90°, south 180°, west 270°); the smallest at least min_step apart.
+  CHECK(labels(degree_ticks(0.0, 360.0, 40.0)) ==
+        std::vector<std::string>{"0", "45", "90", "135", "180", "225", "270", "315", "360"});
+  // A polar image's extent, half a 0.5° column beyond 0 and short of 360: 360 is outside.
+  CHECK(labels(degree_ticks(-0.25, 359.75, 46.0)) == std::vector<std::string>{"0", "90", "180", "270"});
+  CHECK(labels(degree_ticks(-20.0, 20.0, 8.0)) == std::vector<std::string>{"\u221220", "\u221210", "0", "10", "20"});
+  // lo > hi (an axis running the other way): the same ticks, increasing.
+  CHECK(labels(degree_ticks(90.0, 0.0, 40.0)) == std::vector<std::string>{"0", "45", "90"});
+  CHECK(degree_ticks(0.0, 0.0, 1.0).empty());
+  CHECK(degree_ticks(0.0, std::nan(""), 1.0).empty());
+  // On an axis: 680 px across 360° at one label per 100 px may take ticks 75 px apart,
+  // 75 · 360 / 680 = 39.7° → 45°; at 400 px, 67.5° → 90°.
+  Axis pa{0.0, 360.0, "position angle (\u00b0)", false, true};
+  CHECK(axis_ticks(pa, 680.0f, 100.0f).size() == 9);
+  CHECK(labels(axis_ticks(pa, 400.0f, 100.0f)) == std::vector<std::string>{"0", "90", "180", "270", "360"});
+}
+
+TEST_CASE("plot: a legend row lays its entries side by side, each a sample and its label") {
+  FrameInProgress in_frame(800, 200);
+  ImDrawList& draw = *ImGui::GetBackgroundDrawList();
+  const LegendEntry entries[] = {{"leading edge", IM_COL32(255, 225, 0, 255), false},
+                                 {"points", IM_COL32(0, 220, 255, 255), true}};
+  const ImVec2 at(40.0f, 100.0f);
+  const float width = draw_legend_row(draw, at, entries);
+  const float line = ImGui::GetFontSize();
+  std::vector<Quad> samples, glyphs;
+  for (const Quad& q : quads(draw)) (q.glyph ? glyphs : samples).push_back(q);
+  CHECK(static_cast<int>(glyphs.size()) == visible_characters("leading edge") + visible_characters("points"));
+  REQUIRE(samples.size() == 2);
+  // The line sample: two text lines wide, 2 px tall, at the left; the box: a square.
+  CHECK(samples[0].min.x == at.x);
+  CHECK(samples[0].max.x - samples[0].min.x == 2.0f * line);
+  CHECK(samples[0].max.y - samples[0].min.y == 2.0f);
+  CHECK(samples[1].max.x - samples[1].min.x == samples[1].max.y - samples[1].min.y);
+  // In order, not overlapping: each label right of its own sample, the second entry's
+  // sample right of the first label, and everything inside the width returned, on one line.
+  float first_label_right = 0.0f, second_label_left = 1e9f;
+  for (const Quad& q : glyphs) {
+    CHECK(q.min.y >= at.y - 1.0f);
+    CHECK(q.max.y <= at.y + line + 1.0f);
+    CHECK(q.max.x <= at.x + width);
+    if (q.max.x <= samples[1].min.x) first_label_right = std::max(first_label_right, q.max.x);
+    else second_label_left = std::min(second_label_left, q.min.x);
+  }
+  CHECK(first_label_right > samples[0].max.x);
+  CHECK(samples[1].min.x > first_label_right);
+  CHECK(second_label_left > samples[1].max.x);
+}
+
+TEST_CASE("plot: a ring sample in a legend row is an open circle centred in the sample's place") {
+  const LegendEntry ring[] = {{"track points", IM_COL32(255, 225, 0, 255), false, true}};
+  const ImVec2 at(20.0f, 40.0f);
+  float line = 0.0f;
+  const Framebuffer picture = draw_headless(200, 100, [&] {
+    line = ImGui::GetFontSize();
+    draw_legend_row(*ImGui::GetBackgroundDrawList(), at, ring);
+  });
+  // Centred in the sample's place (two text lines wide, middle of the line), radius 0.3 line:
+  // the ring's colour on the circle, the background at its centre.
+  const float cx = at.x + line, cy = std::floor(at.y + line / 2), r = 0.3f * line;
+  const auto yellow = [&](int x, int y) {  // the ring's colour, at least half covering the pixel
+    const std::uint32_t p = picture.at(x, y);
+    return (p & 0xFF) > 130 && ((p >> 8) & 0xFF) > 120 && ((p >> 16) & 0xFF) < 60;
+  };
+  int on_circle = 0;
+  for (int k = 0; k < 16; ++k) {
+    const double a = k * 2.0 * 3.141592653589793 / 16;
+    const int x = int(std::floor(cx + r * std::cos(a))), y = int(std::floor(cy + r * std::sin(a)));
+    bool near = false;
+    for (int dy = -1; dy <= 1; ++dy)
+      for (int dx = -1; dx <= 1; ++dx) near = near || yellow(x + dx, y + dy);
+    on_circle += near;
+  }
+  write_png(picture, test::scratch_dir("plot-legend-ring") / "ring.png");
+  CHECK(on_circle == 16);
+  CHECK(picture.at(int(cx), int(cy)) == HeadlessOptions{}.background);
+  CHECK_FALSE(yellow(int(cx + 2.0f * r), int(cy)));
+}
+
+}  // namespace occulta::viewer
