@@ -54,7 +54,8 @@ int view(const ViewOptions& options, std::ostream& out, std::ostream& err) {
     if (!views.back().error.empty()) err << "occulta view: " << views.back().error << '\n', status = 1;
   }
   viewer::apply(state, viewer::action::Timeline{viewer::frame_times(views)});
-  for (const viewer::Action& a : script) viewer::apply(state, a);
+  for (const viewer::ViewPictures& v : views) viewer::apply(state, viewer::action::ViewFrames{v.name, viewer::frame_times(v)});
+  viewer::run_script(state, views, script);
   viewer::write_png(viewer::draw_window_headless(state, views), options.snapshot);
   out << "wrote " << options.snapshot << " (" << state.width << "×" << state.height << ", "
       << viewer::display_label(state.display) << ", frame " << state.frame + 1 << " of " << state.timeline_utc_s.size()

@@ -5,6 +5,7 @@
 #include <array>
 #include <cmath>
 #include <limits>
+#include <numbers>
 
 namespace occulta::viewer {
 namespace {
@@ -25,6 +26,45 @@ Overloaded(F...) -> Overloaded<F...>;  // clang 14 does not deduce aggregates' a
 
 int last_frame(const WindowState& s) { return std::max(0, int(s.timeline_utc_s.size()) - 1); }
 
+bool names_point(const WindowState& s, int index) { return index >= 0 && index < int(s.points.size()); }
+
+// The points as they are become an undo step; what was undone cannot be redone any more.
+void before_change(WindowState& s) {
+  s.undo.push_back(s.points);
+  if (s.undo.size() > kUndoSteps) s.undo.erase(s.undo.begin());
+  s.redo.clear();
+  s.unsaved = true;
+}
+
+bool usable_height(double h) { return std::isfinite(h) && h >= kPointHeightRangeRs[0] && h <= kPointHeightRangeRs[1]; }
+double wrapped_pa(double pa_deg) {
+  const double pa = std::fmod(pa_deg, 360.0);
+  return pa < 0 ? pa + 360.0 : (pa >= 360.0 ? 0.0 : pa);
+}
+
+// The view's frame time nearest utc_s (the earlier on a tie, as pictures.hpp nearest_frame);
+// NaN when the view is unknown or not loaded.
+double nearest_view_time(const WindowState& s, const std::string& view, double utc_s) {
+  const auto at = std::find(s.views.begin(), s.views.end(), view);
+  const std::size_t i = std::size_t(at - s.views.begin());
+  if (at == s.views.end() || i >= s.view_times_utc_s.size() || !std::isfinite(utc_s))
+    return std::numeric_limits<double>::quiet_NaN();
+  double best = std::numeric_limits<double>::quiet_NaN();
+  for (double t : s.view_times_utc_s[i])
+    if (!std::isfinite(best) || std::abs(t - utc_s) < std::abs(best - utc_s)) best = t;
+  return best;
+}
+
+void step_back(std::vector<std::vector<MarkedPoint>>& from, std::vector<std::vector<MarkedPoint>>& to, WindowState& s) {
+  if (from.empty()) return;
+  to.push_back(std::move(s.points));
+  s.points = std::move(from.back());
+  from.pop_back();
+  if (!names_point(s, s.selected)) s.selected = -1;
+  s.dragging = false;
+  s.unsaved = true;
+}
+
 }  // namespace
 
 std::span<const Display> displays() { return kDisplays; }
@@ -35,6 +75,8 @@ std::optional<Display> display_named(std::string_view name) {
     if (kNames[i] == name) return kDisplays[i];
   return std::nullopt;
 }
+
+double pa_deg_at(double x_rs, double y_rs) { return wrapped_pa(std::atan2(-x_rs, y_rs) * 180.0 / std::numbers::pi); }
 
 double displayed_time(const WindowState& state) {
   if (state.timeline_utc_s.empty()) return std::numeric_limits<double>::quiet_NaN();
@@ -90,6 +132,43 @@ void apply(WindowState& s, const Action& a) {
                     std::abs(s.timeline_utc_s[std::size_t(s.frame)] - now))
                   s.frame = i;
           },
+          [&](const action::ViewFrames& f) {
+            const auto at = std::find(s.views.begin(), s.views.end(), f.view);
+            if (at == s.views.end()) return;
+            s.view_times_utc_s.resize(s.views.size());
+            std::vector<double>& times = s.view_times_utc_s[std::size_t(at - s.views.begin())];
+            times = f.utc_s;
+            std::sort(times.begin(), times.end());
+          },
+          [&](const action::AddPoint& p) {
+            const double t = nearest_view_time(s, p.view, p.utc_s);
+            if (!std::isfinite(t) || !usable_height(p.height_rs) || !std::isfinite(p.pa_deg)) return;
+            before_change(s);
+            s.points.push_back(MarkedPoint{p.view, t, wrapped_pa(p.pa_deg), p.height_rs, p.automatic});
+            s.selected = int(s.points.size()) - 1;
+          },
+          [&](const action::MovePoint& m) {
+            if (!names_point(s, m.index) || !usable_height(m.height_rs) || !std::isfinite(m.pa_deg)) return;
+            if (!m.drag || !s.dragging) before_change(s);
+            s.dragging = m.drag;
+            MarkedPoint& p = s.points[std::size_t(m.index)];
+            p.pa_deg = wrapped_pa(m.pa_deg);
+            p.height_rs = m.height_rs;
+            s.selected = m.index;
+          },
+          [&](const action::EndDrag&) { s.dragging = false; },
+          [&](const action::SelectPoint& p) { s.selected = names_point(s, p.index) ? p.index : -1; },
+          [&](const action::DeletePoint& d) {
+            const int index = d.index < 0 ? s.selected : d.index;
+            if (!names_point(s, index)) return;
+            before_change(s);
+            s.points.erase(s.points.begin() + index);
+            s.selected = -1;
+            s.dragging = false;
+          },
+          [&](const action::Undo&) { step_back(s.undo, s.redo, s); },
+          [&](const action::Redo&) { step_back(s.redo, s.undo, s); },
+          [&](const action::Click&) {},  // the window turns it into actions (run_script)
       },
       a);
 }

@@ -28,6 +28,27 @@ struct Leave {};                                 // {"do": "leave"}: the cursor 
 struct Quit {};                                  // {"do": "quit"}
 // Not a person's action: the loader's frame times, when a view has finished loading.
 struct Timeline { std::vector<double> utc_s; };
+struct ViewFrames { std::string view; std::vector<double> utc_s; };  // one view's frame times
+
+// Marking the leading edge. A point lands on the view's frame nearest utc_s in time (as a
+// click on the frame shown at that time does); PA is wrapped into [0, 360); a height
+// outside kPointHeightRangeRs, a view that is not loaded, or an index that names no point
+// changes nothing. Each change but a drag's later moves is one undo step.
+// {"do": "point", "view": "east", "time": "2031-03-14T07:12:00", "pa_deg": 95, "height_rs": 6.2}
+struct AddPoint { std::string view; double utc_s, pa_deg, height_rs; bool automatic = false; };
+// {"do": "move", "index": 0, "pa_deg": 96, "height_rs": 6.4}  (index counts from 0, in marking order)
+// A drag's moves (drag = true) are one undo step, from the first move to EndDrag.
+struct MovePoint { int index; double pa_deg, height_rs; bool drag = false; };
+struct EndDrag {};                               // the mouse button let go of a dragged point
+struct SelectPoint { int index; };               // {"do": "select", "index": 2}; −1: none
+struct DeletePoint { int index = -1; };          // {"do": "delete", "index": 2}; no index: the selected
+struct Undo {};                                  // {"do": "undo"}
+struct Redo {};                                  // {"do": "redo"}
+// {"do": "click", "x": 400, "y": 300}: the left button pressed and let go at that window
+// pixel (Dear ImGui's: x right, y down, from the window's top-left corner). It is the
+// window that knows what lies there: run_script (ui.hpp) draws the window as the state
+// stands and applies what the click asked for; apply() alone leaves the state as it is.
+struct Click { float x, y; };
 
 }  // namespace occulta::viewer::action
 
@@ -35,11 +56,20 @@ namespace occulta::viewer {
 
 using Action = std::variant<action::Frame, action::Step, action::ShowDisplay, action::Focus, action::Contrast,
                             action::Colours, action::Play, action::Pause, action::Resize, action::HoverAt,
-                            action::Leave, action::Quit, action::Timeline>;
+                            action::Leave, action::Quit, action::Timeline, action::ViewFrames, action::AddPoint,
+                            action::MovePoint, action::EndDrag, action::SelectPoint, action::DeletePoint,
+                            action::Undo, action::Redo, action::Click>;
 
 void apply(WindowState& state, const Action& action);
 
 // The smallest and largest window the state accepts (Resize clamps to them).
 inline constexpr int kMinWindowPx = 320, kMaxWindowPx = 8192;
+
+// Heights a marked point may have (R☉): what the track file accepts, from the limb to far
+// beyond any coronagraph (common practice).
+inline constexpr double kPointHeightRangeRs[2] = {1.0, 300.0};
+
+// How many undo steps are kept (the oldest go first).
+inline constexpr std::size_t kUndoSteps = 1000;
 
 }  // namespace occulta::viewer

@@ -93,6 +93,8 @@ void on_key(GLFWwindow*, int key, int, int action, int) {
     case GLFW_KEY_RIGHT: g_pressed.push_back(Key::right); break;
     case GLFW_KEY_HOME: g_pressed.push_back(Key::home); break;
     case GLFW_KEY_END: g_pressed.push_back(Key::end); break;
+    case GLFW_KEY_DELETE:
+    case GLFW_KEY_BACKSPACE: g_pressed.push_back(Key::erase); break;
     default: break;
   }
 }
@@ -221,12 +223,13 @@ int present(WindowState state, std::vector<ViewSource> sources, const std::vecto
       for (ViewPictures& v : loader.take_finished()) {
         views.push_back(std::move(v));
         apply(state, action::Timeline{frame_times(views)});
+        apply(state, action::ViewFrames{views.back().name, frame_times(views.back())});
       }
       if (loader.done() && !script_applied) {
         for (const ViewPictures& v : views)
           if (!v.error.empty()) err << "occulta view: " << v.error << '\n';
         err << "occulta view: loaded " << views.size() << " view(s), " << state.timeline_utc_s.size() << " frame times.\n";
-        for (const Action& a : script) apply(state, a);
+        run_script(state, views, script);
         script_applied = true;
         if (state.width > 0) glfwSetWindowSize(window, state.width, state.height);
       }

@@ -4,9 +4,11 @@
 #include <cmath>
 #include <limits>
 #include <set>
+#include <stdexcept>
 
 #include "fit/json_file.hpp"
 #include "imaging/input_error.hpp"
+#include "imaging/time.hpp"
 
 namespace occulta::viewer {
 namespace {
@@ -121,10 +123,34 @@ Action parse_action(const json& item, const std::string& source, std::size_t ind
     action = action::Leave{};
   } else if (name == "quit") {
     action = action::Quit{};
+  } else if (name == "point") {
+    const std::string view = args.text("view"), time = args.text("time");
+    double utc_s = 0.0;
+    try {
+      utc_s = imaging::utc_seconds_from_iso(time);
+    } catch (const std::invalid_argument& e) {
+      args.fail("\"time\" \"" + time + "\" is not an ISO 8601 UTC time: " + e.what());
+    }
+    action = action::AddPoint{view, utc_s, args.number("pa_deg"), args.number("height_rs")};
+  } else if (name == "move") {
+    action = action::MovePoint{args.integer("index"), args.number("pa_deg"), args.number("height_rs")};
+  } else if (name == "select") {
+    action = action::SelectPoint{args.integer("index")};
+  } else if (name == "delete") {
+    action = action::DeletePoint{args.has("index") ? args.integer("index") : -1};
+  } else if (name == "undo") {
+    action = action::Undo{};
+  } else if (name == "redo") {
+    action = action::Redo{};
+  } else if (name == "click") {
+    const double x = args.number("x"), y = args.number("y");
+    if (std::abs(x) > kMaxWindowPx || std::abs(y) > kMaxWindowPx) args.fail("x and y must be window pixels");
+    action = action::Click{float(x), float(y)};
   } else {
     throw imaging::InputError(source, where + ": \"" + name +
                                           "\" is not an action (frame, step, display, view, contrast, colours, "
-                                          "play, pause, resize, hover, leave, quit)");
+                                          "play, pause, resize, hover, leave, quit, point, move, select, delete, "
+                                          "undo, redo, click)");
   }
   args.finish();
   return action;

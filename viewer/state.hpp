@@ -7,6 +7,8 @@
 // displayed image (what every display holds, see viewer/pictures.hpp); sizes in pixels.
 #pragma once
 
+#include <cmath>
+#include <numbers>
 #include <optional>
 #include <span>
 #include <string>
@@ -24,6 +26,17 @@ std::span<const Display> displays();                 // every display, in the or
 std::string_view display_name(Display display);      // "calibrated", "running_difference", …
 std::string_view display_label(Display display);     // for people: "running difference"
 std::optional<Display> display_named(std::string_view name);
+
+// A leading-edge point: clicked by the analyst, or found by the automatic front finder
+// (then adopted or not). PA counter-clockwise from solar north through east, 0–360°;
+// height in the plane of the sky from Sun centre (what the track file holds).
+struct MarkedPoint {
+  std::string view;
+  double utc_s = 0.0;       // the time of the view's frame it was marked on
+  double pa_deg = 0.0;
+  double height_rs = 0.0;
+  bool automatic = false;   // origin "auto" in the track file; false: "analyst"
+};
 
 // The cursor over a view's panel, as a sky position (also over the polar display).
 struct Hover {
@@ -43,9 +56,25 @@ struct WindowState {
   int width = 1280, height = 800;      // the window's size
   std::optional<Hover> hover;
   bool quit = false;
+
+  // Marking (viewer/actions.hpp AddPoint …). view_times_utc_s[i]: the frame times of
+  // views[i] (a point is marked on one of them); empty while that view loads.
+  std::vector<std::vector<double>> view_times_utc_s;
+  std::vector<MarkedPoint> points;                 // in the order they were marked
+  int selected = -1;                               // index into points; −1: none
+  bool dragging = false;                           // a point is being dragged (one undo step)
+  std::vector<std::vector<MarkedPoint>> undo, redo;  // earlier and undone `points`, newest last
+  bool unsaved = false;                            // points changed since the last save or load
 };
 
 // The displayed time, or NaN while the timeline is empty.
 double displayed_time(const WindowState& state);
+
+// A point's sky position (R☉, x west, y north). PA counter-clockwise from north through
+// east, and east is −x: x = −h sin PA, y = h cos PA.
+inline double sky_x_rs(const MarkedPoint& p) { return -p.height_rs * std::sin(p.pa_deg * std::numbers::pi / 180.0); }
+inline double sky_y_rs(const MarkedPoint& p) { return p.height_rs * std::cos(p.pa_deg * std::numbers::pi / 180.0); }
+// The inverse: PA in [0, 360) and height of a sky position.
+double pa_deg_at(double x_rs, double y_rs);
 
 }  // namespace occulta::viewer

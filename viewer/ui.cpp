@@ -19,6 +19,16 @@ constexpr ImU32 kOcculter = IM_COL32(255, 196, 64, 230);   // occulter edge and 
 constexpr ImU32 kLimb = IM_COL32(255, 255, 255, 150);      // 1 R☉
 constexpr ImU32 kCursor = IM_COL32(80, 255, 120, 255);
 constexpr ImU32 kProblem = IM_COL32(255, 120, 100, 255);
+// Marked points: the analyst's amber discs, the automatic ones sky-blue squares; strong on
+// the frame they were marked on, faint on the others; the selected one ringed in white.
+constexpr ImU32 kAnalyst = IM_COL32(255, 200, 40, 255), kAnalystFaint = IM_COL32(255, 200, 40, 90);
+constexpr ImU32 kAutomatic = IM_COL32(110, 200, 255, 255), kAutomaticFaint = IM_COL32(110, 200, 255, 90);
+constexpr ImU32 kPointEdge = IM_COL32(0, 0, 0, 200);
+constexpr ImU32 kSelected = IM_COL32(255, 255, 255, 255);
+// A click within this many pixels of a point of the shown frame takes that point.
+constexpr float kPickPx = 8.0f;
+// A point is on a frame when their times agree to within this (frames are seconds apart).
+constexpr double kSameFrameS = 0.5;
 
 // The colour bar's label: short, so that it fits beside the title on a small panel; the
 // toolbar says which display the σ are of.
@@ -45,7 +55,13 @@ void keys(const WindowState& state, std::span<const Key> pressed, std::vector<Ac
       case Key::left: out.push_back(action::Step{-1}); break;
       case Key::home: out.push_back(action::Frame{0}); break;
       case Key::end: out.push_back(action::Frame{int(state.timeline_utc_s.size()) - 1}); break;
+      case Key::erase:
+        if (state.selected >= 0) out.push_back(action::DeletePoint{state.selected});
+        break;
     }
+  if (typed('u')) out.push_back(action::Undo{});
+  if (typed('r')) out.push_back(action::Redo{});
+  if (typed('x') && state.selected >= 0) out.push_back(action::DeletePoint{state.selected});
   if (typed(' ')) out.push_back(state.playing ? Action{action::Pause{}} : Action{action::Play{}});
   for (std::size_t i = 0; i < displays().size(); ++i)
     if (typed(char('1' + i))) out.push_back(action::ShowDisplay{displays()[i]});
@@ -119,9 +135,41 @@ void radius_scale(ImDrawList& draw, const PlotFrame& frame) {
   draw.AddText(ImVec2(right.x - 0.5f * px - 0.5f * size.x, right.y - 4 - size.y), IM_COL32_WHITE, label);
 }
 
+// The view's points on its panel (strong at the frame's time, faint at others); the index of
+// the point of this frame under the mouse (within kPickPx), or −1.
+int draw_points(ImDrawList& draw, const PlotFrame& frame, const WindowState& state, const std::string& view, double utc_s) {
+  const bool polar = state.display == Display::polar;
+  const ImVec2 mouse = ImGui::GetIO().MousePos;
+  int picked = -1;
+  float picked_d2 = kPickPx * kPickPx;
+  draw.PushClipRect(frame.pixel_min, frame.pixel_max, true);
+  for (int pass = 0; pass < 2; ++pass)  // the faint ones first, under the strong ones
+    for (std::size_t i = 0; i < state.points.size(); ++i) {
+      const MarkedPoint& p = state.points[i];
+      const bool here = std::abs(p.utc_s - utc_s) < kSameFrameS;
+      if (p.view != view || here != (pass == 1)) continue;
+      const ImVec2 at = polar ? frame.to_pixel(p.pa_deg, p.height_rs) : frame.to_pixel(sky_x_rs(p), sky_y_rs(p));
+      const ImU32 colour = p.automatic ? (here ? kAutomatic : kAutomaticFaint) : (here ? kAnalyst : kAnalystFaint);
+      const float r = here ? 4.0f : 3.0f;
+      if (p.automatic) {
+        draw.AddRectFilled(ImVec2(at.x - r, at.y - r), ImVec2(at.x + r, at.y + r), colour);
+        if (here) draw.AddRect(ImVec2(at.x - r, at.y - r), ImVec2(at.x + r, at.y + r), kPointEdge);
+      } else {
+        draw.AddCircleFilled(at, r, colour, 12);
+        if (here) draw.AddCircle(at, r, kPointEdge, 12);
+      }
+      if (int(i) == state.selected) draw.AddCircle(at, r + 4.0f, kSelected, 16, 1.5f);
+      const float dx = at.x - mouse.x, dy = at.y - mouse.y;
+      if (here && dx * dx + dy * dy <= picked_d2) picked = int(i), picked_d2 = dx * dx + dy * dy;
+    }
+  draw.PopClipRect();
+  return picked;
+}
+
 // One view's panel in [lo, hi]; the cursor's action when it is over the image. Whether
 // the mouse is over the image.
-bool view_panel(const WindowState& state, const ShownView& shown, ImVec2 lo, ImVec2 hi, std::vector<Action>& out) {
+bool view_panel(const WindowState& state, const ShownView& shown, ImVec2 lo, ImVec2 hi, std::vector<Action>& out,
+                std::vector<PanelPlace>* placed) {
   ImDrawList& draw = *ImGui::GetWindowDrawList();
   const ViewPictures& view = *shown.view;
   if (!view.error.empty() || shown.frame < 0) {
@@ -143,6 +191,7 @@ bool view_panel(const WindowState& state, const ShownView& shown, ImVec2 lo, ImV
     axes.equal_scale = true;
   }
   const PlotFrame frame = draw_image_panel(draw, lo, hi, shown.panel, axes);
+  if (placed) placed->push_back(PanelPlace{view.name, state.display, frame});
   if (!polar) {
     draw_circle(draw, frame, 0, 0, 1.0, kLimb, 1.0f);
     draw_circle(draw, frame, 0, 0, view.radii.inner_rs, kOcculter);
@@ -166,16 +215,45 @@ bool view_panel(const WindowState& state, const ShownView& shown, ImVec2 lo, ImV
     const ImVec2 p = frame.to_pixel(px, py);
     draw.AddCircle(p, 6.0f, kCursor, 16, 1.5f);
   }
-  // The mouse over the image becomes a hover action (the plot's inverse mapping).
+  const int picked = draw_points(draw, frame, state, view.name, f.utc_s);
+  // The mouse over the image becomes a hover action (the plot's inverse mapping); a click
+  // there takes the point under it or marks a new one, a drag moves the selected one —
+  // through the same inverse mapping, so a point lands where it was clicked.
   const ImVec2 mouse = ImGui::GetIO().MousePos;
   if (ImGui::IsWindowHovered() && mouse.x >= frame.pixel_min.x && mouse.x < frame.pixel_max.x && mouse.y >= frame.pixel_min.y &&
       mouse.y < frame.pixel_max.y) {
-    const DataPoint sky = sky_at(frame, state.display, mouse);
+    // Dear ImGui keeps the mouse on whole pixels (it floors the position): the pointer
+    // shows the pixel [x, x + 1) × [y, y + 1), whose centre is what the analyst points at.
+    const DataPoint sky = sky_at(frame, state.display, ImVec2(mouse.x + 0.5f, mouse.y + 0.5f));
     if (!state.hover || state.hover->view != view.name || state.hover->x_rs != sky.x || state.hover->y_rs != sky.y)
       out.push_back(action::HoverAt{view.name, sky.x, sky.y});
+    const double pa = pa_deg_at(sky.x, sky.y), h = std::hypot(sky.x, sky.y);
+    if (ImGui::IsMouseClicked(ImGuiMouseButton_Left)) {
+      if (picked >= 0) out.push_back(action::SelectPoint{picked});
+      else out.push_back(action::AddPoint{view.name, f.utc_s, pa, h});
+    } else if (ImGui::IsMouseDragging(ImGuiMouseButton_Left, 2.0f) && state.selected >= 0 &&
+               state.points[std::size_t(state.selected)].view == view.name &&
+               std::abs(state.points[std::size_t(state.selected)].utc_s - f.utc_s) < kSameFrameS) {
+      out.push_back(action::MovePoint{state.selected, pa, h, true});
+    }
     return true;
   }
   return false;
+}
+
+// The selected point, or how many there are.
+void point_readout(const WindowState& state) {
+  if (state.points.empty()) return;
+  ImGui::SameLine(0, 24);
+  if (state.selected < 0) {
+    ImGui::TextDisabled("%zu point(s)", state.points.size());
+    return;
+  }
+  const MarkedPoint& p = state.points[std::size_t(state.selected)];
+  ImGui::TextColored(ImGui::ColorConvertU32ToFloat4(p.automatic ? kAutomatic : kAnalyst),
+                     "point %d of %zu: %s %s   PA %.1f°   height %.2f R☉   %s", state.selected + 1, state.points.size(),
+                     p.view.c_str(), clock(p.utc_s).substr(11, 8).c_str(), p.pa_deg, p.height_rs,
+                     p.automatic ? "automatic" : "analyst");
 }
 
 void readout(const WindowState& state, const std::vector<ShownView>& shown) {
@@ -278,7 +356,7 @@ std::vector<Texture> textures_of(const std::vector<ShownView>& shown) {
 
 std::vector<Action> draw_window(const WindowState& state, const std::vector<ShownView>& shown,
                                 const std::vector<ViewPictures>& views, const LoadingShown& loading,
-                                std::span<const Key> pressed) {
+                                std::span<const Key> pressed, std::vector<PanelPlace>* placed) {
   std::vector<Action> out;
   ImGui::SetNextWindowPos(ImVec2(0, 0));
   ImGui::SetNextWindowSize(ImVec2(float(state.width), float(state.height)));
@@ -300,13 +378,15 @@ std::vector<Action> draw_window(const WindowState& state, const std::vector<Show
     bool over_image = false;
     for (std::size_t i = 0; i < shown.size(); ++i)
       over_image |= view_panel(state, shown[i], ImVec2(std::floor(lo.x + i * w), lo.y),
-                               ImVec2(std::floor(lo.x + (i + 1) * w) - 6, lo.y + panels_h), out);
+                               ImVec2(std::floor(lo.x + (i + 1) * w) - 6, lo.y + panels_h), out, placed);
     // The mouse left the images (a snapshot has no mouse: its hover stays as scripted).
     if (state.hover && !over_image && ImGui::IsMousePosValid()) out.push_back(action::Leave{});
+    if (state.dragging && !ImGui::IsMouseDown(ImGuiMouseButton_Left)) out.push_back(action::EndDrag{});
   }
   ImGui::Dummy(ImVec2(avail.x, panels_h));
   ImGui::Separator();
   readout(state, shown);
+  point_readout(state);
   for (const ViewPictures& v : views)
     for (const std::string& problem : v.problems) {
       ImGui::SameLine(0, 24);
@@ -316,6 +396,77 @@ std::vector<Action> draw_window(const WindowState& state, const std::vector<Show
   timeline(state, shown, loading, out);
   ImGui::End();
   return out;
+}
+
+namespace {
+
+// The actions draw_window asks for in one frame of the current context with the mouse at
+// `at` (the left button down or not).
+std::vector<Action> frame_actions(const WindowState& state, const std::vector<ViewPictures>& views, ImVec2 at, bool down,
+                                  std::vector<PanelPlace>* placed = nullptr) {
+  ImGuiIO& io = ImGui::GetIO();
+  io.MousePos = at;
+  io.MouseDown[0] = down;
+  const std::vector<ShownView> shown = shown_views(state, views);
+  ImGui::NewFrame();
+  std::vector<Action> out = draw_window(state, shown, views, {}, {}, placed);
+  ImGui::EndFrame();
+  return out;
+}
+
+// A fresh Dear ImGui context of the window's size and font for `work` (no pixels drawn);
+// the caller's context is current again afterwards.
+template <class F>
+void in_fresh_context(const WindowState& state, const HeadlessOptions& options, F work) {
+  ImGuiContext* previous = ImGui::GetCurrentContext();
+  ImGuiContext* context = ImGui::CreateContext();
+  ImGui::SetCurrentContext(context);
+  struct Restore {
+    ImGuiContext *context, *previous;
+    ~Restore() {
+      ImGui::DestroyContext(context);
+      ImGui::SetCurrentContext(previous);
+    }
+  } restore{context, previous};
+  ImGuiIO& io = ImGui::GetIO();
+  io.IniFilename = nullptr;
+  io.LogFilename = nullptr;
+  io.DisplaySize = ImVec2(float(state.width), float(state.height));
+  io.DeltaTime = 1.0f / 60.0f;
+  load_font(options.font_file, options.font_pixels);
+  work();
+}
+
+// A click at a window pixel: two frames with the mouse there to lay the window out (Dear
+// ImGui decides what is hovered from the previous frame), one with the button down, one up.
+void click(WindowState& state, const std::vector<ViewPictures>& views, const action::Click& c, const HeadlessOptions& options) {
+  in_fresh_context(state, options, [&] {
+    const ImVec2 at(c.x, c.y);
+    for (int i = 0; i < 2; ++i) (void)frame_actions(state, views, at, false);
+    for (const bool down : {true, false})
+      for (const Action& a : frame_actions(state, views, at, down)) apply(state, a);
+  });
+}
+
+}  // namespace
+
+void run_script(WindowState& state, const std::vector<ViewPictures>& views, std::span<const Action> script,
+                const HeadlessOptions& options) {
+  for (const Action& a : script) {
+    if (const auto* c = std::get_if<action::Click>(&a)) click(state, views, *c, options);
+    else apply(state, a);
+  }
+}
+
+std::vector<PanelPlace> panel_places(const WindowState& state, const std::vector<ViewPictures>& views,
+                                     const HeadlessOptions& options) {
+  std::vector<PanelPlace> placed;
+  in_fresh_context(state, options, [&] {
+    // The mouse off the window: nothing hovered, nothing asked.
+    (void)frame_actions(state, views, ImVec2(-1e6f, -1e6f), false);
+    (void)frame_actions(state, views, ImVec2(-1e6f, -1e6f), false, &placed);
+  });
+  return placed;
 }
 
 Framebuffer draw_window_headless(const WindowState& state, const std::vector<ViewPictures>& views,

@@ -11,8 +11,10 @@
 // Keys (characters, so any keyboard layout): → / ← step a frame, space play/pause,
 // 1–5 the displays (calibrated, running difference, base difference, NRGF, polar),
 // c the next colour table, v the next view alone (then all), [ and ] narrow and widen the
-// contrast, Home / End the first and last frame, q quit. Each gives the same action a
-// script does.
+// contrast, Home / End the first and last frame, q quit; u undo, r redo, x (or Delete,
+// Backspace) delete the selected point. The left button on a frame marks a point, or
+// selects the point under it; dragging moves the selected point. Each gives the same
+// action a script does.
 #pragma once
 
 #include <span>
@@ -48,16 +50,35 @@ struct LoadingShown {
 // Keys that are not characters, pressed (or repeated) since the last frame. The window
 // collects them from GLFW itself: Dear ImGui 1.86 keeps only whether a key is down, so a
 // press and release between two frames (a quick tap, xdotool) would be lost.
-enum class Key { left, right, home, end };
+enum class Key { left, right, home, end, erase };  // erase: Delete or Backspace
 
-// Draws the whole window (DisplaySize = state's size) between NewFrame and Render.
+// Where a shown view's image lies in the window: its plot frame (data ↔ window pixels).
+struct PanelPlace {
+  std::string view;
+  Display display = Display::running_difference;
+  PlotFrame frame;
+};
+
+// Draws the whole window (DisplaySize = state's size) between NewFrame and Render; where
+// the images were laid out goes to `placed` when given.
 std::vector<Action> draw_window(const WindowState& state, const std::vector<ShownView>& shown,
                                 const std::vector<ViewPictures>& views, const LoadingShown& loading = {},
-                                std::span<const Key> pressed = {});
+                                std::span<const Key> pressed = {}, std::vector<PanelPlace>* placed = nullptr);
+
+// Where the images lie in the window the state draws (no pixels are drawn): for scripts
+// and tests that click on a sky position.
+std::vector<PanelPlace> panel_places(const WindowState& state, const std::vector<ViewPictures>& views,
+                                     const HeadlessOptions& options = {});
 
 // The window with no display: the state drawn by viewer/headless at its size.
 Framebuffer draw_window_headless(const WindowState& state, const std::vector<ViewPictures>& views,
                                  const HeadlessOptions& options = {});
+
+// Applies a script's actions to the state in order. A Click is the window's: the window is
+// drawn as the state then stands (draw_window, no pixels) with the left button pressed
+// at that pixel, then let go, and what those two frames ask for is applied.
+void run_script(WindowState& state, const std::vector<ViewPictures>& views, std::span<const Action> script,
+                const HeadlessOptions& options = {});
 
 // The sky position under a panel pixel: the plot's inverse mapping (for the polar display,
 // its (PA, height) turned into a sky position).
