@@ -1,6 +1,9 @@
 // viewer/actions.cpp — see actions.hpp.
 #include "viewer/actions.hpp"
 
+#include "fit/shell.hpp"
+#include "viewer/shell_overlay.hpp"
+
 #include <algorithm>
 #include <array>
 #include <cmath>
@@ -126,6 +129,7 @@ void apply(WindowState& s, const Action& a) {
             s.timeline_utc_s.erase(std::unique(s.timeline_utc_s.begin(), s.timeline_utc_s.end()),
                                    s.timeline_utc_s.end());
             s.frame = 0;
+            if (!std::isfinite(s.shell.ref_utc_s) && !s.timeline_utc_s.empty()) s.shell.ref_utc_s = s.timeline_utc_s.front();
             if (std::isfinite(now))
               for (int i = 0; i <= last_frame(s); ++i)
                 if (std::abs(s.timeline_utc_s[std::size_t(i)] - now) <
@@ -169,6 +173,27 @@ void apply(WindowState& s, const Action& a) {
           [&](const action::Undo&) { step_back(s.undo, s.redo, s); },
           [&](const action::Redo&) { step_back(s.redo, s.undo, s); },
           [&](const action::Click&) {},  // the window turns it into actions (run_script)
+          [&](const action::SetShell& c) {
+            ShellControls next = s.shell;
+            if (c.shown) next.shown = *c.shown;
+            const auto take = [](double& to, const std::optional<double>& from) {
+              if (from) to = *from;
+            };
+            take(next.lon_deg, c.lon_deg);
+            take(next.lat_deg, c.lat_deg);
+            take(next.tilt_deg, c.tilt_deg);
+            take(next.half_angle_deg, c.half_angle_deg);
+            take(next.aspect_ratio, c.aspect_ratio);
+            take(next.ref_utc_s, c.ref_utc_s);
+            take(next.apex_height_rs, c.apex_height_rs);
+            take(next.speed_km_s, c.speed_km_s);
+            take(next.accel_m_s2, c.accel_m_s2);
+            const double values[] = {next.lon_deg, next.lat_deg, next.tilt_deg, next.half_angle_deg, next.aspect_ratio,
+                                     next.apex_height_rs, next.speed_km_s, next.accel_m_s2};
+            if (!std::all_of(std::begin(values), std::end(values), [](double v) { return std::isfinite(v); })) return;
+            if (std::abs(next.lat_deg) > 90.0 || !fit::is_valid(shell_params(next, next.ref_utc_s))) return;
+            s.shell = next;
+          },
       },
       a);
 }

@@ -6,6 +6,7 @@
 // can never leave the state inconsistent.
 #pragma once
 
+#include <optional>
 #include <string>
 #include <variant>
 #include <vector>
@@ -50,6 +51,17 @@ struct Redo {};                                  // {"do": "redo"}
 // stands and applies what the click asked for; apply() alone leaves the state as it is.
 struct Click { float x, y; };
 
+// The shell's controls; any subset of them, the others kept. A change that would give an
+// invalid shell (fit/shell.hpp is_valid: h₀ > 0, 0 ≤ α, 0 ≤ κ < 1, α + asin κ < 90°) or
+// a non-finite value changes nothing.
+// {"do": "shell", "shown": true, "lon_deg": -12, "lat_deg": 6, "tilt_deg": 30, "half_angle_deg": 26,
+//  "aspect_ratio": 0.33, "ref_time": ISO, "apex_height_rs": 2, "speed_km_s": 950, "accel_m_s2": -12}
+struct SetShell {
+  std::optional<bool> shown{};
+  std::optional<double> lon_deg{}, lat_deg{}, tilt_deg{}, half_angle_deg{}, aspect_ratio{}, ref_utc_s{},
+      apex_height_rs{}, speed_km_s{}, accel_m_s2{};
+};
+
 }  // namespace occulta::viewer::action
 
 namespace occulta::viewer {
@@ -58,7 +70,7 @@ using Action = std::variant<action::Frame, action::Step, action::ShowDisplay, ac
                             action::Colours, action::Play, action::Pause, action::Resize, action::HoverAt,
                             action::Leave, action::Quit, action::Timeline, action::ViewFrames, action::AddPoint,
                             action::MovePoint, action::EndDrag, action::SelectPoint, action::DeletePoint,
-                            action::Undo, action::Redo, action::Click>;
+                            action::Undo, action::Redo, action::Click, action::SetShell>;
 
 void apply(WindowState& state, const Action& action);
 

@@ -75,6 +75,15 @@ std::string joined_table_names() {
   return names;
 }
 
+double iso_time(Arguments& args, const char* key) {
+  const std::string time = args.text(key);
+  try {
+    return imaging::utc_seconds_from_iso(time);
+  } catch (const std::invalid_argument& e) {
+    args.fail(std::string("\"") + key + "\" \"" + time + "\" is not an ISO 8601 UTC time: " + e.what());
+  }
+}
+
 Action parse_action(const json& item, const std::string& source, std::size_t index) {
   const std::string where = "action " + std::to_string(index + 1);
   if (!item.is_object()) throw imaging::InputError(source, where + " is not an object {\"do\": …}");
@@ -124,13 +133,8 @@ Action parse_action(const json& item, const std::string& source, std::size_t ind
   } else if (name == "quit") {
     action = action::Quit{};
   } else if (name == "point") {
-    const std::string view = args.text("view"), time = args.text("time");
-    double utc_s = 0.0;
-    try {
-      utc_s = imaging::utc_seconds_from_iso(time);
-    } catch (const std::invalid_argument& e) {
-      args.fail("\"time\" \"" + time + "\" is not an ISO 8601 UTC time: " + e.what());
-    }
+    const std::string view = args.text("view");
+    const double utc_s = iso_time(args, "time");
     action = action::AddPoint{view, utc_s, args.number("pa_deg"), args.number("height_rs")};
   } else if (name == "move") {
     action = action::MovePoint{args.integer("index"), args.number("pa_deg"), args.number("height_rs")};
@@ -142,6 +146,22 @@ Action parse_action(const json& item, const std::string& source, std::size_t ind
     action = action::Undo{};
   } else if (name == "redo") {
     action = action::Redo{};
+  } else if (name == "shell") {
+    action::SetShell change;
+    if (args.has("shown")) change.shown = args.boolean("shown");
+    const std::pair<const char*, std::optional<double> action::SetShell::*> numbers[] = {
+        {"lon_deg", &action::SetShell::lon_deg},
+        {"lat_deg", &action::SetShell::lat_deg},
+        {"tilt_deg", &action::SetShell::tilt_deg},
+        {"half_angle_deg", &action::SetShell::half_angle_deg},
+        {"aspect_ratio", &action::SetShell::aspect_ratio},
+        {"apex_height_rs", &action::SetShell::apex_height_rs},
+        {"speed_km_s", &action::SetShell::speed_km_s},
+        {"accel_m_s2", &action::SetShell::accel_m_s2}};
+    for (const auto& [key, member] : numbers)
+      if (args.has(key)) change.*member = args.number(key);
+    if (args.has("ref_time")) change.ref_utc_s = iso_time(args, "ref_time");
+    action = change;
   } else if (name == "click") {
     const double x = args.number("x"), y = args.number("y");
     if (std::abs(x) > kMaxWindowPx || std::abs(y) > kMaxWindowPx) args.fail("x and y must be window pixels");
@@ -150,7 +170,7 @@ Action parse_action(const json& item, const std::string& source, std::size_t ind
     throw imaging::InputError(source, where + ": \"" + name +
                                           "\" is not an action (frame, step, display, view, contrast, colours, "
                                           "play, pause, resize, hover, leave, quit, point, move, select, delete, "
-                                          "undo, redo, click)");
+                                          "undo, redo, click, shell)");
   }
   args.finish();
   return action;

@@ -8,6 +8,7 @@
 #pragma once
 
 #include <cmath>
+#include <limits>
 #include <numbers>
 #include <optional>
 #include <span>
@@ -38,6 +39,17 @@ struct MarkedPoint {
   bool automatic = false;   // origin "auto" in the track file; false: "analyst"
 };
 
+// The shell drawn on every view (fit/shell.hpp's graduated cylindrical shell): its six
+// parameters in degrees (Stonyhurst lon, lat; tilt, half-angle α) and κ, and the apex law
+// h(t) = h₀ + v (t − t₀) + ½ a (t − t₀)² (fit/scenario.hpp ApexLaw: t₀ UTC seconds, h₀ R☉,
+// v km/s, a m/s²). t₀ is the first frame time until set.
+struct ShellControls {
+  bool shown = false;
+  double lon_deg = 0.0, lat_deg = 0.0, tilt_deg = 0.0, half_angle_deg = 30.0, aspect_ratio = 0.3;
+  double ref_utc_s = std::numeric_limits<double>::quiet_NaN();
+  double apex_height_rs = 5.0, speed_km_s = 500.0, accel_m_s2 = 0.0;
+};
+
 // The cursor over a view's panel, as a sky position (also over the polar display).
 struct Hover {
   std::string view;
@@ -65,6 +77,8 @@ struct WindowState {
   bool dragging = false;                           // a point is being dragged (one undo step)
   std::vector<std::vector<MarkedPoint>> undo, redo;  // earlier and undone `points`, newest last
   bool unsaved = false;                            // points changed since the last save or load
+
+  ShellControls shell;
 };
 
 // The displayed time, or NaN while the timeline is empty.

@@ -8,6 +8,7 @@
 #include <numbers>
 
 #include "imaging/time.hpp"
+#include "viewer/shell_overlay.hpp"
 
 namespace occulta::viewer {
 namespace {
@@ -25,6 +26,7 @@ constexpr ImU32 kAnalyst = IM_COL32(255, 200, 40, 255), kAnalystFaint = IM_COL32
 constexpr ImU32 kAutomatic = IM_COL32(110, 200, 255, 255), kAutomaticFaint = IM_COL32(110, 200, 255, 90);
 constexpr ImU32 kPointEdge = IM_COL32(0, 0, 0, 200);
 constexpr ImU32 kSelected = IM_COL32(255, 255, 255, 255);
+constexpr ImU32 kShell = IM_COL32(70, 235, 200, 255);  // the shell's outline
 // A click within this many pixels of a point of the shown frame takes that point.
 constexpr float kPickPx = 8.0f;
 // A point is on a frame when their times agree to within this (frames are seconds apart).
@@ -135,6 +137,30 @@ void radius_scale(ImDrawList& draw, const PlotFrame& frame) {
   draw.AddText(ImVec2(right.x - 0.5f * px - 0.5f * size.x, right.y - 4 - size.y), IM_COL32_WHITE, label);
 }
 
+// The controls' shell as this frame's observer sees it at the frame's time.
+void draw_shell(ImDrawList& draw, const PlotFrame& frame, bool polar, const ShellControls& controls, const FramePictures& f) {
+  draw.PushClipRect(frame.pixel_min, frame.pixel_max, true);
+  std::vector<ImVec2> line;
+  for (const std::vector<OutlinePoint>& run : shell_outline(controls, f.observer, f.utc_s)) {
+    line.clear();
+    for (const OutlinePoint& o : run) {
+      if (polar) {
+        const double pa = std::fmod(o.pa_deg, 360.0);
+        if (!line.empty() && pa < 1.0) {  // the polar panel ends at 360°: start again at 0°
+          draw.AddPolyline(line.data(), int(line.size()), kShell, ImDrawFlags_None, 1.5f);
+          line.clear();
+        }
+        line.push_back(frame.to_pixel(pa, o.height_rs));
+      } else {
+        const MarkedPoint p{"", 0.0, o.pa_deg, o.height_rs};
+        line.push_back(frame.to_pixel(sky_x_rs(p), sky_y_rs(p)));
+      }
+    }
+    if (line.size() > 1) draw.AddPolyline(line.data(), int(line.size()), kShell, ImDrawFlags_None, 1.5f);
+  }
+  draw.PopClipRect();
+}
+
 // The view's points on its panel (strong at the frame's time, faint at others); the index of
 // the point of this frame under the mouse (within kPickPx), or −1.
 int draw_points(ImDrawList& draw, const PlotFrame& frame, const WindowState& state, const std::string& view, double utc_s) {
@@ -215,6 +241,7 @@ bool view_panel(const WindowState& state, const ShownView& shown, ImVec2 lo, ImV
     const ImVec2 p = frame.to_pixel(px, py);
     draw.AddCircle(p, 6.0f, kCursor, 16, 1.5f);
   }
+  if (state.shell.shown) draw_shell(draw, frame, polar, state.shell, f);
   const int picked = draw_points(draw, frame, state, view.name, f.utc_s);
   // The mouse over the image becomes a hover action (the plot's inverse mapping); a click
   // there takes the point under it or marks a new one, a drag moves the selected one —
@@ -254,6 +281,63 @@ void point_readout(const WindowState& state) {
                      "point %d of %zu: %s %s   PA %.1f°   height %.2f R☉   %s", state.selected + 1, state.points.size(),
                      p.view.c_str(), clock(p.utc_s).substr(11, 8).c_str(), p.pa_deg, p.height_rs,
                      p.automatic ? "automatic" : "analyst");
+}
+
+// A labelled number control: a drag (or typed value, ctrl+click) in its unit; the new
+// value when changed.
+std::optional<double> number_control(const char* label, double value, double speed, double lo, double hi, const char* format) {
+  ImGui::SetNextItemWidth(ImGui::GetContentRegionAvail().x * 0.5f);
+  if (ImGui::DragScalar(label, ImGuiDataType_Double, &value, float(speed), &lo, &hi, format, ImGuiSliderFlags_AlwaysClamp))
+    return value;
+  return std::nullopt;
+}
+
+void shell_controls(const WindowState& state, std::vector<Action>& out) {
+  const ShellControls& c = state.shell;
+  bool shown = c.shown;
+  if (ImGui::Checkbox("draw the shell on every view", &shown)) out.push_back(action::SetShell{.shown = shown});
+  const auto set = [&](std::optional<double> value, auto member) {
+    if (!value) return;
+    action::SetShell change;
+    change.*member = *value;
+    out.push_back(change);
+  };
+  set(number_control("longitude (°)", c.lon_deg, 0.5, -180, 180, "%.1f"), &action::SetShell::lon_deg);
+  set(number_control("latitude (°)", c.lat_deg, 0.5, -90, 90, "%.1f"), &action::SetShell::lat_deg);
+  set(number_control("tilt (°)", c.tilt_deg, 0.5, -90, 90, "%.1f"), &action::SetShell::tilt_deg);
+  set(number_control("half-angle α (°)", c.half_angle_deg, 0.25, 0, 89, "%.1f"), &action::SetShell::half_angle_deg);
+  set(number_control("aspect ratio κ", c.aspect_ratio, 0.005, 0, 0.95, "%.3f"), &action::SetShell::aspect_ratio);
+  set(number_control("apex h₀ (R☉)", c.apex_height_rs, 0.05, 0.1, 300, "%.2f"), &action::SetShell::apex_height_rs);
+  set(number_control("speed v (km/s)", c.speed_km_s, 5, -5000, 5000, "%.0f"), &action::SetShell::speed_km_s);
+  set(number_control("accel. a (m/s²)", c.accel_m_s2, 0.5, -1000, 1000, "%.1f"), &action::SetShell::accel_m_s2);
+  if (std::isfinite(c.ref_utc_s)) ImGui::TextDisabled("h₀ and v at t₀ = %s", clock(c.ref_utc_s).substr(11).c_str());
+  // The same law counted from the displayed time: h₀ and v taken there.
+  const double now = displayed_time(state);
+  if (std::isfinite(now) && std::isfinite(c.ref_utc_s) && ImGui::SmallButton("t₀ = the shown time")) {
+    const fit::ApexLaw law{c.ref_utc_s, c.apex_height_rs, c.speed_km_s, c.accel_m_s2};
+    action::SetShell change;
+    change.ref_utc_s = now;
+    change.apex_height_rs = law.height_at(now);
+    change.speed_km_s = law.speed_at(now);
+    out.push_back(change);
+  }
+}
+
+void work_column(const WindowState& state, std::vector<Action>& out) {
+  ImGui::TextUnformatted("Points");
+  ImGui::TextDisabled("click a frame to mark the leading edge");
+  ImGui::Text("%zu marked", state.points.size());
+  ImGui::SameLine();
+  if (ImGui::SmallButton("undo")) out.push_back(action::Undo{});
+  ImGui::SameLine();
+  if (ImGui::SmallButton("redo")) out.push_back(action::Redo{});
+  if (state.selected >= 0) {
+    ImGui::SameLine();
+    if (ImGui::SmallButton("delete")) out.push_back(action::DeletePoint{state.selected});
+  }
+  ImGui::Separator();
+  ImGui::TextUnformatted("Shell");
+  shell_controls(state, out);
 }
 
 void readout(const WindowState& state, const std::vector<ShownView>& shown) {
@@ -371,10 +455,13 @@ std::vector<Action> draw_window(const WindowState& state, const std::vector<Show
   const ImVec2 lo = ImGui::GetCursorScreenPos();
   const ImVec2 avail = ImGui::GetContentRegionAvail();
   const float panels_h = std::max(50.0f, avail.y - 4 * line - 8);
+  // The work column at the right: points, shell, fit, answer, keys.
+  const float side_w = std::clamp(std::floor(0.24f * avail.x), 230.0f, 330.0f);
+  const float panels_w = avail.x - side_w - 8;
   if (shown.empty()) {
     ImGui::TextUnformatted(loading.done ? "No view could be loaded." : "Loading…");
   } else {
-    const float w = avail.x / float(shown.size());
+    const float w = panels_w / float(shown.size());
     bool over_image = false;
     for (std::size_t i = 0; i < shown.size(); ++i)
       over_image |= view_panel(state, shown[i], ImVec2(std::floor(lo.x + i * w), lo.y),
@@ -383,6 +470,11 @@ std::vector<Action> draw_window(const WindowState& state, const std::vector<Show
     if (state.hover && !over_image && ImGui::IsMousePosValid()) out.push_back(action::Leave{});
     if (state.dragging && !ImGui::IsMouseDown(ImGuiMouseButton_Left)) out.push_back(action::EndDrag{});
   }
+  ImGui::SetCursorScreenPos(ImVec2(lo.x + panels_w + 8, lo.y));
+  ImGui::BeginChild("work", ImVec2(side_w, panels_h), false);
+  work_column(state, out);
+  ImGui::EndChild();
+  ImGui::SetCursorScreenPos(lo);
   ImGui::Dummy(ImVec2(avail.x, panels_h));
   ImGui::Separator();
   readout(state, shown);
