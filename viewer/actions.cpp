@@ -173,6 +173,22 @@ void apply(WindowState& s, const Action& a) {
           [&](const action::Undo&) { step_back(s.undo, s.redo, s); },
           [&](const action::Redo&) { step_back(s.redo, s.undo, s); },
           [&](const action::Click&) {},  // the window turns it into actions (run_script)
+          [&](const action::TieMode& m) {
+            s.tying = m.on;
+            s.tie_first.reset();
+          },
+          [&](const action::TieFirst& f) { s.tie_first = f.mark; },
+          [&](const action::AddTie& t) {
+            s.ties.push_back(t.tie);
+            s.tie_first.reset();
+            s.unsaved = true;
+          },
+          [&](const action::Tie&) {},  // the window triangulates it (run_script)
+          [&](const action::ClearTies&) {
+            if (!s.ties.empty()) s.unsaved = true;
+            s.ties.clear();
+            s.tie_first.reset();
+          },
           [&](const action::SetShell& c) {
             ShellControls next = s.shell;
             if (c.shown) next.shown = *c.shown;

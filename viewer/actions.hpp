@@ -56,6 +56,16 @@ struct Click { float x, y; };
 // a non-finite value changes nothing.
 // {"do": "shell", "shown": true, "lon_deg": -12, "lat_deg": 6, "tilt_deg": 30, "half_angle_deg": 26,
 //  "aspect_ratio": 0.33, "ref_time": ISO, "apex_height_rs": 2, "speed_km_s": 950, "accel_m_s2": -12}
+// Tie-pointing. {"do": "tie_mode", "on": true}: clicks tie features across views.
+struct TieMode { bool on = true; };
+struct TieFirst { SkyMark mark; };              // a first click (its epipolar line is drawn)
+struct AddTie { TiePoint tie; };                // a second click, triangulated by the window
+// {"do": "tie", "a": {"view", "time", "pa_deg", "height_rs"}, "b": {…}}: the pair as two
+// clicks at those places on the views' frames nearest those times would tie it; the
+// window (run_script) triangulates it, apply() alone leaves the state as it is.
+struct Tie { AddPoint a, b; };
+struct ClearTies {};                            // {"do": "clear_ties"}
+
 struct SetShell {
   std::optional<bool> shown{};
   std::optional<double> lon_deg{}, lat_deg{}, tilt_deg{}, half_angle_deg{}, aspect_ratio{}, ref_utc_s{},
@@ -70,7 +80,8 @@ using Action = std::variant<action::Frame, action::Step, action::ShowDisplay, ac
                             action::Colours, action::Play, action::Pause, action::Resize, action::HoverAt,
                             action::Leave, action::Quit, action::Timeline, action::ViewFrames, action::AddPoint,
                             action::MovePoint, action::EndDrag, action::SelectPoint, action::DeletePoint,
-                            action::Undo, action::Redo, action::Click, action::SetShell>;
+                            action::Undo, action::Redo, action::Click, action::SetShell,
+                            action::TieMode, action::TieFirst, action::AddTie, action::Tie, action::ClearTies>;
 
 void apply(WindowState& state, const Action& action);
 

@@ -162,6 +162,22 @@ Action parse_action(const json& item, const std::string& source, std::size_t ind
       if (args.has(key)) change.*member = args.number(key);
     if (args.has("ref_time")) change.ref_utc_s = iso_time(args, "ref_time");
     action = change;
+  } else if (name == "tie_mode") {
+    action = action::TieMode{args.boolean("on")};
+  } else if (name == "clear_ties") {
+    action = action::ClearTies{};
+  } else if (name == "tie") {
+    const auto place = [&](const char* key) {
+      const json& p = args.take(key);
+      if (!p.is_object()) args.fail(std::string("\"") + key + "\" must be {\"view\", \"time\", \"pa_deg\", \"height_rs\"}");
+      Arguments inner(p, source, index, name + " " + key);
+      const std::string view = inner.text("view");
+      const double utc_s = iso_time(inner, "time");
+      action::AddPoint at{view, utc_s, inner.number("pa_deg"), inner.number("height_rs")};
+      inner.finish();
+      return at;
+    };
+    action = action::Tie{place("a"), place("b")};
   } else if (name == "click") {
     const double x = args.number("x"), y = args.number("y");
     if (std::abs(x) > kMaxWindowPx || std::abs(y) > kMaxWindowPx) args.fail("x and y must be window pixels");
@@ -170,7 +186,7 @@ Action parse_action(const json& item, const std::string& source, std::size_t ind
     throw imaging::InputError(source, where + ": \"" + name +
                                           "\" is not an action (frame, step, display, view, contrast, colours, "
                                           "play, pause, resize, hover, leave, quit, point, move, select, delete, "
-                                          "undo, redo, click, shell)");
+                                          "undo, redo, click, shell, tie_mode, tie, clear_ties)");
   }
   args.finish();
   return action;

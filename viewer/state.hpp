@@ -39,6 +39,20 @@ struct MarkedPoint {
   bool automatic = false;   // origin "auto" in the track file; false: "analyst"
 };
 
+// A place clicked on one view's frame, for tie-pointing (viewer/stereo.hpp).
+struct SkyMark {
+  std::string view;
+  double utc_s = 0.0;            // the view's frame it was clicked on
+  double x_rs = 0.0, y_rs = 0.0;  // sky position, R☉ (x west, y north)
+};
+
+// One feature clicked on two views and where their lines of sight meet (Stonyhurst).
+struct TiePoint {
+  SkyMark a, b;
+  double lon_deg = 0.0, lat_deg = 0.0, distance_rs = 0.0;
+  double miss_rs = 0.0;  // how far apart the two lines of sight pass
+};
+
 // The shell drawn on every view (fit/shell.hpp's graduated cylindrical shell): its six
 // parameters in degrees (Stonyhurst lon, lat; tilt, half-angle α) and κ, and the apex law
 // h(t) = h₀ + v (t − t₀) + ½ a (t − t₀)² (fit/scenario.hpp ApexLaw: t₀ UTC seconds, h₀ R☉,
@@ -79,6 +93,13 @@ struct WindowState {
   bool unsaved = false;                            // points changed since the last save or load
 
   ShellControls shell;
+
+  // Tie-pointing: while `tying`, a click is a feature to tie, not a leading-edge point. The
+  // first click's line of sight is drawn on the other views (also the hovered place's,
+  // before a first click); a click on another view ties the pair.
+  bool tying = false;
+  std::optional<SkyMark> tie_first;
+  std::vector<TiePoint> ties;
 };
 
 // The displayed time, or NaN while the timeline is empty.

@@ -9,6 +9,7 @@
 
 #include "imaging/time.hpp"
 #include "viewer/shell_overlay.hpp"
+#include "viewer/stereo.hpp"
 
 namespace occulta::viewer {
 namespace {
@@ -27,6 +28,8 @@ constexpr ImU32 kAutomatic = IM_COL32(110, 200, 255, 255), kAutomaticFaint = IM_
 constexpr ImU32 kPointEdge = IM_COL32(0, 0, 0, 200);
 constexpr ImU32 kSelected = IM_COL32(255, 255, 255, 255);
 constexpr ImU32 kShell = IM_COL32(70, 235, 200, 255);  // the shell's outline
+constexpr ImU32 kTie = IM_COL32(255, 110, 220, 255);    // tie points and epipolar lines
+constexpr double kEpipolarReachRs = 40.0;               // drawn out to this far from Sun centre
 // A click within this many pixels of a point of the shown frame takes that point.
 constexpr float kPickPx = 8.0f;
 // A point is on a frame when their times agree to within this (frames are seconds apart).
@@ -82,6 +85,7 @@ void keys(const WindowState& state, std::span<const Key> pressed, std::vector<Ac
   const double mid = 0.5 * (state.sigma_lo + state.sigma_hi), half = 0.5 * (state.sigma_hi - state.sigma_lo);
   if (typed('[')) out.push_back(action::Contrast{mid - half / 1.25, mid + half / 1.25});
   if (typed(']')) out.push_back(action::Contrast{mid - half * 1.25, mid + half * 1.25});
+  if (typed('t')) out.push_back(action::TieMode{!state.tying});
   if (typed('q')) out.push_back(action::Quit{});
 }
 
@@ -194,8 +198,52 @@ int draw_points(ImDrawList& draw, const PlotFrame& frame, const WindowState& sta
 
 // One view's panel in [lo, hi]; the cursor's action when it is over the image. Whether
 // the mouse is over the image.
-bool view_panel(const WindowState& state, const ShownView& shown, ImVec2 lo, ImVec2 hi, std::vector<Action>& out,
-                std::vector<PanelPlace>* placed) {
+// Where a sky position is drawn on a panel (the polar display: its PA and height).
+ImVec2 panel_pixel(const PlotFrame& frame, bool polar, double x_rs, double y_rs) {
+  return polar ? frame.to_pixel(pa_deg_at(x_rs, y_rs), std::hypot(x_rs, y_rs)) : frame.to_pixel(x_rs, y_rs);
+}
+
+// Tie-pointing on one view: the epipolar line of the first mark (or of the hovered place
+// on another view, before a first click), and the ties' marks on this view.
+void draw_ties(ImDrawList& draw, const PlotFrame& frame, bool polar, const WindowState& state, const ViewPictures& view,
+               const FramePictures& f, const std::vector<ViewPictures>& views) {
+  draw.PushClipRect(frame.pixel_min, frame.pixel_max, true);
+  for (const TiePoint& t : state.ties)
+    for (const SkyMark* m : {&t.a, &t.b})
+      if (m->view == view.name) {
+        const ImVec2 p = panel_pixel(frame, polar, m->x_rs, m->y_rs);
+        const float r = std::abs(m->utc_s - f.utc_s) < kSameFrameS ? 5.0f : 3.5f;
+        draw.AddQuad(ImVec2(p.x, p.y - r), ImVec2(p.x + r, p.y), ImVec2(p.x, p.y + r), ImVec2(p.x - r, p.y), kTie, 1.5f);
+      }
+  std::optional<SkyMark> source = state.tie_first;
+  if (!source && state.tying && state.hover && state.hover->view != view.name)
+    for (const ViewPictures& v : views)
+      if (v.name == state.hover->view && !v.frames.empty())
+        source = SkyMark{v.name, v.frames[std::size_t(std::max(0, nearest_frame(v, displayed_time(state))))].utc_s,
+                         state.hover->x_rs, state.hover->y_rs};
+  if (state.tying && source && source->view != view.name)
+    if (const auto seen = line_of_sight(*source, views)) {
+      std::vector<ImVec2> line;
+      for (const Eigen::Vector2d& p : epipolar_line(*seen, view.grid, f.observer, kEpipolarReachRs)) {
+        const ImVec2 at = panel_pixel(frame, polar, p.x(), p.y());
+        // The polar panel wraps at north: a jump across it starts a new line.
+        if (polar && !line.empty() && std::abs(at.x - line.back().x) > 0.5f * (frame.pixel_max.x - frame.pixel_min.x)) {
+          draw.AddPolyline(line.data(), int(line.size()), kTie, ImDrawFlags_None, 1.0f);
+          line.clear();
+        }
+        line.push_back(at);
+      }
+      if (line.size() > 1) draw.AddPolyline(line.data(), int(line.size()), kTie, ImDrawFlags_None, 1.0f);
+    }
+  if (state.tie_first && state.tie_first->view == view.name) {
+    const ImVec2 p = panel_pixel(frame, polar, state.tie_first->x_rs, state.tie_first->y_rs);
+    draw.AddCircle(p, 6.0f, kTie, 16, 1.5f);
+  }
+  draw.PopClipRect();
+}
+
+bool view_panel(const WindowState& state, const ShownView& shown, const std::vector<ViewPictures>& views, ImVec2 lo,
+                ImVec2 hi, std::vector<Action>& out, std::vector<PanelPlace>* placed) {
   ImDrawList& draw = *ImGui::GetWindowDrawList();
   const ViewPictures& view = *shown.view;
   if (!view.error.empty() || shown.frame < 0) {
@@ -242,6 +290,7 @@ bool view_panel(const WindowState& state, const ShownView& shown, ImVec2 lo, ImV
     draw.AddCircle(p, 6.0f, kCursor, 16, 1.5f);
   }
   if (state.shell.shown) draw_shell(draw, frame, polar, state.shell, f);
+  if (state.tying || !state.ties.empty()) draw_ties(draw, frame, polar, state, view, f, views);
   const int picked = draw_points(draw, frame, state, view.name, f.utc_s);
   // The mouse over the image becomes a hover action (the plot's inverse mapping); a click
   // there takes the point under it or marks a new one, a drag moves the selected one —
@@ -255,7 +304,16 @@ bool view_panel(const WindowState& state, const ShownView& shown, ImVec2 lo, ImV
     if (!state.hover || state.hover->view != view.name || state.hover->x_rs != sky.x || state.hover->y_rs != sky.y)
       out.push_back(action::HoverAt{view.name, sky.x, sky.y});
     const double pa = pa_deg_at(sky.x, sky.y), h = std::hypot(sky.x, sky.y);
-    if (ImGui::IsMouseClicked(ImGuiMouseButton_Left)) {
+    if (state.tying) {
+      if (ImGui::IsMouseClicked(ImGuiMouseButton_Left)) {
+        const SkyMark here{view.name, f.utc_s, sky.x, sky.y};
+        if (state.tie_first && state.tie_first->view != view.name) {
+          if (const auto tie = tie_marks(*state.tie_first, here, views)) out.push_back(action::AddTie{*tie});
+        } else {
+          out.push_back(action::TieFirst{here});
+        }
+      }
+    } else if (ImGui::IsMouseClicked(ImGuiMouseButton_Left)) {
       if (picked >= 0) out.push_back(action::SelectPoint{picked});
       else out.push_back(action::AddPoint{view.name, f.utc_s, pa, h});
     } else if (ImGui::IsMouseDragging(ImGuiMouseButton_Left, 2.0f) && state.selected >= 0 &&
@@ -338,6 +396,23 @@ void work_column(const WindowState& state, std::vector<Action>& out) {
   ImGui::Separator();
   ImGui::TextUnformatted("Shell");
   shell_controls(state, out);
+  ImGui::Separator();
+  ImGui::TextUnformatted("Tie a feature across views");
+  bool tying = state.tying;
+  if (ImGui::Checkbox("clicks tie (t)", &tying)) out.push_back(action::TieMode{tying});
+  if (!state.ties.empty()) {
+    ImGui::SameLine();
+    if (ImGui::SmallButton("clear")) out.push_back(action::ClearTies{});
+  }
+  if (state.tying)
+    ImGui::TextDisabled(state.tie_first ? "now click it on another view's line" : "click a feature on one view");
+  const std::size_t first = state.ties.size() > 3 ? state.ties.size() - 3 : 0;
+  for (std::size_t i = first; i < state.ties.size(); ++i) {
+    const TiePoint& t = state.ties[i];
+    ImGui::TextColored(ImGui::ColorConvertU32ToFloat4(kTie), "%zu: lon %.1f° lat %.1f° r %.2f R☉", i + 1, t.lon_deg, t.lat_deg,
+                       t.distance_rs);
+    if (ImGui::IsItemHovered()) ImGui::SetTooltip("the two lines of sight pass %.2f R☉ apart", t.miss_rs);
+  }
 }
 
 void readout(const WindowState& state, const std::vector<ShownView>& shown) {
@@ -464,7 +539,7 @@ std::vector<Action> draw_window(const WindowState& state, const std::vector<Show
     const float w = panels_w / float(shown.size());
     bool over_image = false;
     for (std::size_t i = 0; i < shown.size(); ++i)
-      over_image |= view_panel(state, shown[i], ImVec2(std::floor(lo.x + i * w), lo.y),
+      over_image |= view_panel(state, shown[i], views, ImVec2(std::floor(lo.x + i * w), lo.y),
                                ImVec2(std::floor(lo.x + (i + 1) * w) - 6, lo.y + panels_h), out, placed);
     // The mouse left the images (a snapshot has no mouse: its hover stays as scripted).
     if (state.hover && !over_image && ImGui::IsMousePosValid()) out.push_back(action::Leave{});
@@ -545,8 +620,24 @@ void click(WindowState& state, const std::vector<ViewPictures>& views, const act
 void run_script(WindowState& state, const std::vector<ViewPictures>& views, std::span<const Action> script,
                 const HeadlessOptions& options) {
   for (const Action& a : script) {
-    if (const auto* c = std::get_if<action::Click>(&a)) click(state, views, *c, options);
-    else apply(state, a);
+    if (const auto* c = std::get_if<action::Click>(&a)) {
+      click(state, views, *c, options);
+    } else if (const auto* t = std::get_if<action::Tie>(&a)) {
+      // As two clicks would: each place on its view's frame nearest in time.
+      const auto mark = [&](const action::AddPoint& p) -> std::optional<SkyMark> {
+        for (const ViewPictures& v : views)
+          if (v.name == p.view && !v.frames.empty()) {
+            const MarkedPoint at{p.view, 0.0, p.pa_deg, p.height_rs};
+            return SkyMark{p.view, v.frames[std::size_t(nearest_frame(v, p.utc_s))].utc_s, sky_x_rs(at), sky_y_rs(at)};
+          }
+        return std::nullopt;
+      };
+      const auto ma = mark(t->a), mb = mark(t->b);
+      if (ma && mb)
+        if (const auto tie = tie_marks(*ma, *mb, views)) apply(state, action::AddTie{*tie});
+    } else {
+      apply(state, a);
+    }
   }
 }
 

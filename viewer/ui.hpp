@@ -12,7 +12,8 @@
 // 1–5 the displays (calibrated, running difference, base difference, NRGF, polar),
 // c the next colour table, v the next view alone (then all), [ and ] narrow and widen the
 // contrast, Home / End the first and last frame, q quit; u undo, r redo, x (or Delete,
-// Backspace) delete the selected point. The left button on a frame marks a point, or
+// Backspace) delete the selected point, t tie features across views (clicks tie, again:
+// clicks mark). The left button on a frame marks a point, or
 // selects the point under it; dragging moves the selected point. Each gives the same
 // action a script does.
 #pragma once
