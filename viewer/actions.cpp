@@ -1,6 +1,7 @@
 // viewer/actions.cpp — see actions.hpp.
 #include "viewer/actions.hpp"
 
+#include "fit/measurement.hpp"
 #include "fit/shell.hpp"
 #include "viewer/shell_overlay.hpp"
 
@@ -68,6 +69,30 @@ void step_back(std::vector<std::vector<MarkedPoint>>& from, std::vector<std::vec
   s.unsaved = true;
 }
 
+// The points a measurement took from its automatic track (not the analyst's).
+std::vector<MarkedPoint> automatic_points(const fit::Measurement& m) {
+  std::vector<MarkedPoint> out;
+  for (const fit::ViewMeasurement& v : m.views)
+    if (!v.by_analyst)
+      for (const fit::TrackPoint& p : v.points) out.push_back({p.view, p.utc_s, p.pa_deg, p.height_rs, true});
+  return out;
+}
+
+// The controls showing a fitted shell (radians → degrees; the law as fitted).
+ShellControls controls_of(const fit::ShellFit& fit, ShellControls c) {
+  constexpr double deg = 180.0 / std::numbers::pi;
+  c.lon_deg = fit.shell.lon * deg;
+  c.lat_deg = fit.shell.lat * deg;
+  c.tilt_deg = fit.shell.tilt * deg;
+  c.half_angle_deg = fit.shell.half_angle * deg;
+  c.aspect_ratio = fit.shell.aspect_ratio;
+  c.ref_utc_s = fit.law.ref_time_s;
+  c.apex_height_rs = fit.law.height_rs;
+  c.speed_km_s = fit.law.speed_km_s;
+  c.accel_m_s2 = fit.law.accel_m_s2;
+  return c;
+}
+
 }  // namespace
 
 std::span<const Display> displays() { return kDisplays; }
@@ -120,7 +145,13 @@ void apply(WindowState& s, const Action& a) {
             if (std::isfinite(h.x_rs) && std::isfinite(h.y_rs)) s.hover = Hover{h.view, h.x_rs, h.y_rs};
           },
           [&](const action::Leave&) { s.hover.reset(); },
-          [&](const action::Quit&) { s.quit = true; },
+          [&](const action::Quit&) {
+            if (s.unsaved && !s.points.empty()) s.asking_quit = true;
+            else s.quit = true;
+          },
+          [&](const action::QuitAnyway&) { s.quit = true; },
+          [&](const action::KeepWorking&) { s.asking_quit = false; },
+          [&](const action::Help& h) { s.help = h.shown; },
           [&](const action::Timeline& t) {
             // Keep the displayed time: the new timeline's nearest frame to it.
             const double now = displayed_time(s);
@@ -189,6 +220,51 @@ void apply(WindowState& s, const Action& a) {
             s.ties.clear();
             s.tie_first.reset();
           },
+          [&](const action::Fit& f) {
+            std::string points = f.points;
+            if (points.empty()) points = s.points.empty() ? "auto" : "analyst";
+            if (points != "auto" && s.points.empty()) {
+              s.message = "There are no points to fit: mark the leading edge, or fit the automatic track.";
+              return;
+            }
+            s.fit_request = points;
+          },
+          [&](const action::FitDone& d) {
+            s.fit_request.clear();
+            s.message = d.message;
+            if (!d.measured) return;
+            s.measured = d.measured;
+            s.measured_points = d.points;
+            s.measured_seconds = d.seconds;
+            if (d.points == "auto") s.auto_points = automatic_points(*d.measured);
+            if (const auto& fit = d.measured->shell.fit) {
+              s.shell = controls_of(*fit, s.shell);
+              s.shell.shown = true;
+            }
+          },
+          [&](const action::Adopt& adopt) {
+            if (adopt.index >= int(s.auto_points.size()) || s.auto_points.empty()) return;
+            before_change(s);
+            for (std::size_t i = 0; i < s.auto_points.size(); ++i)
+              if (adopt.index < 0 || int(i) == adopt.index) s.points.push_back(s.auto_points[i]);
+          },
+          [&](const action::SaveTrack&) {},  // performed by the window (session.hpp)
+          [&](const action::LoadTrack&) {},
+          [&](const action::Export&) {},
+          [&](const action::TrackRead& r) {
+            before_change(s);
+            s.points = r.points;
+            s.selected = -1;
+            s.unsaved = false;
+            s.track_path = r.path;
+            s.message = "Read " + std::to_string(r.points.size()) + " point(s) from " + r.path + ".";
+          },
+          [&](const action::Saved& w) {
+            s.unsaved = false;
+            s.track_path = w.path;
+            s.message = "Saved " + std::to_string(s.points.size()) + " point(s) to " + w.path + ".";
+          },
+          [&](const action::Note& n) { s.message = n.message; },
           [&](const action::SetShell& c) {
             ShellControls next = s.shell;
             if (c.shown) next.shown = *c.shown;

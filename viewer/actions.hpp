@@ -6,6 +6,7 @@
 // can never leave the state inconsistent.
 #pragma once
 
+#include <memory>
 #include <optional>
 #include <string>
 #include <variant>
@@ -26,7 +27,7 @@ struct Pause {};                                 // {"do": "pause"}
 struct Resize { int width, height; };            // {"do": "resize", "width": 1280, "height": 800}
 struct HoverAt { std::string view; double x_rs, y_rs; };  // {"do": "hover", "view": "east", "x": 3.5, "y": -2}
 struct Leave {};                                 // {"do": "leave"}: the cursor left the panels
-struct Quit {};                                  // {"do": "quit"}
+struct Quit {};                                  // {"do": "quit"}; with unsaved points the window asks first
 // Not a person's action: the loader's frame times, when a view has finished loading.
 struct Timeline { std::vector<double> utc_s; };
 struct ViewFrames { std::string view; std::vector<double> utc_s; };  // one view's frame times
@@ -66,6 +67,33 @@ struct AddTie { TiePoint tie; };                // a second click, triangulated 
 struct Tie { AddPoint a, b; };
 struct ClearTies {};                            // {"do": "clear_ties"}
 
+// The measurement over the analyst's points, the automatic ones or both ("" or absent:
+// the analyst's when there are any, else the automatic). The window runs it (on a worker
+// thread; scripts wait for it) and applies FitDone: the answer, and the shell's controls
+// set to the fitted shell. {"do": "fit", "points": "analyst"}
+struct Fit { std::string points; };
+struct FitDone {
+  std::shared_ptr<const fit::Measurement> measured;  // null: it failed (message says why)
+  std::string points;
+  double seconds = 0.0;
+  std::string message;
+};
+// The automatic track's points adopted as points of the analyst's list (then editable):
+// one by its index in auto_points, or all (−1). {"do": "adopt", "index": 3}; {"do": "adopt"}
+struct Adopt { int index = -1; };
+// Files. The window performs them (viewer/session.hpp); apply() records what came of it.
+struct SaveTrack { std::string path; };          // {"do": "save_track", "path": "event.track.json"}
+struct LoadTrack { std::string path; };          // {"do": "load_track", "path": "event.track.json"}
+// {"do": "export", "dir": "out"}: what `occulta measure EVENT --track T --out DIR` writes,
+// T being the window's points, saved first as DIR/analyst.track.json.
+struct Export { std::string dir; };
+struct TrackRead { std::vector<MarkedPoint> points; std::string path; };  // a track file's points replace the list
+struct Saved { std::string path; };             // the points are in that file now
+struct Note { std::string message; };           // a file action's outcome or fault
+struct QuitAnyway {};                           // quit, leaving unsaved points (the autosave keeps them)
+struct KeepWorking {};                          // the quit question answered "no"
+struct Help { bool shown = true; };             // {"do": "help", "shown": true}: the keys
+
 struct SetShell {
   std::optional<bool> shown{};
   std::optional<double> lon_deg{}, lat_deg{}, tilt_deg{}, half_angle_deg{}, aspect_ratio{}, ref_utc_s{},
@@ -81,7 +109,10 @@ using Action = std::variant<action::Frame, action::Step, action::ShowDisplay, ac
                             action::Leave, action::Quit, action::Timeline, action::ViewFrames, action::AddPoint,
                             action::MovePoint, action::EndDrag, action::SelectPoint, action::DeletePoint,
                             action::Undo, action::Redo, action::Click, action::SetShell,
-                            action::TieMode, action::TieFirst, action::AddTie, action::Tie, action::ClearTies>;
+                            action::TieMode, action::TieFirst, action::AddTie, action::Tie, action::ClearTies,
+                            action::Fit, action::FitDone, action::Adopt, action::SaveTrack, action::LoadTrack,
+                            action::Export, action::TrackRead, action::Saved, action::Note, action::QuitAnyway,
+                            action::KeepWorking, action::Help>;
 
 void apply(WindowState& state, const Action& action);
 

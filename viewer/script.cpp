@@ -178,6 +178,25 @@ Action parse_action(const json& item, const std::string& source, std::size_t ind
       return at;
     };
     action = action::Tie{place("a"), place("b")};
+  } else if (name == "fit") {
+    std::string points;
+    if (args.has("points")) {
+      points = args.text("points");
+      if (points != "analyst" && points != "auto" && points != "both") args.fail("\"points\" must be analyst, auto or both");
+    }
+    action = action::Fit{points};
+  } else if (name == "adopt") {
+    action = action::Adopt{args.has("index") ? args.integer("index") : -1};
+  } else if (name == "save_track" || name == "load_track") {
+    const std::string path = args.text("path");
+    if (path.empty()) args.fail("\"path\" must name a file");
+    action = name == "save_track" ? Action{action::SaveTrack{path}} : Action{action::LoadTrack{path}};
+  } else if (name == "help") {
+    action = action::Help{args.boolean("shown")};
+  } else if (name == "export") {
+    const std::string dir = args.text("dir");
+    if (dir.empty()) args.fail("\"dir\" must name a folder");
+    action = action::Export{dir};
   } else if (name == "click") {
     const double x = args.number("x"), y = args.number("y");
     if (std::abs(x) > kMaxWindowPx || std::abs(y) > kMaxWindowPx) args.fail("x and y must be window pixels");
@@ -186,7 +205,8 @@ Action parse_action(const json& item, const std::string& source, std::size_t ind
     throw imaging::InputError(source, where + ": \"" + name +
                                           "\" is not an action (frame, step, display, view, contrast, colours, "
                                           "play, pause, resize, hover, leave, quit, point, move, select, delete, "
-                                          "undo, redo, click, shell, tie_mode, tie, clear_ties)");
+                                          "undo, redo, click, shell, tie_mode, tie, clear_ties, fit, adopt, save_track, "
+                                          "load_track, export, help)");
   }
   args.finish();
   return action;

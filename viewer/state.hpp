@@ -9,6 +9,7 @@
 
 #include <cmath>
 #include <limits>
+#include <memory>
 #include <numbers>
 #include <optional>
 #include <span>
@@ -17,6 +18,10 @@
 #include <vector>
 
 #include "viewer/colour_table.hpp"
+
+namespace occulta::fit {
+struct Measurement;  // fit/measurement.hpp
+}
 
 namespace occulta::viewer {
 
@@ -100,6 +105,19 @@ struct WindowState {
   bool tying = false;
   std::optional<SkyMark> tie_first;
   std::vector<TiePoint> ties;
+
+  // The measurement (fit/measurement.hpp, the one `measure` runs): the last fit's, or the
+  // automatic one made on load; shared, never changed (copies of the state stay cheap).
+  std::string event_id;
+  std::shared_ptr<const fit::Measurement> measured;
+  std::string measured_points;          // the points it used: "analyst", "auto" or "both"
+  double measured_seconds = 0.0;        // how long it took
+  std::string fit_request;              // a fit asked for and not yet done ("": none)
+  std::vector<MarkedPoint> auto_points; // the automatic track of the measurement on load
+  std::string track_path;               // where the points were last saved or loaded from
+  std::string message;                  // the last file or fit action's outcome, one sentence
+  bool asking_quit = false;             // quit asked with unsaved points: the window asks
+  bool help = false;                    // the keys shown
 };
 
 // The displayed time, or NaN while the timeline is empty.

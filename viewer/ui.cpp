@@ -7,6 +7,7 @@
 #include <cstdio>
 #include <numbers>
 
+#include "fit/measurement.hpp"
 #include "imaging/time.hpp"
 #include "viewer/shell_overlay.hpp"
 #include "viewer/stereo.hpp"
@@ -86,6 +87,10 @@ void keys(const WindowState& state, std::span<const Key> pressed, std::vector<Ac
   if (typed('[')) out.push_back(action::Contrast{mid - half / 1.25, mid + half / 1.25});
   if (typed(']')) out.push_back(action::Contrast{mid - half * 1.25, mid + half * 1.25});
   if (typed('t')) out.push_back(action::TieMode{!state.tying});
+  if (typed('f') && state.fit_request.empty()) out.push_back(action::Fit{});
+  if (typed('s')) out.push_back(action::SaveTrack{state.track_path.empty() ? state.event_id + ".track.json" : state.track_path});
+  if (typed('e')) out.push_back(action::Export{state.event_id + ".result"});
+  if (typed('h')) out.push_back(action::Help{!state.help});
   if (typed('q')) out.push_back(action::Quit{});
 }
 
@@ -381,6 +386,122 @@ void shell_controls(const WindowState& state, std::vector<Action>& out) {
   }
 }
 
+// The keys, as the window takes them (ui.hpp).
+void key_help() {
+  static constexpr const char* kKeys[][2] = {
+      {"← →", "step a frame"},       {"Home End", "first, last frame"}, {"space", "play or pause"},
+      {"1 – 5", "the displays"},     {"c", "next colour table"},      {"v", "one view, then all"},
+      {"[ ]", "narrower, wider contrast"}, {"click", "mark the leading edge"}, {"drag", "move the selected point"},
+      {"x Del", "delete the selected point"}, {"u  r", "undo, redo"},     {"t", "tie features across views"},
+      {"f", "fit (the measurement)"}, {"s", "save the points"},        {"e", "export the result"},
+      {"h", "these keys"},            {"q", "quit (asks if unsaved)"}};
+  for (const auto& k : kKeys) {
+    ImGui::TextUnformatted(k[0]);
+    ImGui::SameLine(80);
+    ImGui::TextDisabled("%s", k[1]);
+  }
+}
+
+// "v ± σ unit", or "v unit (σ unknown)" / "not measured".
+std::string with_sigma(double value, double sigma, const char* format, const char* unit) {
+  if (!std::isfinite(value)) return "not measured";
+  char v[64], e[64];
+  std::snprintf(v, sizeof v, format, value);
+  if (!std::isfinite(sigma)) return std::string(v) + " " + unit + " (σ unknown)";
+  std::snprintf(e, sizeof e, format, sigma);
+  return std::string(v) + " ± " + e + " " + unit;
+}
+
+// The arrival times at one target as a histogram (the plotting layer), hours after the
+// first member's arrival bin, with the median marked.
+void arrival_histogram(const fit::TargetArrival& a) {
+  if (a.times_utc_s.size() < 2) return;
+  const double lo = a.times_utc_s.front(), hi = a.times_utc_s.back();
+  const int bins = 16;
+  const double width = std::max(hi - lo, 3600.0) / bins;
+  std::vector<double> edges(bins + 1), counts(bins, 0.0);
+  for (int i = 0; i <= bins; ++i) edges[std::size_t(i)] = lo + i * width;
+  for (double t : a.times_utc_s) counts[std::size_t(std::min(bins - 1, int((t - lo) / width)))] += 1.0;
+  const double most = *std::max_element(counts.begin(), counts.end());
+  const ImVec2 at = ImGui::GetCursorScreenPos();
+  const float w = ImGui::GetContentRegionAvail().x, h = 110.0f;
+  ImDrawList& draw = *ImGui::GetWindowDrawList();
+  PlotMargins margins;
+  margins.title = false;
+  const PlotFrame frame = layout_plot(at, ImVec2(at.x + w, at.y + h), Axis{edges.front(), edges.back(), "arrival (UTC)", true},
+                                      Axis{0.0, most * 1.1, "members"}, margins);
+  draw_axes(draw, frame);
+  draw_bars(draw, frame, edges, counts, IM_COL32(120, 170, 255, 255));
+  if (a.time_p50) draw_marker(draw, frame, *a.time_p50, IM_COL32(255, 200, 40, 255), "median");
+  ImGui::Dummy(ImVec2(w, h));
+}
+
+// The answer: what the last measurement says, with σ, what the data leave open, the
+// 21.5 R☉ boundary and the arrival at each target, the caution beside it.
+void answer(const WindowState& state) {
+  const fit::Measurement* m = state.measured.get();
+  if (!m) {
+    ImGui::TextDisabled(state.fit_request.empty() ? "no measurement yet: fit (f)" : "measuring…");
+    return;
+  }
+  ImGui::TextDisabled("over the %s points, %.2f s: %s", state.measured_points.c_str(), state.measured_seconds, m->status.c_str());
+  const auto& fit = m->shell.fit;
+  if (!fit) {
+    ImGui::TextColored(ImGui::ColorConvertU32ToFloat4(kProblem), "no shell could be fitted");
+    for (const std::string& p : m->problems) ImGui::TextWrapped("%s", p.c_str());
+    return;
+  }
+  constexpr double deg = 180.0 / std::numbers::pi;
+  const auto& sg = fit->sigma;
+  ImGui::TextUnformatted(("speed " + with_sigma(fit->law.speed_km_s, sg[fit::kSpeed], "%.0f", "km/s")).c_str());
+  ImGui::TextUnformatted(("lon " + with_sigma(fit->shell.lon * deg, sg[fit::kLon] * deg, "%.1f", "°")).c_str());
+  ImGui::TextUnformatted(("lat " + with_sigma(fit->shell.lat * deg, sg[fit::kLat] * deg, "%.1f", "°")).c_str());
+  const double face = fit::face_on_width(fit->shell.half_angle, fit->shell.aspect_ratio) * deg;
+  const double edge = fit::edge_on_width(fit->shell.aspect_ratio) * deg;
+  ImGui::TextUnformatted(("face-on width " + with_sigma(face, fit::face_on_width_sigma_rad(*fit) * deg, "%.0f", "°")).c_str());
+  ImGui::TextUnformatted(("edge-on width " + with_sigma(edge, fit::edge_on_width_sigma_rad(*fit) * deg, "%.0f", "°")).c_str());
+  // The residual per view: √(mean r²) over each view's points (fit/shell_fit.hpp's r).
+  for (std::size_t v = 0; v < m->shell.views.size(); ++v) {
+    double sum = 0;
+    int n = 0;
+    for (std::size_t i = 0; i < m->shell.points.size() && i < fit->residuals_rs.size(); ++i)
+      if (m->shell.points[i].view == int(v)) sum += fit->residuals_rs[i] * fit->residuals_rs[i], ++n;
+    if (n > 0) ImGui::TextDisabled("residual %s: %.3f R☉ (%d points)", m->shell.views[v].c_str(), std::sqrt(sum / n), n);
+  }
+  if (!m->shell.not_constrained.empty()) {
+    std::string keys;
+    for (const std::string& k : m->shell.not_constrained) keys += (keys.empty() ? "" : ", ") + k;
+    ImGui::PushTextWrapPos(0);
+    ImGui::TextColored(ImGui::ColorConvertU32ToFloat4(kProblem), "not constrained by the data: %s", keys.c_str());
+    ImGui::PopTextWrapPos();
+  }
+  if (const auto& b = m->shell.boundary; b && b->found) {
+    const std::string when = clock(b->time_s).substr(5, 11);
+    if (std::isfinite(b->time_sigma_s)) ImGui::Text("at 21.5 R☉: %s ± %.0f min", when.c_str(), b->time_sigma_s / 60.0);
+    else ImGui::Text("at 21.5 R☉: %s (σ unknown)", when.c_str());
+    ImGui::TextUnformatted(("  speed " + with_sigma(b->speed_km_s, b->speed_sigma_km_s, "%.0f", "km/s")).c_str());
+  }
+  if (!m->shell.arrival_withheld.empty()) {
+    ImGui::PushTextWrapPos(0);
+    ImGui::TextColored(ImGui::ColorConvertU32ToFloat4(kProblem), "no arrival: %s", m->shell.arrival_withheld.c_str());
+    ImGui::PopTextWrapPos();
+  }
+  for (const fit::TargetArrival& a : m->arrivals) {
+    ImGui::Text("%s: hit %.0f %%", a.target.name.c_str(), 100.0 * a.hit_probability);
+    if (a.time_p50 && a.time_p05 && a.time_p95) {
+      ImGui::Text("  %s (5–95 %%: %s to %s)", clock(*a.time_p50).substr(5, 11).c_str(), clock(*a.time_p05).substr(5, 11).c_str(),
+                  clock(*a.time_p95).substr(5, 11).c_str());
+      arrival_histogram(a);
+    }
+  }
+  if (!m->arrivals.empty()) {
+    // The caution always stands beside any arrival time.
+    ImGui::PushTextWrapPos(0);
+    ImGui::TextColored(ImVec4(1.0f, 0.85f, 0.4f, 1.0f), "%s", std::string(fit::kArrivalCaution).c_str());
+    ImGui::PopTextWrapPos();
+  }
+}
+
 void work_column(const WindowState& state, std::vector<Action>& out) {
   ImGui::TextUnformatted("Points");
   ImGui::TextDisabled("click a frame to mark the leading edge");
@@ -392,6 +513,23 @@ void work_column(const WindowState& state, std::vector<Action>& out) {
   if (state.selected >= 0) {
     ImGui::SameLine();
     if (ImGui::SmallButton("delete")) out.push_back(action::DeletePoint{state.selected});
+  }
+  if (!state.auto_points.empty()) {
+    if (ImGui::SmallButton("adopt the automatic track")) out.push_back(action::Adopt{-1});
+    ImGui::SameLine();
+    ImGui::TextDisabled("%zu points", state.auto_points.size());
+  }
+  {
+    const std::string track = state.track_path.empty() ? state.event_id + ".track.json" : state.track_path;
+    if (ImGui::SmallButton("save (s)")) out.push_back(action::SaveTrack{track});
+    if (ImGui::IsItemHovered()) ImGui::SetTooltip("to %s", track.c_str());
+    ImGui::SameLine();
+    if (ImGui::SmallButton("export (e)")) out.push_back(action::Export{state.event_id + ".result"});
+    if (ImGui::IsItemHovered()) ImGui::SetTooltip("what measure --track writes, to %s.result/", state.event_id.c_str());
+    if (state.unsaved && !state.points.empty()) {
+      ImGui::SameLine();
+      ImGui::TextColored(ImGui::ColorConvertU32ToFloat4(kProblem), "unsaved");
+    }
   }
   ImGui::Separator();
   ImGui::TextUnformatted("Shell");
@@ -413,6 +551,27 @@ void work_column(const WindowState& state, std::vector<Action>& out) {
                        t.distance_rs);
     if (ImGui::IsItemHovered()) ImGui::SetTooltip("the two lines of sight pass %.2f R☉ apart", t.miss_rs);
   }
+  ImGui::Separator();
+  ImGui::TextUnformatted("Fit");
+  ImGui::BeginDisabled(!state.fit_request.empty());
+  if (ImGui::SmallButton("analyst's (f)")) out.push_back(action::Fit{"analyst"});
+  ImGui::SameLine();
+  if (ImGui::SmallButton("automatic")) out.push_back(action::Fit{"auto"});
+  ImGui::SameLine();
+  if (ImGui::SmallButton("both")) out.push_back(action::Fit{"both"});
+  ImGui::EndDisabled();
+  if (!state.fit_request.empty()) ImGui::TextDisabled("measuring the %s points…", state.fit_request.c_str());
+  answer(state);
+  ImGui::Separator();
+  if (!state.message.empty()) {
+    ImGui::PushTextWrapPos(0);
+    ImGui::TextDisabled("%s", state.message.c_str());
+    ImGui::PopTextWrapPos();
+  }
+  ImGui::SetNextItemOpen(state.help);
+  const bool help = ImGui::CollapsingHeader("Keys (h)");
+  if (help != state.help) out.push_back(action::Help{help});
+  if (help) key_help();
 }
 
 void readout(const WindowState& state, const std::vector<ShownView>& shown) {
@@ -561,6 +720,22 @@ std::vector<Action> draw_window(const WindowState& state, const std::vector<Show
       break;  // one line: the first problem of each view
     }
   timeline(state, shown, loading, out);
+  if (state.asking_quit) {
+    // Unsaved work is never lost silently.
+    ImGui::OpenPopup("Unsaved points");
+    ImGui::SetNextWindowPos(ImVec2(0.5f * float(state.width), 0.5f * float(state.height)), ImGuiCond_Always, ImVec2(0.5f, 0.5f));
+    if (ImGui::BeginPopupModal("Unsaved points", nullptr, ImGuiWindowFlags_AlwaysAutoResize)) {
+      ImGui::Text("%zu point(s) are not saved.", state.points.size());
+      const std::string track = state.track_path.empty() ? state.event_id + ".track.json" : state.track_path;
+      if (ImGui::Button(("save to " + track + " and quit").c_str())) {
+        out.push_back(action::SaveTrack{track});
+        out.push_back(action::Quit{});
+      }
+      if (ImGui::Button("quit (they stay in the autosave)")) out.push_back(action::QuitAnyway{});
+      if (ImGui::Button("keep working")) out.push_back(action::KeepWorking{});
+      ImGui::EndPopup();
+    }
+  }
   ImGui::End();
   return out;
 }
@@ -604,41 +779,16 @@ void in_fresh_context(const WindowState& state, const HeadlessOptions& options, 
   work();
 }
 
-// A click at a window pixel: two frames with the mouse there to lay the window out (Dear
-// ImGui decides what is hovered from the previous frame), one with the button down, one up.
-void click(WindowState& state, const std::vector<ViewPictures>& views, const action::Click& c, const HeadlessOptions& options) {
+}  // namespace
+
+void click_window(WindowState& state, const std::vector<ViewPictures>& views, const action::Click& c,
+                  const HeadlessOptions& options) {
   in_fresh_context(state, options, [&] {
     const ImVec2 at(c.x, c.y);
     for (int i = 0; i < 2; ++i) (void)frame_actions(state, views, at, false);
     for (const bool down : {true, false})
       for (const Action& a : frame_actions(state, views, at, down)) apply(state, a);
   });
-}
-
-}  // namespace
-
-void run_script(WindowState& state, const std::vector<ViewPictures>& views, std::span<const Action> script,
-                const HeadlessOptions& options) {
-  for (const Action& a : script) {
-    if (const auto* c = std::get_if<action::Click>(&a)) {
-      click(state, views, *c, options);
-    } else if (const auto* t = std::get_if<action::Tie>(&a)) {
-      // As two clicks would: each place on its view's frame nearest in time.
-      const auto mark = [&](const action::AddPoint& p) -> std::optional<SkyMark> {
-        for (const ViewPictures& v : views)
-          if (v.name == p.view && !v.frames.empty()) {
-            const MarkedPoint at{p.view, 0.0, p.pa_deg, p.height_rs};
-            return SkyMark{p.view, v.frames[std::size_t(nearest_frame(v, p.utc_s))].utc_s, sky_x_rs(at), sky_y_rs(at)};
-          }
-        return std::nullopt;
-      };
-      const auto ma = mark(t->a), mb = mark(t->b);
-      if (ma && mb)
-        if (const auto tie = tie_marks(*ma, *mb, views)) apply(state, action::AddTie{*tie});
-    } else {
-      apply(state, a);
-    }
-  }
 }
 
 std::vector<PanelPlace> panel_places(const WindowState& state, const std::vector<ViewPictures>& views,

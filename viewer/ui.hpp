@@ -75,11 +75,11 @@ std::vector<PanelPlace> panel_places(const WindowState& state, const std::vector
 Framebuffer draw_window_headless(const WindowState& state, const std::vector<ViewPictures>& views,
                                  const HeadlessOptions& options = {});
 
-// Applies a script's actions to the state in order. A Click is the window's: the window is
-// drawn as the state then stands (draw_window, no pixels) with the left button pressed
-// at that pixel, then let go, and what those two frames ask for is applied.
-void run_script(WindowState& state, const std::vector<ViewPictures>& views, std::span<const Action> script,
-                const HeadlessOptions& options = {});
+// A click at a window pixel: the window is drawn as the state stands (draw_window, no
+// pixels) with the left button pressed at that pixel, then let go, and what those frames
+// ask for is applied (viewer/session.hpp perform, run_script).
+void click_window(WindowState& state, const std::vector<ViewPictures>& views, const action::Click& click,
+                  const HeadlessOptions& options = {});
 
 // The sky position under a panel pixel: the plot's inverse mapping (for the polar display,
 // its (PA, height) turned into a sky position).

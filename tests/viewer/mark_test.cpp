@@ -14,6 +14,7 @@
 #include "imaging/time.hpp"
 #include "tests/support/support.hpp"
 #include "viewer/script.hpp"
+#include "viewer/session.hpp"
 #include "viewer/ui.hpp"
 
 namespace {

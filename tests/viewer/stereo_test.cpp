@@ -16,6 +16,7 @@
 #include "tests/support/support.hpp"
 #include "viewer/script.hpp"
 #include "viewer/stereo.hpp"
+#include "viewer/session.hpp"
 #include "viewer/ui.hpp"
 
 namespace {
