@@ -246,12 +246,7 @@ int present(WindowState state, std::vector<ViewSource> sources, const std::vecto
         err << "occulta view: loaded " << views.size() << " view(s), " << state.timeline_utc_s.size() << " frame times.\n";
         run_script(state, views, script, session);
         script_applied = true;
-        // The automatic measurement, for its track and a first answer.
-        if (session.input && !fitting.valid()) {
-          apply(state, action::Fit{"auto"});
-          const WindowState asked = state;
-          fitting = std::async(std::launch::async, [&session, asked] { return run_fit(asked, session, "auto"); });
-        }
+
         if (state.width > 0) glfwSetWindowSize(window, state.width, state.height);
       }
       int w = 0, h = 0;

@@ -10,9 +10,9 @@
 //
 // The views load on a worker thread (pictures.hpp Loader) while the window stays
 // responsive, with progress shown; `script` is applied once they have loaded. Playing
-// steps one frame each kPlayStepS, wrapping at the end. Then the automatic measurement
-// runs on a worker thread (its track can be shown and adopted), as does every fit the
-// analyst asks for; the window keeps drawing meanwhile. Points changed and not saved are
+// steps one frame each kPlayStepS, wrapping at the end. Every fit the analyst asks for
+// (the automatic one gives the automatic track to show and adopt) runs on a worker
+// thread; the window keeps drawing meanwhile. Points changed and not saved are
 // written every kAutosaveS to the autosave file (autosave_path), and quitting with them
 // unsaved asks first.
 #pragma once

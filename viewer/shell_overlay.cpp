@@ -12,8 +12,8 @@ namespace {
 
 constexpr double kRad = std::numbers::pi / 180.0;
 
-// What measure's shell picture samples the shell with (app/shell_report.cpp).
-constexpr fit::MeshResolution kOutlineMesh{32, 192, 144};
+// Finer than measure's shell picture ({16, 96, 72}): see the header.
+constexpr fit::MeshResolution kOutlineMesh{24, 144, 108};
 
 struct Remembered {
   ShellControls controls;

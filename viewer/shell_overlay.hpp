@@ -1,7 +1,8 @@
 // viewer/shell_overlay.hpp — the shell of the window's controls as each view sees it: the
-// same geometry `measure`'s shell picture draws (fit/shell.hpp: the mesh {16, 96, 72}
-// projected through the frame's observer, its largest plane-of-sky height per 1° of PA,
-// fit::sky_outline).
+// geometry `measure`'s shell picture draws (fit/shell.hpp: the mesh projected through the
+// frame's observer, its largest plane-of-sky height per 1° of PA, fit::sky_outline), on a
+// finer mesh, {24, 144, 108}: measure's {16, 96, 72} falls up to 1.6 window pixels inside
+// the true outline at 1280 × 800 (tests/viewer/shell_overlay_test.cpp), this one 0.53.
 //
 // Conventions: PA counter-clockwise from solar north through east (deg), heights in R☉ in
 // the plane of the sky; sky positions x west, y north in R☉ (viewer/state.hpp); times UTC

@@ -486,20 +486,23 @@ void answer(const WindowState& state) {
     ImGui::TextColored(ImGui::ColorConvertU32ToFloat4(kProblem), "no arrival: %s", m->shell.arrival_withheld.c_str());
     ImGui::PopTextWrapPos();
   }
+  // The caution stands beside the arrival times: right under them, before any histogram.
   for (const fit::TargetArrival& a : m->arrivals) {
     ImGui::Text("%s: hit %.0f %%", a.target.name.c_str(), 100.0 * a.hit_probability);
-    if (a.time_p50 && a.time_p05 && a.time_p95) {
+    if (a.time_p50 && a.time_p05 && a.time_p95)
       ImGui::Text("  %s (5–95 %%: %s to %s)", clock(*a.time_p50).substr(5, 11).c_str(), clock(*a.time_p05).substr(5, 11).c_str(),
                   clock(*a.time_p95).substr(5, 11).c_str());
-      arrival_histogram(a);
-    }
   }
   if (!m->arrivals.empty()) {
-    // The caution always stands beside any arrival time.
     ImGui::PushTextWrapPos(0);
     ImGui::TextColored(ImVec4(1.0f, 0.85f, 0.4f, 1.0f), "%s", std::string(fit::kArrivalCaution).c_str());
     ImGui::PopTextWrapPos();
   }
+  for (const fit::TargetArrival& a : m->arrivals)
+    if (a.time_p50) {
+      ImGui::TextDisabled("%s: arrival times of the ensemble's hits", a.target.name.c_str());
+      arrival_histogram(a);
+    }
 }
 
 void work_column(const WindowState& state, std::vector<Action>& out) {
