@@ -152,6 +152,9 @@ void apply(WindowState& s, const Action& a) {
           [&](const action::QuitAnyway&) { s.quit = true; },
           [&](const action::KeepWorking&) { s.asking_quit = false; },
           [&](const action::Help& h) { s.help = h.shown; },
+          [&](const action::HeightTimePa& h) {
+            s.height_time_pa_deg = std::isfinite(h.pa_deg) ? wrapped_pa(h.pa_deg) : std::numeric_limits<double>::quiet_NaN();
+          },
           [&](const action::Timeline& t) {
             // Keep the displayed time: the new timeline's nearest frame to it.
             const double now = displayed_time(s);

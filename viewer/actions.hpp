@@ -6,6 +6,7 @@
 // can never leave the state inconsistent.
 #pragma once
 
+#include <limits>
 #include <memory>
 #include <optional>
 #include <string>
@@ -94,6 +95,11 @@ struct QuitAnyway {};                           // quit, leaving unsaved points 
 struct KeepWorking {};                          // the quit question answered "no"
 struct Help { bool shown = true; };             // {"do": "help", "shown": true}: the keys
 
+// The PA the height–time panels follow (a right click on a frame picks it); NaN or
+// {"do": "height_time_pa"} with no pa_deg: back to the points' mean direction.
+// {"do": "height_time_pa", "pa_deg": 265}
+struct HeightTimePa { double pa_deg = std::numeric_limits<double>::quiet_NaN(); };
+
 struct SetShell {
   std::optional<bool> shown{};
   std::optional<double> lon_deg{}, lat_deg{}, tilt_deg{}, half_angle_deg{}, aspect_ratio{}, ref_utc_s{},
@@ -112,7 +118,7 @@ using Action = std::variant<action::Frame, action::Step, action::ShowDisplay, ac
                             action::TieMode, action::TieFirst, action::AddTie, action::Tie, action::ClearTies,
                             action::Fit, action::FitDone, action::Adopt, action::SaveTrack, action::LoadTrack,
                             action::Export, action::TrackRead, action::Saved, action::Note, action::QuitAnyway,
-                            action::KeepWorking, action::Help>;
+                            action::KeepWorking, action::Help, action::HeightTimePa>;
 
 void apply(WindowState& state, const Action& action);
 

@@ -98,6 +98,8 @@ struct WindowState {
   bool unsaved = false;                            // points changed since the last save or load
 
   ShellControls shell;
+  // The PA the height–time panels follow; NaN: each view's points' mean direction.
+  double height_time_pa_deg = std::numeric_limits<double>::quiet_NaN();
 
   // Tie-pointing: while `tying`, a click is a feature to tie, not a leading-edge point. The
   // first click's line of sight is drawn on the other views (also the hovered place's,

@@ -9,6 +9,7 @@
 
 #include "fit/measurement.hpp"
 #include "imaging/time.hpp"
+#include "viewer/height_time.hpp"
 #include "viewer/shell_overlay.hpp"
 #include "viewer/stereo.hpp"
 
@@ -203,6 +204,46 @@ int draw_points(ImDrawList& draw, const PlotFrame& frame, const WindowState& sta
 
 // One view's panel in [lo, hi]; the cursor's action when it is over the image. Whether
 // the mouse is over the image.
+// The view's height–time panel: the map along its PA, the displayed time, the kinematic fit
+// of the view's points with its ±σ band, and the points.
+void height_time_panel(const WindowState& state, const ShownView& shown, ImVec2 lo, ImVec2 hi) {
+  ImDrawList& draw = *ImGui::GetWindowDrawList();
+  if (shown.frame < 0) return;
+  if (!std::isfinite(shown.time_height_pa_deg)) {
+    draw.AddText(ImGui::GetFont(), ImGui::GetFontSize(), ImVec2(lo.x + 8, lo.y + 8), IM_COL32(150, 150, 150, 255),
+                 (shown.view->name + ": mark points (or right-click a frame) for the height–time panel").c_str(), nullptr,
+                 hi.x - lo.x - 16);
+    return;
+  }
+  const ImageExtent& e = shown.time_height.extent;
+  PanelAxes axes;
+  char title[96];
+  std::snprintf(title, sizeof title, "%s · height–time at PA %.0f°", shown.view->name.c_str(), shown.time_height_pa_deg);
+  axes.title = title;
+  axes.x = Axis{e.left, e.right, "time (UTC)", true};
+  axes.y = Axis{e.bottom, e.top, "height (R☉)"};
+  const PlotFrame frame = draw_image_panel(draw, lo, hi, shown.time_height, axes);
+  draw.PushClipRect(frame.pixel_min, frame.pixel_max, true);
+  const double now = shown.view->frames[std::size_t(shown.frame)].utc_s;
+  draw.AddLine(frame.to_pixel(now, e.bottom), frame.to_pixel(now, e.top), IM_COL32(255, 255, 255, 90), 1.0f);
+  if (const auto fit = height_time_fit(state, *shown.view)) {
+    std::vector<DataPoint> law, above, below;
+    for (int i = 0; i <= 60; ++i) {
+      const double t = e.left + (e.right - e.left) * i / 60.0, h = fit->law.height_at(t), s = height_sigma_rs(*fit, t);
+      law.push_back({t, h});
+      above.push_back({t, h + s});
+      below.push_back({t, h - s});
+    }
+    draw_line(draw, frame, above, IM_COL32(70, 235, 200, 140), 1.0f);
+    draw_line(draw, frame, below, IM_COL32(70, 235, 200, 140), 1.0f);
+    draw_line(draw, frame, law, kShell, 1.5f);
+  }
+  for (const MarkedPoint& p : state.points)
+    if (p.view == shown.view->name)
+      draw.AddCircleFilled(frame.to_pixel(p.utc_s, p.height_rs), 3.0f, p.automatic ? kAutomatic : kAnalyst, 10);
+  draw.PopClipRect();
+}
+
 // Where a sky position is drawn on a panel (the polar display: its PA and height).
 ImVec2 panel_pixel(const PlotFrame& frame, bool polar, double x_rs, double y_rs) {
   return polar ? frame.to_pixel(pa_deg_at(x_rs, y_rs), std::hypot(x_rs, y_rs)) : frame.to_pixel(x_rs, y_rs);
@@ -309,6 +350,7 @@ bool view_panel(const WindowState& state, const ShownView& shown, const std::vec
     if (!state.hover || state.hover->view != view.name || state.hover->x_rs != sky.x || state.hover->y_rs != sky.y)
       out.push_back(action::HoverAt{view.name, sky.x, sky.y});
     const double pa = pa_deg_at(sky.x, sky.y), h = std::hypot(sky.x, sky.y);
+    if (ImGui::IsMouseClicked(ImGuiMouseButton_Right)) out.push_back(action::HeightTimePa{pa});
     if (state.tying) {
       if (ImGui::IsMouseClicked(ImGuiMouseButton_Left)) {
         const SkyMark here{view.name, f.utc_s, sky.x, sky.y};
@@ -662,6 +704,12 @@ std::vector<ShownView> shown_views(const WindowState& state, const std::vector<V
       s.panel = make_image_panel(f.image(state.display), extent, scale,
                                  reinterpret_cast<ImTextureID>(std::uintptr_t(shown.size() + 1)),
                                  state.display == Display::polar ? Sampling::nearest : Sampling::bilinear);
+      if (const auto pa = height_time_pa(state, v.name)) {
+        s.time_height_pa_deg = *pa;
+        const ColourScale map_scale{state.colours, state.sigma_lo, state.sigma_hi, "σ"};
+        s.time_height = make_image_panel(time_height_map(v, *pa), time_height_extent(v), map_scale,
+                                         reinterpret_cast<ImTextureID>(std::uintptr_t(shown.size() + 101)), Sampling::nearest);
+      }
     }
     shown.push_back(std::move(s));
   }
@@ -670,8 +718,10 @@ std::vector<ShownView> shown_views(const WindowState& state, const std::vector<V
 
 std::vector<Texture> textures_of(const std::vector<ShownView>& shown) {
   std::vector<Texture> textures;
-  for (const ShownView& s : shown)
+  for (const ShownView& s : shown) {
     if (s.frame >= 0) textures.push_back(s.panel.texture);
+    if (std::isfinite(s.time_height_pa_deg)) textures.push_back(s.time_height.texture);
+  }
   return textures;
 }
 
@@ -699,10 +749,15 @@ std::vector<Action> draw_window(const WindowState& state, const std::vector<Show
     ImGui::TextUnformatted(loading.done ? "No view could be loaded." : "Loading…");
   } else {
     const float w = panels_w / float(shown.size());
+    // The frames above, each view's height–time panel under its frame.
+    const float sky_h = std::floor(panels_h * 0.68f);
     bool over_image = false;
-    for (std::size_t i = 0; i < shown.size(); ++i)
+    for (std::size_t i = 0; i < shown.size(); ++i) {
       over_image |= view_panel(state, shown[i], views, ImVec2(std::floor(lo.x + i * w), lo.y),
-                               ImVec2(std::floor(lo.x + (i + 1) * w) - 6, lo.y + panels_h), out, placed);
+                               ImVec2(std::floor(lo.x + (i + 1) * w) - 6, lo.y + sky_h), out, placed);
+      height_time_panel(state, shown[i], ImVec2(std::floor(lo.x + i * w), lo.y + sky_h + 4),
+                        ImVec2(std::floor(lo.x + (i + 1) * w) - 6, lo.y + panels_h));
+    }
     // The mouse left the images (a snapshot has no mouse: its hover stays as scripted).
     if (state.hover && !over_image && ImGui::IsMousePosValid()) out.push_back(action::Leave{});
     if (state.dragging && !ImGui::IsMouseDown(ImGuiMouseButton_Left)) out.push_back(action::EndDrag{});

@@ -18,6 +18,7 @@
 // action a script does.
 #pragma once
 
+#include <limits>
 #include <span>
 #include <string>
 #include <vector>
@@ -35,6 +36,9 @@ struct ShownView {
   const ViewPictures* view = nullptr;
   int frame = -1;  // index into view->frames: the frame nearest the displayed time; −1: none yet
   ImagePanel panel;
+  // The height–time panel (viewer/height_time.hpp) along this PA; NaN: none to show yet.
+  double time_height_pa_deg = std::numeric_limits<double>::quiet_NaN();
+  ImagePanel time_height;
 };
 
 std::vector<ShownView> shown_views(const WindowState& state, const std::vector<ViewPictures>& views);
