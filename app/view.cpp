@@ -3,11 +3,14 @@
 
 #include <filesystem>
 #include <ostream>
+#include <sstream>
 
+#include "app/measure.hpp"
 #include "fit/event.hpp"
 #include "imaging/input_error.hpp"
 #include "viewer/present.hpp"
 #include "viewer/script.hpp"
+#include "viewer/session.hpp"
 #include "viewer/ui.hpp"
 
 namespace occulta::app {
@@ -33,19 +36,33 @@ int view(const ViewOptions& options, std::ostream& out, std::ostream& err) {
   // Read everything that can be wrong before any work: the script, then the event.
   const std::vector<viewer::Action> script =
       options.script.empty() ? std::vector<viewer::Action>{} : viewer::read_script(options.script);
-  const fs::path input = options.input;
-  const fit::Event event = fs::is_directory(input) ? fit::event_from_folder(input) : fit::read_event(input);
+  // The event as `measure` reads it: the fit and the export are its measurement.
+  viewer::Session session;
+  session.input = fit::load_measurement_input(options.input);
+  session.options.median = options.median;
+  session.export_result = [&options](const fs::path& track, const fs::path& dir) {
+    MeasureOptions measure;
+    measure.input = options.input;
+    measure.out_dir = dir.string();
+    measure.track = track.string();
+    measure.measurement.median = options.median;
+    measure.quiet = true;
+    std::ostringstream ignored;  // the result's problems are in result.json and on screen
+    (void)run_measure(measure, ignored);
+  };
+  const fit::Event& event = session.input->event;
 
   std::vector<viewer::ViewSource> sources;
   viewer::WindowState state;
   state.width = width;
   state.height = height;
+  state.event_id = event.id;
   for (const fit::EventView& v : event.views) {
     sources.push_back({v.name, v.files, fit::chain_options(event, v, options.median)});
     state.views.push_back(v.name);
   }
 
-  if (options.snapshot.empty()) return viewer::present(std::move(state), std::move(sources), script, err);
+  if (options.snapshot.empty()) return viewer::present(std::move(state), std::move(sources), script, session, err);
 
   std::vector<viewer::ViewPictures> views;
   int status = 0;  // 1: drawn, but a view could not be loaded (the picture says which)
@@ -54,7 +71,9 @@ int view(const ViewOptions& options, std::ostream& out, std::ostream& err) {
     if (!views.back().error.empty()) err << "occulta view: " << views.back().error << '\n', status = 1;
   }
   viewer::apply(state, viewer::action::Timeline{viewer::frame_times(views)});
-  for (const viewer::Action& a : script) viewer::apply(state, a);
+  for (const viewer::ViewPictures& v : views) viewer::apply(state, viewer::action::ViewFrames{v.name, viewer::frame_times(v)});
+  viewer::run_script(state, views, script, session);
+  if (!state.message.empty()) err << "occulta view: " << state.message << '\n';
   viewer::write_png(viewer::draw_window_headless(state, views), options.snapshot);
   out << "wrote " << options.snapshot << " (" << state.width << "×" << state.height << ", "
       << viewer::display_label(state.display) << ", frame " << state.frame + 1 << " of " << state.timeline_utc_s.size()

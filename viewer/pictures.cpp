@@ -120,6 +120,7 @@ ViewPictures load_view(const ViewSource& source, int max_display_px, const std::
       if (base_time && f.frame.utc_s <= *base_time) base = now.clone();
       FramePictures p;
       p.utc_s = f.frame.utc_s;
+      p.observer = f.frame.geometry.observer;
       p.calibrated = for_display(standardized(log_brightness(now)), display);
       p.running_difference = for_display(imaging::sigma_difference(now, f.previous_registered), display);
       p.base_difference = for_display(imaging::sigma_difference(now, base), display);
@@ -162,6 +163,12 @@ std::vector<double> frame_times(const std::vector<ViewPictures>& views) {
     for (const FramePictures& f : v.frames) times.push_back(f.utc_s);
   std::sort(times.begin(), times.end());
   times.erase(std::unique(times.begin(), times.end()), times.end());
+  return times;
+}
+
+std::vector<double> frame_times(const ViewPictures& view) {
+  std::vector<double> times;
+  for (const FramePictures& f : view.frames) times.push_back(f.utc_s);
   return times;
 }
 

@@ -47,6 +47,7 @@ struct ViewSource {
 struct FramePictures {
   double utc_s = 0.0;
   cv::Mat calibrated, running_difference, base_difference, nrgf, polar;
+  imaging::Observer observer;  // where the frame was taken from (its header or the event file)
 
   const cv::Mat& image(Display display) const;
 };
@@ -73,6 +74,8 @@ int nearest_frame(const ViewPictures& view, double utc_s);
 
 // Every view's frame times, merged and increasing (the timeline).
 std::vector<double> frame_times(const std::vector<ViewPictures>& views);
+// One view's (action::ViewFrames).
+std::vector<double> frame_times(const ViewPictures& view);
 
 // imaging::robust_sigma-scaled value under a sky position (x_rs west, y_rs north), or under
 // its (PA, height) on the polar display; NaN outside the image.

@@ -2,6 +2,7 @@
 #include "viewer/present.hpp"
 
 #include <chrono>
+#include <future>
 #include <cstdlib>
 #include <ostream>
 #include <string>
@@ -13,6 +14,7 @@
 #include <imgui.h>
 #include <backends/imgui_impl_glfw.h>
 
+#include "imaging/input_error.hpp"
 #include "viewer/headless.hpp"
 #include "viewer/raster.hpp"
 #include "viewer/ui.hpp"
@@ -93,6 +95,8 @@ void on_key(GLFWwindow*, int key, int, int action, int) {
     case GLFW_KEY_RIGHT: g_pressed.push_back(Key::right); break;
     case GLFW_KEY_HOME: g_pressed.push_back(Key::home); break;
     case GLFW_KEY_END: g_pressed.push_back(Key::end); break;
+    case GLFW_KEY_DELETE:
+    case GLFW_KEY_BACKSPACE: g_pressed.push_back(Key::erase); break;
     default: break;
   }
 }
@@ -154,7 +158,13 @@ void show_x11(GLFWwindow* window, const Framebuffer& fb, std::vector<std::uint32
 
 }  // namespace
 
-int present(WindowState state, std::vector<ViewSource> sources, const std::vector<Action>& script, std::ostream& err) {
+std::string autosave_path(const WindowState& state) {
+  if (!state.track_path.empty()) return state.track_path + ".autosave";
+  return (state.event_id.empty() ? std::string("occulta") : state.event_id) + ".autosave.track.json";
+}
+
+int present(WindowState state, std::vector<ViewSource> sources, const std::vector<Action>& script, const Session& session,
+            std::ostream& err) {
   glfwSetErrorCallback(nullptr);
   if (!glfwInit()) {
     err << "occulta view: there is no display to open a window on (" << last_glfw_error()
@@ -215,19 +225,28 @@ int present(WindowState state, std::vector<ViewSource> sources, const std::vecto
   {
     Loader loader(std::move(sources));
     bool script_applied = false;
+    std::future<action::FitDone> fitting;  // the measurement running on a worker thread
+    auto last_autosave = std::chrono::steady_clock::now();
     auto last_step = std::chrono::steady_clock::now();
-    while (!glfwWindowShouldClose(window) && !state.quit) {
-      glfwWaitEventsTimeout(state.playing || !loader.done() ? 0.02 : 0.1);
+    while (!state.quit) {
+      glfwWaitEventsTimeout(state.playing || !loader.done() || fitting.valid() ? 0.02 : 0.1);
+      if (glfwWindowShouldClose(window)) {  // the window manager's close: as q, asking first
+        glfwSetWindowShouldClose(window, GLFW_FALSE);
+        apply(state, action::Quit{});
+        if (state.quit) break;
+      }
       for (ViewPictures& v : loader.take_finished()) {
         views.push_back(std::move(v));
         apply(state, action::Timeline{frame_times(views)});
+        apply(state, action::ViewFrames{views.back().name, frame_times(views.back())});
       }
       if (loader.done() && !script_applied) {
         for (const ViewPictures& v : views)
           if (!v.error.empty()) err << "occulta view: " << v.error << '\n';
         err << "occulta view: loaded " << views.size() << " view(s), " << state.timeline_utc_s.size() << " frame times.\n";
-        for (const Action& a : script) apply(state, a);
+        run_script(state, views, script, session);
         script_applied = true;
+
         if (state.width > 0) glfwSetWindowSize(window, state.width, state.height);
       }
       int w = 0, h = 0;
@@ -258,7 +277,37 @@ int present(WindowState state, std::vector<ViewSource> sources, const std::vecto
       } else {
         show_x11(window, fb, scratch);
       }
-      for (const Action& a : actions) apply(state, a);
+      for (const Action& a : actions) {
+        // A fit asked for while none runs: on the worker; the window keeps drawing.
+        if (const auto* f = std::get_if<action::Fit>(&a)) {
+          if (fitting.valid()) continue;
+          apply(state, *f);
+          if (state.fit_request.empty()) continue;
+          const WindowState asked = state;
+          fitting = std::async(std::launch::async, [&session, asked] { return run_fit(asked, session, asked.fit_request); });
+          continue;
+        }
+        perform(state, views, session, a);
+      }
+      if (fitting.valid() && fitting.wait_for(std::chrono::seconds(0)) == std::future_status::ready) apply(state, fitting.get());
+      // Unsaved points are never lost silently: an autosave every kAutosaveS.
+      if (state.unsaved && std::chrono::duration<double>(now - last_autosave).count() >= kAutosaveS) {
+        last_autosave = now;
+        try {
+          fit::write_track(autosave_path(state), track_of(state));
+        } catch (const imaging::InputError& e) {
+          apply(state, action::Note{e.what()});
+        }
+      }
+    }
+    if (fitting.valid()) fitting.wait();  // the worker reads the session: let it finish
+    if (state.unsaved && !state.points.empty()) {  // quit anyway: the autosave keeps them
+      try {
+        fit::write_track(autosave_path(state), track_of(state));
+        err << "occulta view: unsaved points kept in " << autosave_path(state) << ".\n";
+      } catch (const imaging::InputError& e) {
+        err << "occulta view: " << e.what() << '\n';
+      }
     }
   }
   ImGui_ImplGlfw_Shutdown();

@@ -10,7 +10,11 @@
 //
 // The views load on a worker thread (pictures.hpp Loader) while the window stays
 // responsive, with progress shown; `script` is applied once they have loaded. Playing
-// steps one frame each kPlayStepS, wrapping at the end.
+// steps one frame each kPlayStepS, wrapping at the end. Every fit the analyst asks for
+// (the automatic one gives the automatic track to show and adopt) runs on a worker
+// thread; the window keeps drawing meanwhile. Points changed and not saved are
+// written every kAutosaveS to the autosave file (autosave_path), and quitting with them
+// unsaved asks first.
 #pragma once
 
 #include <iosfwd>
@@ -18,12 +22,19 @@
 
 #include "viewer/actions.hpp"
 #include "viewer/pictures.hpp"
+#include "viewer/session.hpp"
 
 namespace occulta::viewer {
 
 inline constexpr double kPlayStepS = 0.25;
+inline constexpr double kAutosaveS = 10.0;
+
+// Where unsaved points are kept: beside the last saved track (its name + ".autosave"),
+// else "<event id>.autosave.track.json" in the working folder.
+std::string autosave_path(const WindowState& state);
 
 // Runs the window until it is closed (or a Quit action); 0, or 1 when no window can be opened.
-int present(WindowState state, std::vector<ViewSource> sources, const std::vector<Action>& script, std::ostream& err);
+int present(WindowState state, std::vector<ViewSource> sources, const std::vector<Action>& script, const Session& session,
+            std::ostream& err);
 
 }  // namespace occulta::viewer

@@ -4,9 +4,11 @@
 #include <cmath>
 #include <limits>
 #include <set>
+#include <stdexcept>
 
 #include "fit/json_file.hpp"
 #include "imaging/input_error.hpp"
+#include "imaging/time.hpp"
 
 namespace occulta::viewer {
 namespace {
@@ -73,6 +75,15 @@ std::string joined_table_names() {
   return names;
 }
 
+double iso_time(Arguments& args, const char* key) {
+  const std::string time = args.text(key);
+  try {
+    return imaging::utc_seconds_from_iso(time);
+  } catch (const std::invalid_argument& e) {
+    args.fail(std::string("\"") + key + "\" \"" + time + "\" is not an ISO 8601 UTC time: " + e.what());
+  }
+}
+
 Action parse_action(const json& item, const std::string& source, std::size_t index) {
   const std::string where = "action " + std::to_string(index + 1);
   if (!item.is_object()) throw imaging::InputError(source, where + " is not an object {\"do\": …}");
@@ -121,10 +132,83 @@ Action parse_action(const json& item, const std::string& source, std::size_t ind
     action = action::Leave{};
   } else if (name == "quit") {
     action = action::Quit{};
+  } else if (name == "point") {
+    const std::string view = args.text("view");
+    const double utc_s = iso_time(args, "time");
+    action = action::AddPoint{view, utc_s, args.number("pa_deg"), args.number("height_rs")};
+  } else if (name == "move") {
+    action = action::MovePoint{args.integer("index"), args.number("pa_deg"), args.number("height_rs")};
+  } else if (name == "select") {
+    action = action::SelectPoint{args.integer("index")};
+  } else if (name == "delete") {
+    action = action::DeletePoint{args.has("index") ? args.integer("index") : -1};
+  } else if (name == "undo") {
+    action = action::Undo{};
+  } else if (name == "redo") {
+    action = action::Redo{};
+  } else if (name == "shell") {
+    action::SetShell change;
+    if (args.has("shown")) change.shown = args.boolean("shown");
+    const std::pair<const char*, std::optional<double> action::SetShell::*> numbers[] = {
+        {"lon_deg", &action::SetShell::lon_deg},
+        {"lat_deg", &action::SetShell::lat_deg},
+        {"tilt_deg", &action::SetShell::tilt_deg},
+        {"half_angle_deg", &action::SetShell::half_angle_deg},
+        {"aspect_ratio", &action::SetShell::aspect_ratio},
+        {"apex_height_rs", &action::SetShell::apex_height_rs},
+        {"speed_km_s", &action::SetShell::speed_km_s},
+        {"accel_m_s2", &action::SetShell::accel_m_s2}};
+    for (const auto& [key, member] : numbers)
+      if (args.has(key)) change.*member = args.number(key);
+    if (args.has("ref_time")) change.ref_utc_s = iso_time(args, "ref_time");
+    action = change;
+  } else if (name == "tie_mode") {
+    action = action::TieMode{args.boolean("on")};
+  } else if (name == "clear_ties") {
+    action = action::ClearTies{};
+  } else if (name == "tie") {
+    const auto place = [&](const char* key) {
+      const json& p = args.take(key);
+      if (!p.is_object()) args.fail(std::string("\"") + key + "\" must be {\"view\", \"time\", \"pa_deg\", \"height_rs\"}");
+      Arguments inner(p, source, index, name + " " + key);
+      const std::string view = inner.text("view");
+      const double utc_s = iso_time(inner, "time");
+      action::AddPoint at{view, utc_s, inner.number("pa_deg"), inner.number("height_rs")};
+      inner.finish();
+      return at;
+    };
+    action = action::Tie{place("a"), place("b")};
+  } else if (name == "fit") {
+    std::string points;
+    if (args.has("points")) {
+      points = args.text("points");
+      if (points != "analyst" && points != "auto" && points != "both") args.fail("\"points\" must be analyst, auto or both");
+    }
+    action = action::Fit{points};
+  } else if (name == "adopt") {
+    action = action::Adopt{args.has("index") ? args.integer("index") : -1};
+  } else if (name == "save_track" || name == "load_track") {
+    const std::string path = args.text("path");
+    if (path.empty()) args.fail("\"path\" must name a file");
+    action = name == "save_track" ? Action{action::SaveTrack{path}} : Action{action::LoadTrack{path}};
+  } else if (name == "height_time_pa") {
+    action = action::HeightTimePa{args.has("pa_deg") ? args.number("pa_deg") : std::numeric_limits<double>::quiet_NaN()};
+  } else if (name == "help") {
+    action = action::Help{args.boolean("shown")};
+  } else if (name == "export") {
+    const std::string dir = args.text("dir");
+    if (dir.empty()) args.fail("\"dir\" must name a folder");
+    action = action::Export{dir};
+  } else if (name == "click") {
+    const double x = args.number("x"), y = args.number("y");
+    if (std::abs(x) > kMaxWindowPx || std::abs(y) > kMaxWindowPx) args.fail("x and y must be window pixels");
+    action = action::Click{float(x), float(y)};
   } else {
     throw imaging::InputError(source, where + ": \"" + name +
                                           "\" is not an action (frame, step, display, view, contrast, colours, "
-                                          "play, pause, resize, hover, leave, quit)");
+                                          "play, pause, resize, hover, leave, quit, point, move, select, delete, "
+                                          "undo, redo, click, shell, tie_mode, tie, clear_ties, fit, adopt, save_track, "
+                                          "load_track, export, help, height_time_pa)");
   }
   args.finish();
   return action;

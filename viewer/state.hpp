@@ -7,6 +7,10 @@
 // displayed image (what every display holds, see viewer/pictures.hpp); sizes in pixels.
 #pragma once
 
+#include <cmath>
+#include <limits>
+#include <memory>
+#include <numbers>
 #include <optional>
 #include <span>
 #include <string>
@@ -14,6 +18,10 @@
 #include <vector>
 
 #include "viewer/colour_table.hpp"
+
+namespace occulta::fit {
+struct Measurement;  // fit/measurement.hpp
+}
 
 namespace occulta::viewer {
 
@@ -24,6 +32,42 @@ std::span<const Display> displays();                 // every display, in the or
 std::string_view display_name(Display display);      // "calibrated", "running_difference", …
 std::string_view display_label(Display display);     // for people: "running difference"
 std::optional<Display> display_named(std::string_view name);
+
+// A leading-edge point: clicked by the analyst, or found by the automatic front finder
+// (then adopted or not). PA counter-clockwise from solar north through east, 0–360°;
+// height in the plane of the sky from Sun centre (what the track file holds).
+struct MarkedPoint {
+  std::string view;
+  double utc_s = 0.0;       // the time of the view's frame it was marked on
+  double pa_deg = 0.0;
+  double height_rs = 0.0;
+  bool automatic = false;   // origin "auto" in the track file; false: "analyst"
+};
+
+// A place clicked on one view's frame, for tie-pointing (viewer/stereo.hpp).
+struct SkyMark {
+  std::string view;
+  double utc_s = 0.0;            // the view's frame it was clicked on
+  double x_rs = 0.0, y_rs = 0.0;  // sky position, R☉ (x west, y north)
+};
+
+// One feature clicked on two views and where their lines of sight meet (Stonyhurst).
+struct TiePoint {
+  SkyMark a, b;
+  double lon_deg = 0.0, lat_deg = 0.0, distance_rs = 0.0;
+  double miss_rs = 0.0;  // how far apart the two lines of sight pass
+};
+
+// The shell drawn on every view (fit/shell.hpp's graduated cylindrical shell): its six
+// parameters in degrees (Stonyhurst lon, lat; tilt, half-angle α) and κ, and the apex law
+// h(t) = h₀ + v (t − t₀) + ½ a (t − t₀)² (fit/scenario.hpp ApexLaw: t₀ UTC seconds, h₀ R☉,
+// v km/s, a m/s²). t₀ is the first frame time until set.
+struct ShellControls {
+  bool shown = false;
+  double lon_deg = 0.0, lat_deg = 0.0, tilt_deg = 0.0, half_angle_deg = 30.0, aspect_ratio = 0.3;
+  double ref_utc_s = std::numeric_limits<double>::quiet_NaN();
+  double apex_height_rs = 5.0, speed_km_s = 500.0, accel_m_s2 = 0.0;
+};
 
 // The cursor over a view's panel, as a sky position (also over the polar display).
 struct Hover {
@@ -43,9 +87,49 @@ struct WindowState {
   int width = 1280, height = 800;      // the window's size
   std::optional<Hover> hover;
   bool quit = false;
+
+  // Marking (viewer/actions.hpp AddPoint …). view_times_utc_s[i]: the frame times of
+  // views[i] (a point is marked on one of them); empty while that view loads.
+  std::vector<std::vector<double>> view_times_utc_s;
+  std::vector<MarkedPoint> points;                 // in the order they were marked
+  int selected = -1;                               // index into points; −1: none
+  bool dragging = false;                           // a point is being dragged (one undo step)
+  std::vector<std::vector<MarkedPoint>> undo, redo;  // earlier and undone `points`, newest last
+  bool unsaved = false;                            // points changed since the last save or load
+
+  ShellControls shell;
+  // The PA the height–time panels follow; NaN: each view's points' mean direction.
+  double height_time_pa_deg = std::numeric_limits<double>::quiet_NaN();
+
+  // Tie-pointing: while `tying`, a click is a feature to tie, not a leading-edge point. The
+  // first click's line of sight is drawn on the other views (also the hovered place's,
+  // before a first click); a click on another view ties the pair.
+  bool tying = false;
+  std::optional<SkyMark> tie_first;
+  std::vector<TiePoint> ties;
+
+  // The measurement (fit/measurement.hpp, the one `measure` runs): the last fit's, or the
+  // automatic one made on load; shared, never changed (copies of the state stay cheap).
+  std::string event_id;
+  std::shared_ptr<const fit::Measurement> measured;
+  std::string measured_points;          // the points it used: "analyst", "auto" or "both"
+  double measured_seconds = 0.0;        // how long it took
+  std::string fit_request;              // a fit asked for and not yet done ("": none)
+  std::vector<MarkedPoint> auto_points; // the automatic track of the measurement on load
+  std::string track_path;               // where the points were last saved or loaded from
+  std::string message;                  // the last file or fit action's outcome, one sentence
+  bool asking_quit = false;             // quit asked with unsaved points: the window asks
+  bool help = false;                    // the keys shown
 };
 
 // The displayed time, or NaN while the timeline is empty.
 double displayed_time(const WindowState& state);
+
+// A point's sky position (R☉, x west, y north). PA counter-clockwise from north through
+// east, and east is −x: x = −h sin PA, y = h cos PA.
+inline double sky_x_rs(const MarkedPoint& p) { return -p.height_rs * std::sin(p.pa_deg * std::numbers::pi / 180.0); }
+inline double sky_y_rs(const MarkedPoint& p) { return p.height_rs * std::cos(p.pa_deg * std::numbers::pi / 180.0); }
+// The inverse: PA in [0, 360) and height of a sky position.
+double pa_deg_at(double x_rs, double y_rs);
 
 }  // namespace occulta::viewer

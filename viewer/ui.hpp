@@ -11,10 +11,14 @@
 // Keys (characters, so any keyboard layout): → / ← step a frame, space play/pause,
 // 1–5 the displays (calibrated, running difference, base difference, NRGF, polar),
 // c the next colour table, v the next view alone (then all), [ and ] narrow and widen the
-// contrast, Home / End the first and last frame, q quit. Each gives the same action a
-// script does.
+// contrast, Home / End the first and last frame, q quit; u undo, r redo, x (or Delete,
+// Backspace) delete the selected point, t tie features across views (clicks tie, again:
+// clicks mark). The left button on a frame marks a point, or
+// selects the point under it; dragging moves the selected point. Each gives the same
+// action a script does.
 #pragma once
 
+#include <limits>
 #include <span>
 #include <string>
 #include <vector>
@@ -32,6 +36,9 @@ struct ShownView {
   const ViewPictures* view = nullptr;
   int frame = -1;  // index into view->frames: the frame nearest the displayed time; −1: none yet
   ImagePanel panel;
+  // The height–time panel (viewer/height_time.hpp) along this PA; NaN: none to show yet.
+  double time_height_pa_deg = std::numeric_limits<double>::quiet_NaN();
+  ImagePanel time_height;
 };
 
 std::vector<ShownView> shown_views(const WindowState& state, const std::vector<ViewPictures>& views);
@@ -48,16 +55,35 @@ struct LoadingShown {
 // Keys that are not characters, pressed (or repeated) since the last frame. The window
 // collects them from GLFW itself: Dear ImGui 1.86 keeps only whether a key is down, so a
 // press and release between two frames (a quick tap, xdotool) would be lost.
-enum class Key { left, right, home, end };
+enum class Key { left, right, home, end, erase };  // erase: Delete or Backspace
 
-// Draws the whole window (DisplaySize = state's size) between NewFrame and Render.
+// Where a shown view's image lies in the window: its plot frame (data ↔ window pixels).
+struct PanelPlace {
+  std::string view;
+  Display display = Display::running_difference;
+  PlotFrame frame;
+};
+
+// Draws the whole window (DisplaySize = state's size) between NewFrame and Render; where
+// the images were laid out goes to `placed` when given.
 std::vector<Action> draw_window(const WindowState& state, const std::vector<ShownView>& shown,
                                 const std::vector<ViewPictures>& views, const LoadingShown& loading = {},
-                                std::span<const Key> pressed = {});
+                                std::span<const Key> pressed = {}, std::vector<PanelPlace>* placed = nullptr);
+
+// Where the images lie in the window the state draws (no pixels are drawn): for scripts
+// and tests that click on a sky position.
+std::vector<PanelPlace> panel_places(const WindowState& state, const std::vector<ViewPictures>& views,
+                                     const HeadlessOptions& options = {});
 
 // The window with no display: the state drawn by viewer/headless at its size.
 Framebuffer draw_window_headless(const WindowState& state, const std::vector<ViewPictures>& views,
                                  const HeadlessOptions& options = {});
+
+// A click at a window pixel: the window is drawn as the state stands (draw_window, no
+// pixels) with the left button pressed at that pixel, then let go, and what those frames
+// ask for is applied (viewer/session.hpp perform, run_script).
+void click_window(WindowState& state, const std::vector<ViewPictures>& views, const action::Click& click,
+                  const HeadlessOptions& options = {});
 
 // The sky position under a panel pixel: the plot's inverse mapping (for the polar display,
 // its (PA, height) turned into a sky position).

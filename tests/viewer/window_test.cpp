@@ -108,8 +108,8 @@ TEST_CASE("each view of the sample gives a picture per running difference with e
 
 TEST_CASE("views with different frame times are matched by nearest time") {
   ViewPictures a, b;
-  for (double t : {0.0, 100.0, 200.0}) a.frames.push_back(FramePictures{t, {}, {}, {}, {}, {}});
-  for (double t : {40.0, 260.0}) b.frames.push_back(FramePictures{t, {}, {}, {}, {}, {}});
+  for (double t : {0.0, 100.0, 200.0}) a.frames.push_back(FramePictures{t, {}, {}, {}, {}, {}, {}});
+  for (double t : {40.0, 260.0}) b.frames.push_back(FramePictures{t, {}, {}, {}, {}, {}, {}});
   CHECK(frame_times({a, b}) == std::vector<double>{0, 40, 100, 200, 260});
   CHECK(nearest_frame(a, 40) == 0);
   CHECK(nearest_frame(a, 150) == 1);  // a tie: the earlier

@@ -1,0 +1,118 @@
+// viewer/session.cpp — see session.hpp.
+#include "viewer/session.hpp"
+
+#include <chrono>
+#include <set>
+
+#include "imaging/input_error.hpp"
+#include "viewer/stereo.hpp"
+#include "viewer/ui.hpp"
+
+namespace occulta::viewer {
+namespace fs = std::filesystem;
+
+namespace {
+
+// A tie as two clicks would make it: each place on its view's frame nearest in time.
+void tie(WindowState& state, const std::vector<ViewPictures>& views, const action::Tie& t) {
+  const auto mark = [&](const action::AddPoint& p) -> std::optional<SkyMark> {
+    for (const ViewPictures& v : views)
+      if (v.name == p.view && !v.frames.empty()) {
+        const MarkedPoint at{p.view, 0.0, p.pa_deg, p.height_rs};
+        return SkyMark{p.view, v.frames[std::size_t(nearest_frame(v, p.utc_s))].utc_s, sky_x_rs(at), sky_y_rs(at)};
+      }
+    return std::nullopt;
+  };
+  const auto a = mark(t.a), b = mark(t.b);
+  const auto met = a && b ? tie_marks(*a, *b, views) : std::nullopt;
+  if (met) apply(state, action::AddTie{*met});
+  else apply(state, action::Note{"The tie needs two different loaded views whose lines of sight are not parallel."});
+}
+
+std::vector<MarkedPoint> points_of(const fit::Track& track) {
+  std::vector<MarkedPoint> points;
+  for (const fit::TrackPoint& p : track.points) points.push_back({p.view, p.utc_s, p.pa_deg, p.height_rs, p.origin == "auto"});
+  return points;
+}
+
+}  // namespace
+
+fit::Track track_of(const WindowState& state) {
+  fit::Track track{state.event_id, {}};
+  for (const MarkedPoint& p : state.points)
+    track.points.push_back({p.view, p.utc_s, p.pa_deg, p.height_rs, p.automatic ? "auto" : "analyst"});
+  return track;
+}
+
+action::FitDone run_fit(const WindowState& state, const Session& session, const std::string& points) {
+  if (!session.input) return {nullptr, points, 0.0, "There is no event to measure: the window was opened without one."};
+  const auto started = std::chrono::steady_clock::now();
+  fit::MeasurementInput input = *session.input;
+  input.track_file.clear();
+  if (points == "auto") {
+    input.analyst.reset();
+  } else {
+    fit::Track track = track_of(state);
+    if (points == "both") {
+      // The automatic track's points the list does not hold already.
+      std::set<std::tuple<std::string, double, double>> held;
+      for (const fit::TrackPoint& p : track.points) held.insert({p.view, p.utc_s, p.pa_deg});
+      for (const MarkedPoint& p : state.auto_points)
+        if (!held.count({p.view, p.utc_s, p.pa_deg})) track.points.push_back({p.view, p.utc_s, p.pa_deg, p.height_rs, "auto"});
+    }
+    input.analyst = std::move(track);
+  }
+  try {
+    auto measured = std::make_shared<const fit::Measurement>(fit::measure_event(input, session.options));
+    const double seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - started).count();
+    char text[160];
+    std::snprintf(text, sizeof text, "Measured over the %s points in %.2f s: %s.",
+                  points == "both" ? "analyst's and automatic" : (points == "auto" ? "automatic" : "analyst's"), seconds,
+                  measured->status.c_str());
+    return {std::move(measured), points, seconds, text};
+  } catch (const imaging::InputError& e) {
+    return {nullptr, points, 0.0, e.what()};
+  }
+}
+
+void perform(WindowState& state, const std::vector<ViewPictures>& views, const Session& session, const Action& a,
+             const HeadlessOptions& options) {
+  if (const auto* c = std::get_if<action::Click>(&a)) return click_window(state, views, *c, options);
+  if (const auto* t = std::get_if<action::Tie>(&a)) return tie(state, views, *t);
+  try {
+    if (const auto* save = std::get_if<action::SaveTrack>(&a)) {
+      fit::write_track(save->path, track_of(state));
+      return apply(state, action::Saved{save->path});
+    }
+    if (const auto* load = std::get_if<action::LoadTrack>(&a)) {
+      const fit::Track track = fit::read_track(load->path);
+      if (!state.event_id.empty() && track.event_id != state.event_id)
+        throw imaging::InputError(load->path, "is the track of event \"" + track.event_id + "\", not of \"" + state.event_id + "\"");
+      return apply(state, action::TrackRead{points_of(track), load->path});
+    }
+    if (const auto* e = std::get_if<action::Export>(&a)) {
+      if (!session.export_result) return apply(state, action::Note{"There is nothing to export to: no event was opened."});
+      fs::create_directories(e->dir);
+      const fs::path track = fs::path(e->dir) / "analyst.track.json";
+      fit::write_track(track, track_of(state));
+      session.export_result(track, e->dir);
+      return apply(state, action::Note{"Exported the measurement of " + std::to_string(state.points.size()) +
+                                       " point(s) to " + e->dir + "."});
+    }
+  } catch (const imaging::InputError& e) {
+    return apply(state, action::Note{e.what()});
+  } catch (const fs::filesystem_error& e) {
+    return apply(state, action::Note{std::string(e.path1().string()) + ": " + e.code().message() + "."});
+  }
+  apply(state, a);
+  // A fit asked for: run to the end here (scripts); the window's loop runs it on a worker.
+  if (std::holds_alternative<action::Fit>(a) && !state.fit_request.empty())
+    apply(state, run_fit(state, session, state.fit_request));
+}
+
+void run_script(WindowState& state, const std::vector<ViewPictures>& views, std::span<const Action> script,
+                const Session& session, const HeadlessOptions& options) {
+  for (const Action& a : script) perform(state, views, session, a, options);
+}
+
+}  // namespace occulta::viewer
