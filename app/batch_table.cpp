@@ -123,7 +123,7 @@ std::vector<std::vector<std::string>> table_rows(const BatchSettings& settings, 
       if (!result.is_object() || result.value("schema", json()) != "occulta.result/1" || !result["status"].is_string())
         throw imaging::InputError((folder / "result.json").string(), "is not a result file of occulta measure");
     } catch (const imaging::InputError& e) {
-      rows.push_back(one_row(row.id, "", "failed", std::string(e.what()) + "."));
+      rows.push_back(one_row(row.id, "", "failed", e.what()));
       for (auto& r : rows) r.insert(r.end(), row.extra.begin(), row.extra.end());
       return rows;
     }
@@ -174,7 +174,7 @@ std::vector<std::vector<std::string>> table_rows(const BatchSettings& settings, 
     try {
       failure = fit::read_json_file(folder / "failure.json");
     } catch (const imaging::InputError& e) {
-      failure = {{"problems", {std::string(e.what()) + "."}}};
+      failure = {{"problems", {std::string(e.what())}}};
     }
     rows.push_back(one_row(row.id, "", "failed", joined(member(failure, "problems"))));
   }
