@@ -2,6 +2,7 @@
 // (contracts in batch_run.hpp).
 #include "app/batch_run.hpp"
 
+#include <sys/resource.h>
 #include <unistd.h>
 
 #include <cstdio>
@@ -94,7 +95,13 @@ int close_run(const BatchOptions& options, const BatchSettings& settings, const 
     out << (interrupted ? "interrupted; " : "") << counts.rows << " rows: " << counts.ok << " ok, " << counts.partial
         << " partial, " << counts.failed << " failed";
     if (counts.not_run) out << ", " << counts.not_run << " not run";
-    out << "; " << progress.measured() << " events measured in this run\n"
+    // What the run cost: wall time, and this process's own peak memory (getrusage(2)
+    // RUSAGE_SELF: the coordinator alone, not its children) — flat in the number of rows.
+    rusage self{};
+    getrusage(RUSAGE_SELF, &self);
+    char cost[160];
+    std::snprintf(cost, sizeof cost, " in %.1f s; coordinator peak memory %ld KB", progress.elapsed_s(), self.ru_maxrss);
+    out << "; " << progress.measured() << " events measured in this run" << cost << "\n"
         << "written: " << (settings.out_dir / "results.csv").string() << ", results.fits\n";
   }
   return !interrupted && progress.all_ok() ? 0 : 1;

@@ -37,6 +37,9 @@ class Progress {  // counts and the display; owns nothing but numbers
   void finish();
   bool all_ok() const { return not_ok_ == 0; }
   std::size_t measured() const { return measured_; }
+  double elapsed_s() const {
+    return std::chrono::duration<double>(std::chrono::steady_clock::now() - started_).count();
+  }
 
  private:
   std::size_t total_, done_ = 0, ok_ = 0, not_ok_ = 0, measured_ = 0;
