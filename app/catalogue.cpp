@@ -91,6 +91,9 @@ std::optional<CatalogueRow> CatalogueReader::next() {
     return fail("id " + json_text(row.id) +
                 " names the event's folder, so use letters, digits, '-', '_' and '.' only (not empty, not starting "
                 "with '.', no \"..\")");
+  // The run's own names in DIR (app/batch_event.hpp, app/batch_table.hpp) are not ids.
+  if (row.id == "events" || row.id == "results.csv" || row.id == "results.fits")
+    return fail("id " + json_text(row.id) + " is the name of the run's own folder or table in --out; choose another");
   if (const auto [at, fresh] = seen_.emplace(row.id, first_line); !fresh)
     return fail("id " + json_text(row.id) + " is used already on line " + std::to_string(at->second));
   if (event_ >= 0) {

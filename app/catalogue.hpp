@@ -12,7 +12,8 @@
 //
 // A fault of the header (a form missing, a name twice, an extra column with the name
 // of a results column) is an InputError naming the file: nothing can run. A fault of
-// one row (a field count, an unsafe or repeated id, a time, a view list) is kept as the
+// one row (a field count, an unsafe or repeated id, an id that is the name of the run's
+// own events/, results.csv or results.fits, a time, a view list) is kept as the
 // row's `fault` sentence: that row fails, the others run.
 #pragma once
 

@@ -71,9 +71,10 @@ TEST_CASE("catalogue: both forms, extra columns, and the faults of one row kept 
                       "e4,2031-01-01T06:00:00,2031-01-01T00:00:00,east=e/*.fits,x\n"
                       "e5,2031-01-01T00:00:00,2031-01-01T06:00:00,east,x\n"
                       "e6,2031-01-01T00:00:00,2031-01-01T06:00:00,a=x;a=y,x\n"
-                      "e7,too,few\n");
+                      "e7,too,few\n"
+                      "events,2031-01-01T00:00:00,2031-01-01T06:00:00,east=e/*.fits,x\n");
   const std::vector<CatalogueRow> rows = read_all(dir / "c.csv");
-  REQUIRE(rows.size() == 8);
+  REQUIRE(rows.size() == 9);
   const fs::path base = fs::absolute(dir).lexically_normal();
   CHECK(rows[0].fault.empty());
   CHECK(rows[0].index == 0);
@@ -91,6 +92,7 @@ TEST_CASE("catalogue: both forms, extra columns, and the faults of one row kept 
   CHECK(rows[5].fault.find("`views` holds \"east\"; it needs name=glob") != std::string::npos);
   CHECK(rows[6].fault.find("view name \"a\" is used twice") != std::string::npos);
   CHECK(rows[7].fault == file + " line 10: has 3 fields where the header has 5.");
+  CHECK(rows[8].fault.find("id \"events\" is the name of the run's own folder") != std::string::npos);
 
   occulta::test::spit(dir / "e.csv", "id,event\nx,events/x.event.json\n");
   const std::vector<CatalogueRow> event_rows = read_all(dir / "e.csv");
