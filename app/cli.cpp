@@ -10,6 +10,7 @@
 
 #include <CLI/CLI.hpp>
 
+#include "app/batch.hpp"
 #include "app/demo.hpp"
 #include "app/forecast.hpp"
 #include "app/inspect.hpp"
@@ -124,6 +125,28 @@ int run(int argc, char** argv) {
       ->capture_default_str()->check(CLI::IsMember({"auto", "linear", "quadratic", "free"}));
   measure_cmd->add_flag("--quiet", measure_options.quiet, "No summary table");
 
+  BatchOptions batch_options;
+  auto* batch_cmd = cli.add_subcommand(
+      "batch", "Measure every event of a catalogue, each as `measure` does in its own process, into one table");
+  batch_cmd->add_option("catalogue", batch_options.catalogue, "Catalogue file (CSV: id,event or id,start,end,views)")
+      ->required();
+  batch_cmd->add_option("--out", batch_options.out_dir, "Folder for the events' folders and the table (made if missing)")
+      ->required();
+  batch_cmd->add_option("--jobs", batch_options.jobs, "Events measured at once (default: the number of cores)")
+      ->check(CLI::Range(1, 4096));
+  batch_cmd->add_flag("--resume", batch_options.resume,
+                      "Keep events measured before from the same row, options and inputs; measure the rest");
+  batch_cmd->add_option("--shard", batch_options.shard, "K/N: only every N-th row, starting at the K-th (job arrays)");
+  batch_cmd->add_flag("--mpi", batch_options.mpi, "Under mpirun: rank 0 hands out events, the other ranks measure them");
+  batch_cmd->add_option("--event-timeout", batch_options.event_timeout_s,
+                        "Seconds after which an event's process is stopped and its row fails")
+      ->capture_default_str()->check(CLI::Range(0.001, 1e7));
+  batch_cmd->add_flag("--quiet", batch_options.quiet, "No progress and no summary");
+  batch_cmd->add_option("--median", batch_options.median, "Median filter size against cosmic rays (0, 3 or 5), as measure")
+      ->capture_default_str()->check(CLI::IsMember({0, 3, 5}));
+  batch_cmd->add_option("--apex-law", batch_options.apex_law, "Apex height law of the shell fit, as measure")
+      ->capture_default_str()->check(CLI::IsMember({"auto", "linear", "quadratic", "free"}));
+
   ForecastOptions forecast_options;
   auto* forecast_cmd = cli.add_subcommand("forecast", "Drag-based arrival estimate of a measured CME at Earth, L1 or a point");
   forecast_cmd->add_option("result", forecast_options.result, "Result file (result.json) with shell and boundary blocks")
@@ -154,7 +177,7 @@ int run(int argc, char** argv) {
 
   // FITS checksums (FITS Standard 4.0 §4.4.2.7): a mismatch is refused unless asked.
   bool checksum_warn_only = false;
-  for (CLI::App* reads_fits : {inspect_cmd, maps_cmd, measure_cmd, demo_cmd, view_cmd})
+  for (CLI::App* reads_fits : {inspect_cmd, maps_cmd, measure_cmd, batch_cmd, demo_cmd, view_cmd})
     reads_fits->add_flag("--checksum-warn-only", checksum_warn_only,
                          "Read FITS files whose CHECKSUM/DATASUM do not match, with a warning (default: refuse them)");
 
@@ -201,6 +224,11 @@ int run(int argc, char** argv) {
     if (*measure_cmd) {
       check_out_dir(measure_options.out_dir);
       return measure(measure_options, std::cout, std::cerr);
+    }
+    if (*batch_cmd) {
+      check_out_dir(batch_options.out_dir);
+      batch_options.checksum_warn_only = checksum_warn_only;
+      return batch(batch_options, std::cout, std::cerr);
     }
     if (*forecast_cmd) {
       if (!forecast_options.out_dir.empty()) check_out_dir(forecast_options.out_dir);

@@ -1,7 +1,6 @@
 #include "fit/event.hpp"
 
 #include <algorithm>
-#include <cctype>
 #include <cmath>
 #include <cstdio>
 #include <map>
@@ -206,10 +205,8 @@ Event event_from_folder(const std::filesystem::path& dir) {
   Event event;
   event.path = dir;
   event.id = std::filesystem::absolute(dir).lexically_normal().filename().string();
-  // The id names files (track.json's event_id): the safe set of fit/strict_json.hpp.
-  for (char& c : event.id)
-    if (!std::isalnum(static_cast<unsigned char>(c)) && c != '-' && c != '_') c = '_';
-  if (event.id.empty()) event.id = "event";
+  // The id names files (track.json's event_id): the one safe-name rule of fit/strict_json.hpp.
+  event.id = fit::safe_name_from(event.id, "event");
   std::map<std::string, EventView> views;
   for (const std::filesystem::path& file : collect_fits_paths({dir.string()})) {
     std::string name;
@@ -227,8 +224,7 @@ Event event_from_folder(const std::filesystem::path& dir) {
     } catch (const imaging::InputError&) {
       name = "unreadable";  // the chain reports each such frame
     }
-    for (char& c : name)
-      if (!std::isalnum(static_cast<unsigned char>(c)) && c != '-' && c != '_') c = '_';
+    name = fit::safe_name_from(name, "unknown-observer");
     EventView& view = views[name];
     view.name = name;
     view.files.push_back(file);

@@ -56,12 +56,25 @@ void check_keys(const json& object, std::initializer_list<std::string_view> know
   }
 }
 
+namespace {
+bool safe_char(char c) {
+  return (c >= 'a' && c <= 'z') || (c >= 'A' && c <= 'Z') || (c >= '0' && c <= '9') || c == '-' || c == '_' || c == '.';
+}
+}  // namespace
+
 bool is_safe_name(std::string_view name) {
   if (name.empty() || name.front() == '.' || name.find("..") != std::string_view::npos) return false;
-  return std::all_of(name.begin(), name.end(), [](char c) {
-    return (c >= 'a' && c <= 'z') || (c >= 'A' && c <= 'Z') || (c >= '0' && c <= '9') || c == '-' || c == '_' ||
-           c == '.';
-  });
+  return std::all_of(name.begin(), name.end(), safe_char);
+}
+
+std::string safe_name_from(std::string_view text, std::string_view fallback) {
+  std::string name;
+  for (char c : text) {
+    // A '.' first or after another '.' would make a hidden name or a "..": it becomes '_'.
+    const bool dot_not_allowed = c == '.' && (name.empty() || name.back() == '.');
+    name += safe_char(c) && !dot_not_allowed ? c : '_';
+  }
+  return name.empty() ? std::string(fallback) : name;
 }
 
 void check_safe_name(const std::string& name, const std::string& key_path, const std::string& file) {

@@ -31,6 +31,10 @@ void check_keys(const nlohmann::json& object, std::initializer_list<std::string_
 // A name that becomes a file or folder name (event id, view name): letters, digits,
 // '-', '_', '.'; not empty, not starting with '.', no "..". True when safe.
 bool is_safe_name(std::string_view name);
+// A safe name made from any text by the same rule: every character outside the set
+// becomes '_' (so a leading '.' and every ".." go too); empty text becomes `fallback`.
+// is_safe_name(safe_name_from(x, f)) holds for every x and a safe f.
+std::string safe_name_from(std::string_view text, std::string_view fallback);
 // Throws InputError(file, "`key_path` is \"../x\" — …") when the name is not safe.
 void check_safe_name(const std::string& name, const std::string& key_path, const std::string& file);
 
