@@ -19,7 +19,7 @@
 #include <sstream>
 #include <thread>
 
-#include "app/event.hpp"
+#include "fit/event.hpp"
 #include "app/provenance.hpp"
 #include "fit/json_file.hpp"
 #include "imaging/input_error.hpp"
@@ -124,7 +124,7 @@ json stamp_for(const BatchSettings& settings, const CatalogueRow& row) {
   if (fs::is_regular_file(event_file, error)) {
     try {
       frames = json::array();
-      for (const EventView& view : read_event(event_file).views)
+      for (const fit::EventView& view : fit::read_event(event_file).views)
         for (const fs::path& f : view.files) frames.push_back(fs::absolute(f).lexically_normal().string());
     } catch (const InputError&) {
       frames = nullptr;  // the child says what is wrong with it
