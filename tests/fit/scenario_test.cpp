@@ -52,8 +52,8 @@ TEST_CASE("scenario: a minimal file reads with its defaults, and the apex law is
   // h(t) = h0 + v t + a t²/2 with v in km/s and a in m/s², heights in R☉ of 695 700 km
   // (IAU 2015 B3): after 600 s, 2 + (800·600 − 0.5·0.02·600²) / 695700.
   const double t = s.start_s + 600.0;
-  CHECK(s.shell.apex.height_at(t) == doctest::Approx(2.0 + (800.0 * 600.0 - 0.5 * 0.020 * 600.0 * 600.0) / 695700.0));
-  CHECK(s.shell.apex.speed_at(t) == doctest::Approx(800.0 - 0.020 * 600.0));
+  CHECK(s.shells.at(0).apex.height_at(t) == doctest::Approx(2.0 + (800.0 * 600.0 - 0.5 * 0.020 * 600.0 * 600.0) / 695700.0));
+  CHECK(s.shells.at(0).apex.speed_at(t) == doctest::Approx(800.0 - 0.020 * 600.0));
 }
 
 TEST_CASE("scenario: each fault is refused with one sentence naming the file and the field") {
