@@ -116,9 +116,9 @@ int run(int argc, char** argv) {
       ->required();
   measure_cmd->add_option("--out", measure_options.out_dir, "Folder to write into (made if missing)")->required();
   measure_cmd->add_option("--track", measure_options.track, "Track file whose points replace the automatic ones");
-  measure_cmd->add_option("--median", measure_options.median, "Median filter size against cosmic rays (0, 3 or 5)")
+  measure_cmd->add_option("--median", measure_options.measurement.median, "Median filter size against cosmic rays (0, 3 or 5)")
       ->capture_default_str()->check(CLI::IsMember({0, 3, 5}));
-  measure_cmd->add_option("--apex-law", measure_options.apex_law,
+  measure_cmd->add_option("--apex-law", measure_options.measurement.apex_law,
                           "Apex height law of the shell fit: auto (quadratic when every view's own fit is), "
                           "linear, quadratic, or free (one height per time, for checking)")
       ->capture_default_str()->check(CLI::IsMember({"auto", "linear", "quadratic", "free"}));

@@ -8,7 +8,7 @@
 #include <ostream>
 #include <sstream>
 
-#include "app/event.hpp"
+#include "fit/event.hpp"
 #include "app/forecast.hpp"
 #include "app/inspect.hpp"
 #include "app/measure.hpp"
@@ -47,7 +47,7 @@ int demo(const DemoOptions& given, std::ostream& out, std::ostream& err) {
   if (options.sample_dir == DemoOptions{}.sample_dir && !fs::is_directory(options.sample_dir) &&
       fs::is_directory(OCCULTA_SAMPLE_DIR))
     options.sample_dir = OCCULTA_SAMPLE_DIR;
-  const Event event = read_event(find_event_file(options.sample_dir));
+  const fit::Event event = fit::read_event(find_event_file(options.sample_dir));
   out << "occulta demo — sample event \"" << event.id << "\" (" << event.path.string() << ")\n"
       << "Synthetic frames of an invented scenario (occulta synth), not observations.\n\n";
 
@@ -56,7 +56,7 @@ int demo(const DemoOptions& given, std::ostream& out, std::ostream& err) {
       << "  " << std::left << std::setw(25) << "first frame (UTC)" << std::setw(10) << "cadence" << std::right
       << std::setw(10) << "obs lon" << std::setw(9) << "obs lat" << std::setw(9) << "dist" << std::setw(10)
       << "R☉/px" << '\n';
-  for (const EventView& view : event.views) {
+  for (const fit::EventView& view : event.views) {
     std::vector<std::string> notes, problems;
     std::vector<double> times;
     nlohmann::json last;
@@ -103,7 +103,7 @@ int demo(const DemoOptions& given, std::ostream& out, std::ostream& err) {
   if (fs::exists(truth_path)) {
     const nlohmann::json truth = fit::read_json_file(truth_path);
     out << "\nTruth of the scenario (" << truth_path.string() << "), as each view should see it:\n";
-    for (const EventView& view : event.views) {
+    for (const fit::EventView& view : event.views) {
       // The heights the front finder examines (imaging::FrontOptions margins).
       const imaging::FrontOptions finder;
       const double lo = (view.occulter_rs ? (*view.occulter_rs)[0] : 2.5) + finder.inner_margin_rs;

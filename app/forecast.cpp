@@ -11,7 +11,7 @@
 #include <stdexcept>
 
 #include "app/arrival_picture.hpp"
-#include "app/event.hpp"
+#include "fit/event.hpp"
 #include "app/provenance.hpp"
 #include "app/output_set.hpp"
 #include "fit/arrival_json.hpp"
@@ -57,7 +57,7 @@ json run_forecast(const ForecastOptions& o, std::ostream& err) {
     throw imaging::InputError(o.result, "is a folder; `forecast` needs the result.json that `occulta measure` wrote");
   const json result = fit::read_json_file(o.result);
   // No arrival from a shell whose direction the data do not fix, or whose fit failed
-  // (app/shell_report.hpp: measure withholds it too); one resting on an assumed direction
+  // (fit/measurement.hpp: measure withholds it too); one resting on an assumed direction
   // says so (issue 11).
   if (result.is_object() && result.contains("shell") && result["shell"].is_object()) {
     const json& shell = result["shell"];
@@ -76,7 +76,7 @@ json run_forecast(const ForecastOptions& o, std::ostream& err) {
 
   fit::ForecastSettings settings;
   if (!o.event.empty()) {
-    const Event event = read_event(o.event);  // strict: the whole file is checked, not only its block
+    const fit::Event event = fit::read_event(o.event);  // strict: the whole file is checked, not only its block
     settings = fit::read_forecast_block(event.forecast, utc_s, o.event);
   } else {
     settings = fit::read_forecast_block(json(), utc_s, o.result);

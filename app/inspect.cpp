@@ -7,6 +7,7 @@
 #include <ostream>
 #include <sstream>
 
+#include "fit/event.hpp"
 #include "imaging/constants.hpp"
 #include "imaging/fits.hpp"
 #include "imaging/geometry.hpp"
@@ -17,16 +18,6 @@ namespace occulta::app {
 namespace fs = std::filesystem;
 
 namespace {
-
-bool looks_like_fits_name(const fs::path& path) {
-  std::string name = path.filename().string();
-  std::transform(name.begin(), name.end(), name.begin(), [](unsigned char c) { return std::tolower(c); });
-  for (const char* suffix : {".fits", ".fit", ".fts", ".fz", ".fits.gz"}) {
-    const std::string s(suffix);
-    if (name.size() > s.size() && name.compare(name.size() - s.size(), s.size(), s) == 0) return true;
-  }
-  return false;
-}
 
 // The human line for one report: what an analyst checks first.
 std::string summary_line(const nlohmann::json& r) {
@@ -59,25 +50,6 @@ std::string summary_line(const nlohmann::json& r) {
 }
 
 }  // namespace
-
-std::vector<fs::path> collect_fits_paths(const std::vector<std::string>& paths) {
-  std::vector<fs::path> files;
-  for (const auto& given : paths) {
-    std::error_code ec;
-    if (fs::is_directory(given, ec)) {
-      std::vector<fs::path> found;
-      for (fs::recursive_directory_iterator it(given, fs::directory_options::skip_permission_denied, ec), end;
-           !ec && it != end; it.increment(ec)) {
-        if (it->is_regular_file(ec) && looks_like_fits_name(it->path())) found.push_back(it->path());
-      }
-      std::sort(found.begin(), found.end());
-      files.insert(files.end(), found.begin(), found.end());
-    } else {
-      files.emplace_back(given);  // a file, or a path that does not exist: reported later
-    }
-  }
-  return files;
-}
 
 nlohmann::json inspect_file(const fs::path& path, std::vector<std::string>& notes) {
   using nlohmann::json;
@@ -122,7 +94,7 @@ nlohmann::json inspect_file(const fs::path& path, std::vector<std::string>& note
 }
 
 int inspect(const InspectOptions& options, std::ostream& out, std::ostream& err) {
-  const auto files = collect_fits_paths(options.paths);
+  const auto files = fit::collect_fits_paths(options.paths);
   nlohmann::json reports = nlohmann::json::array();
   std::vector<std::string> notes;
   bool all_ok = true;

@@ -17,11 +17,6 @@ struct InspectOptions {
   bool json = false;
 };
 
-// Files to inspect: each path that is a file as given; each folder walked recursively for
-// names ending .fits, .fit, .fts, .fz or .fits.gz (any case); sorted. A path that does
-// not exist is kept, so that it is reported.
-std::vector<std::filesystem::path> collect_fits_paths(const std::vector<std::string>& paths);
-
 // One file's report: exactly the keys path, ok, problem, width, height, bitpix, time,
 // exposure_s, observer {lon_deg, lat_deg, dist_au}, sun_center_px [x, y], rs_per_px,
 // roll_deg, finite_fraction — null where unknown. `notes` gets warnings that do not

@@ -4,7 +4,7 @@
 #include <cstdio>
 #include <ostream>
 
-#include "app/event.hpp"
+#include "fit/event.hpp"
 #include "app/output_set.hpp"
 #include "app/quicklook.hpp"
 #include "imaging/chain.hpp"
@@ -71,9 +71,9 @@ std::string pa_label(double pa) {
 }
 
 // One view: the chain, the cube and the pictures. Returns a one-line summary.
-std::string map_view(const Event& event, const EventView& view, const MapsOptions& o, const fs::path& dir,
+std::string map_view(const fit::Event& event, const fit::EventView& view, const MapsOptions& o, const fs::path& dir,
                      std::vector<std::string>& problems) {
-  imaging::ChainOptions chain = chain_options(event, view, o.median);
+  imaging::ChainOptions chain = fit::chain_options(event, view, o.median);
   chain.pa_step_deg = o.pa_step_deg;
   chain.height_step_rs = o.height_step_rs;
   chain.cartesian = imaging::ChainOptions::Cartesian::Last;  // the quicklooks below need the last frames only
@@ -139,14 +139,14 @@ std::string map_view(const Event& event, const EventView& view, const MapsOption
 int maps(const MapsOptions& o, std::ostream& out, std::ostream& err) {
   if (fs::is_directory(o.event))
     throw imaging::InputError(o.event, "is a folder; `maps` needs an event file (*.event.json) naming the views' frames");
-  const Event event = read_event(o.event);
+  const fit::Event event = fit::read_event(o.event);
   // What a run writes per view: checked against the event's globs before any work, and
   // the previous run's set removed (app/output_set.hpp).
   const OutputNames names{"", {}, {"polar.fits", "running_difference.png", "polar_running_difference.png",
                                    "time_height_pa*.png", "nrgf.png"}};
   std::vector<fs::path> outputs;
   std::vector<std::string> view_names;
-  for (const EventView& view : event.views) {
+  for (const fit::EventView& view : event.views) {
     view_names.push_back(view.name);
     for (const char* name : {"polar.fits", "running_difference.png", "polar_running_difference.png", "nrgf.png"})
       outputs.push_back(fs::path(o.out_dir) / view.name / name);
@@ -156,18 +156,18 @@ int maps(const MapsOptions& o, std::ostream& out, std::ostream& err) {
   retire_previous_outputs(o.out_dir, names, view_names);
   std::vector<std::string> problems;
   int mapped = 0;
-  for (const EventView& listed : event.views) {
+  for (const fit::EventView& listed : event.views) {
     if (listed.files.empty()) {
       problems.push_back("view " + listed.name + ": no files match " + listed.globs.front() + ".");
       continue;
     }
-    const WindowSplit split = apply_window(event, listed);
+    const fit::WindowSplit split = fit::apply_window(event, listed);
     if (split.inside.empty()) {
       problems.push_back("view " + listed.name + ": none of its " + std::to_string(split.outside.size()) +
                          " frames lies in the event's window.");
       continue;
     }
-    EventView view = listed;
+    fit::EventView view = listed;
     view.files = split.inside;
     if (!split.outside.empty())
       out << view.name << ": " << split.outside.size() << " frames outside the event's window are not used\n";

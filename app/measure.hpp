@@ -9,7 +9,12 @@
 // Input: an event file, or a folder of FITS frames grouped into views by observer
 // (OBSRVTRY, else TELESCOP, else the observer's position to 1°). The event's window is
 // applied (frames outside it named in each view's frames_outside_window); a track given
-// with --track must match the event (app/track.hpp check_track_matches) or nothing runs.
+// with --track must match the event (fit/track.hpp check_track_matches) or nothing runs.
+//
+// The science is fit/measurement.hpp (the one measurement the window and the catalogue
+// run call too) and the files' contents fit/result_file.hpp; this verb checks where its
+// outputs go, calls them, draws the pictures (app/measure_pictures.hpp), adds the
+// provenance and writes the files.
 #pragma once
 
 #include <iosfwd>
@@ -17,14 +22,15 @@
 
 #include <nlohmann/json.hpp>
 
+#include "fit/measurement.hpp"
+
 namespace occulta::app {
 
 struct MeasureOptions {
   std::string input;      // event file or folder
   std::string out_dir;
   std::string track;      // optional track file: its points replace the automatic ones
-  int median = 5;         // median filter against cosmic-ray tracks (0, 3, 5)
-  std::string apex_law = "auto";  // shell fit: auto | linear | quadratic | free (app/shell_report.hpp)
+  fit::MeasurementOptions measurement;  // median filter, apex law, … (fit/measurement.hpp)
   bool quiet = false;     // no summary table
 };
 

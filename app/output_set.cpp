@@ -42,13 +42,13 @@ void remove_matching(const fs::path& folder, const std::vector<std::string>& pat
 
 }  // namespace
 
-void check_outputs_outside_inputs(const Event& event, const std::vector<fs::path>& outputs, const std::string& option) {
+void check_outputs_outside_inputs(const fit::Event& event, const std::vector<fs::path>& outputs, const std::string& option) {
   const fs::path base = event.path.parent_path();
   for (const fs::path& output : outputs) {
     const fs::path out = normal(output);
-    for (const EventView& view : event.views) {
+    for (const fit::EventView& view : event.views) {
       for (const std::string& glob : view.globs) {
-        // The same pattern glob(3) expands in read_event, matched with fnmatch(3)
+        // The same pattern glob(3) expands in fit::read_event, matched with fnmatch(3)
         // (POSIX: FNM_PATHNAME so that "*" stays within one folder, as in glob).
         const std::string pattern = normal(base / glob).string();
         if (::fnmatch(pattern.c_str(), out.string().c_str(), FNM_PATHNAME | FNM_PERIOD) == 0)

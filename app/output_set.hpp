@@ -17,13 +17,13 @@
 #include <string>
 #include <vector>
 
-#include "app/event.hpp"
+#include "fit/event.hpp"
 
 namespace occulta::app {
 
 // Refuses (InputError naming `option`) when a path in `outputs` matches one of the event's
 // view globs or is one of its input files. Paths are compared absolute and normalised.
-void check_outputs_outside_inputs(const Event& event, const std::vector<std::filesystem::path>& outputs,
+void check_outputs_outside_inputs(const fit::Event& event, const std::vector<std::filesystem::path>& outputs,
                                   const std::string& option);
 
 // What a verb writes into its --out folder.

@@ -4,7 +4,7 @@
 #include <filesystem>
 #include <ostream>
 
-#include "app/event.hpp"
+#include "fit/event.hpp"
 #include "imaging/input_error.hpp"
 #include "viewer/present.hpp"
 #include "viewer/script.hpp"
@@ -34,14 +34,14 @@ int view(const ViewOptions& options, std::ostream& out, std::ostream& err) {
   const std::vector<viewer::Action> script =
       options.script.empty() ? std::vector<viewer::Action>{} : viewer::read_script(options.script);
   const fs::path input = options.input;
-  const Event event = fs::is_directory(input) ? event_from_folder(input) : read_event(input);
+  const fit::Event event = fs::is_directory(input) ? fit::event_from_folder(input) : fit::read_event(input);
 
   std::vector<viewer::ViewSource> sources;
   viewer::WindowState state;
   state.width = width;
   state.height = height;
-  for (const EventView& v : event.views) {
-    sources.push_back({v.name, v.files, chain_options(event, v, options.median)});
+  for (const fit::EventView& v : event.views) {
+    sources.push_back({v.name, v.files, fit::chain_options(event, v, options.median)});
     state.views.push_back(v.name);
   }
 

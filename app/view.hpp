@@ -1,7 +1,7 @@
 // app/view.hpp — `occulta view EVENT|DIR [--snapshot out.png] [--size WxH] [--script
 // actions.json] [--median N]`: the analyst's window on an event file or a folder of frames.
 //
-// Reads the event (app/event.hpp; a folder groups its frames by observer, as `measure`
+// Reads the event (fit/event.hpp; a folder groups its frames by observer, as `measure`
 // does) and hands the viewer a plain list of views (viewer/pictures.hpp ViewSource). With
 // --snapshot, no display is needed: the views are loaded first, the script's actions
 // applied in order, and the window drawn once by the software renderer into the PNG.

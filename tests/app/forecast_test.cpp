@@ -226,7 +226,7 @@ TEST_CASE("forecast: bad input gives one sentence naming the file and the fault"
 }
 
 TEST_CASE("forecast: no estimate from an unconstrained direction or a failed shell fit; an assumed one is conditional") {
-  // Issue 11 / 13: the verb keeps measure's rule (app/shell_report.hpp).
+  // Issue 11 / 13: the verb keeps measure's rule (fit/measurement_shell.cpp).
   const fs::path dir = occulta::test::scratch_dir("forecast_weak");
   json result = handwritten_result();
   result["shell"]["direction_basis"] = "none";

@@ -23,7 +23,7 @@
 #include <nlohmann/json.hpp>
 #include <opencv2/imgcodecs.hpp>
 
-#include "app/event.hpp"
+#include "fit/event.hpp"
 #include "imaging/fits.hpp"
 #include "imaging/input_error.hpp"
 #include "imaging/output_file.hpp"
@@ -199,7 +199,7 @@ TEST_CASE("hostile output: synth and measure killed at several points leave only
     check_whole(out);
     // The event file is written last: when it is there, every frame it names is.
     if (fs::exists(out / "kill-event.event.json")) {
-      const occulta::app::Event e = occulta::app::read_event(out / "kill-event.event.json");
+      const occulta::fit::Event e = occulta::fit::read_event(out / "kill-event.event.json");
       for (const auto& view : e.views) CHECK(view.files.size() == 4);
     }
     REQUIRE(wait_for(spawn(command({"synth", "--quiet", scenario.string(), "--out", out.string()}))) == 0);
@@ -229,7 +229,7 @@ TEST_CASE("hostile output: synth with fewer frames into a used folder leaves onl
   fewer.replace(fewer.find("\"frames\": 4"), 11, "\"frames\": 3");
   std::ofstream(scenario) << fewer;
   REQUIRE(wait_for(spawn(command({"synth", "--quiet", scenario.string(), "--out", (dir / "out").string()}))) == 0);
-  const occulta::app::Event e = occulta::app::read_event(dir / "out" / "kill-event.event.json");
+  const occulta::fit::Event e = occulta::fit::read_event(dir / "out" / "kill-event.event.json");
   REQUIRE(e.views.size() == 2);
   CHECK(e.views[1].files.size() == 3);  // south: the 4th frame of the earlier run is gone
   CHECK(fs::exists(dir / "out" / "north" / "north_900.fits"));  // not synth's: left alone
@@ -243,7 +243,7 @@ TEST_CASE("hostile output: --out equal to the input folder does not change what 
   const fs::path frames = dir / "frames";
   REQUIRE(wait_for(spawn(command({"synth", "--quiet", scenario.string(), "--out", frames.string()}))) == 0);
   const fs::path event = frames / "kill-event.event.json";
-  const auto before = occulta::app::read_event(event);
+  const auto before = occulta::fit::read_event(event);
 
   // maps would write <view>/polar.fits, which the glob "<view>/*.fits" reads: refused
   // before any work, with one sentence, and nothing written.
@@ -256,7 +256,7 @@ TEST_CASE("hostile output: --out equal to the input folder does not change what 
   CHECK(!fs::exists(frames / "north" / "polar.fits"));
   // measure writes no frames: into the input folder it may, and the next run reads the same.
   REQUIRE(wait_for(spawn(command({"measure", event.string(), "--out", frames.string()}))) <= 1);
-  const auto after = occulta::app::read_event(event);
+  const auto after = occulta::fit::read_event(event);
   REQUIRE(after.views.size() == before.views.size());
   for (std::size_t v = 0; v < after.views.size(); ++v) CHECK(after.views[v].files == before.views[v].files);
 }

@@ -6,7 +6,7 @@
 #include <nlohmann/json.hpp>
 #include <opencv2/imgcodecs.hpp>
 
-#include "app/event.hpp"
+#include "fit/event.hpp"
 #include "imaging/chain.hpp"
 #include "imaging/time.hpp"
 #include "tests/support/support.hpp"
@@ -75,7 +75,7 @@ TEST_CASE("maps: the time-height ridge at the apex PA follows the truth's sky-pl
     CAPTURE(c.lat);
     const fs::path dir = occulta::test::synthesize_event("maps_ridge", scenario(c.lon, c.lat, c.speed, c.tilt));
     const json truth = read_json(dir / "frames/maps-event.truth.json");
-    const auto event = occulta::app::read_event(dir / "frames/maps-event.event.json");
+    const auto event = occulta::fit::read_event(dir / "frames/maps-event.event.json");
     for (const auto& view : event.views) {
       CAPTURE(view.name);
       occulta::imaging::ChainOptions options;

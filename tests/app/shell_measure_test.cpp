@@ -14,7 +14,7 @@
 #include <doctest/doctest.h>
 #include <nlohmann/json.hpp>
 
-#include "app/track.hpp"
+#include "fit/track.hpp"
 #include "fit/json_file.hpp"
 #include "fit/shell.hpp"
 #include "fit/truth.hpp"
@@ -198,7 +198,7 @@ TEST_CASE("shell measure: an analyst's sparse points replace the automatic ones 
   const Config c{"tilted, two views", -12, 6, 30, 26, 0.33, 950, 0, {{"a", -62, 1.5, 0.97}, {"b", 24, -2, 1.01}}};
   const fs::path dir = occulta::test::synthesize_event("shell_analyst", scenario(c, 77));
   const json truth = occulta::fit::read_json_file(dir / "frames" / "shell-event.truth.json");
-  occulta::app::Track track{"shell-event", {}};
+  occulta::fit::Track track{"shell-event", {}};
   std::mt19937 rng(5);
   std::normal_distribution<double> noise(0.0, 0.2);
   for (const Observer& o : c.observers) {
@@ -220,7 +220,7 @@ TEST_CASE("shell measure: an analyst's sparse points replace the automatic ones 
     }
   }
   REQUIRE(track.points.size() >= 40);
-  occulta::app::write_track(dir / "analyst.track.json", track);
+  occulta::fit::write_track(dir / "analyst.track.json", track);
   const fs::path out = dir / "result";
   const auto measured = run_command(shell_quote(occulta::test::occulta_binary().string()) + " measure --quiet " +
                                     shell_quote((dir / "frames" / "shell-event.event.json").string()) + " --track " +

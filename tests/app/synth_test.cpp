@@ -5,7 +5,7 @@
 #include <doctest/doctest.h>
 #include <nlohmann/json.hpp>
 
-#include "app/event.hpp"
+#include "fit/event.hpp"
 #include "imaging/fits.hpp"
 #include "imaging/time.hpp"
 #include "tests/support/support.hpp"
@@ -50,7 +50,7 @@ json parse_array(const std::string& output) {
 
 TEST_CASE("synth: frames that inspect accepts, with the event file and truth file") {
   const fs::path out = synth_small("synth_small");
-  const occulta::app::Event event = occulta::app::read_event(out / "small-event.event.json");
+  const occulta::fit::Event event = occulta::fit::read_event(out / "small-event.event.json");
   CHECK(event.id == "small-event");
   REQUIRE(event.views.size() == 2);
   CHECK(event.views[0].name == "north");

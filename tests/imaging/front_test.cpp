@@ -12,7 +12,7 @@
 #include <doctest/doctest.h>
 #include <nlohmann/json.hpp>
 
-#include "app/event.hpp"
+#include "fit/event.hpp"
 #include "fit/truth.hpp"
 #include "imaging/chain.hpp"
 #include "imaging/front.hpp"
@@ -70,7 +70,7 @@ Synth synth_and_difference(const std::string& name, const Shell& shell) {
   Synth out;
   std::ifstream in(dir / "frames/front-event.truth.json");
   out.truth = json::parse(in);
-  const auto event = occulta::app::read_event(dir / "frames/front-event.event.json");
+  const auto event = occulta::fit::read_event(dir / "frames/front-event.event.json");
   occulta::imaging::ChainOptions options;
   options.median_filter = 5;  // against the scenario's cosmic-ray tracks (up to 4 px long)
   out.running = occulta::imaging::polar_running_differences("one", event.views.at(0).files, options).running;

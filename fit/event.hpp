@@ -1,4 +1,4 @@
-// app/event.hpp — the event file (`*.event.json`, DESIGN.md "File contracts"): which
+// fit/event.hpp — the event file (`*.event.json`, DESIGN.md "File contracts"): which
 // frames make up each view of one event, and what the analyst knows besides.
 //
 //   id          text
@@ -22,7 +22,7 @@
 #include "imaging/chain.hpp"
 #include "imaging/geometry.hpp"
 
-namespace occulta::app {
+namespace occulta::fit {
 
 struct EventView {
   std::string name;
@@ -45,7 +45,7 @@ struct Event {
 // Reads and checks an event file strictly; InputError(path, …) names the key at fault:
 // unknown keys (with the nearest known one), wrong types, values outside the allowed
 // ranges (observer lon −180–360°, lat ±90°, dist 0.05–100 au; occulter 1–300 R☉; source
-// lon −180–360°, lat ±90°; forecast block as fit::read_forecast_block), id and view names
+// lon −180–360°, lat ±90°; forecast block as read_forecast_block), id and view names
 // outside the safe set of fit/strict_json.hpp, another kind of occulta file. A view
 // whose globs match nothing is kept with no files (the caller reports it, the other
 // views go on).
@@ -65,8 +65,13 @@ WindowSplit apply_window(const Event& event, const EventView& view);
 // the folder holds no FITS files.
 Event event_from_folder(const std::filesystem::path& dir);
 
+// FITS files under `paths`: each path that is a file as given; each folder walked
+// recursively for names ending .fits, .fit, .fts, .fz or .fits.gz (any case); sorted. A
+// path that does not exist is kept, so that it is reported.
+std::vector<std::filesystem::path> collect_fits_paths(const std::vector<std::string>& paths);
+
 // What the event file says about a view, as options of the imaging chain: its observer,
 // its occulter radii, the event's base time; median filter size as given.
 imaging::ChainOptions chain_options(const Event& event, const EventView& view, int median_filter);
 
-}  // namespace occulta::app
+}  // namespace occulta::fit

@@ -1,4 +1,4 @@
-#include "app/track.hpp"
+#include "fit/track.hpp"
 
 #include <algorithm>
 #include <cmath>
@@ -8,16 +8,16 @@
 #include "imaging/input_error.hpp"
 #include "imaging/time.hpp"
 
-namespace occulta::app {
+namespace occulta::fit {
 using nlohmann::json;
 using imaging::InputError;
 
 Track read_track(const std::filesystem::path& path) {
   const std::string file = path.string();
-  const json doc = fit::read_json_file(path);
+  const json doc = read_json_file(path);
   if (!doc.is_object()) throw InputError(file, "must hold one JSON object, a track file's {schema, event_id, points}");
-  fit::require_kind(doc, "track", file, "a track file is needed here");
-  fit::check_keys(doc, {"schema", "event_id", "points"}, "", file);
+  require_kind(doc, "track", file, "a track file is needed here");
+  check_keys(doc, {"schema", "event_id", "points"}, "", file);
   if (doc.value("schema", json()) != "occulta.track/1")
     throw InputError(file, "`schema` is " + (doc.contains("schema") ? doc["schema"].dump() : std::string("missing")) +
                                " — a track file's is \"occulta.track/1\"");
@@ -26,18 +26,18 @@ Track read_track(const std::filesystem::path& path) {
   if (!doc.contains("points") || !doc["points"].is_array()) throw InputError(file, "`points` must be a list");
   Track track;
   track.event_id = doc["event_id"].get<std::string>();
-  fit::check_safe_name(track.event_id, "event_id", file);
+  check_safe_name(track.event_id, "event_id", file);
   for (size_t i = 0; i < doc["points"].size(); ++i) {
     const json& p = doc["points"][i];
     const std::string where = "points[" + std::to_string(i) + "]";
     if (!p.is_object()) throw InputError(file, "`" + where + "` must be an object {view, time, pa_deg, height_rs}");
-    fit::check_keys(p, {"view", "time", "pa_deg", "height_rs", "origin"}, where, file);
+    check_keys(p, {"view", "time", "pa_deg", "height_rs", "origin"}, where, file);
     for (const char* key : {"view", "time", "pa_deg", "height_rs"})
       if (!p.contains(key)) throw InputError(file, "`" + where + "." + key + "` is missing");
     if (!p["view"].is_string()) throw InputError(file, "`" + where + ".view` must be a string");
     TrackPoint t;
     t.view = p["view"].get<std::string>();
-    fit::check_safe_name(t.view, where + ".view", file);
+    check_safe_name(t.view, where + ".view", file);
     if (!p["time"].is_string()) throw InputError(file, "`" + where + ".time` must be an ISO 8601 UTC time in quotes");
     try {
       t.utc_s = imaging::utc_seconds_from_iso(p["time"].get<std::string>());
@@ -74,7 +74,7 @@ void check_track_matches(const Track& track, const std::string& file, const std:
     const std::string where = "points[" + std::to_string(i) + "]";
     const auto view = std::find_if(views.begin(), views.end(), [&](const ViewSpan& v) { return v.name == p.view; });
     if (view == views.end()) {
-      const std::string near = fit::nearest_word(p.view, names);
+      const std::string near = nearest_word(p.view, names);
       throw InputError(file, "`" + where + ".view` \"" + p.view + "\" is not a view of event \"" + event_id + "\"" +
                                  (near.empty() ? "" : " — did you mean \"" + near + "\"?"));
     }
@@ -96,7 +96,7 @@ void write_track(const std::filesystem::path& path, const Track& track) {
                       {"pa_deg", p.pa_deg},
                       {"height_rs", p.height_rs},
                       {"origin", p.origin}});
-  fit::write_json_file(path, {{"schema", "occulta.track/1"}, {"event_id", track.event_id}, {"points", points}});
+  write_json_file(path, {{"schema", "occulta.track/1"}, {"event_id", track.event_id}, {"points", points}});
 }
 
-}  // namespace occulta::app
+}  // namespace occulta::fit

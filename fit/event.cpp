@@ -1,4 +1,4 @@
-#include "app/event.hpp"
+#include "fit/event.hpp"
 
 #include <algorithm>
 #include <cctype>
@@ -8,7 +8,6 @@
 #include <sstream>
 #include <glob.h>
 
-#include "app/inspect.hpp"
 #include "fit/arrival_json.hpp"
 #include "fit/json_file.hpp"
 #include "fit/strict_json.hpp"
@@ -17,12 +16,22 @@
 #include "imaging/input_error.hpp"
 #include "imaging/time.hpp"
 
-namespace occulta::app {
+namespace occulta::fit {
 namespace fs = std::filesystem;
 using nlohmann::json;
 using imaging::InputError;
 
 namespace {
+
+bool looks_like_fits_name(const fs::path& path) {
+  std::string name = path.filename().string();
+  std::transform(name.begin(), name.end(), name.begin(), [](unsigned char c) { return std::tolower(c); });
+  for (const char* suffix : {".fits", ".fit", ".fts", ".fz", ".fits.gz"}) {
+    const std::string s(suffix);
+    if (name.size() > s.size() && name.compare(name.size() - s.size(), s.size(), s) == 0) return true;
+  }
+  return false;
+}
 
 // POSIX glob(3): the shell's own pattern rules, sorted matches.
 std::vector<fs::path> expand(const fs::path& base, const std::string& pattern) {
@@ -80,10 +89,10 @@ double number_field(const json& object, const char* key, const std::string& wher
 
 Event read_event(const fs::path& path) {
   const std::string file = path.string();
-  const json doc = fit::read_json_file(path);
+  const json doc = read_json_file(path);
   if (!doc.is_object()) throw InputError(file, "must hold one JSON object, an event file's {id, views, …}");
-  fit::require_kind(doc, "event", file, "an event file is needed here");
-  fit::check_keys(doc, {"schema", "id", "views", "window", "base_time", "source", "forecast"}, "", file);
+  require_kind(doc, "event", file, "an event file is needed here");
+  check_keys(doc, {"schema", "id", "views", "window", "base_time", "source", "forecast"}, "", file);
   if (doc.contains("schema") && doc["schema"] != "occulta.event/1")
     throw InputError(file, "`schema` is " + doc["schema"].dump() + " — an event file's is \"occulta.event/1\"");
 
@@ -91,7 +100,7 @@ Event read_event(const fs::path& path) {
   event.path = path;
   if (!doc.contains("id") || !doc["id"].is_string()) throw InputError(file, "`id` must be a string naming the event");
   event.id = doc["id"].get<std::string>();
-  fit::check_safe_name(event.id, "id", file);
+  check_safe_name(event.id, "id", file);
   if (!doc.contains("views") || !doc["views"].is_array() || doc["views"].empty())
     throw InputError(file, "`views` must be a non-empty list of {name, files}");
 
@@ -100,11 +109,11 @@ Event read_event(const fs::path& path) {
     const json& v = doc["views"][i];
     const std::string where = "views[" + std::to_string(i) + "].";
     if (!v.is_object()) throw InputError(file, "`" + where.substr(0, where.size() - 1) + "` must be an object {name, files}");
-    fit::check_keys(v, {"name", "files", "observer", "occulter_rs"}, where.substr(0, where.size() - 1), file);
+    check_keys(v, {"name", "files", "observer", "occulter_rs"}, where.substr(0, where.size() - 1), file);
     EventView view;
     if (!v.contains("name") || !v["name"].is_string()) throw InputError(file, "`" + where + "name` must be a string");
     view.name = v["name"].get<std::string>();
-    fit::check_safe_name(view.name, where + "name", file);
+    check_safe_name(view.name, where + "name", file);
     for (const auto& other : event.views)
       if (other.name == view.name) throw InputError(file, "`" + where + "name` \"" + view.name + "\" is used twice");
     if (!v.contains("files")) throw InputError(file, "`" + where + "files` is missing");
@@ -123,7 +132,7 @@ Event read_event(const fs::path& path) {
       const json& o = v["observer"];
       const std::string ow = where + "observer.";
       if (!o.is_object()) throw InputError(file, "`" + where + "observer` must be an object {lon_deg, lat_deg, dist_au}");
-      fit::check_keys(o, {"lon_deg", "lat_deg", "dist_au"}, where + "observer", file);
+      check_keys(o, {"lon_deg", "lat_deg", "dist_au"}, where + "observer", file);
       const double dist_au = number_field(o, "dist_au", ow, 0.05, 100.0, "au", file);
       view.observer = imaging::observer_from_degrees(number_field(o, "lon_deg", ow, -180.0, 360.0, "deg", file),
                                                      number_field(o, "lat_deg", ow, -90.0, 90.0, "deg", file),
@@ -140,7 +149,7 @@ Event read_event(const fs::path& path) {
   if (doc.contains("window")) {
     const json& w = doc["window"];
     if (!w.is_object()) throw InputError(file, "`window` must be an object {start, end}");
-    fit::check_keys(w, {"start", "end"}, "window", file);
+    check_keys(w, {"start", "end"}, "window", file);
     event.window_s = std::array<double, 2>{time_field(w, "start", "window.", file), time_field(w, "end", "window.", file)};
     if ((*event.window_s)[1] < (*event.window_s)[0]) throw InputError(file, "`window.end` comes before `window.start`");
   }
@@ -148,14 +157,14 @@ Event read_event(const fs::path& path) {
   if (doc.contains("source")) {
     const json& s = doc["source"];
     if (!s.is_object()) throw InputError(file, "`source` must be an object {lon_deg, lat_deg}");
-    fit::check_keys(s, {"lon_deg", "lat_deg"}, "source", file);
+    check_keys(s, {"lon_deg", "lat_deg"}, "source", file);
     event.source_deg = std::array<double, 2>{number_field(s, "lon_deg", "source.", -180.0, 360.0, "deg", file),
                                              number_field(s, "lat_deg", "source.", -90.0, 90.0, "deg", file)};
   }
   if (doc.contains("forecast")) {
     event.forecast = doc["forecast"];
     // Checked now, not when the fit reaches it: targets are placed at some time; any will do.
-    fit::read_forecast_block(event.forecast, event.window_s ? (*event.window_s)[0] : 0.0, file);
+    read_forecast_block(event.forecast, event.window_s ? (*event.window_s)[0] : 0.0, file);
   }
   return event;
 }
@@ -229,4 +238,23 @@ Event event_from_folder(const std::filesystem::path& dir) {
   return event;
 }
 
-}  // namespace occulta::app
+std::vector<fs::path> collect_fits_paths(const std::vector<std::string>& paths) {
+  std::vector<fs::path> files;
+  for (const auto& given : paths) {
+    std::error_code ec;
+    if (fs::is_directory(given, ec)) {
+      std::vector<fs::path> found;
+      for (fs::recursive_directory_iterator it(given, fs::directory_options::skip_permission_denied, ec), end;
+           !ec && it != end; it.increment(ec)) {
+        if (it->is_regular_file(ec) && looks_like_fits_name(it->path())) found.push_back(it->path());
+      }
+      std::sort(found.begin(), found.end());
+      files.insert(files.end(), found.begin(), found.end());
+    } else {
+      files.emplace_back(given);  // a file, or a path that does not exist: reported later
+    }
+  }
+  return files;
+}
+
+}  // namespace occulta::fit

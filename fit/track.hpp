@@ -1,4 +1,4 @@
-// app/track.hpp — the track file (`*.track.json`): leading-edge points of one event,
+// fit/track.hpp — the track file (`*.track.json`): leading-edge points of one event,
 // clicked by an analyst in the viewer or found by `measure`, and what `measure --track`
 // starts from instead of its own.
 //
@@ -11,7 +11,7 @@
 #include <string>
 #include <vector>
 
-namespace occulta::app {
+namespace occulta::fit {
 
 struct TrackPoint {
   std::string view;
@@ -32,7 +32,7 @@ inline constexpr double kTrackHeightRangeRs[2] = {1.0, 300.0};
 
 // Reads a track file strictly: InputError naming the file and the key at fault (unknown
 // keys with the nearest known one, `schema` "occulta.track/1" and `event_id` required,
-// view names as fit::is_safe_name, pa_deg 0–360, height_rs within kTrackHeightRangeRs).
+// view names as is_safe_name, pa_deg 0–360, height_rs within kTrackHeightRangeRs).
 Track read_track(const std::filesystem::path& path);
 
 // What a track is checked against: one view of the event and its frames' time span
@@ -47,4 +47,4 @@ void check_track_matches(const Track& track, const std::string& file, const std:
                          const std::vector<ViewSpan>& views);
 void write_track(const std::filesystem::path& path, const Track& track);
 
-}  // namespace occulta::app
+}  // namespace occulta::fit

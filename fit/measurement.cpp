@@ -1,0 +1,269 @@
+// fit/measurement.cpp — the measurement per view and over the event (measurement.hpp);
+// the shell over the views is measurement_shell.cpp.
+#include "fit/measurement.hpp"
+
+#include <algorithm>
+#include <cmath>
+
+#include "fit/arrival_json.hpp"
+#include "fit/json_file.hpp"
+#include "fit/measurement_shell.hpp"
+#include "fit/result_file.hpp"
+#include "fit/strict_json.hpp"
+#include "imaging/chain.hpp"
+#include "imaging/constants.hpp"
+#include "imaging/input_error.hpp"
+#include "imaging/time.hpp"
+
+namespace occulta::fit {
+namespace fs = std::filesystem;
+
+namespace {
+
+void report(const MeasurementProgressCallback& progress, MeasurementStage stage, const std::string& view, int view_index,
+            int view_count, int frame = 0, int frame_count = 0) {
+  if (progress) progress({stage, view, view_index, view_count, frame, frame_count});
+}
+
+ViewMeasurement measure_view(const Event& event, const EventView& view, const Track* analyst,
+                             const MeasurementOptions& o, std::vector<std::string>& problems,
+                             const MeasurementProgressCallback& progress, int view_index, int view_count) {
+  const imaging::ChainOptions chain = chain_options(event, view, o.median);
+
+  ViewMeasurement m;
+  m.name = view.name;
+  imaging::PolarSequence& polar = m.polar;
+  const int frame_count = static_cast<int>(view.files.size());
+  report(progress, MeasurementStage::chain, view.name, view_index, view_count, 0, frame_count);
+  const imaging::ViewRun run = imaging::run_view(view.name, view.files, chain, [&](const imaging::ChainFrame& f) {
+    m.observer = f.frame.geometry.observer;
+    polar.utc_s.push_back(f.frame.utc_s);
+    polar.frames.push_back(f.polar_running.clone());
+    report(progress, MeasurementStage::chain, view.name, view_index, view_count, static_cast<int>(polar.frames.size()),
+           frame_count);
+  });
+  polar.polar = run.polar;
+  m.grid = run.grid;
+  m.frames_used = run.frames_used;
+  for (const auto& p : run.problems) problems.push_back("view " + view.name + ": " + p);
+
+  report(progress, MeasurementStage::front, view.name, view_index, view_count);
+  m.front = imaging::find_front(polar);
+  const imaging::Front& front = m.front;
+
+  // The points: the analyst's for this view when given, else the automatic track. Either
+  // way only edges inside the field count: one at or beyond the field stop, at a data
+  // gap or behind the occulter is censored (imaging/front.hpp TrackCensoring), counted
+  // and left out (issue 11).
+  std::vector<TrackPoint>& points = m.points;
+  imaging::TrackCensoring& censored = m.censored;
+  const double step_rs = polar.polar.height_step_rs;
+  if (analyst)
+    for (const TrackPoint& p : analyst->points) {
+      if (p.view != view.name) continue;
+      m.by_analyst = true;
+      int frame = -1;  // the frame the point was marked on (within a second)
+      for (std::size_t k = 0; k < polar.utc_s.size(); ++k)
+        if (std::abs(polar.utc_s[k] - p.utc_s) < 1.0) frame = int(k);
+      std::string why;
+      if (frame >= 0 && !imaging::height_measurable(polar, frame, p.pa_deg, p.height_rs, step_rs, why)) {
+        if (why == "at the field stop") ++censored.at_field_stop;
+        else if (why == "at a data gap") ++censored.at_data_gap;
+        else ++censored.behind_occulter;
+        continue;
+      }
+      points.push_back(p);
+    }
+  // The automatic track follows the front where it reaches highest (the leading edge an
+  // analyst measures — common practice), not the middle of the span.
+  std::vector<imaging::TrackPoint> auto_track;
+  if (!m.by_analyst && front.found) {
+    auto_track = imaging::follow_track(polar, front.outermost_pa_deg, front.onset_frame, {}, &censored);
+    for (const imaging::TrackPoint& p : auto_track) points.push_back({view.name, p.utc_s, p.pa_deg, p.height_rs, "auto"});
+  }
+  // How far above the noise the front stood: the largest band-median running difference
+  // on the automatic track, in σ (imaging/front.hpp; the track caps it at 50) — what a
+  // detection limit is stated in.
+  if (!auto_track.empty()) {
+    double contrast = 0.0;
+    for (const imaging::TrackPoint& p : auto_track) contrast = std::max(contrast, p.sigma);
+    m.front_contrast_sigma = contrast;
+  }
+
+  if (front.found) {
+    m.central_pa_deg = front.central_pa_deg;
+  } else {
+    problems.push_back("view " + view.name + ": " + front.why_not);
+  }
+  if (m.by_analyst && !front.found) {
+    double sum_sin = 0.0, sum_cos = 0.0;  // mean direction of the analyst's PAs
+    for (const auto& p : points) sum_sin += std::sin(p.pa_deg * kRadPerDeg), sum_cos += std::cos(p.pa_deg * kRadPerDeg);
+    m.central_pa_deg = std::fmod(std::atan2(sum_sin, sum_cos) * kDegPerRad + 360.0, 360.0);
+  }
+
+  report(progress, MeasurementStage::kinematics, view.name, view_index, view_count);
+  if (points.size() >= 2) {
+    std::vector<HeightTimePoint> ht;
+    for (const auto& p : points) ht.push_back({p.utc_s, p.height_rs, 0.0});
+    // Robust (Huber) fits, linear unless a quadratic is substantially better (AICc). The
+    // scale's floor: the height grid's rounding, Δ/√12 (kinematics.hpp).
+    const double resolution_rs = step_rs / std::sqrt(12.0);
+    HeightTimeFit chosen = choose_height_time_model(ht, true, 2.0, resolution_rs).chosen;
+    if (chosen.status == FitStatus::ok && !auto_track.empty()) {
+      // The leading edge's definition: the track's band edge (edge_fraction of its peak)
+      // against the front's outer threshold edge in the same PA column, frame by frame,
+      // both inside the field; half their laws' difference joins the σ (kinematics.hpp).
+      const int column = int(std::lround(front.outermost_pa_deg / polar.polar.pa_step_deg)) % polar.polar.pa_count;
+      std::vector<HeightTimePoint> outer;
+      for (const imaging::TrackPoint& p : auto_track) {
+        const float h = front.leading_edge_rs[std::size_t(p.frame)][std::size_t(column)];
+        std::string why;
+        if (std::isfinite(h) && imaging::height_measurable(polar, p.frame, p.pa_deg, h,
+                                                           imaging::FrontOptions{}.outer_margin_rs + step_rs, why))
+          outer.push_back({p.utc_s, double(h), 0.0});
+      }
+      const HeightTimeFit other = fit_height_time(outer, {chosen.model, true, resolution_rs});
+      add_definition_spread(chosen, other);
+    }
+    if (chosen.status == FitStatus::ok) {
+      if (!chosen.sigmas_known)
+        problems.push_back(view.name + ": no σ for the sky speed and onset: " + chosen.problem + ".");
+    } else {
+      problems.push_back("view " + view.name + ": the height–time fit failed: " + chosen.problem);
+    }
+    m.kinematics = std::move(chosen);
+  } else if (front.found || m.by_analyst) {
+    problems.push_back("view " + view.name + ": too few leading-edge points for a height–time fit.");
+  }
+  if (!points.empty()) m.track_pa_deg = points.front().pa_deg;
+  return m;
+}
+
+// partial: a view could not be read, a view sees no CME while another does, the shell
+// fit failed in a way its numbers do not show, or no arrival may be made from it.
+std::string status_of(int measured, std::size_t listed, const ShellMeasurement& shell) {
+  const bool weak =
+      shell.views_without_cme > 0 || !shell.arrival_withheld.empty() || (shell.fit && shell.status != "ok");
+  return measured == 0                                              ? "failed"
+         : measured < static_cast<int>(listed) || weak              ? "partial"
+                                                                    : "ok";
+}
+
+}  // namespace
+
+const char* to_string(MeasurementStage stage) {
+  switch (stage) {
+    case MeasurementStage::chain: return "chain";
+    case MeasurementStage::front: return "front";
+    case MeasurementStage::kinematics: return "kinematics";
+    case MeasurementStage::shell: return "shell";
+    case MeasurementStage::arrival: return "arrival";
+    case MeasurementStage::done: return "done";
+  }
+  return "?";
+}
+
+MeasurementInput load_measurement_input(const fs::path& input, const fs::path& track_file) {
+  MeasurementInput in;
+  in.from_folder = fs::is_directory(input);
+  if (!in.from_folder)
+    require_kind(read_json_file(input), "event", input.string(), "`measure` needs an event file or a folder of frames");
+  in.event = in.from_folder ? event_from_folder(input) : read_event(input);
+  if (!track_file.empty()) {
+    in.analyst = read_track(track_file);
+    in.track_file = track_file;
+  }
+  // The event's window, from each frame's header time; the frames' spans check the track.
+  std::vector<ViewSpan> spans;
+  for (const EventView& view : in.event.views) {
+    in.windows.push_back(apply_window(in.event, view));
+    spans.push_back({view.name, in.windows.back().first_utc_s, in.windows.back().last_utc_s});
+  }
+  if (in.analyst) check_track_matches(*in.analyst, track_file.string(), in.event.id, spans);
+  return in;
+}
+
+Measurement measure_event(const MeasurementInput& in, const MeasurementOptions& o,
+                          const MeasurementProgressCallback& progress) {
+  if (o.checksum_policy) imaging::set_checksum_policy(*o.checksum_policy);
+  const Event& event = in.event;
+  Measurement m;
+  m.event_id = event.id;
+  m.options = o;
+  m.track_file = in.track_file;
+  if (!in.from_folder) m.inputs.push_back(event.path);
+  if (in.analyst && !in.track_file.empty()) m.inputs.push_back(in.track_file);
+
+  std::vector<std::string>& problems = m.problems;
+  const int view_count = static_cast<int>(event.views.size());
+  int measured = 0;
+  for (std::size_t i = 0; i < event.views.size(); ++i) {
+    const EventView& listed = event.views[i];
+    const WindowSplit& split = in.windows[i];
+    m.inputs.insert(m.inputs.end(), split.inside.begin(), split.inside.end());
+    if (listed.files.empty()) {
+      problems.push_back("view " + listed.name + ": no files match " + listed.globs.front() + ".");
+      continue;
+    }
+    if (split.inside.empty()) {
+      problems.push_back("view " + listed.name + ": none of its " + std::to_string(split.outside.size()) +
+                         " frames lies in the event's window " + imaging::iso_from_utc_seconds((*event.window_s)[0], 3) +
+                         " to " + imaging::iso_from_utc_seconds((*event.window_s)[1], 3) + ".");
+      continue;
+    }
+    EventView view = listed;
+    view.files = split.inside;
+    try {
+      ViewMeasurement v = measure_view(event, view, in.analyst ? &*in.analyst : nullptr, o, problems, progress,
+                                       static_cast<int>(i), view_count);
+      v.frames_outside_window = split.outside;
+      m.views.push_back(std::move(v));
+      ++measured;
+    } catch (const imaging::InputError& e) {
+      problems.push_back("view " + view.name + ": " + e.what());
+    }
+  }
+  // One shell over every view that saw the CME: true direction, width and speed.
+  report(progress, MeasurementStage::shell, "", -1, view_count);
+  m.shell = measure_shell(m.views, event.source_deg, o.apex_law, problems);
+
+  // A sentence said once: the same fault met twice (the same frame in two views' globs…)
+  // is one problem.
+  for (size_t i = 0; i < problems.size(); ++i)
+    for (size_t j = problems.size(); j-- > i + 1;)
+      if (problems[j] == problems[i]) problems.erase(problems.begin() + static_cast<std::ptrdiff_t>(j));
+  m.status = status_of(measured, event.views.size(), m.shell);
+
+  // The arrival estimate for the event's targets (default Earth), from the fit's boundary
+  // values and covariance as result.json holds them (fit/arrival_json): model estimates
+  // with stated uncertainty.
+  report(progress, MeasurementStage::arrival, "", -1, view_count);
+  if (m.shell.arrival_withheld.empty() && m.shell.boundary) {
+    try {
+      const ArrivalInput arrival_in = read_arrival_input(result_json(m), o.result_name);
+      const ForecastSettings settings =
+          read_forecast_block(event.forecast, arrival_in.launch.boundary_utc_s, event.path.string());
+      m.ensemble = EnsembleOptions{};
+      m.ensemble.priors = settings.priors;
+      m.arrivals = forecast_arrivals(arrival_in.launch, arrival_in.covariance, settings.targets, m.ensemble);
+      m.arrival_made = true;
+    } catch (const imaging::InputError& e) {
+      problems.push_back(std::string("no arrival estimate: ") + e.what());
+    }
+  }
+  report(progress, MeasurementStage::done, "", -1, view_count);
+  return m;
+}
+
+Measurement measure_event(const fs::path& event_or_folder, const fs::path& track_file, const MeasurementOptions& options,
+                          const MeasurementProgressCallback& progress) {
+  return measure_event(load_measurement_input(event_or_folder, track_file), options, progress);
+}
+
+Track used_track(const Measurement& m) {
+  Track used{m.event_id, {}};
+  for (const ViewMeasurement& v : m.views) used.points.insert(used.points.end(), v.points.begin(), v.points.end());
+  return used;
+}
+
+}  // namespace occulta::fit

@@ -1,0 +1,85 @@
+// fit/result_csv.cpp — the measurement as a result.csv row (see result_file.hpp).
+#include <sstream>
+#include <vector>
+
+#include "fit/result_file.hpp"
+
+namespace occulta::fit {
+using nlohmann::json;
+
+namespace {
+
+std::string csv_field(const json& value) {
+  if (value.is_null()) return "";
+  if (value.is_string()) {
+    std::string text = value.get<std::string>(), quoted = "\"";
+    for (char c : text) quoted += (c == '"') ? std::string("\"\"") : std::string(1, c);
+    return quoted + "\"";
+  }
+  if (value.is_array()) {
+    std::string joined;
+    for (const auto& x : value) joined += (joined.empty() ? "" : ";") + x.dump();
+    return joined;
+  }
+  return value.dump();
+}
+
+}  // namespace
+
+// One row: the event's keys, then each view's keys prefixed by its name.
+std::string result_csv(const json& result) {
+  std::vector<std::string> names = {"event_id", "status", "problems"};
+  // The problems as the sentences themselves, one after another in one quoted field.
+  std::string problems;
+  for (const auto& p : result["problems"]) problems += (problems.empty() ? "" : " ") + p.get<std::string>();
+  std::vector<std::string> values = {csv_field(result["event_id"]), csv_field(result["status"]), csv_field(json(problems))};
+  for (const auto& v : result["views"])
+    for (const char* key : {"frames_used", "found", "central_pa_deg", "pa_span_deg", "sky_width_deg", "sky_speed_km_s",
+                            "sky_speed_km_s_sigma", "sky_accel_m_s2", "sky_accel_m_s2_sigma", "onset_time",
+                            "onset_time_sigma_s", "time_at_21_5_rs", "law_ref_time", "frames_outside_window"}) {
+      names.push_back(v["name"].get<std::string>() + "_" + key);
+      // The frames outside the window are named in result.json; the row counts them.
+      values.push_back(std::string(key) == "frames_outside_window" ? std::to_string(v.value(key, json::array()).size())
+                                                                    : csv_field(v.contains(key) ? v[key] : json(nullptr)));
+    }
+  // The shell and the boundary values, flat, with their σ.
+  const json& shell = result["shell"];
+  for (const char* key : {"lon_deg", "lat_deg", "tilt_deg", "half_angle_deg", "aspect_ratio", "speed_km_s", "accel_m_s2",
+                          "face_on_width_deg", "edge_on_width_deg"}) {
+    names.push_back(std::string("shell_") + key);
+    values.push_back(shell.is_object() ? csv_field(shell[key]) : "");
+    names.push_back(std::string("shell_") + key + "_sigma");  // σ of K is K_sigma (README "Outputs")
+    values.push_back(shell.is_object() ? csv_field(shell["sigma"][key]) : "");
+  }
+  names.push_back("shell_residual_rms_rs");
+  values.push_back(shell.is_object() ? csv_field(shell["residual_rms_rs"]) : "");
+  // What the data leave open (measurement.hpp ShellMeasurement): the direction's basis, and the keys not
+  // constrained, joined by ';' as arrays are here.
+  names.push_back("shell_direction_basis");
+  values.push_back(shell.is_object() && shell.contains("direction_basis") ? csv_field(shell["direction_basis"]) : "");
+  names.push_back("shell_not_constrained");
+  values.push_back(shell.is_object() && shell.contains("not_constrained") ? csv_field(shell["not_constrained"]) : "");
+  names.push_back("arrival_withheld");
+  values.push_back(result.contains("arrival_withheld") ? csv_field(result["arrival_withheld"]) : "");
+  names.push_back("arrival_conditional_on");
+  values.push_back(result.contains("arrival_conditional_on") ? csv_field(result["arrival_conditional_on"]) : "");
+  const json& boundary = result["boundary"];
+  for (const char* key : {"time", "speed_km_s", "half_width_deg"}) {
+    names.push_back(std::string("boundary_") + key);
+    values.push_back(boundary.is_object() ? csv_field(boundary[key]) : "");
+    // boundary.sigma holds time_s for the time (a σ in seconds), the keys' own names else.
+    const std::string sigma_key = std::string(key) == "time" ? "time_s" : key;
+    names.push_back(std::string("boundary_") + key + (std::string(key) == "time" ? "_sigma_s" : "_sigma"));
+    values.push_back(boundary.is_object() && boundary.contains("sigma") ? csv_field(boundary["sigma"].value(sigma_key, json())) : "");
+  }
+  std::ostringstream out;
+  for (size_t i = 0; i < names.size(); ++i) out << (i ? "," : "") << names[i];
+  out << '\n';
+  for (size_t i = 0; i < values.size(); ++i) out << (i ? "," : "") << values[i];
+  out << '\n';
+  return out.str();
+}
+
+std::string result_csv(const Measurement& measurement) { return result_csv(result_json(measurement)); }
+
+}  // namespace occulta::fit

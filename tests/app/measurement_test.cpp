@@ -1,0 +1,145 @@
+// The one measurement (fit/measurement.hpp) and `occulta measure`: the verb's result.json
+// (but its provenance), result.csv and track.json are exactly what the library's writers
+// (fit/result_file.hpp, fit/track.hpp) make of the same call — run here on a worker
+// thread, as the window runs it — on the committed sample, with and without an
+// analyst's track; and the progress it reports comes in stage order, view by view.
+#include <thread>
+
+#include <doctest/doctest.h>
+#include <nlohmann/json.hpp>
+
+#include "fit/json_file.hpp"
+#include "fit/measurement.hpp"
+#include "fit/result_file.hpp"
+#include "tests/support/support.hpp"
+
+namespace {
+namespace fs = std::filesystem;
+using nlohmann::json;
+using occulta::fit::MeasurementProgress;
+using occulta::fit::MeasurementStage;
+using occulta::test::shell_quote;
+
+struct Measured {
+  occulta::fit::Measurement measurement;
+  std::vector<MeasurementProgress> progress;
+};
+
+// The library call on a worker thread; progress is recorded as it comes.
+Measured measure_on_worker(const fs::path& event, const fs::path& track, const fs::path& out) {
+  Measured m;
+  occulta::fit::MeasurementOptions options;
+  options.result_name = (out / "result.json").string();  // as measure names it
+  std::thread worker([&] {
+    m.measurement = occulta::fit::measure_event(event, track, options,
+                                                [&](const MeasurementProgress& p) { m.progress.push_back(p); });
+  });
+  worker.join();
+  return m;
+}
+
+// measure's files against the library's writers of the same measurement.
+void check_files_are_the_writers(const Measured& m, const fs::path& out) {
+  json written = occulta::fit::read_json_file(out / "result.json");
+  REQUIRE(written.contains("provenance"));
+  const json provenance = written["provenance"];
+  written.erase("provenance");
+  // Through text, as the file went: NaN is null there.
+  const json library = json::parse(occulta::fit::result_json(m.measurement).dump());
+  CHECK(written == library);
+  CHECK(occulta::test::slurp(out / "result.csv") == occulta::fit::result_csv(m.measurement));
+  const fs::path track_copy = out.parent_path() / (out.filename().string() + "-track.json");
+  occulta::fit::write_track(track_copy, occulta::fit::used_track(m.measurement));
+  CHECK(occulta::test::slurp(out / "track.json") == occulta::test::slurp(track_copy));
+  // The inputs provenance hashes are the measurement's own list.
+  REQUIRE(provenance["inputs"].size() == m.measurement.inputs.size());
+  for (std::size_t i = 0; i < m.measurement.inputs.size(); ++i)
+    CHECK(provenance["inputs"][i]["path"] == m.measurement.inputs[i].string());
+}
+
+// Stages in order: per view chain (frames counting up), front, kinematics; then shell,
+// arrival, done once each.
+void check_progress(const Measured& m, std::size_t views) {
+  const auto& p = m.progress;
+  REQUIRE(!p.empty());
+  std::size_t k = 0;
+  for (std::size_t v = 0; v < views; ++v) {
+    const std::string name = m.measurement.views[v].name;
+    CAPTURE(name);
+    REQUIRE(k < p.size());
+    CHECK(p[k].stage == MeasurementStage::chain);
+    CHECK(p[k].frame == 0);
+    const int frame_count = p[k].frame_count;
+    CHECK(frame_count == 16);  // the sample's frames per view, all inside its window
+    int last = 0;
+    for (; k < p.size() && p[k].stage == MeasurementStage::chain; ++k) {
+      CHECK(p[k].view == name);
+      CHECK(p[k].view_index == static_cast<int>(v));
+      CHECK(p[k].view_count == static_cast<int>(views));
+      CHECK(p[k].frame >= last);
+      last = p[k].frame;
+    }
+    // One report per running difference: every frame but the first.
+    CHECK(last == static_cast<int>(m.measurement.views[v].polar.frames.size()));
+    CHECK(last == m.measurement.views[v].frames_used - 1);
+    for (const MeasurementStage stage : {MeasurementStage::front, MeasurementStage::kinematics}) {
+      REQUIRE(k < p.size());
+      CHECK(p[k].stage == stage);
+      CHECK(p[k].view == name);
+      ++k;
+    }
+  }
+  for (const MeasurementStage stage : {MeasurementStage::shell, MeasurementStage::arrival, MeasurementStage::done}) {
+    REQUIRE(k < p.size());
+    CHECK(std::string(occulta::fit::to_string(p[k].stage)) == occulta::fit::to_string(stage));
+    CHECK(p[k].view.empty());
+    ++k;
+  }
+  CHECK(k == p.size());
+}
+
+}  // namespace
+
+TEST_CASE("measurement: measure's files are the library's writers of the same call, with and without a track") {
+  const fs::path dir = occulta::test::scratch_dir("measurement-writers");
+  const fs::path event = occulta::test::source_path("sample_frames/sample-2031-03-14.event.json");
+  const std::string bin = shell_quote(occulta::test::occulta_binary().string());
+
+  const fs::path out = dir / "auto";
+  const auto run = occulta::test::run_command(bin + " measure --quiet " + shell_quote(event.string()) + " --out " +
+                                              shell_quote(out.string()));
+  INFO(run.output);
+  REQUIRE(run.exit_code == 0);
+  const Measured automatic = measure_on_worker(event, {}, out);
+  CHECK(automatic.measurement.status == "ok");
+  REQUIRE(automatic.measurement.views.size() == 2);
+  CHECK(automatic.measurement.shell.fit.has_value());
+  CHECK(automatic.measurement.arrival_made);
+  check_files_are_the_writers(automatic, out);
+  check_progress(automatic, 2);
+
+  // An analyst's track for one view: every other automatic point of "east".
+  json points = json::array();
+  const json used = occulta::fit::read_json_file(out / "track.json");
+  int n = 0;
+  for (json p : used["points"])
+    if (p["view"] == "east" && n++ % 2 == 0) {
+      p["origin"] = "analyst";
+      points.push_back(p);
+    }
+  REQUIRE(points.size() >= 4);
+  const fs::path track = dir / "east.track.json";
+  occulta::test::spit(track, json{{"schema", "occulta.track/1"}, {"event_id", used["event_id"]}, {"points", points}}.dump());
+  const fs::path out_track = dir / "track";
+  const auto run_track = occulta::test::run_command(bin + " measure --quiet " + shell_quote(event.string()) + " --track " +
+                                                    shell_quote(track.string()) + " --out " + shell_quote(out_track.string()));
+  INFO(run_track.output);
+  REQUIRE(run_track.exit_code <= 1);
+  const Measured analyst = measure_on_worker(event, track, out_track);
+  REQUIRE(analyst.measurement.views.size() == 2);
+  CHECK(analyst.measurement.views[0].by_analyst);
+  CHECK(!analyst.measurement.views[1].by_analyst);
+  CHECK(analyst.measurement.views[0].points.size() + analyst.measurement.views[0].censored.total() == points.size());
+  check_files_are_the_writers(analyst, out_track);
+  check_progress(analyst, 2);
+}
