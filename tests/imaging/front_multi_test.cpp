@@ -10,7 +10,7 @@
 #include <doctest/doctest.h>
 #include <nlohmann/json.hpp>
 
-#include "app/event.hpp"
+#include "fit/event.hpp"
 #include "fit/truth.hpp"
 #include "imaging/chain.hpp"
 #include "imaging/front.hpp"
@@ -63,7 +63,7 @@ Window synth_and_difference(const std::string& name, const std::string& scenario
   Window out;
   std::ifstream in(dir / "frames/multi.truth.json");
   out.truth = json::parse(in);
-  const auto event = occulta::app::read_event(dir / "frames/multi.event.json");
+  const auto event = occulta::fit::read_event(dir / "frames/multi.event.json");
   oi::ChainOptions options;
   options.median_filter = 5;  // against the scenario's cosmic-ray tracks (up to 4 px long)
   out.running = oi::polar_running_differences("one", event.views.at(0).files, options).running;
