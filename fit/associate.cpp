@@ -28,8 +28,7 @@ std::string minutes(double s) {
   return text;
 }
 
-// The onset: when the sky-plane law passes the height at which 1 R☉ along the CME's
-// direction is seen (cos ε, or 1 R☉ without a direction).
+// When the sky-plane law passes a height, going up.
 HeightCrossing onset_of(const Sighting& s, double sky_height_rs) {
   if (s.law.status != FitStatus::ok) return {};
   return time_at_height(s.law, sky_height_rs);
@@ -64,15 +63,13 @@ PairCheck check_pair(const std::vector<imaging::Observer>& observers, const std:
         std::acos(std::clamp(std::abs(normal(oa, sa.central_pa_deg).dot(normal(ob, sb.central_pa_deg))), 0.0, 1.0)) *
         kDegPerRad;
   }
-  std::array<double, 2> cos_eps{1.0, 1.0};
   if (line) {
     bool informs = true, ok = true;
     const std::array<const imaging::Observer*, 2> obs{&oa, &ob};
     const std::array<double, 2> pas{sa.central_pa_deg, sb.central_pa_deg};
     for (int i = 0; i < 2; ++i) {
       const double along_sight = line->dot(obs[i]->heeq_p_obs_km().normalized());
-      cos_eps[i] = std::sqrt(std::max(0.0, 1.0 - along_sight * along_sight));
-      if (cos_eps[i] < std::sin(o.line_of_sight_deg * kRadPerDeg)) {
+      if (std::sqrt(std::max(0.0, 1.0 - along_sight * along_sight)) < std::sin(o.line_of_sight_deg * kRadPerDeg)) {
         informs = false;  // the line runs along this view's line of sight: its PA means nothing
         continue;
       }
@@ -85,9 +82,10 @@ PairCheck check_pair(const std::vector<imaging::Observer>& observers, const std:
       check.why = "no direction lies in both central-PA planes on the side of the Sun where both views see it";
   }
 
-  // Timing: onsets at the sky height of 1 R☉ along the line (or 1 R☉ on the sky).
-  const HeightCrossing ta = onset_of(sa, line ? std::max(o.min_cos_out_of_sky, cos_eps[0]) : 1.0);
-  const HeightCrossing tb = onset_of(sb, line ? std::max(o.min_cos_out_of_sky, cos_eps[1]) : 1.0);
+  // Timing: where each law meets Sun centre (h = 0) — the same time for any projection of
+  // a self-similar expansion, whose sky heights are its true heights × a constant.
+  const HeightCrossing ta = onset_of(sa, 0.0);
+  const HeightCrossing tb = onset_of(sb, 0.0);
   check.onset_a_s = ta.time_s;
   check.onset_b_s = tb.time_s;
   if (ta.found && tb.found && std::isfinite(ta.sigma_s) && std::isfinite(tb.sigma_s)) {
@@ -96,7 +94,7 @@ PairCheck check_pair(const std::vector<imaging::Observer>& observers, const std:
     check.onset_allowed_s = std::max(o.onset_sigmas * std::hypot(ta.sigma_s, tb.sigma_s), std::max(sa.cadence_s, sb.cadence_s));
     check.timing_ok = check.onset_gap_s <= check.onset_allowed_s;
     if (!check.timing_ok && check.why.empty())
-      check.why = "their onsets at 1 R☉ are " + minutes(check.onset_gap_s) + " apart, more than the " +
+      check.why = "their laws' origins are " + minutes(check.onset_gap_s) + " apart, more than the " +
                   minutes(check.onset_allowed_s) + " their uncertainties and cadences allow";
   }
   return check;

@@ -684,6 +684,50 @@ bool near_in_sky(const Front& a, const Front& b, double near_deg) {
          near_deg;
 }
 
+// Step 6, no points of two CMEs in one front: once a later front has started (its
+// origin, or its onset when it has none), an earlier front's leading edges inside the
+// later one's span (± kSpanMarginDeg) may be the later one's — the threshold joins two
+// fronts that meet into one region, and a faint later front shows there before its own
+// chain begins — so they are dropped from the earlier front (its span, central PA and
+// last frame recomputed from what is left). Its track stays (tracked under the later
+// front, above). Fronts by onset.
+void keep_fronts_apart(std::vector<Front>& fronts, const PolarSequence& s, const RowRange& rows) {
+  constexpr double kSpanMarginDeg = 5.0;
+  const PolarGrid& g = s.polar;
+  for (size_t e = 0; e < fronts.size(); ++e) {
+    Front& early = fronts[e];
+    bool changed = false;
+    for (size_t l = e + 1; l < fronts.size(); ++l) {
+      const Front& late = fronts[l];
+      const double from_s = std::isfinite(late.origin_utc_s) ? std::min(late.origin_utc_s, late.onset_utc_s) : late.onset_utc_s;
+      const double span = std::fmod(late.pa_to_deg - late.pa_from_deg + 720.0, 360.0) + 2.0 * kSpanMarginDeg;
+      for (int k = early.onset_frame; k <= early.last_frame; ++k) {
+        if (s.utc_s[size_t(k)] < from_s) continue;
+        auto& mine = early.leading_edge_rs[size_t(k)];
+        for (int c = 0; c < g.pa_count; ++c)
+          if (std::isfinite(mine[size_t(c)]) &&
+              std::fmod(g.pa_deg(c) - late.pa_from_deg + kSpanMarginDeg + 720.0, 360.0) <= span) {
+            mine[size_t(c)] = kNaN;
+            changed = true;
+          }
+      }
+    }
+    if (!changed) continue;
+    int last = -1;
+    std::vector<uint8_t> occupied(g.pa_count, 0);
+    for (int k = early.onset_frame; k <= early.last_frame; ++k)
+      for (int c = 0; c < g.pa_count; ++c)
+        if (std::isfinite(early.leading_edge_rs[size_t(k)][size_t(c)])) occupied[size_t(c)] = 1, last = k;
+    if (last < 0) continue;  // nothing of its own left: keep the front as found (its onset frame stays)
+    early.last_frame = last;
+    const auto [first_col, span_cols] = covering_arc(occupied);
+    early.width_deg = span_cols * g.pa_step_deg;
+    early.pa_from_deg = g.pa_deg(first_col);
+    early.pa_to_deg = std::fmod(g.pa_deg(first_col) + (span_cols - 1) * g.pa_step_deg, 360.0);
+    early.central_pa_deg = central_pa(early.leading_edge_rs, first_col, span_cols, g.height_rs(rows.lo), g);
+  }
+}
+
 }  // namespace
 
 Front find_front(const PolarSequence& s, const FrontOptions& o) {
@@ -775,6 +819,7 @@ FrontSet find_fronts(const PolarSequence& s, const FrontOptions& o) {
     }
     std::sort(set.fronts.begin(), set.fronts.end(),
               [](const Front& a, const Front& b) { return a.onset_utc_s < b.onset_utc_s; });
+    keep_fronts_apart(set.fronts, s, scene.rows);
   }
   return set;
 }
