@@ -50,21 +50,6 @@ ViewMeasurement measure_view(const Event& event, const EventView& view, const Tr
   report(progress, MeasurementStage::front, view.name, view_index, view_count);
   m.front = imaging::find_front(polar);
   const imaging::Front& front = m.front;
-  // More than one CME in the window (imaging/front find_fronts): only the strongest is
-  // measured, and the shell may join different CMEs of different views — said as a
-  // problem, and the result is partial (issue 16; measuring each is not built yet).
-  if (front.found) {
-    const imaging::FrontSet all = imaging::find_fronts(polar);
-    m.cmes_in_window = std::max<int>(1, static_cast<int>(all.fronts.size()));
-    if (all.fronts.size() > 1) {
-      std::string pas;
-      for (const imaging::Front& f : all.fronts)
-        pas += (pas.empty() ? "" : ", ") + std::to_string(static_cast<int>(std::lround(f.central_pa_deg))) + "°";
-      problems.push_back("view " + view.name + ": " + std::to_string(all.fronts.size()) +
-                         " CMEs in the window (central PAs " + pas +
-                         "); only the strongest is measured, and the shell may join different CMEs seen by different views.");
-    }
-  }
 
   // The points: the analyst's for this view when given, else the automatic track. Either
   // way only edges inside the field count: one at or beyond the field stop, at a data
@@ -155,14 +140,10 @@ ViewMeasurement measure_view(const Event& event, const EventView& view, const Tr
 }
 
 // partial: a view could not be read, a view sees no CME while another does, the shell
-// fit failed in a way its numbers do not show, no arrival may be made from it, or a view
-// holds more than one CME.
-std::string status_of(int measured, std::size_t listed, const ShellMeasurement& shell,
-                      const std::vector<ViewMeasurement>& views) {
-  bool several = false;  // a view holds more than one CME: only the strongest is measured
-  for (const ViewMeasurement& v : views) several = several || v.cmes_in_window > 1;
-  const bool weak = shell.views_without_cme > 0 || !shell.arrival_withheld.empty() ||
-                    (shell.fit && shell.status != "ok") || several;
+// fit failed in a way its numbers do not show, or no arrival may be made from it.
+std::string status_of(int measured, std::size_t listed, const ShellMeasurement& shell) {
+  const bool weak =
+      shell.views_without_cme > 0 || !shell.arrival_withheld.empty() || (shell.fit && shell.status != "ok");
   return measured == 0                                              ? "failed"
          : measured < static_cast<int>(listed) || weak              ? "partial"
                                                                     : "ok";
@@ -251,7 +232,7 @@ Measurement measure_event(const MeasurementInput& in, const MeasurementOptions& 
   for (size_t i = 0; i < problems.size(); ++i)
     for (size_t j = problems.size(); j-- > i + 1;)
       if (problems[j] == problems[i]) problems.erase(problems.begin() + static_cast<std::ptrdiff_t>(j));
-  m.status = status_of(measured, event.views.size(), m.shell, m.views);
+  m.status = status_of(measured, event.views.size(), m.shell);
 
   // The arrival estimate for the event's targets (default Earth), from the fit's boundary
   // values and covariance as result.json holds them (fit/arrival_json): model estimates

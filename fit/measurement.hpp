@@ -103,9 +103,6 @@ struct ViewMeasurement {
   imaging::PolarSequence polar;
 
   imaging::Front front;                                  // the CME's region and leading edge in this view
-  // CMEs imaging::find_fronts finds in the window (0 when front is not found); above 1,
-  // only the strongest (front) is measured: a problem, and the result is partial.
-  int cmes_in_window = 0;
 
   // The track: the points used (censored ones left out) and where they came from.
   bool by_analyst = false;                               // the analyst's points, else the automatic track
