@@ -91,13 +91,68 @@ class Fields {
   const std::string& file_;
 };
 
+// One CME's shell block (`shell`, or an entry of `shells`); the observers' clocks must be
+// read already (the apex law is checked at every frame of every view).
+ScenarioShell read_shell(const Fields& sh, const Scenario& s) {
+  ScenarioShell shell;
+  sh.known({"lon_deg", "lat_deg", "tilt_deg", "half_angle_deg", "aspect_ratio", "density_cm3", "sheath_fraction", "apex"});
+  shell.lon_deg = sh.number("lon_deg", -180.0, 360.0);
+  shell.lat_deg = sh.number("lat_deg", -90.0, 90.0);
+  shell.tilt_deg = sh.number("tilt_deg", -180.0, 180.0, 0.0);
+  shell.half_angle_deg = sh.number("half_angle_deg", 0.0, 80.0);
+  shell.aspect_ratio = sh.number("aspect_ratio", 0.01, 0.9);
+  if (shell.half_angle_deg * kRadPerDeg + std::asin(shell.aspect_ratio) >= kPi / 2)
+    sh.fail(sh.named("half_angle_deg") + " + asin(aspect_ratio) must stay below 90°");
+  shell.density_cm3 = sh.number("density_cm3", 0.0, 1e12, shell.density_cm3);
+  shell.sheath_fraction = sh.number("sheath_fraction", 0.005, 0.5, shell.sheath_fraction);
+  if (!sh.has("apex")) sh.fail(sh.named("apex") + " is missing");
+  const Fields apex = sh.child("apex");
+  apex.known({"time", "height_rs", "speed_km_s", "accel_m_s2"});
+  shell.apex.ref_time_s = apex.time("time");
+  shell.apex.height_rs = apex.number("height_rs", 1.0, 300.0);
+  shell.apex.speed_km_s = apex.number("speed_km_s", 50.0, 5000.0);
+  shell.apex.accel_m_s2 = apex.number("accel_m_s2", -1000.0, 1000.0, 0.0);
+  // Before launch the CME is not drawn; once launched it may not fall back below the
+  // launch height (a law that turns round would make it vanish in mid-flight).
+  bool ever = false;
+  for (int v = 0; v < int(s.observers.size()); ++v) {
+    bool launched = false;
+    for (int i = 0; i < s.observers[size_t(v)].frames; ++i) {
+      const bool now = shell.launched(s.frame_time(v, i));
+      if (launched && !now)
+        apex.fail("`" + sh.path("apex") + "` brings the apex back below 0.1 R☉ at frame " + std::to_string(i) +
+                  (s.observers.size() > 1 ? " of " + s.observers[size_t(v)].name : std::string()) +
+                  "; start the law later or higher");
+      launched = launched || now;
+    }
+    ever = ever || launched;
+  }
+  if (!ever) apex.fail("`" + sh.path("apex") + "` keeps the apex below 0.1 R☉ at every frame: the CME would never be drawn");
+  return shell;
+}
+
+// A point's place on the sky: {"pa_deg", "height_rs"}.
+void read_place(const Fields& f, double& pa_deg, double& height_rs) {
+  f.known({"pa_deg", "height_rs"});
+  pa_deg = f.number("pa_deg", -360.0, 360.0);
+  height_rs = f.number("height_rs", 0.0, 1000.0);
+}
+
 }  // namespace
+
+bool Scenario::shared_clock() const {
+  for (const auto& o : observers)
+    if (o.start_offset_s != 0.0 || o.cadence_s != cadence_s || o.frames != frames) return false;
+  return true;
+}
 
 double ApexLaw::height_at(double t_s) const {
   const double dt = t_s - ref_time_s;
   // km/s → R☉/s and m/s² → R☉/s².
   return height_rs + speed_km_s / kSolarRadiusKm * dt + 0.5 * accel_m_s2 / (1000.0 * kSolarRadiusKm) * dt * dt;
 }
+
+bool ScenarioShell::launched(double t_s) const { return apex.height_at(t_s) > kLaunchHeightRs; }
 
 double ApexLaw::speed_at(double t_s) const { return speed_km_s + accel_m_s2 / 1000.0 * (t_s - ref_time_s); }
 
@@ -119,7 +174,8 @@ Scenario read_scenario(const std::filesystem::path& path) {
   const Fields top(doc, "", file);
   require_kind(doc, "scenario", file, "a scenario file is needed here");
   top.known({"schema", "id", "start", "cadence_s", "frames", "exposure_s", "jitter_px", "cosmic_rays_per_frame", "seed",
-             "image", "observers", "shell", "background", "detector", "missing_blocks"});
+             "image", "observers", "shell", "shells", "background", "detector", "missing_blocks",
+             "point_sources"});
   if (top.has("schema") && top.raw("schema") != "occulta.scenario/1")
     top.fail("`schema` is " + top.raw("schema").dump() + " — a scenario file's is \"occulta.scenario/1\"");
   Scenario s;
@@ -154,7 +210,7 @@ Scenario read_scenario(const std::filesystem::path& path) {
     top.fail("`observers` must be a non-empty list");
   for (size_t i = 0; i < top.raw("observers").size(); ++i) {
     const Fields o(top.raw("observers")[i], "observers[" + std::to_string(i) + "]", file);
-    o.known({"name", "lon_deg", "lat_deg", "dist_au", "roll_deg"});
+    o.known({"name", "lon_deg", "lat_deg", "dist_au", "roll_deg", "start_offset_s", "cadence_s", "frames"});
     ScenarioObserver ob;
     ob.name = o.text("name");
     check_safe_name(ob.name, o.path("name"), file);
@@ -164,31 +220,22 @@ Scenario read_scenario(const std::filesystem::path& path) {
     ob.lat_deg = o.number("lat_deg", -90.0, 90.0);
     ob.dist_au = o.number("dist_au", 0.05, 100.0);
     ob.roll_deg = o.number("roll_deg", -360.0, 360.0, 0.0);
+    ob.start_offset_s = o.number("start_offset_s", -86400.0, 86400.0, 0.0);
+    ob.cadence_s = o.number("cadence_s", 1.0, 86400.0, s.cadence_s);
+    ob.frames = o.integer("frames", 3, 1000, s.frames);
     s.observers.push_back(ob);
   }
 
-  if (!top.has("shell")) top.fail("`shell` is missing");
-  const Fields sh = top.child("shell");
-  sh.known({"lon_deg", "lat_deg", "tilt_deg", "half_angle_deg", "aspect_ratio", "density_cm3", "sheath_fraction", "apex"});
-  s.shell.lon_deg = sh.number("lon_deg", -180.0, 360.0);
-  s.shell.lat_deg = sh.number("lat_deg", -90.0, 90.0);
-  s.shell.tilt_deg = sh.number("tilt_deg", -180.0, 180.0, 0.0);
-  s.shell.half_angle_deg = sh.number("half_angle_deg", 0.0, 80.0);
-  s.shell.aspect_ratio = sh.number("aspect_ratio", 0.01, 0.9);
-  if (s.shell.half_angle_deg * kRadPerDeg + std::asin(s.shell.aspect_ratio) >= kPi / 2)
-    sh.fail(sh.named("half_angle_deg") + " + asin(aspect_ratio) must stay below 90°");
-  s.shell.density_cm3 = sh.number("density_cm3", 0.0, 1e12, s.shell.density_cm3);
-  s.shell.sheath_fraction = sh.number("sheath_fraction", 0.005, 0.5, s.shell.sheath_fraction);
-  if (!sh.has("apex")) sh.fail(sh.named("apex") + " is missing");
-  const Fields apex = sh.child("apex");
-  apex.known({"time", "height_rs", "speed_km_s", "accel_m_s2"});
-  s.shell.apex.ref_time_s = apex.time("time");
-  s.shell.apex.height_rs = apex.number("height_rs", 1.0, 300.0);
-  s.shell.apex.speed_km_s = apex.number("speed_km_s", 50.0, 5000.0);
-  s.shell.apex.accel_m_s2 = apex.number("accel_m_s2", -1000.0, 1000.0, 0.0);
-  for (int i = 0; i < s.frames; ++i)
-    if (s.shell.apex.height_at(s.frame_time(i)) <= 0.1)
-      apex.fail("`" + sh.path("apex") + "` puts the apex below 0.1 R☉ at frame " + std::to_string(i) + "; start the law later or higher");
+  if (top.has("shell") == top.has("shells"))
+    top.fail(top.has("shell") ? "give `shell` (one CME) or `shells` (a list), not both"
+                              : "`shell` is missing (or `shells`, a list of them)");
+  if (top.has("shell")) {
+    s.shells.push_back(read_shell(top.child("shell"), s));
+  } else {
+    if (!top.raw("shells").is_array() || top.raw("shells").empty()) top.fail("`shells` must be a non-empty list");
+    for (size_t i = 0; i < top.raw("shells").size(); ++i)
+      s.shells.push_back(read_shell(Fields(top.raw("shells")[i], "shells[" + std::to_string(i) + "]", file), s));
+  }
 
   if (top.has("background")) {
     const Fields bg = top.child("background");
@@ -221,12 +268,33 @@ Scenario read_scenario(const std::filesystem::path& path) {
       bool known = false;
       for (const auto& o : s.observers) known = known || o.name == m.view;
       if (!known) b.fail(b.named("view") + " \"" + m.view + "\" is not one of the observers");
-      m.frame = b.integer("frame", 0, s.frames - 1, 0);
+      int frames = s.frames;
+      for (const auto& o : s.observers)
+        if (o.name == m.view) frames = o.frames;
+      m.frame = b.integer("frame", 0, frames - 1, 0);
       m.x = b.integer("x", 0, s.size_px - 1, 0);
       m.y = b.integer("y", 0, s.size_px - 1, 0);
       m.width = b.integer("width", 1, s.size_px, 32);
       m.height = b.integer("height", 1, s.size_px, 32);
       s.missing_blocks.push_back(m);
+    }
+  }
+
+  if (top.has("point_sources")) {
+    if (!top.raw("point_sources").is_array()) top.fail("`point_sources` must be a list");
+    for (size_t i = 0; i < top.raw("point_sources").size(); ++i) {
+      const Fields p(top.raw("point_sources")[i], "point_sources[" + std::to_string(i) + "]", file);
+      p.known({"view", "from", "to", "brightness_bsun"});
+      PointSource point;
+      point.view = p.text("view");
+      bool known = false;
+      for (const auto& o : s.observers) known = known || o.name == point.view;
+      if (!known) p.fail(p.named("view") + " \"" + point.view + "\" is not one of the observers");
+      if (!p.has("from") || !p.has("to")) p.fail(p.named(p.has("from") ? "to" : "from") + " is missing");
+      read_place(p.child("from"), point.from_pa_deg, point.from_height_rs);
+      read_place(p.child("to"), point.to_pa_deg, point.to_height_rs);
+      point.brightness_bsun = p.number("brightness_bsun", 0.0, 1.0);
+      s.point_sources.push_back(point);
     }
   }
   return s;

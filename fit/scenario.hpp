@@ -17,6 +17,9 @@
 
 namespace occulta::fit {
 
+// Below this apex height a scenario's CME is not launched yet (not drawn).
+inline constexpr double kLaunchHeightRs = 0.1;
+
 // Apex height against time: h(t) = h₀ + v (t − t₀) + ½ a (t − t₀)² (linear when a = 0).
 struct ApexLaw {
   double ref_time_s = 0.0;    // t₀
@@ -31,6 +34,24 @@ struct ScenarioObserver {
   std::string name;           // also the view's folder name: fit::is_safe_name
   double lon_deg = 0.0, lat_deg = 0.0, dist_au = 1.0;  // Stonyhurst
   double roll_deg = 0.0;      // as imaging::ImageGeometry::roll_deg
+  // The view's own clock: its first frame at the scenario's start + start_offset_s, then
+  // one every cadence_s, `frames` of them. read_scenario fills them from the scenario's
+  // `start`, `cadence_s` and `frames` where the observer does not give its own.
+  double start_offset_s = 0.0;
+  double cadence_s = 600.0;
+  int frames = 16;
+};
+
+// A bright point (a planet, a star, a comet's head) that drifts across one view's field in
+// a straight line on the sky, from `from` at the view's first frame to `to` at its last.
+// Positions as (PA, plane-of-sky height): PA in degrees counter-clockwise from solar north
+// through east, height in R☉ from Sun centre at the Sun's distance. Its light is
+// `brightness_bsun` (B☉ over one pixel) before the telescope's point-spread function.
+struct PointSource {
+  std::string view;
+  double from_pa_deg = 0.0, from_height_rs = 0.0;
+  double to_pa_deg = 0.0, to_height_rs = 0.0;
+  double brightness_bsun = 0.0;
 };
 
 struct ScenarioShell {
@@ -44,6 +65,9 @@ struct ScenarioShell {
   double sheath_fraction = 0.08;  // sheath thickness / apex height (self-similar)
 
   ShellParams at(double t_s) const;  // the shell at time t
+  // Whether the CME exists at time t: its apex has risen past kLaunchHeightRs. Before
+  // that it is not drawn (not launched yet), so a window can hold a CME that starts late.
+  bool launched(double t_s) const;
 };
 
 struct ScenarioBackground {
@@ -69,22 +93,31 @@ struct Scenario {
   std::string id;
   std::filesystem::path source;       // the scenario file, for messages
   double start_s = 0.0;
-  double cadence_s = 600.0;
+  double cadence_s = 600.0;           // the views' clock unless an observer gives its own
   int frames = 16;
   int size_px = 512;                  // square frames
   double half_width_rs = 15.0;        // field of view: ±half_width at the Sun's distance
   double occulter_inner_rs = 2.5, occulter_outer_rs = 14.5;
   double exposure_s = 6.0;
   std::vector<ScenarioObserver> observers;
-  ScenarioShell shell;
+  // The CMEs: the file's `shell` (one) or `shells` (a list, one or more). They are drawn
+  // together; where sheaths overlap, their densities add.
+  std::vector<ScenarioShell> shells;
   ScenarioBackground background;
   ScenarioDetector detector;
   double jitter_px = 0.0;             // pointing jitter, standard deviation per axis
   int cosmic_rays_per_frame = 0;
   std::vector<MissingBlock> missing_blocks;
+  std::vector<PointSource> point_sources;
   std::uint64_t seed = 1;
 
-  double frame_time(int i) const { return start_s + cadence_s * i; }
+  // Frame i of view v, UTC seconds.
+  double frame_time(int view, int i) const {
+    const ScenarioObserver& o = observers.at(std::size_t(view));
+    return start_s + o.start_offset_s + o.cadence_s * i;
+  }
+  // Whether every view keeps the scenario's own clock (start, cadence, frames).
+  bool shared_clock() const;
 };
 
 // Reads and checks a scenario file strictly; InputError(path, "…") names the key at

@@ -84,6 +84,31 @@ void add_cosmic_rays(cv::Mat& image_dn, int count, std::mt19937_64& rng) {
   }
 }
 
+// A point source at its place of the moment (fraction f of the way from `from` to `to`,
+// straight on the sky), its light shared among the four nearest pixels (bilinear); the
+// point-spread function applied after spreads it as any point's. Sky place → pixel:
+// θ = atan(h R☉ / D) from Sun centre at PA, θx = −θ sin PA (west positive), θy = θ cos PA
+// (Thompson 2006 §2.2, with PA from north through east as imaging/geometry.hpp has it).
+void add_point(cv::Mat& brightness, const imaging::ImageGeometry& geometry, const PointSource& p, double f) {
+  const auto sky = [](double pa_deg, double h_rs) {
+    return Eigen::Vector2d(-h_rs * std::sin(pa_deg * kRadPerDeg), h_rs * std::cos(pa_deg * kRadPerDeg));
+  };
+  const Eigen::Vector2d at_rs = (1.0 - f) * sky(p.from_pa_deg, p.from_height_rs) + f * sky(p.to_pa_deg, p.to_height_rs);
+  const double h_rs = at_rs.norm();
+  if (h_rs <= 0.0) return;
+  const double theta = std::atan(h_rs * kSolarRadiusKm / geometry.observer.dist_km);
+  const Eigen::Vector2d px = imaging::pixel_from_hpc(geometry, theta / h_rs * at_rs);
+  if (!px.allFinite()) return;
+  const int x0 = int(std::floor(px.x())), y0 = int(std::floor(px.y()));
+  const double fx = px.x() - x0, fy = px.y() - y0;
+  for (int dy = 0; dy <= 1; ++dy)
+    for (int dx = 0; dx <= 1; ++dx) {
+      const int x = x0 + dx, y = y0 + dy;
+      if (x < 0 || y < 0 || x >= brightness.cols || y >= brightness.rows) continue;
+      brightness.at<float>(y, x) += float(p.brightness_bsun * (dx ? fx : 1.0 - fx) * (dy ? fy : 1.0 - fy));
+    }
+}
+
 BackgroundCorona background_model(const std::string& name) {
   if (name == "saito") return BackgroundCorona::saito;
   if (name == "baumbach-allen") return BackgroundCorona::baumbach_allen;
@@ -157,31 +182,42 @@ SynthResult synthesize(const Scenario& s, const fs::path& out_dir, const SynthPr
   clear_previous_synth(out_dir, s.id);
 
   const int views = int(s.observers.size());
-  const int total = views * s.frames;
+  int total = 0;
+  for (const auto& o : s.observers) total += o.frames;
   int done = 0;
 
-  // Truth per frame: the apex height, and what each view sees of the projected shell.
+  // Truth per frame (on the shared clock): the first CME's apex height, and what each
+  // view sees of its projected shell. Views on their own clocks list their frame times
+  // instead (observers[].frame_times); fit/truth.hpp re-projects from the shells.
   json truth_frames = json::array();
-  for (int i = 0; i < s.frames; ++i) {
-    const double t = s.frame_time(i);
-    const ShellParams shell = s.shell.at(t);
-    json per_view = json::object();
-    for (int v = 0; v < views; ++v) {
-      const SkyTruth st = sky_truth(shell, observer_of(s.observers[v]), s.occulter_inner_rs);
-      per_view[s.observers[v].name] = {{"apex_pa_deg", st.apex_pa_deg},
-                                       {"pa_span_deg", {st.pa_from_deg, st.pa_to_deg}},
-                                       {"visible_pa_span_deg", std::isnan(st.visible_pa_from_deg)
-                                                                   ? json(nullptr)
-                                                                   : json({st.visible_pa_from_deg, st.visible_pa_to_deg})},
-                                       {"sky_leading_edge_rs", st.leading_edge_rs},
-                                       {"sky_leading_edge_at_apex_pa_rs", st.leading_edge_at_apex_pa_rs}};
+  if (s.shared_clock())
+    for (int i = 0; i < s.frames; ++i) {
+      const double t = s.frame_time(0, i);
+      const ShellParams shell = s.shells[0].at(t);
+      json per_view = json::object();
+      for (int v = 0; v < views; ++v) {
+        if (!s.shells[0].launched(t)) {  // not drawn yet: nothing to see
+          per_view[s.observers[v].name] = {{"apex_pa_deg", nullptr}, {"pa_span_deg", nullptr},
+                                           {"visible_pa_span_deg", nullptr}, {"sky_leading_edge_rs", 0.0},
+                                           {"sky_leading_edge_at_apex_pa_rs", 0.0}};
+          continue;
+        }
+        const SkyTruth st = sky_truth(shell, observer_of(s.observers[v]), s.occulter_inner_rs);
+        per_view[s.observers[v].name] = {{"apex_pa_deg", st.apex_pa_deg},
+                                         {"pa_span_deg", {st.pa_from_deg, st.pa_to_deg}},
+                                         {"visible_pa_span_deg", std::isnan(st.visible_pa_from_deg)
+                                                                     ? json(nullptr)
+                                                                     : json({st.visible_pa_from_deg, st.visible_pa_to_deg})},
+                                         {"sky_leading_edge_rs", st.leading_edge_rs},
+                                         {"sky_leading_edge_at_apex_pa_rs", st.leading_edge_at_apex_pa_rs}};
+      }
+      truth_frames.push_back({{"index", i},
+                              {"time", imaging::iso_from_utc_seconds(t, 3)},
+                              {"apex_height_rs", shell.apex_height_rs},
+                              {"apex_speed_km_s", s.shells[0].apex.speed_at(t)},
+                              {"views", per_view}});
     }
-    truth_frames.push_back({{"index", i},
-                            {"time", imaging::iso_from_utc_seconds(t, 3)},
-                            {"apex_height_rs", shell.apex_height_rs},
-                            {"apex_speed_km_s", s.shell.apex.speed_at(t)},
-                            {"views", per_view}});
-  }
+  std::vector<std::vector<std::string>> frame_files(static_cast<size_t>(views));
 
   json event_views = json::array();
   for (int v = 0; v < views; ++v) {
@@ -197,19 +233,25 @@ SynthResult synthesize(const Scenario& s, const fs::path& out_dir, const SynthPr
     scene.background_table = std::make_shared<const BackgroundTable>(
         tabulate_background(observer_of(o), scene, 1.0, 1.5 * s.half_width_rs));
 
-    for (int i = 0; i < s.frames; ++i) {
-      const double t = s.frame_time(i);
+    for (int i = 0; i < o.frames; ++i) {
+      const double t = s.frame_time(v, i);
       const imaging::GeometrySpec spec = frame_geometry(s, v, i);
       imaging::Header header;
       imaging::write_geometry(header, spec);
       const imaging::ImageGeometry geometry = imaging::read_geometry(header, o.name);
 
       // Brightness (B☉) → DN: detector response × exposure.
-      const ShellParams shell = s.shell.at(t);
-      scene.sheaths.assign(1, ShellSheath{shell, peak_density_cm3(s.shell, shell), s.shell.sheath_fraction});
+      scene.sheaths.clear();
+      for (const ScenarioShell& cme : s.shells) {
+        if (!cme.launched(t)) continue;
+        const ShellParams shell = cme.at(t);
+        scene.sheaths.push_back(ShellSheath{shell, peak_density_cm3(cme, shell), cme.sheath_fraction});
+      }
       cv::Mat dn;
       render_frame(geometry, scene).total_bsun.convertTo(dn, CV_32F);
       if (s.background.f_corona > 0.0) add_f_corona(dn, geometry, s.background.f_corona);
+      for (const PointSource& p : s.point_sources)
+        if (p.view == o.name) add_point(dn, geometry, p, o.frames > 1 ? double(i) / (o.frames - 1) : 0.0);
       // The telescope's point-spread function: a Gaussian of 0.7 px σ, so that the scene is
       // sampled as a real detector samples it — without it, structure sharper than a pixel
       // (Saito's cusp at the equator) aliases differently at each pointing (common practice).
@@ -250,7 +292,8 @@ SynthResult synthesize(const Scenario& s, const fs::path& out_dir, const SynthPr
       options.rice = s.detector.compress;
       imaging::write_fits(path, dn, header, options);
       result.frames.push_back(path);
-      truth_frames[i]["views"][o.name]["file"] = (fs::path(o.name) / name).generic_string();
+      frame_files[size_t(v)].push_back((fs::path(o.name) / name).generic_string());
+      if (s.shared_clock()) truth_frames[i]["views"][o.name]["file"] = frame_files[size_t(v)].back();
       if (progress) progress(++done, total);
     }
     event_views.push_back({{"name", o.name},
@@ -258,38 +301,59 @@ SynthResult synthesize(const Scenario& s, const fs::path& out_dir, const SynthPr
                            {"occulter_rs", {s.occulter_inner_rs, s.occulter_outer_rs}}});
   }
 
+  // The window: from the earliest frame of any view to the latest.
+  double first_s = s.frame_time(0, 0), last_s = first_s;
+  for (int v = 0; v < views; ++v) {
+    first_s = std::min(first_s, s.frame_time(v, 0));
+    last_s = std::max(last_s, s.frame_time(v, s.observers[v].frames - 1));
+  }
   const json event = {{"id", s.id},
                       {"views", event_views},
-                      {"window", {{"start", imaging::iso_from_utc_seconds(s.frame_time(0), 3)},
-                                  {"end", imaging::iso_from_utc_seconds(s.frame_time(s.frames - 1), 3)}}},
-                      {"base_time", imaging::iso_from_utc_seconds(s.frame_time(0), 3)}};
+                      {"window", {{"start", imaging::iso_from_utc_seconds(first_s, 3)},
+                                  {"end", imaging::iso_from_utc_seconds(last_s, 3)}}},
+                      {"base_time", imaging::iso_from_utc_seconds(first_s, 3)}};
 
   json observers = json::array();
-  for (const auto& o : s.observers)
-    observers.push_back({{"name", o.name}, {"lon_deg", o.lon_deg}, {"lat_deg", o.lat_deg}, {"dist_au", o.dist_au},
-                         {"roll_deg", o.roll_deg}});
-  const ShellParams ref = s.shell.at(s.shell.apex.ref_time_s);
-  const json truth = {
-      {"schema", "occulta.truth/1"},
-      {"id", s.id},
-      {"scenario", s.source.filename().string()},
-      {"observers", observers},
-      {"shell",
-       {{"lon_deg", s.shell.lon_deg},
-        {"lat_deg", s.shell.lat_deg},
-        {"tilt_deg", s.shell.tilt_deg},
-        {"half_angle_deg", s.shell.half_angle_deg},
-        {"aspect_ratio", s.shell.aspect_ratio},
-        {"ref_time", imaging::iso_from_utc_seconds(s.shell.apex.ref_time_s, 3)},
-        {"apex_height_rs", s.shell.apex.height_rs},
-        {"speed_km_s", s.shell.apex.speed_km_s},
-        {"accel_m_s2", s.shell.apex.accel_m_s2},
-        {"leg_height_rs", leg_height_from_apex_height(ref.apex_height_rs, ref.half_angle, ref.aspect_ratio)},
-        {"face_on_width_deg", face_on_width(ref.half_angle, ref.aspect_ratio) * kDegPerRad},
-        {"edge_on_width_deg", edge_on_width(ref.aspect_ratio) * kDegPerRad},
-        {"density_cm3_at_5rs", s.shell.density_cm3},
-        {"sheath_fraction", s.shell.sheath_fraction}}},
-      {"frames", truth_frames}};
+  for (int v = 0; v < views; ++v) {
+    const ScenarioObserver& o = s.observers[v];
+    json entry = {{"name", o.name}, {"lon_deg", o.lon_deg}, {"lat_deg", o.lat_deg}, {"dist_au", o.dist_au},
+                  {"roll_deg", o.roll_deg}};
+    if (!s.shared_clock()) {
+      json times = json::array();
+      for (int i = 0; i < o.frames; ++i) times.push_back(imaging::iso_from_utc_seconds(s.frame_time(v, i), 3));
+      entry["frame_times"] = times;
+      entry["frame_files"] = frame_files[size_t(v)];
+    }
+    observers.push_back(entry);
+  }
+  const auto shell_truth = [](const ScenarioShell& cme) {
+    const ShellParams ref = cme.at(cme.apex.ref_time_s);
+    return json{{"lon_deg", cme.lon_deg},
+                {"lat_deg", cme.lat_deg},
+                {"tilt_deg", cme.tilt_deg},
+                {"half_angle_deg", cme.half_angle_deg},
+                {"aspect_ratio", cme.aspect_ratio},
+                {"ref_time", imaging::iso_from_utc_seconds(cme.apex.ref_time_s, 3)},
+                {"apex_height_rs", cme.apex.height_rs},
+                {"speed_km_s", cme.apex.speed_km_s},
+                {"accel_m_s2", cme.apex.accel_m_s2},
+                {"leg_height_rs", leg_height_from_apex_height(ref.apex_height_rs, ref.half_angle, ref.aspect_ratio)},
+                {"face_on_width_deg", face_on_width(ref.half_angle, ref.aspect_ratio) * kDegPerRad},
+                {"edge_on_width_deg", edge_on_width(ref.aspect_ratio) * kDegPerRad},
+                {"density_cm3_at_5rs", cme.density_cm3},
+                {"sheath_fraction", cme.sheath_fraction}};
+  };
+  json truth = {{"schema", "occulta.truth/1"},
+                {"id", s.id},
+                {"scenario", s.source.filename().string()},
+                {"observers", observers},
+                {"shell", shell_truth(s.shells[0])}};
+  if (s.shells.size() > 1) {
+    json all = json::array();
+    for (const ScenarioShell& cme : s.shells) all.push_back(shell_truth(cme));
+    truth["shells"] = all;
+  }
+  if (s.shared_clock()) truth["frames"] = truth_frames;
   result.truth_file = out_dir / (s.id + ".truth.json");
   write_json_file(result.truth_file, truth);
   result.event_file = out_dir / (s.id + ".event.json");

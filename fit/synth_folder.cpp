@@ -21,7 +21,9 @@ std::uintmax_t synth_output_bytes(const Scenario& s) {
   const std::uintmax_t pixel_bytes = s.detector.pixels == "int16" ? 2 : 4;
   const std::uintmax_t frame = static_cast<std::uintmax_t>(s.size_px) * static_cast<std::uintmax_t>(s.size_px) * pixel_bytes +
                                3 * 2880;
-  return frame * static_cast<std::uintmax_t>(s.frames) * s.observers.size() + 1'000'000;
+  std::uintmax_t frames = 0;
+  for (const auto& o : s.observers) frames += static_cast<std::uintmax_t>(o.frames);
+  return frame * frames + 1'000'000;
 }
 
 void check_synth_fits(const Scenario& s, const fs::path& out_dir) {

@@ -28,6 +28,26 @@ ScenarioShell shell_of(const nlohmann::json& s) {
   return shell;
 }
 
+// CME `cme`'s shell block: `shells[cme]` where the truth lists several, else `shell`.
+const nlohmann::json& shell_block(const nlohmann::json& truth, int cme) {
+  if (truth.contains("shells")) return truth.at("shells").at(std::size_t(cme));
+  if (cme != 0) throw std::out_of_range("the truth file has one CME, not " + std::to_string(cme + 1));
+  return truth.at("shell");
+}
+
+// The view's frame times: its own clock (observers[].frame_times) or the shared frames'.
+std::vector<double> view_times(const nlohmann::json& truth, const std::string& view) {
+  std::vector<double> times;
+  for (const auto& o : truth.at("observers"))
+    if (o.at("name").get<std::string>() == view && o.contains("frame_times")) {
+      for (const auto& t : o.at("frame_times")) times.push_back(imaging::utc_seconds_from_iso(t.get<std::string>()));
+      return times;
+    }
+  for (const auto& frame : truth.at("frames"))
+    times.push_back(imaging::utc_seconds_from_iso(frame.at("time").get<std::string>()));
+  return times;
+}
+
 imaging::Observer observer_of(const nlohmann::json& truth, const std::string& view) {
   for (const auto& o : truth.at("observers"))
     if (o.at("name").get<std::string>() == view)
@@ -38,25 +58,27 @@ imaging::Observer observer_of(const nlohmann::json& truth, const std::string& vi
 
 }  // namespace
 
-ViewTruth view_truth(const nlohmann::json& truth, const std::string& view, double lo_rs, double hi_rs) {
+ViewTruth view_truth(const nlohmann::json& truth, const std::string& view, double lo_rs, double hi_rs, int cme) {
   ViewTruth t;
-  const ScenarioShell shell = shell_of(truth.at("shell"));
+  const ScenarioShell shell = shell_of(shell_block(truth, cme));
   const imaging::Observer observer = observer_of(truth, view);
   t.accelerating = shell.apex.accel_m_s2 != 0.0;
   std::vector<HeightTimePoint> edge;
   std::vector<unsigned char> crossed;  // per 1° PA bin: the front lay in [lo, hi] in some frame
   std::vector<double> top;             // per bin: the highest the front reached there, at most hi
   bool seen = false;
-  for (const auto& frame : truth.at("frames")) {
-    const auto& v = frame.at("views").at(view);
-    const double time = imaging::utc_seconds_from_iso(frame.at("time").get<std::string>());
-    const double h = v.at("sky_leading_edge_rs").get<double>();
-    t.apex_pa_deg = v.at("apex_pa_deg").get<double>();
-    if (!seen && h > lo_rs) seen = true, t.first_visible_utc_s = time;
-    if (h >= lo_rs && h <= hi_rs) edge.push_back({time, h, 0.0});
-    // The mesh resolution synth uses for its truth (fit/synth.cpp sky_truth).
+  for (const double time : view_times(truth, view)) {
+    if (!shell.launched(time)) continue;  // not drawn yet (fit/scenario.hpp)
+    // The mesh resolution synth uses for its truth (fit/synth.cpp sky_truth); the leading
+    // edge and apex PA as sky_truth takes them from this outline.
     const ShellParams at = shell.at(time);
     const SkyOutline outline = sky_outline(make_mesh(at, MeshResolution{24, 96, 48}), at, observer, 1.0);
+    double h = 0.0;
+    for (const double front : outline.max_height_rs)
+      if (!std::isnan(front)) h = std::max(h, front);
+    t.apex_pa_deg = outline.apex_pa_deg;
+    if (!seen && h > lo_rs) seen = true, t.first_visible_utc_s = time;
+    if (h >= lo_rs && h <= hi_rs) edge.push_back({time, h, 0.0});
     crossed.resize(outline.max_height_rs.size(), 0);
     top.resize(outline.max_height_rs.size(), -1.0);
     for (size_t i = 0; i < outline.max_height_rs.size(); ++i) {
@@ -111,8 +133,10 @@ ViewTruth view_truth(const nlohmann::json& truth, const std::string& view, doubl
   return t;
 }
 
-double sky_front_rs(const nlohmann::json& truth, const std::string& view, double utc_s, double pa_deg) {
-  const ShellParams at = shell_of(truth.at("shell")).at(utc_s);
+double sky_front_rs(const nlohmann::json& truth, const std::string& view, double utc_s, double pa_deg, int cme) {
+  const ScenarioShell shell = shell_of(shell_block(truth, cme));
+  if (!shell.launched(utc_s)) return NAN;
+  const ShellParams at = shell.at(utc_s);
   const SkyOutline outline =
       sky_outline(make_mesh(at, MeshResolution{24, 96, 48}), at, observer_of(truth, view), 1.0);
   const int bins = int(outline.max_height_rs.size());

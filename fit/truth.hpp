@@ -45,12 +45,14 @@ struct ViewTruth {
   double first_visible_utc_s = 0.0;
 };
 
-ViewTruth view_truth(const nlohmann::json& truth, const std::string& view, double lo_rs, double hi_rs);
+// `cme`: which CME of a truth with several (`shells`, in the scenario's order). The view's
+// frame times are its own clock's where the truth lists them (observers[].frame_times).
+ViewTruth view_truth(const nlohmann::json& truth, const std::string& view, double lo_rs, double hi_rs, int cme = 0);
 
 // The shell's front seen from `view` at a time and PA: its largest plane-of-sky height (R☉)
 // in the 1° PA bin holding pa_deg (an empty bin of the sampled mesh takes its nearest
 // neighbours within 2°), re-projected from the truth file's shell; NaN where the
 // projection does not reach that PA.
-double sky_front_rs(const nlohmann::json& truth, const std::string& view, double utc_s, double pa_deg);
+double sky_front_rs(const nlohmann::json& truth, const std::string& view, double utc_s, double pa_deg, int cme = 0);
 
 }  // namespace occulta::fit

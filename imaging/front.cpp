@@ -216,7 +216,7 @@ std::vector<int> usable_track_rows(const PolarSequence& s, const FrontOptions& o
 }  // namespace
 
 std::vector<TrackPoint> follow_track(const PolarSequence& s, double pa_deg, int from_frame, const FrontOptions& o,
-                                     TrackCensoring* censored) {
+                                     TrackCensoring* censored, const std::vector<double>& ceiling_rs) {
   TrackCensoring count;
   RowRange range;
   const std::vector<int> rows = usable_track_rows(s, o, range);
@@ -229,10 +229,15 @@ std::vector<TrackPoint> follow_track(const PolarSequence& s, double pa_deg, int 
   std::vector<std::vector<uint8_t>> has_data(frames, std::vector<uint8_t>(n, 0));
   for (int k = 0; k < frames; ++k) {
     const auto profile = band_profile(s.frames[from_frame + k], s.polar, pa_deg, o.track_half_width_deg);
+    const std::size_t at = std::size_t(from_frame + k);
+    const double ceiling = at < ceiling_rs.size() ? ceiling_rs[at] : std::numeric_limits<double>::infinity();
     for (int i = 0; i < n; ++i) {
       const float x = profile[rows[i]];
       v[k][i] = std::isfinite(x) ? std::clamp(x, -10.0f, 50.0f) : 0.0f;
       has_data[k][i] = std::isfinite(x);
+      // Above the ceiling (another front's sky): the lowest score, so that neither the
+      // path nor the edge search goes there.
+      if (s.polar.height_rs(rows[i]) > ceiling) v[k][i] = -10.0f;
     }
   }
   const double neg_inf = -std::numeric_limits<double>::infinity();
@@ -361,73 +366,89 @@ bool height_measurable(const PolarSequence& s, int frame, double pa_deg, double 
   return true;
 }
 
-Front find_front(const PolarSequence& s, const FrontOptions& o) {
-  Front front;
-  const PolarGrid& g = s.polar;
-  const int frames = int(s.frames.size());
-  front.leading_edge_rs.assign(frames, std::vector<float>(g.pa_count, kNaN));
-  const RowRange rows = usable_rows(s, o);
-  if (rows.hi < rows.lo) {
-    front.why_not = "no CME found: the frames have no heights with data clear of the occulter and field stop.";
-    return front;
-  }
+namespace {
 
-  // Steps 1–2: significant regions per frame.
-  std::vector<std::vector<Region>> regions(frames);
-  int any = 0;
-  for (int k = 0; k < frames; ++k) {
-    regions[k] = frame_regions(smooth_sigma(s.frames[k], o, g), k, rows, o, g);
-    any += int(regions[k].size());
-  }
-  if (any == 0) {
-    front.why_not = "no CME found: no frame has a significant region large enough (" +
-                    std::to_string(o.threshold_sigma).substr(0, 4) + "σ).";
-    return front;
-  }
+// Step 3's dynamic programme, one for the CME's own chain and for its companions: per
+// region, the best-scoring chain (Σ σ) of regions over consecutive frames ending there,
+// each predecessor overlapping it in PA with an outer edge not above its own by more than
+// a row. Only regions `eligible(frame, index)` take part (the others get length 0 and are
+// nobody's predecessor). The end: the best chain of ≥ min_frames frames whose outer edge
+// rose by ≥ min_rise_rs (end_frame < 0 when none).
+struct Link {
+  double total = 0.0;
+  int length = 1;
+  int prev = -1;
+  int first_row_hi = 0;
+};
+struct ChainSearch {
+  std::vector<std::vector<Link>> links;
+  int end_frame = -1, end_index = -1;
+};
 
-  // Step 3: chains of regions over consecutive frames, best Σ σ; predecessors must overlap
-  // in PA and have an outer edge not above this one's by more than a row.
-  struct Link {
-    double total = 0.0;
-    int length = 1;
-    int prev = -1;
-    int first_row_hi = 0;
-  };
-  std::vector<std::vector<Link>> links(frames);
-  int best_frame = -1, best_index = -1;
+template <class Eligible>
+ChainSearch best_chain(const std::vector<std::vector<Region>>& regions, Eligible eligible, const FrontOptions& o,
+                       const PolarGrid& g) {
+  const int frames = int(regions.size());
+  ChainSearch out;
+  out.links.resize(frames);
   double best_total = 0.0;
   for (int k = 0; k < frames; ++k) {
-    links[k].resize(regions[k].size());
+    out.links[k].assign(regions[k].size(), Link{});
     for (size_t i = 0; i < regions[k].size(); ++i) {
       const Region& r = regions[k][i];
+      if (!eligible(k, i)) {
+        out.links[k][i].length = 0;
+        continue;
+      }
       Link link{r.score, 1, -1, r.row_hi};
       if (k > 0)
         for (size_t j = 0; j < regions[k - 1].size(); ++j) {
           const Region& p = regions[k - 1][j];
-          if (r.row_hi + 1 < p.row_hi || !overlaps(r, p)) continue;
-          const Link& pl = links[k - 1][j];
-          if (pl.total + r.score > link.total)
-            link = Link{pl.total + r.score, pl.length + 1, int(j), pl.first_row_hi};
+          const Link& pl = out.links[k - 1][j];
+          if (pl.length == 0 || r.row_hi + 1 < p.row_hi || !overlaps(r, p)) continue;
+          if (pl.total + r.score > link.total) link = Link{pl.total + r.score, pl.length + 1, int(j), pl.first_row_hi};
         }
-      links[k][i] = link;
+      out.links[k][i] = link;
       const bool rises = (r.row_hi - link.first_row_hi) * g.height_step_rs >= o.min_rise_rs - 1e-9;
       if (link.length >= o.min_frames && rises && link.total > best_total) {
         best_total = link.total;
-        best_frame = k;
-        best_index = int(i);
+        out.end_frame = k;
+        out.end_index = int(i);
       }
     }
   }
-  if (best_frame < 0) {
-    front.why_not = "no CME found: no significant region persists over " + std::to_string(o.min_frames) +
-                    " consecutive frames while moving outward.";
-    return front;
-  }
+  return out;
+}
 
-  // The chain, oldest first.
+// The chain that ends at the search's end, oldest first, as (frame, index) pairs.
+std::vector<std::pair<int, int>> chain_members(const ChainSearch& c) {
+  std::vector<std::pair<int, int>> out;
+  for (int k = c.end_frame, i = c.end_index; k >= 0 && i >= 0; i = c.links[k][i].prev, --k) out.emplace_back(k, i);
+  std::reverse(out.begin(), out.end());
+  return out;
+}
+
+using Taken = std::vector<std::vector<uint8_t>>;  // [frame][region]
+
+// Everything a finder needs from the sequence once: usable rows and per-frame regions.
+struct Scene {
+  RowRange rows;
+  std::vector<std::vector<Region>> regions;
+};
+
+// A found chain made into a Front: its companions (step 3b, among regions not `taken`),
+// span, central and outermost PA (step 4). `taken` gains the chain's and companions'
+// regions. No track yet (step 5).
+Front front_from_chain(const PolarSequence& s, const FrontOptions& o, const Scene& scene,
+                       const std::vector<std::pair<int, int>>& members, Taken& taken) {
+  const PolarGrid& g = s.polar;
+  const RowRange& rows = scene.rows;
+  const auto& regions = scene.regions;
+  const int frames = int(s.frames.size());
+  Front front;
+  front.leading_edge_rs.assign(frames, std::vector<float>(g.pa_count, kNaN));
   std::vector<const Region*> chain;
-  for (int k = best_frame, i = best_index; i >= 0; i = links[k][i].prev, --k) chain.push_back(&regions[k][i]);
-  std::reverse(chain.begin(), chain.end());
+  for (const auto& [k, i] : members) chain.push_back(&regions[k][i]);
   front.found = true;
   front.onset_frame = chain.front()->frame;
   front.onset_utc_s = s.utc_s[front.onset_frame];
@@ -439,17 +460,18 @@ Front find_front(const PolarSequence& s, const FrontOptions& o) {
   // moves with the chosen one is the same front: in ≥ min_frames frames of the chosen
   // chain it lies apart from it in PA with its outer edge at the same height (within
   // companion_height_fraction of the height above the lowest row examined, at least 3
-  // rows). Its regions join the chain's (up to three such chains).
+  // rows), and it starts within companion_onset_frames of it (a CME launched later
+  // elsewhere can pass through the same heights, but it does not start with this one).
+  // Its regions join the chain's (up to three such chains).
   std::vector<const Region*> joined;
   {
     std::map<int, const Region*> main_at;  // frame → the chosen chain's region there
     for (const Region* r : chain) main_at[r->frame] = r;
-    std::vector<std::vector<uint8_t>> taken(frames);
-    for (int k = 0; k < frames; ++k) {
-      taken[k].assign(regions[k].size(), 0);
+    Taken unavailable = taken;
+    for (const auto& [k, i] : members) taken[k][i] = 1;
+    for (int k = 0; k < frames; ++k)
       for (size_t i = 0; i < regions[k].size(); ++i)
-        if (auto m = main_at.find(k); m != main_at.end() && overlaps(regions[k][i], *m->second)) taken[k][i] = 1;
-    }
+        if (auto m = main_at.find(k); m != main_at.end() && overlaps(regions[k][i], *m->second)) unavailable[k][i] = 1;
     const auto matches = [&](const Region& r) {
       const auto m = main_at.find(r.frame);
       if (m == main_at.end()) return false;
@@ -457,43 +479,22 @@ Front find_front(const PolarSequence& s, const FrontOptions& o) {
       const double tolerance = std::max(3.0, o.companion_height_fraction * above_rows);
       return std::abs(r.row_hi - m->second->row_hi) <= tolerance;
     };
-    for (int round = 0; round < 3; ++round) {
-      std::vector<std::vector<Link>> cl(frames);
-      int end_frame = -1, end_index = -1;
-      double end_total = 0.0;
-      for (int k = 0; k < frames; ++k) {
-        cl[k].assign(regions[k].size(), Link{});
-        for (size_t i = 0; i < regions[k].size(); ++i) {
-          const Region& r = regions[k][i];
-          if (taken[k][i] || !matches(r)) {
-            cl[k][i].length = 0;  // not a companion's link
-            continue;
-          }
-          Link link{r.score, 1, -1, r.row_hi};
-          if (k > 0)
-            for (size_t j = 0; j < regions[k - 1].size(); ++j) {
-              const Region& q = regions[k - 1][j];
-              const Link& ql = cl[k - 1][j];
-              if (ql.length == 0 || r.row_hi + 1 < q.row_hi || !overlaps(r, q)) continue;
-              if (ql.total + r.score > link.total) link = Link{ql.total + r.score, ql.length + 1, int(j), ql.first_row_hi};
-            }
-          cl[k][i] = link;
-          const bool rises = (r.row_hi - link.first_row_hi) * g.height_step_rs >= o.min_rise_rs - 1e-9;
-          if (link.length >= o.min_frames && rises && link.total > end_total) {
-            end_total = link.total;
-            end_frame = k;
-            end_index = int(i);
-          }
-        }
-      }
-      if (end_frame < 0) break;
-      for (int k = end_frame, i = end_index; i >= 0; i = cl[k][i].prev, --k) {
+    for (int round = 0, tries = 0; round < 3 && tries < 8; ++tries) {
+      const ChainSearch c = best_chain(
+          regions, [&](int k, size_t i) { return !unavailable[k][i] && matches(regions[k][i]); }, o, g);
+      if (c.end_frame < 0) break;
+      const auto companion = chain_members(c);
+      const bool starts_with = companion.front().first <= front.onset_frame + o.companion_onset_frames;
+      for (const auto& [k, i] : companion) {
+        unavailable[k][i] = 1;
+        if (!starts_with) continue;
         joined.push_back(&regions[k][i]);
         taken[k][i] = 1;
         // Regions of that frame overlapping the companion are not another companion.
         for (size_t j = 0; j < regions[k].size(); ++j)
-          if (overlaps(regions[k][j], regions[k][i])) taken[k][j] = 1;
+          if (overlaps(regions[k][j], regions[k][i])) unavailable[k][j] = 1;
       }
+      round += starts_with ? 1 : 0;
     }
   }
 
@@ -534,21 +535,293 @@ Front find_front(const PolarSequence& s, const FrontOptions& o) {
   for (int c = 0; c < g.pa_count; ++c) top[c] = at->outer_row[c] == at->row_hi;
   const auto [top_first, top_cols] = covering_arc(top);
   front.outermost_pa_deg = std::fmod(g.pa_deg(top_first) + 0.5 * (top_cols - 1) * g.pa_step_deg, 360.0);
+  return front;
+}
 
-  // Step 5. A region with no front that can be followed outward over min_frames frames
-  // is not a CME: a residual of a steep static structure (a streamer's edge moved by
-  // pointing jitter) can persist and rise a little, but leaves no significant track.
-  front.track = follow_track(s, front.central_pa_deg, front.onset_frame, o, &front.track_censored);
-  const std::vector<TrackPoint> outer = follow_track(s, front.outermost_pa_deg, front.onset_frame, o);
-  if (int(std::max(front.track.size(), outer.size())) < o.min_frames) {
-    Front none;
-    none.why_not = "no CME found: a region is significant, but no front can be followed outward over " +
-                   std::to_string(o.min_frames) + " frames along it.";
-    none.leading_edge_rs = std::move(front.leading_edge_rs);
-    for (auto& row : none.leading_edge_rs) std::fill(row.begin(), row.end(), std::numeric_limits<float>::quiet_NaN());
+// The highest leading edge of a front within ±half_width_deg of pa_deg in one frame; NaN
+// where it has none there.
+double edge_near(const Front& f, int frame, double pa_deg, double half_width_deg, const PolarGrid& g) {
+  double top = std::numeric_limits<double>::quiet_NaN();
+  const auto& row = f.leading_edge_rs[std::size_t(frame)];
+  for (int c = 0; c < g.pa_count; ++c) {
+    const double d = std::fmod(std::abs(g.pa_deg(c) - pa_deg), 360.0);
+    if (std::min(d, 360.0 - d) <= half_width_deg && std::isfinite(row[std::size_t(c)]))
+      top = std::isfinite(top) ? std::max(top, double(row[std::size_t(c)])) : double(row[std::size_t(c)]);
+  }
+  return top;
+}
+
+// Step 5 for a front: its tracks along the central and the outermost PA, under `ceiling`
+// (per frame, R☉; none when empty). False when neither has min_frames points: a region
+// with no front that can be followed outward over min_frames frames is not a CME — a
+// residual of a steep static structure (a streamer's edge moved by pointing jitter) can
+// persist and rise a little, but leaves no significant track.
+bool track_front(const PolarSequence& s, const FrontOptions& o, Front& front, const std::vector<double>& ceiling = {}) {
+  front.track = follow_track(s, front.central_pa_deg, front.onset_frame, o, &front.track_censored, ceiling);
+  const std::vector<TrackPoint> outer = follow_track(s, front.outermost_pa_deg, front.onset_frame, o, nullptr, ceiling);
+  // The origin: where the least-squares line through the longer track's heights meets
+  // Sun centre, h = 0. Parts of one self-similar front (h ∝ the front's height) share
+  // it; a CME launched later does not (step 6).
+  const std::vector<TrackPoint>& line = outer.size() > front.track.size() ? outer : front.track;
+  double n = 0.0, st = 0.0, sh = 0.0, stt = 0.0, sth = 0.0;
+  for (const TrackPoint& p : line) {
+    const double t = p.utc_s - front.onset_utc_s;
+    n += 1.0, st += t, sh += p.height_rs, stt += t * t, sth += t * p.height_rs;
+  }
+  const double denom = n * stt - st * st;
+  const double v = denom > 0.0 ? (n * sth - st * sh) / denom : 0.0;  // R☉/s
+  front.origin_utc_s = v > 0.0 ? front.onset_utc_s + (st - sh / v) / n : std::numeric_limits<double>::quiet_NaN();
+  return int(std::max(front.track.size(), outer.size())) >= o.min_frames;
+}
+
+// Origin (h = 0) and sum of squared residuals of the least-squares line through points
+// [from, to) of a track; NaN origin when it does not rise.
+std::pair<double, double> line_origin(const std::vector<TrackPoint>& p, size_t from, size_t to) {
+  double n = 0.0, st = 0.0, sh = 0.0, stt = 0.0, sth = 0.0;
+  const double t0 = p[from].utc_s;
+  for (size_t i = from; i < to; ++i) {
+    const double t = p[i].utc_s - t0;
+    n += 1.0, st += t, sh += p[i].height_rs, stt += t * t, sth += t * p[i].height_rs;
+  }
+  const double denom = n * stt - st * st;
+  if (!(denom > 0.0)) return {std::numeric_limits<double>::quiet_NaN(), 0.0};
+  const double v = (n * sth - st * sh) / denom, h0 = (sh - v * st) / n;
+  double ssr = 0.0;
+  for (size_t i = from; i < to; ++i) ssr += std::pow(p[i].height_rs - h0 - v * (p[i].utc_s - t0), 2);
+  return {v > 0.0 ? t0 - h0 / v : std::numeric_limits<double>::quiet_NaN(), ssr};
+}
+
+// Step 6: a later chain can begin on a piece of an earlier front (its origin) and run on
+// into a new CME rising through it. Where the track splits best into two straight lines
+// (least total squared residual, each part ≥ 2 points, the later ≥ min_frames) and the
+// first part shares the earlier front's origin while the later does not, the first part
+// is that front's: the new CME starts with the later part. Returns the frame to start
+// from, or −1 to keep the chain whole.
+int split_from_earlier(const std::vector<TrackPoint>& track, const Front& earlier, double tolerance_s,
+                       const FrontOptions& o) {
+  const size_t n = track.size();
+  if (n < size_t(o.min_frames) + 2) return -1;
+  double best = std::numeric_limits<double>::infinity();
+  size_t at = 0;
+  for (size_t j = 2; j + size_t(o.min_frames) <= n; ++j) {
+    const double ssr = line_origin(track, 0, j).second + line_origin(track, j, n).second;
+    if (ssr < best) best = ssr, at = j;
+  }
+  if (at == 0) return -1;
+  const double head = line_origin(track, 0, at).first, tail = line_origin(track, at, n).first;
+  const bool head_same = std::abs(head - earlier.origin_utc_s) <= tolerance_s;
+  const bool tail_other = !(std::abs(tail - earlier.origin_utc_s) <= tolerance_s);
+  return head_same && tail_other ? track[at].frame : -1;
+}
+
+// Where another front's leading edge lies above this one's in the track's PA band (±10°),
+// the track may not climb onto it: per frame, midway between the two edges (step 6);
+// empty when no other front lies above.
+std::vector<double> ceiling_under(const Front& front, const std::vector<const Front*>& others, const PolarSequence& s) {
+  std::vector<double> ceiling(s.frames.size(), std::numeric_limits<double>::infinity());
+  bool any = false;
+  for (size_t k = 0; k < s.frames.size(); ++k) {
+    const double own = edge_near(front, int(k), front.central_pa_deg, 10.0, s.polar);
+    if (!std::isfinite(own)) continue;
+    for (const Front* other : others) {
+      const double above = edge_near(*other, int(k), front.central_pa_deg, 10.0, s.polar);
+      if (std::isfinite(above) && above > own + s.polar.height_step_rs) {
+        ceiling[k] = std::min(ceiling[k], 0.5 * (own + above));
+        any = true;
+      }
+    }
+  }
+  if (!any) ceiling.clear();
+  return ceiling;
+}
+
+Scene find_regions(const PolarSequence& s, const FrontOptions& o, std::string& why_not) {
+  Scene scene;
+  scene.rows = usable_rows(s, o);
+  const int frames = int(s.frames.size());
+  if (scene.rows.hi < scene.rows.lo) {
+    why_not = "no CME found: the frames have no heights with data clear of the occulter and field stop.";
+    return scene;
+  }
+  // Steps 1–2: significant regions per frame.
+  scene.regions.resize(frames);
+  int any = 0;
+  for (int k = 0; k < frames; ++k) {
+    scene.regions[k] = frame_regions(smooth_sigma(s.frames[k], o, s.polar), k, scene.rows, o, s.polar);
+    any += int(scene.regions[k].size());
+  }
+  if (any == 0)
+    why_not = "no CME found: no frame has a significant region large enough (" +
+              std::to_string(o.threshold_sigma).substr(0, 4) + "σ).";
+  return scene;
+}
+
+Taken nothing_taken(const Scene& scene) {
+  Taken taken(scene.regions.size());
+  for (size_t k = 0; k < scene.regions.size(); ++k) taken[k].assign(scene.regions[k].size(), 0);
+  return taken;
+}
+
+std::string no_chain_why(const FrontOptions& o) {
+  return "no CME found: no significant region persists over " + std::to_string(o.min_frames) +
+         " consecutive frames while moving outward.";
+}
+
+std::string no_track_why(const FrontOptions& o) {
+  return "no CME found: a region is significant, but no front can be followed outward over " +
+         std::to_string(o.min_frames) + " frames along it.";
+}
+
+// Whether two fronts' spans overlap or lie within near_deg of each other.
+bool near_in_sky(const Front& a, const Front& b, double near_deg) {
+  const auto span = [](const Front& f) { return std::fmod(f.pa_to_deg - f.pa_from_deg + 720.0, 360.0); };
+  // Distance from a PA to a span: 0 inside, else to the nearer end.
+  const auto apart = [&](double pa, const Front& f) {
+    const double into = std::fmod(pa - f.pa_from_deg + 720.0, 360.0);
+    return into <= span(f) ? 0.0 : std::min(into - span(f), 360.0 - into);
+  };
+  return std::min({apart(a.pa_from_deg, b), apart(a.pa_to_deg, b), apart(b.pa_from_deg, a), apart(b.pa_to_deg, a)}) <=
+         near_deg;
+}
+
+// Step 6, no points of two CMEs in one front: once a later front has started (its
+// origin, or its onset when it has none), an earlier front's leading edges inside the
+// later one's span (± kSpanMarginDeg) may be the later one's — the threshold joins two
+// fronts that meet into one region, and a faint later front shows there before its own
+// chain begins — so they are dropped from the earlier front (its span, central PA and
+// last frame recomputed from what is left). Its track stays (tracked under the later
+// front, above). Fronts by onset.
+void keep_fronts_apart(std::vector<Front>& fronts, const PolarSequence& s, const RowRange& rows) {
+  constexpr double kSpanMarginDeg = 5.0;
+  const PolarGrid& g = s.polar;
+  for (size_t e = 0; e < fronts.size(); ++e) {
+    Front& early = fronts[e];
+    bool changed = false;
+    for (size_t l = e + 1; l < fronts.size(); ++l) {
+      const Front& late = fronts[l];
+      const double from_s = std::isfinite(late.origin_utc_s) ? std::min(late.origin_utc_s, late.onset_utc_s) : late.onset_utc_s;
+      const double span = std::fmod(late.pa_to_deg - late.pa_from_deg + 720.0, 360.0) + 2.0 * kSpanMarginDeg;
+      for (int k = early.onset_frame; k <= early.last_frame; ++k) {
+        if (s.utc_s[size_t(k)] < from_s) continue;
+        auto& mine = early.leading_edge_rs[size_t(k)];
+        for (int c = 0; c < g.pa_count; ++c)
+          if (std::isfinite(mine[size_t(c)]) &&
+              std::fmod(g.pa_deg(c) - late.pa_from_deg + kSpanMarginDeg + 720.0, 360.0) <= span) {
+            mine[size_t(c)] = kNaN;
+            changed = true;
+          }
+      }
+    }
+    if (!changed) continue;
+    int last = -1;
+    std::vector<uint8_t> occupied(g.pa_count, 0);
+    for (int k = early.onset_frame; k <= early.last_frame; ++k)
+      for (int c = 0; c < g.pa_count; ++c)
+        if (std::isfinite(early.leading_edge_rs[size_t(k)][size_t(c)])) occupied[size_t(c)] = 1, last = k;
+    if (last < 0) continue;  // nothing of its own left: keep the front as found (its onset frame stays)
+    early.last_frame = last;
+    const auto [first_col, span_cols] = covering_arc(occupied);
+    early.width_deg = span_cols * g.pa_step_deg;
+    early.pa_from_deg = g.pa_deg(first_col);
+    early.pa_to_deg = std::fmod(g.pa_deg(first_col) + (span_cols - 1) * g.pa_step_deg, 360.0);
+    early.central_pa_deg = central_pa(early.leading_edge_rs, first_col, span_cols, g.height_rs(rows.lo), g);
+  }
+}
+
+}  // namespace
+
+Front find_front(const PolarSequence& s, const FrontOptions& o) {
+  Front none;
+  none.leading_edge_rs.assign(s.frames.size(), std::vector<float>(s.polar.pa_count, kNaN));
+  const Scene scene = find_regions(s, o, none.why_not);
+  if (!none.why_not.empty()) return none;
+  const ChainSearch c = best_chain(scene.regions, [](int, size_t) { return true; }, o, s.polar);
+  if (c.end_frame < 0) {
+    none.why_not = no_chain_why(o);
+    return none;
+  }
+  Taken taken = nothing_taken(scene);
+  Front front = front_from_chain(s, o, scene, chain_members(c), taken);
+  if (!track_front(s, o, front)) {
+    none.why_not = no_track_why(o);
     return none;
   }
   return front;
+}
+
+FrontSet find_fronts(const PolarSequence& s, const FrontOptions& o) {
+  FrontSet set;
+  const Scene scene = find_regions(s, o, set.why_none);
+  if (!set.why_none.empty()) return set;
+  const double lowest_rs = s.polar.height_rs(scene.rows.lo);
+  std::vector<double> steps;
+  for (size_t k = 1; k < s.utc_s.size(); ++k) steps.push_back(s.utc_s[k] - s.utc_s[k - 1]);
+  std::nth_element(steps.begin(), steps.begin() + std::ptrdiff_t(steps.size() / 2), steps.end());
+  const double cadence_s = steps.empty() ? 0.0 : steps[steps.size() / 2];
+  Taken taken = nothing_taken(scene);
+  for (int tries = 0; tries < o.max_candidates && int(set.fronts.size()) < o.max_fronts; ++tries) {
+    const ChainSearch c = best_chain(scene.regions, [&](int k, size_t i) { return !taken[k][i]; }, o, s.polar);
+    if (c.end_frame < 0) break;
+    const auto members = chain_members(c);
+    Front front = front_from_chain(s, o, scene, members, taken);
+    // After the strongest: a new CME rises into the field from below — its first region
+    // reaches down to within new_front_from_rs of the lowest height examined (or the
+    // window opened on it) — and one in the sky of a CME already found starts later than
+    // it (more than companion_onset_frames): a piece of an earlier front that the
+    // threshold split off starts with it, high in the field.
+    // A later front is tracked under those found so far, so that its origin is its own.
+    std::vector<const Front*> found;
+    for (const Front& f : set.fronts) found.push_back(&f);
+    std::string refused;
+    const std::vector<double> ceiling = ceiling_under(front, found, s);
+    if (!track_front(s, o, front, ceiling)) refused = "no front can be followed outward along it";
+    for (const Front& other : set.fronts) {
+      if (!refused.empty() || !near_in_sky(front, other, o.near_pa_deg)) continue;
+      const std::vector<TrackPoint>& track = front.track;
+      const int from = split_from_earlier(track, other, o.same_origin_cadences * cadence_s, o);
+      if (from < 0) continue;
+      for (int k = front.onset_frame; k < from; ++k)
+        std::fill(front.leading_edge_rs[size_t(k)].begin(), front.leading_edge_rs[size_t(k)].end(), kNaN);
+      front.onset_frame = from;
+      front.onset_utc_s = s.utc_s[size_t(from)];
+      if (!track_front(s, o, front, ceiling)) refused = "no front can be followed outward along it";
+      break;
+    }
+    if (refused.empty() && !set.fronts.empty()) {
+      const Region& first = scene.regions[members.front().first][members.front().second];
+      if (front.onset_frame > 0 && s.polar.height_rs(first.row_lo) > lowest_rs + o.new_front_from_rs)
+        refused = "its first region lies high in the field";
+      for (const Front& other : set.fronts) {
+        if (!refused.empty() || std::abs(front.origin_utc_s - other.origin_utc_s) > o.same_origin_cadences * cadence_s)
+          continue;  // (a NaN origin compares false: not told apart)
+        const double d = std::fmod(std::abs(front.central_pa_deg - other.central_pa_deg), 360.0);
+        if (near_in_sky(front, other, o.near_pa_deg)) refused = "it moves with a CME already found, in the same sky";
+        else if (std::min(d, 360.0 - d) >= o.across_pa_deg) refused = "it is the far side of a CME already found";
+      }
+    }
+    if (refused.empty()) set.fronts.push_back(std::move(front));
+    else ++set.refused_chains;
+  }
+  if (set.fronts.empty()) {
+    set.why_none = set.refused_chains > 0 ? no_track_why(o) : no_chain_why(o);
+    return set;
+  }
+  if (set.fronts.size() > 1) {
+    // Step 5 again, each front under the others: where another front's leading edge lies
+    // above this one's in the track's PA band, the track may not climb onto it — its
+    // ceiling is midway between the two edges (a later CME behind an earlier one).
+    for (size_t f = 0; f < set.fronts.size(); ++f) {
+      std::vector<const Front*> others;
+      for (size_t q = 0; q < set.fronts.size(); ++q)
+        if (q != f) others.push_back(&set.fronts[q]);
+      const std::vector<double> ceiling = ceiling_under(set.fronts[f], others, s);
+      if (!ceiling.empty()) track_front(s, o, set.fronts[f], ceiling);
+    }
+    std::sort(set.fronts.begin(), set.fronts.end(),
+              [](const Front& a, const Front& b) { return a.onset_utc_s < b.onset_utc_s; });
+    keep_fronts_apart(set.fronts, s, scene.rows);
+  }
+  return set;
 }
 
 }  // namespace occulta::imaging

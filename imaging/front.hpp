@@ -23,7 +23,8 @@
 //     Static streamers cancel in running differences; a single-frame blob has no chain.
 //  3b. Halos: other chains that move with the best one — apart from it in PA, their
 //     outer edge at its height (within companion_height_fraction) in ≥ min_frames of its
-//     frames — are the same front seen round the occulter, and join it. With them, a front
+//     frames, starting within companion_onset_frames of it — are the same front seen
+//     round the occulter, and join it. With them, a front
 //     on both sides of the Sun (span over 180°) `encircles`: the CME runs along the line of
 //     sight (fit/shell_fit then treats the view as a halo).
 //  4. Leading edge per PA per frame: the outermost row of the chain's region in each PA.
@@ -42,6 +43,23 @@
 //     peak, and dropped — censored, counted in TrackCensoring — where the band has no
 //     data there (a missing block), never falls to that level below the field stop, or
 //     peaks on the lowest usable row.
+//  6. More than one CME (find_fronts): steps 3–5 again over the regions no front has
+//     taken yet, strongest chain first. A later chain is a CME of its own when it rises
+//     into the field from below (its first region reaches down to within
+//     new_front_from_rs of the lowest height examined, or the window opened on it), and,
+//     where its span lies within near_pa_deg of a CME already found, its origin differs
+//     from that CME's by more than same_origin_cadences × the median cadence. The origin
+//     is where a straight line through its track (tracked under the fronts found so far,
+//     as below) meets Sun centre (h = 0): the parts of one self-similarly expanding front (legs, inner
+//     loops the threshold splits off, heights ∝ the front's) share it, while a CME
+//     launched later — even through the first's wake — starts later (our construction,
+//     from the self-similar expansion common practice assumes). A chain with the same
+//     origin as a CME found on the far side of the Sun (central PAs ≥ across_pa_deg
+//     apart) is that CME's other side, a halo's, that step 3b did not join: in one view
+//     two CMEs launched together on opposite sides cannot be told from one halo, and are
+//     taken as one. Each front is
+//     then tracked under the others: where another front's leading edge lies above its
+//     own in the track's PA band, its track may not climb above the midway height.
 // Every threshold below is our choice, tuned on `occulta synth` events (front_test.cpp).
 #pragma once
 
@@ -69,6 +87,13 @@ struct FrontOptions {
   double max_speed_km_s = 5000.0;      // faster is not a CME front
   double edge_fraction = 0.75;         // the leading edge: where the front's band falls to this × its peak
   double companion_height_fraction = 0.15;  // step 3b: a companion chain's outer edge, × height above the lowest row
+  int companion_onset_frames = 2;      // step 3b: a companion starts within this many frames of the front
+  double new_front_from_rs = 1.5;      // step 6: a later CME's first region reaches down to this above the lowest row
+  double near_pa_deg = 30.0;           // step 6: spans this close are the same sky
+  double same_origin_cadences = 1.5;   // step 6: origins this close (× median cadence) are one front's
+  double across_pa_deg = 120.0;        // step 6: central PAs this far apart are opposite sides of the Sun
+  int max_fronts = 4;                  // step 6: CMEs kept per window at most
+  int max_candidates = 8;              // step 6: chains examined at most
 };
 
 struct TrackPoint {
@@ -104,6 +129,9 @@ struct Front {
   double central_pa_deg = 0.0;     // where the CME is centred: the swept sky's PA centroid (step 4)
   double outermost_pa_deg = 0.0;   // PA of the highest leading edge in the chain's frames
   int companion_regions = 0;       // regions of other chains moving with it (step 3b)
+  // When a straight line through its track's heights meets Sun centre (step 6); NaN
+  // when the track does not rise.
+  double origin_utc_s = 0.0;
   bool encircles = false;          // with them, fronts on both sides of the Sun: a halo-like view
   // [frame][PA column]: height in R☉ of the region's outermost significant pixel, NaN where
   // the region is absent (all NaN outside onset_frame..last_frame).
@@ -112,13 +140,26 @@ struct Front {
   TrackCensoring track_censored;   // frames `track` left out, by why
 };
 
-// The whole analysis (steps 1–5). Expects ≥ 2 frames, all on sequence.polar.
+// The whole analysis (steps 1–5) for the strongest CME alone. Expects ≥ 2 frames, all on
+// sequence.polar.
 Front find_front(const PolarSequence& sequence, const FrontOptions& options = {});
 
+// Every CME in the window (steps 1–6), by onset (earliest first). The front find_front
+// finds is among them, with the same track unless another front lies above it; where the
+// strongest chain has no track, find_fronts goes on to the next ones.
+struct FrontSet {
+  std::vector<Front> fronts;
+  std::string why_none;     // one sentence when fronts is empty
+  int refused_chains = 0;   // chains that moved outward but were not a CME of their own (step 6)
+};
+FrontSet find_fronts(const PolarSequence& sequence, const FrontOptions& options = {});
+
 // Step 5 alone, e.g. at a PA the analyst chose: frames from_frame.. of the sequence.
-// Frames it could not measure are counted in `censored` when given.
+// Frames it could not measure are counted in `censored` when given. ceiling_rs (per frame
+// of the sequence, R☉; none when empty or +∞): the track stays below it (step 6).
 std::vector<TrackPoint> follow_track(const PolarSequence& sequence, double pa_deg, int from_frame,
-                                     const FrontOptions& options = {}, TrackCensoring* censored = nullptr);
+                                     const FrontOptions& options = {}, TrackCensoring* censored = nullptr,
+                                     const std::vector<double>& ceiling_rs = {});
 
 // Whether a height at `pa_deg` in frame `frame` lies where an edge can be measured: at
 // least `margin_rs` inside the frame's data along that PA band (above the lowest row

@@ -12,6 +12,7 @@
 #include <nlohmann/json.hpp>
 
 #include "fit/json_file.hpp"
+#include "fit/scenario.hpp"
 #include "fit/strict_json.hpp"
 #include "imaging/fits.hpp"
 #include "tests/support/support.hpp"
@@ -342,7 +343,14 @@ TEST_CASE("strict: schemas refuse the bad scenario and track files as the reader
       {"obsname", [](json& s) { s["observers"][0]["name"] = "../x"; }},
       {"slow", [](json& s) { s["shell"]["apex"]["speed_km_s"] = 20; }},
       {"tilt", [](json& s) { s["shell"]["tilt"] = 10; }},
-      {"low", [](json& s) { s["shell"]["apex"]["height_rs"] = 0.5; }}};
+      {"low", [](json& s) { s["shell"]["apex"]["height_rs"] = 0.5; }},
+      {"both", [](json& s) { s["shells"] = json::array({s["shell"]}); }},
+      {"neither", [](json& s) { s.erase("shell"); }},
+      {"clock", [](json& s) { s["observers"][0]["cadence_s"] = 0; }},
+      {"point", [](json& s) {
+         s["point_sources"] = json::array({{{"view", "x"}, {"from", {{"pa_deg", 10}, {"height_rs", 5}}}, {"to", {{"pa_deg", 20}}},
+                                            {"brightness_bsun", 1e-9}}});
+       }}};
   for (const auto& [case_name, change] : scenarios) {
     const std::string name = case_name;  // a copy: clang 14 cannot capture a structured binding
     CAPTURE(name);
@@ -361,6 +369,19 @@ TEST_CASE("strict: schemas refuse the bad scenario and track files as the reader
   }
   CHECK(validate("track.schema.json", variant(d, "good.track.json", track_doc(), [](json&) {})).exit_code == 0);
   CHECK(validate("scenario.schema.json", variant(d, "good.scenario.json", scenario_doc(), [](json&) {})).exit_code == 0);
+  // Several CMEs, a view on its own clock, a drifting point: valid, as read_scenario reads them.
+  const fs::path several = variant(d, "several.scenario.json", scenario_doc(), [](json& s) {
+    s["shells"] = json::array({s["shell"], s["shell"]});
+    s.erase("shell");
+    s["observers"][0]["cadence_s"] = 480;
+    s["observers"][0]["start_offset_s"] = 120;
+    s["point_sources"] = json::array({{{"view", s["observers"][0]["name"]},
+                                       {"from", {{"pa_deg", 10}, {"height_rs", 5}}},
+                                       {"to", {{"pa_deg", 20}, {"height_rs", 6}}},
+                                       {"brightness_bsun", 1e-9}}});
+  });
+  CHECK(validate("scenario.schema.json", several).exit_code == 0);
+  CHECK(occulta::fit::read_scenario(several).shells.size() == 2);
 }
 
 TEST_CASE("strict: names that become file names are letters, digits, '-', '_' and '.' only") {

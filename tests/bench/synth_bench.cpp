@@ -33,12 +33,14 @@ int main(int argc, char** argv) {
   s.frames = 1;
   s.size_px = 512;
   s.half_width_rs = 15.0;
-  s.observers.push_back({"a", -50.0, 0.0, 1.0, 0.0});
-  s.shell.lon_deg = -10.0;
-  s.shell.half_angle_deg = 30.0;
-  s.shell.aspect_ratio = 0.35;
-  s.shell.apex.height_rs = 8.0;
-  s.shell.apex.speed_km_s = 800.0;
+  s.observers.push_back({"a", -50.0, 0.0, 1.0, 0.0, 0.0, s.cadence_s, s.frames});
+  fit::ScenarioShell shell;
+  shell.lon_deg = -10.0;
+  shell.half_angle_deg = 30.0;
+  shell.aspect_ratio = 0.35;
+  shell.apex.height_rs = 8.0;
+  shell.apex.speed_km_s = 800.0;
+  s.shells.push_back(shell);
   s.background.k_corona = "saito";
   s.cosmic_rays_per_frame = 10;
 
@@ -47,7 +49,7 @@ int main(int argc, char** argv) {
   const imaging::ImageGeometry geometry = imaging::read_geometry(header, "bench");
   fit::RenderScene scene;
   scene.background = fit::BackgroundCorona::saito;
-  scene.sheaths.push_back({s.shell.at(0.0), 1e5, 0.08});
+  scene.sheaths.push_back({s.shells[0].at(0.0), 1e5, 0.08});
 
   const double one = best_of(repeats, [&] { fit::render_frame(geometry, scene, 1); });
   const int threads = int(std::max(1u, std::thread::hardware_concurrency()));

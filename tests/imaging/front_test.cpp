@@ -153,6 +153,19 @@ void check_event(const std::string& name, const Shell& shell, double track_toler
   }
   CHECK(compared >= 3);
   for (size_t k = 1; k < front.track.size(); ++k) CHECK(front.track[k].height_rs >= front.track[k - 1].height_rs);
+
+  // One CME: find_fronts finds it alone, as find_front does (front.hpp step 6).
+  const auto set = occulta::imaging::find_fronts(s.running);
+  for (const auto& f : set.fronts)
+    MESSAGE(name << ": front frames " << f.onset_frame << "–" << f.last_frame << ", origin "
+                 << (f.origin_utc_s - s.running.utc_s[0]) / 60.0 << " min, central PA " << f.central_pa_deg << ", span "
+                 << f.pa_from_deg << "→" << f.pa_to_deg << ", " << f.track.size() << " track points");
+  CHECK(set.fronts.size() == 1);
+  if (set.fronts.size() == 1) {
+    CHECK(set.fronts[0].central_pa_deg == front.central_pa_deg);
+    CHECK(set.fronts[0].onset_frame == front.onset_frame);
+    CHECK(set.fronts[0].track.size() == front.track.size());
+  }
   MESSAGE(name << ": central PA " << front.central_pa_deg << " (truth " << truth.central_pa_deg << " over "
                << truth.width_deg << "°, apex " << apex_pa << ", outermost "
                << front.outermost_pa_deg << "), span " << front.pa_from_deg << "→" << front.pa_to_deg << " (truth "
@@ -239,6 +252,10 @@ TEST_CASE("front: no detection on quiet sequences") {
     CHECK_FALSE(front.found);
     CHECK(front.why_not.rfind("no CME found", 0) == 0);
     CHECK(front.track.empty());
+    // Nor among the weaker chains find_fronts goes on to.
+    const auto set = occulta::imaging::find_fronts(s.running);
+    CHECK(set.fronts.empty());
+    CHECK(set.why_none.rfind("no CME found", 0) == 0);
   }
 }
 

@@ -1,0 +1,204 @@
+// imaging/front find_fronts on synthetic windows holding more than one CME, or one CME
+// and a bright point drifting across the field (`occulta synth` scenarios of our own; the
+// truth is synth's projected shell mesh, fit/truth.hpp — our own forward model). The
+// tolerances are front_test.cpp's (central PA 5°, onset one cadence, track 0.3 R☉).
+#include <cmath>
+#include <cstdio>
+#include <fstream>
+#include <string>
+
+#include <doctest/doctest.h>
+#include <nlohmann/json.hpp>
+
+#include "fit/event.hpp"
+#include "fit/truth.hpp"
+#include "imaging/chain.hpp"
+#include "imaging/front.hpp"
+#include "tests/support/support.hpp"
+
+namespace {
+namespace fs = std::filesystem;
+using nlohmann::json;
+namespace oi = occulta::imaging;
+
+constexpr double kInnerRs = 2.5, kOuterRs = 14.5, kCadenceS = 600.0;
+
+// One CME: direction, speed, and when its apex is at 1.2 R☉ (minutes after the start).
+struct Cme {
+  double lon = 0, lat = 0, speed = 900, tilt = 0, at_min = 0;
+};
+
+std::string shell_json(const Cme& c) {
+  char text[512];
+  const int minutes = int(c.at_min);
+  std::snprintf(text, sizeof text, R"({"lon_deg": %g, "lat_deg": %g, "tilt_deg": %g, "half_angle_deg": 25, "aspect_ratio": 0.3,
+      "apex": {"time": "2031-06-01T%02d:%02d:00", "height_rs": 1.2, "speed_km_s": %g}, "density_cm3": 5e5})",
+                c.lon, c.lat, c.tilt, 12 + minutes / 60, minutes % 60, c.speed);
+  return text;
+}
+
+// One view at Stonyhurst lon −60°, 150 px, `frames` frames at 10 min; `extra` adds
+// top-level members (each with a leading comma).
+std::string scenario(const std::vector<Cme>& cmes, int frames, const std::string& extra = "", int seed = 7) {
+  std::string shells;
+  for (const Cme& c : cmes) shells += (shells.empty() ? "" : ", ") + shell_json(c);
+  char text[4096];
+  std::snprintf(text, sizeof text, R"({
+    "id": "multi", "start": "2031-06-01T12:00:00", "cadence_s": %g, "frames": %d, "exposure_s": 6,
+    "image": {"size_px": 150, "half_width_rs": 15, "occulter_rs": [%g, %g]},
+    "observers": [{"name": "one", "lon_deg": -60, "lat_deg": 2, "dist_au": 0.98, "roll_deg": 4}],
+    "shells": [%s],
+    "detector": {"dn_per_s_per_bsun": 2e12}, "jitter_px": 0.3, "cosmic_rays_per_frame": 6, "seed": %d%s
+  })", kCadenceS, frames, kInnerRs, kOuterRs, shells.c_str(), seed, extra.c_str());
+  return text;
+}
+
+struct Window {
+  json truth;
+  oi::PolarSequence running;
+};
+
+Window synth_and_difference(const std::string& name, const std::string& scenario_text) {
+  const fs::path dir = occulta::test::synthesize_event(name, scenario_text);
+  Window out;
+  std::ifstream in(dir / "frames/multi.truth.json");
+  out.truth = json::parse(in);
+  const auto event = occulta::fit::read_event(dir / "frames/multi.event.json");
+  oi::ChainOptions options;
+  options.median_filter = 5;  // against the scenario's cosmic-ray tracks (up to 4 px long)
+  out.running = oi::polar_running_differences("one", event.views.at(0).files, options).running;
+  return out;
+}
+
+double pa_distance(double a, double b) {
+  const double d = std::fmod(std::abs(a - b), 360.0);
+  return std::min(d, 360.0 - d);
+}
+
+// Front `front` against CME `cme` of the truth: central PA within 5°, onset within one
+// cadence of the first difference whose truth edge clears the occulter by 0.5 R☉, track
+// within 0.3 R☉ of the truth's edge at the track's PA. Returns the worst track error.
+double check_against(const Window& w, const oi::Front& front, int cme) {
+  CAPTURE(cme);
+  const oi::FrontOptions finder;
+  const auto truth = occulta::fit::view_truth(w.truth, "one", kInnerRs + finder.inner_margin_rs,
+                                              kOuterRs - finder.outer_margin_rs, cme);
+  const double truth_pa = truth.central_pa_deg, found_pa = front.central_pa_deg;
+  CAPTURE(truth_pa);
+  CAPTURE(found_pa);
+  CHECK(pa_distance(found_pa, truth_pa) <= 5.0);
+  int truth_onset = -1;
+  for (size_t i = 0; i < w.running.utc_s.size() && truth_onset < 0; ++i) {
+    const double edge = occulta::fit::sky_front_rs(w.truth, "one", w.running.utc_s[i], truth.apex_pa_deg, cme);
+    if (std::isfinite(edge) && edge > kInnerRs + 0.5) truth_onset = int(i);
+  }
+  // The truth's edge at the apex PA (above) or the largest sky height (view_truth):
+  // the earlier of the two frames.
+  for (size_t i = 0; i < w.running.utc_s.size(); ++i)
+    if (w.running.utc_s[i] >= truth.first_visible_utc_s) {
+      if (truth_onset < 0 || int(i) < truth_onset) truth_onset = int(i);
+      break;
+    }
+  REQUIRE(truth_onset >= 0);
+  const int found_onset = front.onset_frame;
+  CAPTURE(truth_onset);
+  CAPTURE(found_onset);
+  CHECK(std::abs(front.onset_utc_s - w.running.utc_s[size_t(truth_onset)]) <= kCadenceS + 1.0);
+  int compared = 0;
+  double worst = 0.0;
+  for (const auto& p : front.track) {
+    const double edge = occulta::fit::sky_front_rs(w.truth, "one", p.utc_s, p.pa_deg, cme);
+    if (!std::isfinite(edge) || edge < kInnerRs + 0.8 || edge > kOuterRs - 0.8) continue;
+    const double height = p.height_rs;
+    CAPTURE(height);
+    CAPTURE(edge);
+    CHECK(std::abs(height - edge) < 0.3);
+    worst = std::max(worst, std::abs(height - edge));
+    ++compared;
+  }
+  CHECK(compared >= 3);
+  MESSAGE("CME " << cme << ": central PA " << found_pa << " (truth " << truth_pa << "), onset frame " << found_onset
+                 << " (truth " << truth_onset << "), track worst " << worst << " R☉ over " << compared);
+  return worst;
+}
+
+std::string describe(const oi::FrontSet& set, double set_start_s) {
+  std::string out = std::to_string(set.fronts.size()) + " fronts (" + std::to_string(set.refused_chains) + " chains refused)";
+  for (const auto& f : set.fronts) {
+    char text[200];
+    std::snprintf(text, sizeof text, "; frames %d–%d, origin %+.0f min, central PA %.1f, span %.0f→%.0f, %zu track points",
+                  f.onset_frame, f.last_frame, (f.origin_utc_s - set_start_s) / 60.0, f.central_pa_deg, f.pa_from_deg,
+                  f.pa_to_deg, f.track.size());
+    out += text;
+  }
+  return out;
+}
+
+}  // namespace
+
+TEST_CASE("front: two CMEs in different PA ranges at overlapping times are found apart") {
+  // West-north at 900 km/s from the start; east-south at 1300 km/s, its apex at 1.2 R☉
+  // 40 min later (launched ~33 min in): both in the field together from ~50 min on.
+  const Window w = synth_and_difference("multi_apart", scenario({{20, 15, 900, 20, 0}, {-140, -20, 1300, -30, 40}}, 12));
+  const auto set = oi::find_fronts(w.running);
+  INFO(set.why_none);
+  MESSAGE(describe(set, w.running.utc_s[0]));
+  REQUIRE(set.fronts.size() == 2);
+  // By onset: the first CME first.
+  check_against(w, set.fronts[0], 0);
+  check_against(w, set.fronts[1], 1);
+  // None fused: the spans do not overlap.
+  const auto inside = [](double pa, const oi::Front& f) {
+    return std::fmod(pa - f.pa_from_deg + 720.0, 360.0) <= std::fmod(f.pa_to_deg - f.pa_from_deg + 720.0, 360.0);
+  };
+  CHECK_FALSE(inside(set.fronts[1].central_pa_deg, set.fronts[0]));
+  CHECK_FALSE(inside(set.fronts[0].central_pa_deg, set.fronts[1]));
+}
+
+TEST_CASE("front: a faster CME after a slower one in the same PA range is found with its own onset") {
+  // Both toward lon 20° (80° from the view, near its west limb): 1200 km/s from the start,
+  // then 1800 km/s with its apex at 1.2 R☉ 60 min in (launched ~53 min in). It would catch
+  // the first only at ~3 h, after both have left the 14.5 R☉ field.
+  const Window w = synth_and_difference("multi_same_pa", scenario({{20, 5, 1200, 10, 0}, {20, 5, 1800, 10, 60}}, 14));
+  const auto set = oi::find_fronts(w.running);
+  INFO(set.why_none);
+  MESSAGE(describe(set, w.running.utc_s[0]));
+  REQUIRE(set.fronts.size() == 2);
+  check_against(w, set.fronts[0], 0);
+  check_against(w, set.fronts[1], 1);
+  CHECK(set.fronts[1].onset_frame > set.fronts[0].onset_frame + 3);
+}
+
+TEST_CASE("front: a bright point drifting across the field is not a CME, and the CME is measured as without it") {
+  const std::vector<Cme> one{{20, 15, 900, 20, 0}};
+  // A point of 2e-9 B☉ (as bright as the sheath's brightest pixels, our choice) drifting
+  // from PA 150° at 6 R☉ to PA 200° at 9 R☉ over the window: across the southern sky,
+  // away from the CME's north-western one.
+  const std::string point =
+      R"(, "point_sources": [{"view": "one", "from": {"pa_deg": 150, "height_rs": 6}, "to": {"pa_deg": 200, "height_rs": 9}, "brightness_bsun": 2e-9}])";
+  const Window with = synth_and_difference("multi_point", scenario(one, 10, point));
+  const Window without = synth_and_difference("multi_no_point", scenario(one, 10));
+  const auto found_with = oi::find_fronts(with.running);
+  const auto found_without = oi::find_fronts(without.running);
+  MESSAGE(describe(found_with, with.running.utc_s[0]));
+  REQUIRE(found_with.fronts.size() == 1);
+  REQUIRE(found_without.fronts.size() == 1);
+  const double worst_with = check_against(with, found_with.fronts[0], 0);
+  const double worst_without = check_against(without, found_without.fronts[0], 0);
+  // As accurate: the same central PA within 1° and onset, the track's worst error within
+  // 0.05 R☉ of the run without the point (our tolerances: a pixel is 0.2 R☉).
+  CHECK(pa_distance(found_with.fronts[0].central_pa_deg, found_without.fronts[0].central_pa_deg) <= 1.0);
+  CHECK(found_with.fronts[0].onset_frame == found_without.fronts[0].onset_frame);
+  CHECK(worst_with <= worst_without + 0.05);
+  // The point is there: the frames with it differ from those without where it passes.
+  double most = 0.0;
+  for (size_t k = 0; k < with.running.frames.size(); ++k) {
+    cv::Mat diff = cv::abs(with.running.frames[k] - without.running.frames[k]);
+    cv::patchNaNs(diff, 0.0);
+    double lo = 0.0, hi = 0.0;
+    cv::minMaxLoc(diff, &lo, &hi);
+    most = std::max(most, hi);
+  }
+  MESSAGE("the point changes the running difference by up to " << most << " σ");
+  CHECK(most > 10.0);
+}
