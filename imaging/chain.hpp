@@ -66,6 +66,7 @@ struct ChainFrame {
   const cv::Mat& polar_running;             // running difference / σ̂(height)
   const std::vector<float>& running_sigma;  // σ̂ per height row, DN/s (after the time-step scaling)
   const cv::Mat* polar_base = nullptr;      // base difference / σ̂(height), when asked for
+  const PolarGrid& polar;                   // the grid of polar_running (ViewRun::polar, known from the first frame)
 };
 
 struct ViewRun {
