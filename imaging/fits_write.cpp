@@ -1,5 +1,6 @@
 // imaging/fits_write.cpp — writing one image as FITS with cfitsio: float32 or int16 with
-// BSCALE/BZERO, optionally Rice tile-compressed; the file appears whole or not at all.
+// BSCALE/BZERO, optionally Rice tile-compressed; and float32 cubes, whole or plane by
+// plane (FitsCubeWriter). Every file appears whole or not at all.
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
