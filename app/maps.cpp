@@ -2,12 +2,14 @@
 
 #include <cmath>
 #include <cstdio>
+#include <optional>
 #include <ostream>
 
 #include "fit/event.hpp"
 #include "app/output_set.hpp"
 #include "app/quicklook.hpp"
 #include "imaging/chain.hpp"
+#include "imaging/fits.hpp"
 #include "imaging/input_error.hpp"
 #include "imaging/time.hpp"
 
@@ -19,25 +21,28 @@ namespace {
 // The PA where the sequence brightens most: per PA column, the sum over frames and
 // heights of the positive running differences above 3σ (outward-moving material leaves
 // a bright leading edge in each running difference — common practice), smoothed over
-// ±5°. A first look only; imaging/front finds the CME properly.
-double strongest_change_pa(const imaging::PolarSequence& s) {
-  const int n = s.polar.pa_count;
-  std::vector<double> score(n, 0.0);
-  for (const cv::Mat& f : s.frames)
-    for (int y = 0; y < f.rows; ++y) {
-      const float* row = f.ptr<float>(y);
-      for (int x = 0; x < n; ++x)
-        if (row[x] > 3.0f) score[x] += row[x];
-    }
-  const int half = std::max(1, int(std::lround(5.0 / s.polar.pa_step_deg)));
+// ±5°. A first look only; imaging/front finds the CME properly. Summed frame by frame as
+// the frames come (add_change), so the frames need not be kept.
+void add_change(const cv::Mat& f, std::vector<double>& score) {
+  score.resize(std::size_t(f.cols), 0.0);
+  for (int y = 0; y < f.rows; ++y) {
+    const float* row = f.ptr<float>(y);
+    for (int x = 0; x < f.cols; ++x)
+      if (row[x] > 3.0f) score[std::size_t(x)] += row[x];
+  }
+}
+
+double strongest_change_pa(const std::vector<double>& score, const imaging::PolarGrid& polar) {
+  const int n = polar.pa_count;
+  const int half = std::max(1, int(std::lround(5.0 / polar.pa_step_deg)));
   int best = 0;
   double best_score = -1.0;
   for (int x = 0; x < n; ++x) {
     double sum = 0.0;
-    for (int k = -half; k <= half; ++k) sum += score[(x + k + n) % n];
+    for (int k = -half; k <= half; ++k) sum += score[std::size_t((x + k + n) % n)];
     if (sum > best_score) best_score = sum, best = x;
   }
-  return s.polar.pa_deg(best);
+  return polar.pa_deg(best);
 }
 
 imaging::Header cube_header(const imaging::PolarGrid& g, const std::string& view, const std::string& event_id) {
@@ -78,49 +83,63 @@ std::string map_view(const fit::Event& event, const fit::EventView& view, const 
   chain.height_step_rs = o.height_step_rs;
   chain.cartesian = imaging::ChainOptions::Cartesian::Last;  // the quicklooks below need the last frames only
 
-  imaging::PolarSequence polar;
+  // Memory stays flat in frames: each running difference goes to the cube's file as it
+  // comes; kept are its time, the change score per PA and the latest difference. The
+  // time–height maps read the planes back from the file (the PA is known at the end only).
+  std::optional<imaging::FitsCubeWriter> cube;
+  std::vector<double> utc_s, score;
+  cv::Mat last_polar;
+  const long max_planes = std::max<long>(1, long(view.files.size()) - 1);  // n frames, at most n − 1 differences
   const imaging::ViewRun run = imaging::run_view(view.name, view.files, chain, [&](const imaging::ChainFrame& f) {
-    polar.utc_s.push_back(f.frame.utc_s);
-    polar.frames.push_back(f.polar_running.clone());
+    if (!cube) {
+      fs::create_directories(dir);
+      cube.emplace(dir / "polar.fits", f.polar_running.size(), max_planes, cube_header(f.polar, view.name, event.id));
+    }
+    cube->add(f.polar_running);
+    utc_s.push_back(f.frame.utc_s);
+    add_change(f.polar_running, score);
+    f.polar_running.copyTo(last_polar);
   });
   const cv::Mat last_difference = imaging::sigma_difference(run.last_registered, run.last_previous_registered);
   const cv::Mat& last_registered = run.last_registered;
-  polar.polar = run.polar;
   for (const auto& p : run.problems) problems.push_back("view " + view.name + ": " + p);
 
-  fs::create_directories(dir);
+  const double strongest_pa = strongest_change_pa(score, run.polar);
+  std::vector<double> pas = o.pa_deg;
+  if (pas.empty()) pas.push_back(strongest_pa);
+  std::vector<imaging::TimeMap> time_maps;
+  for (double pa : pas)
+    time_maps.push_back(imaging::time_height(run.polar, utc_s, [&](std::size_t k) { return cube->plane(long(k)); }, pa,
+                                             2.0));
+
   std::vector<std::string> iso;
   std::vector<double> steps;
-  for (size_t i = 0; i < polar.utc_s.size(); ++i) {
-    iso.push_back(imaging::iso_from_utc_seconds(polar.utc_s[i], 3));
-    steps.push_back(i == 0 ? NAN : polar.utc_s[i] - polar.utc_s[i - 1]);
+  for (size_t i = 0; i < utc_s.size(); ++i) {
+    iso.push_back(imaging::iso_from_utc_seconds(utc_s[i], 3));
+    steps.push_back(i == 0 ? NAN : utc_s[i] - utc_s[i - 1]);
   }
   steps[0] = steps.size() > 1 ? steps[1] : 0.0;  // the first difference's step is not known here: its neighbour's
-  imaging::write_fits_cube(dir / "polar.fits", polar.frames, cube_header(polar.polar, view.name, event.id), "FRAMES",
-                           {{"TIME", "", {}, iso}, {"UTC_S", "s", polar.utc_s, {}}});
+  cube->finish("FRAMES", {{"TIME", "", {}, iso}, {"UTC_S", "s", utc_s, {}}});
 
   const std::string when = " · " + iso.back().substr(0, 16).replace(10, 1, " ") + " UTC";
   const std::string difference = "running difference (σ)";
   QuicklookPanel sky{Plane::sky, last_difference, viewer::sky_extent(run.grid), sigma_scale(4.0, difference),
                      view.name + " · running difference, north up" + when, run.radii, {}};
   write_quicklook(dir / "running_difference.png", {&sky, 1});
-  QuicklookPanel unwrapped{Plane::polar, polar.frames.back(), viewer::polar_extent(polar.polar),
+  QuicklookPanel unwrapped{Plane::polar, last_polar, viewer::polar_extent(run.polar),
                            sigma_scale(4.0, difference), view.name + " · running difference, unwrapped" + when, {}, {}};
   write_quicklook(dir / "polar_running_difference.png", {&unwrapped, 1});
 
-  const double strongest_pa = strongest_change_pa(polar);  // a pass over the whole cube: once
-  std::vector<double> pas = o.pa_deg;
-  if (pas.empty()) pas.push_back(strongest_pa);
-  const double t0 = polar.utc_s.front(), t1 = polar.utc_s.back();
-  const int columns = std::max<int>(360, int(polar.utc_s.size()) * 16);  // real time across, gaps kept
-  for (double pa : pas) {
-    const imaging::TimeMap th = imaging::time_height(polar, pa, 2.0);
+  const double t0 = utc_s.front(), t1 = utc_s.back();
+  const int columns = std::max<int>(360, int(utc_s.size()) * 16);  // real time across, gaps kept
+  for (std::size_t i = 0; i < pas.size(); ++i) {
+    const imaging::TimeMap& th = time_maps[i];
     char title[160];
     std::snprintf(title, sizeof title, "%s · time–height along PA %.0f° (median over ±2°) · running difference",
-                  view.name.c_str(), pa);
+                  view.name.c_str(), pas[i]);
     QuicklookPanel map{Plane::time_height, imaging::render_on_time_axis(th, t0, t1, columns),
                        viewer::time_map_extent(th, t0, t1), sigma_scale(4.0, difference), title, {}, {}};
-    write_quicklook(dir / ("time_height_pa" + pa_label(pa) + ".png"), {&map, 1});
+    write_quicklook(dir / ("time_height_pa" + pa_label(pas[i]) + ".png"), {&map, 1});
   }
   if (o.nrgf) {
     const imaging::PolarMaps maps = imaging::make_polar_maps(run.grid, run.polar);
@@ -134,8 +153,8 @@ std::string map_view(const fit::Event& event, const fit::EventView& view, const 
 
   char line[200];
   std::snprintf(line, sizeof line, "%-8s %3d frames  %3zu differences  heights %.2f-%.2f R☉  strongest change at PA %.0f",
-                view.name.c_str(), run.frames_used, polar.frames.size(), polar.polar.height_rs(0),
-                polar.polar.height_rs(polar.polar.height_count - 1), strongest_pa);
+                view.name.c_str(), run.frames_used, utc_s.size(), run.polar.height_rs(0),
+                run.polar.height_rs(run.polar.height_count - 1), strongest_pa);
   return line;
 }
 

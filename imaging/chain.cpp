@@ -216,7 +216,7 @@ ViewRun run_view(const std::string& view, const std::vector<std::filesystem::pat
         divide_by_rows(base_diff, base_sigma);
       }
       on_frame(ChainFrame{frame, step_s, current_grid, previous_grid, running, sigma,
-                          options.base_difference ? &base_diff : nullptr});
+                          options.base_difference ? &base_diff : nullptr, run.polar});
     }
     last = &frame;
     std::swap(current_grid, previous_grid);

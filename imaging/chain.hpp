@@ -10,7 +10,8 @@
 // Memory does not grow with the number of frames: the chain holds the previous raw frame,
 // the base frame, the remap tables and a few polar images; what the caller keeps
 // from each ChainFrame (e.g. the polar running differences, polar_running_differences())
-// is the only part that grows. Exception: a low-percentile background needs one extra pass
+// is the only part that grows (maps writes them to its cube's file as they come:
+// fits.hpp FitsCubeWriter). Exception: a low-percentile background needs one extra pass
 // over all frames before the differences start (each frame is then read twice).
 //
 // Conventions: see register.hpp (grid: north up, west +x, east −x, row 0 = bottom as
@@ -66,6 +67,7 @@ struct ChainFrame {
   const cv::Mat& polar_running;             // running difference / σ̂(height)
   const std::vector<float>& running_sigma;  // σ̂ per height row, DN/s (after the time-step scaling)
   const cv::Mat* polar_base = nullptr;      // base difference / σ̂(height), when asked for
+  const PolarGrid& polar;                   // the grid of polar_running (ViewRun::polar, known from the first frame)
 };
 
 struct ViewRun {

@@ -18,6 +18,7 @@
 #include <cstdint>
 #include <filesystem>
 #include <functional>
+#include <memory>
 #include <optional>
 #include <span>
 #include <string>
@@ -116,5 +117,30 @@ struct FitsTableColumn {
 // not at all, like write_fits.
 void write_fits_cube(const std::filesystem::path& path, const std::vector<cv::Mat>& planes, const Header& header,
                      const std::string& table_name = "", const std::vector<FitsTableColumn>& columns = {});
+
+// The same cube written plane by plane as the planes come, so that a caller holds one
+// plane, not the cube. The image is created with room for max_planes (NAXIS3 must be in
+// the header before the data); finish() sets NAXIS3 to the planes added — cfitsio's
+// fits_resize_img drops the unused planes at the end of the data — writes the checksums
+// and the table (one row per plane added), and renames the file into place. Until then
+// the file is a hidden temporary (output_file.hpp); a writer destroyed before finish()
+// removes it. The file equals write_fits_cube's of the same planes, DATE and CHECKSUM
+// apart. Errors: InputError naming `path`.
+class FitsCubeWriter {
+ public:
+  FitsCubeWriter(const std::filesystem::path& path, cv::Size plane_size, long max_planes, const Header& header);
+  ~FitsCubeWriter();
+  FitsCubeWriter(const FitsCubeWriter&) = delete;
+  FitsCubeWriter& operator=(const FitsCubeWriter&) = delete;
+
+  void add(const cv::Mat& plane);  // CV_32FC1 of plane_size; at most max_planes of them
+  long planes() const;             // added so far
+  cv::Mat plane(long k) const;     // plane k < planes(), read back from the file as written
+  void finish(const std::string& table_name = "", const std::vector<FitsTableColumn>& columns = {});
+
+ private:
+  struct State;
+  std::unique_ptr<State> state_;
+};
 
 }  // namespace occulta::imaging

@@ -1,5 +1,6 @@
 // imaging/fits_write.cpp — writing one image as FITS with cfitsio: float32 or int16 with
-// BSCALE/BZERO, optionally Rice tile-compressed; the file appears whole or not at all.
+// BSCALE/BZERO, optionally Rice tile-compressed; and float32 cubes, whole or plane by
+// plane (FitsCubeWriter). Every file appears whole or not at all.
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
@@ -258,9 +259,9 @@ void write_into(fitsfile* file, const cv::Mat& pixels, const Header& header, con
   writer.check(status, "writing the checksums");
 }
 
-// Opens a hidden temporary beside `path`, lets `fill` write into it, then renames it into
-// place: the target appears whole or not at all.
-void write_atomically(const std::filesystem::path& path, const std::function<void(fitsfile*)>& fill) {
+// Checks that `path` can be a file and creates `pending` (its hidden temporary) as an
+// empty FITS file.
+fitsfile* create_pending(const std::filesystem::path& path, const std::filesystem::path& pending) {
   const std::string source = path.string();
   const std::filesystem::path folder = path.parent_path().empty() ? std::filesystem::path(".") : path.parent_path();
   std::error_code error;
@@ -268,28 +269,78 @@ void write_atomically(const std::filesystem::path& path, const std::function<voi
     throw InputError(source, "it cannot be written: the folder \"" + folder.string() + "\" does not exist");
   if (path.filename().empty() || std::filesystem::is_directory(path, error))
     throw InputError(source, "it cannot be written: the path names a folder, not a file");
-
-  PendingFile pending(pending_path(path));
-  std::filesystem::remove(pending.path(), error);
+  std::filesystem::remove(pending, error);
   fitsfile* raw = nullptr;
   int status = 0;
   // The disk-file entry point takes the name literally (no extended file-name syntax).
-  fits_create_diskfile(&raw, pending.path().c_str(), &status);
+  fits_create_diskfile(&raw, pending.c_str(), &status);
   if (status != 0) {
     if (raw) fits_detail::Closer{}(raw);
     throw InputError(source, "it cannot be written: a file cannot be created in \"" + folder.string() + "\" (" +
                                  fits_detail::describe_status(status) + ")");
   }
-  {
-    FitsHandle file(raw);
-    fill(file.get());
-    status = 0;
-    fits_close_file(file.release(), &status);
-    if (status != 0)
-      throw InputError(source, "it cannot be written: finishing the file failed, " + fits_detail::describe_status(status));
-  }
+  return raw;
+}
+
+// Closes `file` and renames `pending` into place as `path`.
+void close_and_commit(FitsHandle& file, PendingFile& pending, const std::filesystem::path& path) {
+  int status = 0;
+  fits_close_file(file.release(), &status);
+  if (status != 0)
+    throw InputError(path.string(), "it cannot be written: finishing the file failed, " +
+                                        fits_detail::describe_status(status));
   commit_pending(pending.path(), path);  // fsync, rename, fsync the folder
   pending.done();
+}
+
+// Opens a hidden temporary beside `path`, lets `fill` write into it, then renames it into
+// place: the target appears whole or not at all.
+void write_atomically(const std::filesystem::path& path, const std::function<void(fitsfile*)>& fill) {
+  PendingFile pending(pending_path(path));
+  FitsHandle file(create_pending(path, pending.path()));  // closed before `pending` removes the file
+  fill(file.get());
+  close_and_commit(file, pending, path);
+}
+
+// Binary table (FITS Standard 4.0 §7.3) of `rows` rows after the current HDU: TFORM D
+// for numbers, nA for texts. Nothing when there are no columns.
+void write_table(fitsfile* file, const Writer& writer, long rows, const std::string& table_name,
+                 const std::vector<FitsTableColumn>& columns) {
+  if (columns.empty()) return;
+  int status = 0;
+  std::vector<std::string> names, forms, units;
+  for (const FitsTableColumn& column : columns) {
+    names.push_back(column.name);
+    units.push_back(column.unit);
+    size_t width = 1;
+    for (const auto& t : column.texts) width = std::max(width, t.size());
+    forms.push_back(column.texts.empty() ? "D" : std::to_string(width) + "A");
+  }
+  std::vector<char*> ttype, tform, tunit;
+  for (size_t i = 0; i < columns.size(); ++i) {
+    ttype.push_back(names[i].data());
+    tform.push_back(forms[i].data());
+    tunit.push_back(units[i].data());
+  }
+  std::string extname = table_name.empty() ? std::string("TABLE") : table_name;
+  fits_create_tbl(file, BINARY_TBL, static_cast<LONGLONG>(rows), static_cast<int>(columns.size()), ttype.data(),
+                  tform.data(), tunit.data(), extname.c_str(), &status);
+  writer.check(status, "creating the table " + extname);
+  for (size_t i = 0; i < columns.size(); ++i) {
+    const int column = static_cast<int>(i) + 1;
+    if (columns[i].texts.empty()) {
+      fits_write_col(file, TDOUBLE, column, 1, 1, static_cast<LONGLONG>(rows),
+                     const_cast<double*>(columns[i].numbers.data()), &status);
+    } else {
+      std::vector<char*> texts;
+      std::vector<std::string> copies = columns[i].texts;
+      for (auto& t : copies) texts.push_back(t.data());
+      fits_write_col(file, TSTRING, column, 1, 1, static_cast<LONGLONG>(rows), texts.data(), &status);
+    }
+  }
+  writer.check(status, "writing the table " + extname);
+  fits_write_chksum(file, &status);
+  writer.check(status, "writing the table's checksums");
 }
 
 }  // namespace
@@ -305,72 +356,93 @@ void write_fits(const std::filesystem::path& path, const cv::Mat& pixels, const 
 
 void write_fits_cube(const std::filesystem::path& path, const std::vector<cv::Mat>& planes, const Header& header,
                      const std::string& table_name, const std::vector<FitsTableColumn>& columns) {
-  const std::string source = path.string();
-  if (planes.empty()) throw InputError(source, "it cannot be written: the cube has no planes");
-  for (const cv::Mat& plane : planes)
-    if (plane.type() != CV_32FC1 || plane.size() != planes.front().size() || plane.empty())
-      throw InputError(source, "it cannot be written: the cube's planes are not equal-size float32 images");
+  if (planes.empty()) throw InputError(path.string(), "it cannot be written: the cube has no planes");
+  FitsCubeWriter cube(path, planes.front().size(), static_cast<long>(planes.size()), header);
+  for (const cv::Mat& plane : planes) cube.add(plane);
+  cube.finish(table_name, columns);
+}
+
+struct FitsCubeWriter::State {
+  std::filesystem::path path;
+  std::string source;
+  cv::Size size;
+  long max_planes = 0, added = 0;
+  PendingFile pending;  // declared before `file`: the file is closed before the temporary is removed
+  FitsHandle file;
+  Writer writer;
+
+  State(const std::filesystem::path& target, cv::Size plane_size, long max)
+      : path(target), source(target.string()), size(plane_size), max_planes(max), pending(pending_path(target)),
+        file(create_pending(target, pending.path())), writer(file.get(), source) {}
+  LONGLONG per_plane() const { return static_cast<LONGLONG>(size.area()); }
+};
+
+FitsCubeWriter::FitsCubeWriter(const std::filesystem::path& path, cv::Size plane_size, long max_planes,
+                               const Header& header) {
+  if (plane_size.empty() || max_planes < 1)
+    throw InputError(path.string(), "it cannot be written: the cube has no planes");
+  state_ = std::make_unique<State>(path, plane_size, max_planes);
+  int status = 0;
+  long axes[3] = {plane_size.width, plane_size.height, max_planes};
+  fits_create_img(state_->file.get(), FLOAT_IMG, 3, axes, &status);
+  state_->writer.check(status, "creating the cube");
+  for (const HeaderCard& card : header.cards) state_->writer.card(card);
+  fits_write_date(state_->file.get(), &status);
+  state_->writer.check(status, "writing DATE");
+}
+
+FitsCubeWriter::~FitsCubeWriter() = default;
+
+long FitsCubeWriter::planes() const { return state_->added; }
+
+void FitsCubeWriter::add(const cv::Mat& plane) {
+  State& s = *state_;
+  if (!s.file) throw InputError(s.source, "it cannot be written: a plane came after the cube was finished");
+  if (plane.type() != CV_32FC1 || plane.size() != s.size)
+    throw InputError(s.source, "it cannot be written: the cube's planes are not equal-size float32 images");
+  if (s.added >= s.max_planes)
+    throw InputError(s.source, "it cannot be written: more planes came than the " + std::to_string(s.max_planes) +
+                                   " the cube was made for");
+  const cv::Mat data = plane.isContinuous() ? plane : plane.clone();
+  int status = 0;
+  // FITS pixels are numbered from 1; plane k starts after k whole planes.
+  fits_write_img(s.file.get(), TFLOAT, 1 + s.added * s.per_plane(), s.per_plane(), const_cast<float*>(data.ptr<float>()),
+                 &status);
+  s.writer.check(status, "writing the cube's pixels");
+  ++s.added;
+}
+
+cv::Mat FitsCubeWriter::plane(long k) const {
+  const State& s = *state_;
+  if (!s.file || k < 0 || k >= s.added)
+    throw InputError(s.source, "plane " + std::to_string(k) + " is not in the cube being written");
+  cv::Mat out(s.size, CV_32FC1);
+  float no_null_check = 0.0f;  // 0: values come back as stored, NaN included (cfitsio's convention)
+  int any_null = 0, status = 0;
+  fits_read_img(s.file.get(), TFLOAT, 1 + k * s.per_plane(), s.per_plane(), &no_null_check, out.ptr<float>(),
+                &any_null, &status);
+  s.writer.check(status, "reading a plane back");
+  return out;
+}
+
+void FitsCubeWriter::finish(const std::string& table_name, const std::vector<FitsTableColumn>& columns) {
+  State& s = *state_;
+  if (!s.file) throw InputError(s.source, "it cannot be written: the cube was finished already");
+  if (s.added == 0) throw InputError(s.source, "it cannot be written: the cube has no planes");
   for (const FitsTableColumn& column : columns)
-    if (std::max(column.numbers.size(), column.texts.size()) != planes.size() ||
+    if (std::max(column.numbers.size(), column.texts.size()) != static_cast<size_t>(s.added) ||
         (!column.numbers.empty() && !column.texts.empty()))
-      throw InputError(source, "it cannot be written: table column " + column.name + " needs one value per plane");
-
-  write_atomically(path, [&](fitsfile* file) {
-    Writer writer(file, source);
-    int status = 0;
-    long axes[3] = {planes.front().cols, planes.front().rows, static_cast<long>(planes.size())};
-    fits_create_img(file, FLOAT_IMG, 3, axes, &status);
-    writer.check(status, "creating the cube");
-    for (const HeaderCard& card : header.cards) writer.card(card);
-    fits_write_date(file, &status);
-    writer.check(status, "writing DATE");
-    const LONGLONG per_plane = static_cast<LONGLONG>(planes.front().total());
-    for (size_t k = 0; k < planes.size(); ++k) {
-      const cv::Mat plane = planes[k].isContinuous() ? planes[k] : planes[k].clone();
-      // FITS pixels are numbered from 1; plane k starts after k whole planes.
-      fits_write_img(file, TFLOAT, 1 + static_cast<LONGLONG>(k) * per_plane, per_plane,
-                     const_cast<float*>(plane.ptr<float>()), &status);
-    }
-    writer.check(status, "writing the cube's pixels");
-    fits_write_chksum(file, &status);
-    writer.check(status, "writing the checksums");
-    if (columns.empty()) return;
-
-    // Binary table (FITS Standard 4.0 §7.3): TFORM D for numbers, nA for texts.
-    std::vector<std::string> names, forms, units;
-    for (const FitsTableColumn& column : columns) {
-      names.push_back(column.name);
-      units.push_back(column.unit);
-      size_t width = 1;
-      for (const auto& t : column.texts) width = std::max(width, t.size());
-      forms.push_back(column.texts.empty() ? "D" : std::to_string(width) + "A");
-    }
-    std::vector<char*> ttype, tform, tunit;
-    for (size_t i = 0; i < columns.size(); ++i) {
-      ttype.push_back(names[i].data());
-      tform.push_back(forms[i].data());
-      tunit.push_back(units[i].data());
-    }
-    std::string extname = table_name.empty() ? std::string("TABLE") : table_name;
-    fits_create_tbl(file, BINARY_TBL, static_cast<LONGLONG>(planes.size()), static_cast<int>(columns.size()),
-                    ttype.data(), tform.data(), tunit.data(), extname.c_str(), &status);
-    writer.check(status, "creating the table " + extname);
-    for (size_t i = 0; i < columns.size(); ++i) {
-      const int column = static_cast<int>(i) + 1;
-      if (columns[i].texts.empty()) {
-        fits_write_col(file, TDOUBLE, column, 1, 1, static_cast<LONGLONG>(planes.size()),
-                       const_cast<double*>(columns[i].numbers.data()), &status);
-      } else {
-        std::vector<char*> texts;
-        std::vector<std::string> copies = columns[i].texts;
-        for (auto& t : copies) texts.push_back(t.data());
-        fits_write_col(file, TSTRING, column, 1, 1, static_cast<LONGLONG>(planes.size()), texts.data(), &status);
-      }
-    }
-    writer.check(status, "writing the table " + extname);
-    fits_write_chksum(file, &status);
-    writer.check(status, "writing the table's checksums");
-  });
+      throw InputError(s.source, "it cannot be written: table column " + column.name + " needs one value per plane");
+  int status = 0;
+  if (s.added < s.max_planes) {
+    long axes[3] = {s.size.width, s.size.height, s.added};
+    fits_resize_img(s.file.get(), FLOAT_IMG, 3, axes, &status);
+    s.writer.check(status, "setting the cube's plane count");
+  }
+  fits_write_chksum(s.file.get(), &status);
+  s.writer.check(status, "writing the checksums");
+  write_table(s.file.get(), s.writer, s.added, table_name, columns);
+  close_and_commit(s.file, s.pending, s.path);
 }
 
 }  // namespace occulta::imaging

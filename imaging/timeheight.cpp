@@ -63,13 +63,19 @@ std::vector<float> ring_profile(const cv::Mat& polar, const PolarGrid& grid, dou
 }
 
 TimeMap time_height(const PolarSequence& sequence, double pa_deg, double half_width_deg) {
+  return time_height(sequence.polar, sequence.utc_s, [&](std::size_t k) { return sequence.frames[k]; }, pa_deg,
+                     half_width_deg);
+}
+
+TimeMap time_height(const PolarGrid& polar, const std::vector<double>& utc_s,
+                    const std::function<cv::Mat(std::size_t)>& frame, double pa_deg, double half_width_deg) {
   TimeMap map;
-  map.utc_s = sequence.utc_s;
-  map.axis_start = sequence.polar.height_min_rs;
-  map.axis_step = sequence.polar.height_step_rs;
-  map.values.create(sequence.polar.height_count, int(sequence.frames.size()), CV_32FC1);
-  for (std::size_t k = 0; k < sequence.frames.size(); ++k) {
-    const auto profile = band_profile(sequence.frames[k], sequence.polar, pa_deg, half_width_deg);
+  map.utc_s = utc_s;
+  map.axis_start = polar.height_min_rs;
+  map.axis_step = polar.height_step_rs;
+  map.values.create(polar.height_count, int(utc_s.size()), CV_32FC1);
+  for (std::size_t k = 0; k < utc_s.size(); ++k) {
+    const auto profile = band_profile(frame(k), polar, pa_deg, half_width_deg);
     for (int i = 0; i < map.values.rows; ++i) map.values.at<float>(i, int(k)) = profile[i];
   }
   return map;

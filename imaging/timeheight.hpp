@@ -6,6 +6,8 @@
 // render_on_time_axis() draws the columns on a uniform time axis, leaving gaps empty.
 #pragma once
 
+#include <cstddef>
+#include <functional>
 #include <vector>
 
 #include <opencv2/core.hpp>
@@ -37,6 +39,10 @@ struct TimeMap {
 };
 
 TimeMap time_height(const PolarSequence& sequence, double pa_deg, double half_width_deg);
+// The same for frames not held together (maps reads them back from its cube one at a
+// time): frame(k) is frame k of utc_s.size(), on `polar`.
+TimeMap time_height(const PolarGrid& polar, const std::vector<double>& utc_s,
+                    const std::function<cv::Mat(std::size_t)>& frame, double pa_deg, double half_width_deg);
 TimeMap time_pa(const PolarSequence& sequence, double height_rs, double half_band_rs);
 
 // The map on a uniform time axis of `columns` columns spanning [t_start, t_end]: each

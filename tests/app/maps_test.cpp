@@ -1,5 +1,6 @@
 // `occulta maps` on synthetic events of known truth: the cube and quicklooks it writes,
 // and where the time–height ridge lies against the truth's sky-plane leading edge.
+#include <cmath>
 #include <fstream>
 #include <utility>
 #include <vector>
@@ -140,4 +141,47 @@ TEST_CASE("maps: a view without frames is a problem, the other views go on") {
   CHECK(run.exit_code == 1);
   CHECK(run.output.find("problem: view two: no files match nowhere/*.fits.") != std::string::npos);
   CHECK(fs::exists(dir / "maps/one/polar.fits"));
+}
+
+TEST_CASE("maps: polar.fits holds the chain's running differences exactly, also when a frame is skipped") {
+  // The cube goes to the file plane by plane as frames finish (room for n − 1 planes, then
+  // NAXIS3 set to the differences made). Compared with the chain's own sequence, kept in
+  // memory (imaging::polar_running_differences) under the options maps uses: every pixel
+  // equal, as written to float32 and read back by astropy (Debian's python3-astropy).
+  const fs::path dir = occulta::test::synthesize_event("maps_stream", scenario(-10, 5, 900, 20));
+  const fs::path broken = dir / "frames/one/one_004.fits";
+  const std::string bytes = occulta::test::slurp(broken);
+  std::ofstream(broken, std::ios::binary | std::ios::trunc) << bytes.substr(0, 2880);  // a header, no image
+  const fs::path event_path = dir / "frames/maps-event.event.json";
+  const auto run = run_command(shell_quote(occulta::test::occulta_binary().string()) + " maps " +
+                               shell_quote(event_path.string()) + " --out " + shell_quote((dir / "maps").string()));
+  INFO(run.output);
+  CHECK(run.exit_code == 1);  // the skipped frame is a problem
+  CHECK(run.output.find("one_004.fits") != std::string::npos);
+  const auto event = occulta::fit::read_event(event_path);
+  for (const auto& view : event.views) {
+    CAPTURE(view.name);
+    const auto chain = occulta::imaging::polar_running_differences(view.name, view.files,
+                                                                   occulta::fit::chain_options(event, view, 5));
+    const auto& expected = chain.running;
+    CHECK(expected.frames.size() == (view.name == "one" ? 7u : 8u));
+    const auto read = occulta::test::run_python("tests/external/read_cube.py",
+                                                shell_quote((dir / "maps" / view.name / "polar.fits").string()));
+    REQUIRE_MESSAGE(read.exit_code == 0, read.output);
+    const json cube = json::parse(read.output);
+    REQUIRE(cube["shape"] == json({expected.frames.size(), expected.polar.height_count, expected.polar.pa_count}));
+    REQUIRE(cube["columns"]["UTC_S"].size() == expected.frames.size());
+    int differing = 0;
+    std::size_t at = 0;
+    for (std::size_t k = 0; k < expected.frames.size(); ++k) {
+      CHECK(cube["columns"]["UTC_S"][k].get<double>() == expected.utc_s[k]);
+      for (int y = 0; y < expected.polar.height_count; ++y)
+        for (int x = 0; x < expected.polar.pa_count; ++x, ++at) {
+          const float want = expected.frames[k].at<float>(y, x);
+          const json& got = cube["pixels"][at];
+          if (std::isfinite(want) ? !got.is_number() || got.get<double>() != double(want) : !got.is_null()) ++differing;
+        }
+    }
+    CHECK(differing == 0);
+  }
 }

@@ -1,4 +1,9 @@
 // A cube of planes with a table of per-plane values: what `maps` writes as polar.fits.
+#include <cmath>
+#include <cstring>
+#include <filesystem>
+#include <iterator>
+
 #include <doctest/doctest.h>
 #include <nlohmann/json.hpp>
 
@@ -54,4 +59,80 @@ TEST_CASE("fits: a cube with a table reads back in astropy and passes fitsverify
     CHECK(std::string(e.what()).find("bad.fits") != std::string::npos);
   }
   CHECK(!std::filesystem::exists(dir / "bad.fits"));
+}
+
+namespace {
+
+// The file's bytes with what differs between two writes of the same cube blanked: the
+// DATE and CHECKSUM cards (a clock time, and a checksum over a header holding it) and the
+// comment of DATASUM, which cfitsio dates (its value, over the data only, is kept). Cards
+// are 80 bytes from the start of each 2880-byte header block (FITS Standard 4.0 §3.3.1,
+// §4.4.2.7).
+std::string without_dates(std::string bytes) {
+  for (std::size_t at = 0; at + 80 <= bytes.size(); at += 80)
+    if (bytes.compare(at, 8, "DATE    ") == 0 || bytes.compare(at, 8, "CHECKSUM") == 0) {
+      bytes.replace(at + 8, 72, 72, ' ');
+    } else if (bytes.compare(at, 8, "DATASUM ") == 0) {
+      const std::size_t slash = bytes.find('/', at + 10);
+      if (slash < at + 80) bytes.replace(slash, at + 80 - slash, at + 80 - slash, ' ');
+    }
+  return bytes;
+}
+
+}  // namespace
+
+TEST_CASE("fits: a cube written plane by plane with room to spare equals the cube written whole") {
+  using occulta::imaging::FitsCubeWriter;
+  using occulta::imaging::FitsTableColumn;
+  const auto dir = occulta::test::scratch_dir("fits_cube_stream");
+  std::vector<cv::Mat> planes;
+  for (int k = 0; k < 3; ++k) {
+    // 150 × 40 float32 = 24 kB a plane: several 2880-byte blocks, so that the unused
+    // room (two planes) spans whole blocks that must be dropped.
+    cv::Mat plane(40, 150, CV_32FC1);
+    cv::randu(plane, -5.0f + k, 5.0f + k);
+    plane.at<float>(7, 11) = NAN;
+    planes.push_back(plane);
+  }
+  occulta::imaging::Header header;
+  header.set_text("CTYPE3", "FRAME", "plane index");
+  const FitsTableColumn utc{"UTC_S", "s", {1.0e9, 1.0e9 + 600.5, 1.0e9 + 1300.25}, {}};
+  occulta::imaging::write_fits_cube(dir / "whole.fits", planes, header, "FRAMES", {utc});
+  {
+    FitsCubeWriter cube(dir / "streamed.fits", planes.front().size(), 5, header);
+    for (const cv::Mat& plane : planes) cube.add(plane);
+    CHECK(cube.planes() == 3);
+    // Read back as written, NaN included.
+    const cv::Mat back = cube.plane(1);
+    REQUIRE(back.size() == planes[1].size());
+    CHECK(std::memcmp(back.data, planes[1].data, planes[1].total() * sizeof(float)) == 0);  // bit for bit
+    CHECK(std::isnan(back.at<float>(7, 11)));
+    CHECK(!std::filesystem::exists(dir / "streamed.fits"));  // nothing in place before finish()
+    cube.finish("FRAMES", {utc});
+  }
+  const std::string whole = occulta::test::slurp(dir / "whole.fits");
+  const std::string streamed = occulta::test::slurp(dir / "streamed.fits");
+  CHECK(whole.size() == streamed.size());
+  CHECK(whole.size() % 2880 == 0);
+  CHECK(without_dates(whole) == without_dates(streamed));
+
+  // fitsverify (HEASARC, Debian package) checks the resized file's CHECKSUM and DATASUM.
+  using occulta::test::shell_quote;
+  const auto verify = occulta::test::run_command(shell_quote(OCCULTA_FITSVERIFY) + " -q " +
+                                                 shell_quote((dir / "streamed.fits").string()));
+  CHECK_MESSAGE(verify.output.find("verification OK") != std::string::npos, verify.output);
+
+  // A writer dropped before finish() leaves nothing behind, not even its temporary.
+  {
+    FitsCubeWriter cube(dir / "dropped.fits", planes.front().size(), 5, header);
+    cube.add(planes[0]);
+  }
+  CHECK(std::distance(std::filesystem::directory_iterator(dir), std::filesystem::directory_iterator()) == 2);
+
+  // More planes than announced, or a plane of another size: refused, naming the file.
+  FitsCubeWriter cube(dir / "small.fits", planes.front().size(), 1, header);
+  cube.add(planes[0]);
+  CHECK_THROWS_WITH_AS(cube.add(planes[1]), doctest::Contains("small.fits"), occulta::imaging::InputError);
+  CHECK_THROWS_WITH_AS(cube.add(cv::Mat(2, 2, CV_32FC1, cv::Scalar(0))), doctest::Contains("small.fits"),
+                       occulta::imaging::InputError);
 }
