@@ -25,29 +25,19 @@ void report(const MeasurementProgressCallback& progress, MeasurementStage stage,
   if (progress) progress({stage, view, view_index, view_count, frame, frame_count});
 }
 
-ViewMeasurement measure_view(const Event& event, const EventView& view, const Track* analyst,
-                             const MeasurementOptions& o, std::vector<std::string>& problems,
+ViewMeasurement measure_view(const ViewImaging& imaged, const Track* analyst, std::vector<std::string>& problems,
                              const MeasurementProgressCallback& progress, int view_index, int view_count) {
-  const imaging::ChainOptions chain = chain_options(event, view, o.median);
-
   ViewMeasurement m;
-  m.name = view.name;
-  imaging::PolarSequence& polar = m.polar;
-  const int frame_count = static_cast<int>(view.files.size());
-  report(progress, MeasurementStage::chain, view.name, view_index, view_count, 0, frame_count);
-  const imaging::ViewRun run = imaging::run_view(view.name, view.files, chain, [&](const imaging::ChainFrame& f) {
-    m.observer = f.frame.geometry.observer;
-    polar.utc_s.push_back(f.frame.utc_s);
-    polar.frames.push_back(f.polar_running.clone());
-    report(progress, MeasurementStage::chain, view.name, view_index, view_count, static_cast<int>(polar.frames.size()),
-           frame_count);
-  });
-  polar.polar = run.polar;
-  m.grid = run.grid;
-  m.frames_used = run.frames_used;
-  for (const auto& p : run.problems) problems.push_back("view " + view.name + ": " + p);
+  m.name = imaged.name;
+  const std::string& name = m.name;
+  m.observer = imaged.observer;
+  m.grid = imaged.grid;
+  m.polar = imaged.polar;
+  m.frames_used = imaged.frames_used;
+  const imaging::PolarSequence& polar = m.polar;
+  for (const auto& p : imaged.problems) problems.push_back("view " + name + ": " + p);
 
-  report(progress, MeasurementStage::front, view.name, view_index, view_count);
+  report(progress, MeasurementStage::front, name, view_index, view_count);
   m.front = imaging::find_front(polar);
   const imaging::Front& front = m.front;
 
@@ -60,7 +50,7 @@ ViewMeasurement measure_view(const Event& event, const EventView& view, const Tr
   const double step_rs = polar.polar.height_step_rs;
   if (analyst)
     for (const TrackPoint& p : analyst->points) {
-      if (p.view != view.name) continue;
+      if (p.view != name) continue;
       m.by_analyst = true;
       int frame = -1;  // the frame the point was marked on (within a second)
       for (std::size_t k = 0; k < polar.utc_s.size(); ++k)
@@ -79,7 +69,7 @@ ViewMeasurement measure_view(const Event& event, const EventView& view, const Tr
   std::vector<imaging::TrackPoint> auto_track;
   if (!m.by_analyst && front.found) {
     auto_track = imaging::follow_track(polar, front.outermost_pa_deg, front.onset_frame, {}, &censored);
-    for (const imaging::TrackPoint& p : auto_track) points.push_back({view.name, p.utc_s, p.pa_deg, p.height_rs, "auto"});
+    for (const imaging::TrackPoint& p : auto_track) points.push_back({name, p.utc_s, p.pa_deg, p.height_rs, "auto"});
   }
   // How far above the noise the front stood: the largest band-median running difference
   // on the automatic track, in σ (imaging/front.hpp; the track caps it at 50) — what a
@@ -93,7 +83,7 @@ ViewMeasurement measure_view(const Event& event, const EventView& view, const Tr
   if (front.found) {
     m.central_pa_deg = front.central_pa_deg;
   } else {
-    problems.push_back("view " + view.name + ": " + front.why_not);
+    problems.push_back("view " + name + ": " + front.why_not);
   }
   if (m.by_analyst && !front.found) {
     double sum_sin = 0.0, sum_cos = 0.0;  // mean direction of the analyst's PAs
@@ -101,7 +91,7 @@ ViewMeasurement measure_view(const Event& event, const EventView& view, const Tr
     m.central_pa_deg = std::fmod(std::atan2(sum_sin, sum_cos) * kDegPerRad + 360.0, 360.0);
   }
 
-  report(progress, MeasurementStage::kinematics, view.name, view_index, view_count);
+  report(progress, MeasurementStage::kinematics, name, view_index, view_count);
   if (points.size() >= 2) {
     std::vector<HeightTimePoint> ht;
     for (const auto& p : points) ht.push_back({p.utc_s, p.height_rs, 0.0});
@@ -127,13 +117,13 @@ ViewMeasurement measure_view(const Event& event, const EventView& view, const Tr
     }
     if (chosen.status == FitStatus::ok) {
       if (!chosen.sigmas_known)
-        problems.push_back(view.name + ": no σ for the sky speed and onset: " + chosen.problem + ".");
+        problems.push_back(name + ": no σ for the sky speed and onset: " + chosen.problem + ".");
     } else {
-      problems.push_back("view " + view.name + ": the height–time fit failed: " + chosen.problem);
+      problems.push_back("view " + name + ": the height–time fit failed: " + chosen.problem);
     }
     m.kinematics = std::move(chosen);
   } else if (front.found || m.by_analyst) {
-    problems.push_back("view " + view.name + ": too few leading-edge points for a height–time fit.");
+    problems.push_back("view " + name + ": too few leading-edge points for a height–time fit.");
   }
   if (!points.empty()) m.track_pa_deg = points.front().pa_deg;
   return m;
@@ -183,9 +173,63 @@ MeasurementInput load_measurement_input(const fs::path& input, const fs::path& t
   return in;
 }
 
-Measurement measure_event(const MeasurementInput& in, const MeasurementOptions& o,
-                          const MeasurementProgressCallback& progress) {
+ViewImaging image_view(const std::string& name, const std::vector<fs::path>& files, const imaging::ChainOptions& chain,
+                       const std::function<void(const imaging::ChainFrame&)>& each_frame) {
+  ViewImaging v;
+  v.name = name;
+  v.files = files;
+  imaging::PolarSequence& polar = v.polar;
+  const imaging::ViewRun run = imaging::run_view(name, files, chain, [&](const imaging::ChainFrame& f) {
+    v.observer = f.frame.geometry.observer;
+    polar.utc_s.push_back(f.frame.utc_s);
+    polar.frames.push_back(f.polar_running.clone());
+    if (each_frame) each_frame(f);
+  });
+  polar.polar = run.polar;
+  v.grid = run.grid;
+  v.radii = run.radii;
+  v.frames_used = run.frames_used;
+  v.problems = run.problems;
+  return v;
+}
+
+std::vector<ViewImaging> image_event(const MeasurementInput& in, const MeasurementOptions& o,
+                                     const MeasurementProgressCallback& progress) {
   if (o.checksum_policy) imaging::set_checksum_policy(*o.checksum_policy);
+  const Event& event = in.event;
+  const int view_count = static_cast<int>(event.views.size());
+  std::vector<ViewImaging> imaged;
+  for (std::size_t i = 0; i < event.views.size(); ++i) {
+    const EventView& listed = event.views[i];
+    const WindowSplit& split = in.windows[i];
+    ViewImaging& v = imaged.emplace_back();
+    v.name = listed.name;
+    if (listed.files.empty()) {
+      v.unusable = "view " + listed.name + ": no files match " + listed.globs.front() + ".";
+      continue;
+    }
+    if (split.inside.empty()) {
+      v.unusable = "view " + listed.name + ": none of its " + std::to_string(split.outside.size()) +
+                   " frames lies in the event's window " + imaging::iso_from_utc_seconds((*event.window_s)[0], 3) +
+                   " to " + imaging::iso_from_utc_seconds((*event.window_s)[1], 3) + ".";
+      continue;
+    }
+    const int view_index = static_cast<int>(i), frame_count = static_cast<int>(split.inside.size());
+    report(progress, MeasurementStage::chain, listed.name, view_index, view_count, 0, frame_count);
+    int frames = 0;
+    try {
+      v = image_view(listed.name, split.inside, chain_options(event, listed, o.median), [&](const imaging::ChainFrame&) {
+        report(progress, MeasurementStage::chain, listed.name, view_index, view_count, ++frames, frame_count);
+      });
+    } catch (const imaging::InputError& e) {
+      v.unusable = "view " + listed.name + ": " + e.what();
+    }
+  }
+  return imaged;
+}
+
+Measurement measure_imaged(const MeasurementInput& in, const std::vector<ViewImaging>& imaged,
+                           const MeasurementOptions& o, const MeasurementProgressCallback& progress) {
   const Event& event = in.event;
   Measurement m;
   m.event_id = event.id;
@@ -198,29 +242,20 @@ Measurement measure_event(const MeasurementInput& in, const MeasurementOptions& 
   const int view_count = static_cast<int>(event.views.size());
   int measured = 0;
   for (std::size_t i = 0; i < event.views.size(); ++i) {
-    const EventView& listed = event.views[i];
     const WindowSplit& split = in.windows[i];
     m.inputs.insert(m.inputs.end(), split.inside.begin(), split.inside.end());
-    if (listed.files.empty()) {
-      problems.push_back("view " + listed.name + ": no files match " + listed.globs.front() + ".");
+    if (!imaged[i].unusable.empty()) {
+      problems.push_back(imaged[i].unusable);
       continue;
     }
-    if (split.inside.empty()) {
-      problems.push_back("view " + listed.name + ": none of its " + std::to_string(split.outside.size()) +
-                         " frames lies in the event's window " + imaging::iso_from_utc_seconds((*event.window_s)[0], 3) +
-                         " to " + imaging::iso_from_utc_seconds((*event.window_s)[1], 3) + ".");
-      continue;
-    }
-    EventView view = listed;
-    view.files = split.inside;
     try {
-      ViewMeasurement v = measure_view(event, view, in.analyst ? &*in.analyst : nullptr, o, problems, progress,
+      ViewMeasurement v = measure_view(imaged[i], in.analyst ? &*in.analyst : nullptr, problems, progress,
                                        static_cast<int>(i), view_count);
       v.frames_outside_window = split.outside;
       m.views.push_back(std::move(v));
       ++measured;
     } catch (const imaging::InputError& e) {
-      problems.push_back("view " + view.name + ": " + e.what());
+      problems.push_back("view " + imaged[i].name + ": " + e.what());
     }
   }
   // One shell over every view that saw the CME: true direction, width and speed.
@@ -253,6 +288,11 @@ Measurement measure_event(const MeasurementInput& in, const MeasurementOptions& 
   }
   report(progress, MeasurementStage::done, "", -1, view_count);
   return m;
+}
+
+Measurement measure_event(const MeasurementInput& in, const MeasurementOptions& o,
+                          const MeasurementProgressCallback& progress) {
+  return measure_imaged(in, image_event(in, o, progress), o, progress);
 }
 
 Measurement measure_event(const fs::path& event_or_folder, const fs::path& track_file, const MeasurementOptions& options,
