@@ -93,6 +93,11 @@ ShellControls controls_of(const fit::ShellFit& fit, ShellControls c) {
   return c;
 }
 
+// " and N tie(s)" when the state holds ties: what a saved or read track file holds.
+std::string ties_said(const WindowState& s) {
+  return s.ties.empty() ? std::string() : " and " + std::to_string(s.ties.size()) + " tie(s)";
+}
+
 }  // namespace
 
 std::span<const Display> displays() { return kDisplays; }
@@ -257,15 +262,17 @@ void apply(WindowState& s, const Action& a) {
           [&](const action::TrackRead& r) {
             before_change(s);
             s.points = r.points;
+            s.ties = r.ties;
+            s.tie_first.reset();
             s.selected = -1;
             s.unsaved = false;
             s.track_path = r.path;
-            s.message = "Read " + std::to_string(r.points.size()) + " point(s) from " + r.path + ".";
+            s.message = "Read " + std::to_string(r.points.size()) + " point(s)" + ties_said(s) + " from " + r.path + ".";
           },
           [&](const action::Saved& w) {
             s.unsaved = false;
             s.track_path = w.path;
-            s.message = "Saved " + std::to_string(s.points.size()) + " point(s) to " + w.path + ".";
+            s.message = "Saved " + std::to_string(s.points.size()) + " point(s)" + ties_said(s) + " to " + w.path + ".";
           },
           [&](const action::Note& n) { s.message = n.message; },
           [&](const action::SetShell& c) {

@@ -88,7 +88,11 @@ struct LoadTrack { std::string path; };          // {"do": "load_track", "path":
 // {"do": "export", "dir": "out"}: what `occulta measure EVENT --track T --out DIR` writes,
 // T being the window's points, saved first as DIR/analyst.track.json.
 struct Export { std::string dir; };
-struct TrackRead { std::vector<MarkedPoint> points; std::string path; };  // a track file's points replace the list
+struct TrackRead {  // a track file's points and ties replace the lists
+  std::vector<MarkedPoint> points;
+  std::string path;
+  std::vector<TiePoint> ties;
+};
 struct Saved { std::string path; };             // the points are in that file now
 struct Note { std::string message; };           // a file action's outcome or fault
 struct QuitAnyway {};                           // quit, leaving unsaved points (the autosave keeps them)

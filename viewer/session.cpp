@@ -3,6 +3,8 @@
 
 #include <algorithm>
 #include <chrono>
+#include <cmath>
+#include <numbers>
 #include <set>
 
 #include "imaging/input_error.hpp"
@@ -28,6 +30,24 @@ void tie(WindowState& state, const std::vector<ViewPictures>& views, const actio
   const auto met = a && b ? tie_marks(*a, *b, views) : std::nullopt;
   if (met) apply(state, action::AddTie{*met});
   else apply(state, action::Note{"The tie needs two different loaded views whose lines of sight are not parallel."});
+}
+
+// A tie's click as the track file holds it (PA, height) and as the window does (sky x, y;
+// viewer/state.hpp: x west, y north, PA counter-clockwise from north through east).
+fit::TieClick click_of(const SkyMark& m) {
+  const double pa_deg = std::atan2(-m.x_rs, m.y_rs) * 180.0 / std::numbers::pi;
+  return {m.view, m.utc_s, pa_deg < 0.0 ? pa_deg + 360.0 : pa_deg, std::hypot(m.x_rs, m.y_rs)};
+}
+SkyMark mark_of(const fit::TieClick& c) {
+  const MarkedPoint at{c.view, c.utc_s, c.pa_deg, c.height_rs};
+  return {c.view, c.utc_s, sky_x_rs(at), sky_y_rs(at)};
+}
+
+std::vector<TiePoint> ties_of(const fit::Track& track) {
+  std::vector<TiePoint> ties;
+  for (const fit::TrackTie& t : track.ties)
+    ties.push_back({mark_of(t.a), mark_of(t.b), t.lon_deg, t.lat_deg, t.distance_rs, t.miss_rs});
+  return ties;
 }
 
 std::vector<MarkedPoint> points_of(const fit::Track& track) {
@@ -65,6 +85,8 @@ fit::Track track_of(const WindowState& state) {
   fit::Track track{state.event_id, {}};
   for (const MarkedPoint& p : state.points)
     track.points.push_back({p.view, p.utc_s, p.pa_deg, p.height_rs, p.automatic ? "auto" : "analyst"});
+  for (const TiePoint& t : state.ties)
+    track.ties.push_back({click_of(t.a), click_of(t.b), t.lon_deg, t.lat_deg, t.distance_rs, t.miss_rs});
   return track;
 }
 
@@ -115,7 +137,7 @@ void perform(WindowState& state, const std::vector<ViewPictures>& views, const S
       const fit::Track track = fit::read_track(load->path);
       if (!state.event_id.empty() && track.event_id != state.event_id)
         throw imaging::InputError(load->path, "is the track of event \"" + track.event_id + "\", not of \"" + state.event_id + "\"");
-      return apply(state, action::TrackRead{points_of(track), load->path});
+      return apply(state, action::TrackRead{points_of(track), load->path, ties_of(track)});
     }
     if (const auto* e = std::get_if<action::Export>(&a)) {
       if (!session.export_result) return apply(state, action::Note{"There is nothing to export to: no event was opened."});

@@ -47,6 +47,18 @@ json track_doc() {
   return {{"schema", "occulta.track/1"}, {"event_id", "strict-event"}, {"points", points}};
 }
 
+// A track with a tie of two views, east and west, at one frame time (the good event has
+// east only: against it, only what the reader refuses, and a tie click on a view it lacks).
+json tied_track_doc() {
+  json t = track_doc();
+  const auto place = [](const char* view, double pa_deg) {
+    return json{{"view", view}, {"time", "2031-03-14T06:20:00.000"}, {"pa_deg", pa_deg}, {"height_rs", 5.0}};
+  };
+  t["ties"] = json::array({{{"a", place("east", 270.0)}, {"b", place("west", 90.0)}, {"lon_deg", 10.0},
+                            {"lat_deg", 0.0}, {"distance_rs", 5.5}, {"miss_rs", 0.01}}});
+  return t;
+}
+
 json scenario_doc() { return json::parse(kScenario); }
 
 json result_doc() {
@@ -143,6 +155,13 @@ TEST_CASE("strict: bad inputs across every verb give one sentence and the promis
   tr("dotdot.track.json", [](json& t) { t["points"][0]["view"] = "../x"; });
   tr("heigth.track.json", [](json& t) { t["points"][0]["heigth_rs"] = 5.0; });
   tr("pa.track.json", [](json& t) { t["points"][0]["pa_deg"] = 400.0; });
+  const auto ti = [&](const std::string& name, const std::function<void(json&)>& change) {
+    return variant(d, name, tied_track_doc(), change);
+  };
+  ti("tiekey.track.json", [](json& t) { t["ties"][0]["lon"] = 1.0; });
+  ti("tieself.track.json", [](json& t) { t["ties"][0]["b"]["view"] = "east"; });
+  ti("tielat.track.json", [](json& t) { t["ties"][0]["lat_deg"] = 95.0; });
+  ti("tieview.track.json", [](json& t) { t["ties"][0]["a"]["view"] = "eats"; });
 
   const auto re = [&](const std::string& name, const std::function<void(json&)>& change) {
     return variant(d, name, result_doc(), change);
@@ -231,6 +250,14 @@ TEST_CASE("strict: bad inputs across every verb give one sentence and the promis
        {"{D}/heigth.track.json", "`points[0].heigth_rs` — did you mean `height_rs`?"}},
       {"track pa", "measure {F}/good.event.json --track {D}/pa.track.json" + out, 1,
        {"{D}/pa.track.json", "`points[0].pa_deg` is 400"}},
+      {"tie unknown key", "measure {F}/good.event.json --track {D}/tiekey.track.json" + out, 1,
+       {"{D}/tiekey.track.json", "`ties[0].lon` — did you mean `lon_deg`?"}},
+      {"tie of one view", "measure {F}/good.event.json --track {D}/tieself.track.json" + out, 1,
+       {"{D}/tieself.track.json", "`ties[0]` ties view east to itself"}},
+      {"tie latitude", "measure {F}/good.event.json --track {D}/tielat.track.json" + out, 1,
+       {"{D}/tielat.track.json", "`ties[0].lat_deg` is 95.0, outside the allowed -90 to 90"}},
+      {"tie view", "measure {F}/good.event.json --track {D}/tieview.track.json" + out, 1,
+       {"{D}/tieview.track.json", "`ties[0].a.view` \"eats\" is not a view of event \"strict-event\" — did you mean \"east\"?"}},
       {"track is a folder", "measure {F}/good.event.json --track {D}/a_folder" + out, 1, {"{D}/a_folder", "is a folder"}},
       // Result files given to forecast.
       {"result schema", "forecast {D}/schema.result.json", 1, {"{D}/schema.result.json", "`schema` is \"occulta.results/1\""}},
@@ -361,13 +388,16 @@ TEST_CASE("strict: schemas refuse the bad scenario and track files as the reader
       {"noschema", [](json& t) { t.erase("schema"); }},
       {"dotdot", [](json& t) { t["points"][0]["view"] = "../x"; }},
       {"heigth", [](json& t) { t["points"][0]["heigth_rs"] = 5.0; }},
-      {"pa", [](json& t) { t["points"][0]["pa_deg"] = 400.0; }}};
+      {"pa", [](json& t) { t["points"][0]["pa_deg"] = 400.0; }},
+      {"tiekey", [](json& t) { t = tied_track_doc(), t["ties"][0]["lon"] = 1.0; }},
+      {"tielat", [](json& t) { t = tied_track_doc(), t["ties"][0]["lat_deg"] = 95.0; }}};
   for (const auto& [case_name, change] : tracks) {
     const std::string name = case_name;  // a copy: clang 14 cannot capture a structured binding
     CAPTURE(name);
     CHECK(validate("track.schema.json", variant(d, name + ".track.json", track_doc(), change)).exit_code == 1);
   }
   CHECK(validate("track.schema.json", variant(d, "good.track.json", track_doc(), [](json&) {})).exit_code == 0);
+  CHECK(validate("track.schema.json", variant(d, "tied.track.json", tied_track_doc(), [](json&) {})).exit_code == 0);
   CHECK(validate("scenario.schema.json", variant(d, "good.scenario.json", scenario_doc(), [](json&) {})).exit_code == 0);
   // Several CMEs, a view on its own clock, a drifting point: valid, as read_scenario reads them.
   const fs::path several = variant(d, "several.scenario.json", scenario_doc(), [](json& s) {

@@ -10,6 +10,7 @@
 #include "fit/json_file.hpp"
 #include "fit/scenario.hpp"
 #include "fit/shell.hpp"
+#include "fit/track.hpp"
 #include "imaging/constants.hpp"
 #include "imaging/input_error.hpp"
 #include "imaging/time.hpp"
@@ -146,6 +147,57 @@ TEST_CASE("tie-pointing: epipolar lines pass through the other view's projection
       const double error_rs = (back_rs - truth_rs).norm();
       MESSAGE("tie by script, frame ", frame, " u ", u, ": ", error_rs, " R☉ from the truth point; lines miss by ", met.miss_rs);
       CHECK(error_rs <= 0.1);  // the issue's tolerance
+
+      if (frame == 9 && u == 0.5) {
+        // The script forms: tie the apex's pair, save the track file, load it into a fresh
+        // window: the tie comes back as it was made (clicks, and where they meet).
+        const fs::path file = occulta::test::scratch_dir("stereo-tie-track") / "tied.track.json";
+        nlohmann::json script = nlohmann::json::array();
+        nlohmann::json tie_action = {{"do", "tie"}};
+        for (const char* end : {"a", "b"}) {
+          const action::AddPoint at = pa_h(end[0] == 'a' ? "east" : "west");
+          tie_action[end] = {{"view", at.view}, {"time", occulta::imaging::iso_from_utc_seconds(at.utc_s, 3)},
+                             {"pa_deg", at.pa_deg}, {"height_rs", at.height_rs}};
+        }
+        script.push_back(tie_action);
+        script.push_back({{"do", "save_track"}, {"path", file.string()}});
+        WindowState saving = s;
+        saving.event_id = "sample-2031-03-14";
+        run_script(saving, views, parse_script(script, "tie.json"));
+        REQUIRE(saving.ties.size() == 1);
+        CHECK(!saving.unsaved);
+        const occulta::fit::Track written = occulta::fit::read_track(file);
+        REQUIRE(written.ties.size() == 1);
+        CHECK(written.points.empty());
+        CHECK(written.ties[0].a.view == "east");
+        CHECK(written.ties[0].b.view == "west");
+        CHECK(written.ties[0].a.utc_s == doctest::Approx(utc_s));
+        CHECK(written.ties[0].a.pa_deg == doctest::Approx(pa_h("east").pa_deg).epsilon(1e-12));
+        CHECK(written.ties[0].b.height_rs == doctest::Approx(pa_h("west").height_rs).epsilon(1e-12));
+        CHECK(written.ties[0].lon_deg == saving.ties[0].lon_deg);
+        CHECK(written.ties[0].distance_rs == saving.ties[0].distance_rs);
+
+        WindowState loading;
+        loading.event_id = "sample-2031-03-14";
+        run_script(loading, views, parse_script(nlohmann::json::array({{{"do", "load_track"}, {"path", file.string()}}}), "l.json"));
+        REQUIRE(loading.ties.size() == 1);
+        const TiePoint &was = saving.ties[0], &is = loading.ties[0];
+        CHECK(is.a.view == was.a.view);
+        CHECK(is.b.view == was.b.view);
+        CHECK(is.a.utc_s == was.a.utc_s);
+        CHECK(is.a.x_rs == doctest::Approx(was.a.x_rs).epsilon(1e-12));
+        CHECK(is.a.y_rs == doctest::Approx(was.a.y_rs).epsilon(1e-12));
+        CHECK(is.b.x_rs == doctest::Approx(was.b.x_rs).epsilon(1e-12));
+        CHECK(is.b.y_rs == doctest::Approx(was.b.y_rs).epsilon(1e-12));
+        CHECK(is.lon_deg == was.lon_deg);
+        CHECK(is.lat_deg == was.lat_deg);
+        CHECK(is.distance_rs == was.distance_rs);
+        CHECK(is.miss_rs == was.miss_rs);
+        MESSAGE("the apex tied at ", occulta::imaging::iso_from_utc_seconds(utc_s, 0), ": east PA ", pa_h("east").pa_deg, "° h ",
+                pa_h("east").height_rs, " R☉, west PA ", pa_h("west").pa_deg, "° h ", pa_h("west").height_rs, " R☉ → lon ",
+                was.lon_deg, "°, lat ", was.lat_deg, "°, ", was.distance_rs, " R☉ (miss ", was.miss_rs, " R☉); truth lon ",
+                t.at("lon_deg").get<double>(), "°, lat ", t.at("lat_deg").get<double>(), "°, apex ", truth_rs.norm(), " R☉");
+      }
 
       WindowState clicked = s;
       apply(clicked, action::TieMode{true});
