@@ -75,7 +75,9 @@ void check_progress(const Measured& m, std::size_t views) {
     const int frame_count = p[k].frame_count;
     CHECK(frame_count == 16);  // the sample's frames per view, all inside its window
     int last = 0;
-    for (; k < p.size() && p[k].stage == MeasurementStage::chain; ++k) {
+    // The view's reports: up to the next view's first (frame 0) or another stage.
+    for (const std::size_t first = k; k < p.size() && p[k].stage == MeasurementStage::chain && (k == first || p[k].frame > 0);
+         ++k) {
       CHECK(p[k].view == name);
       CHECK(p[k].view_index == static_cast<int>(v));
       CHECK(p[k].view_count == static_cast<int>(views));
