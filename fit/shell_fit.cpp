@@ -77,8 +77,7 @@ bool closest_depth(const ShellParams& p, const SightLine& line, double& s_star, 
   for (int i = 0; i < kSamples; ++i) {
     const double d = distance(centre - reach + i * step);
     if (d < best_d) best_d = d, best = i;
-  }
-  if (best < 0 || !std::isfinite(best_d)) return false;
+  }  if (best < 0 || !std::isfinite(best_d)) return false;
   double lo = centre - reach + std::max(0, best - 1) * step, hi = centre - reach + std::min(kSamples - 1, best + 1) * step;
   constexpr double kGolden = 0.6180339887498949;
   double x1 = hi - kGolden * (hi - lo), x2 = lo + kGolden * (hi - lo);
@@ -115,10 +114,17 @@ T apex_height(const T* law, double tau_s) {
 // The residual of shell_fit.hpp:
 //   r = D_shell(o + s* ŵ; θ, h(t)) · s_sky / s*,   s* = argmin_s D_shell(o + s ŵ),
 // s* found on the values and held fixed for the derivatives (envelope theorem).
+// Ceres evaluates most accepted points twice — the cost of the trial step, then the
+// Jacobian there — so each residual keeps its last s*: the same shell values give the
+// same s*, bit for bit, without the search (closest_depth is most of a fit's time). One
+// residual is never evaluated by two threads at once (Ceres splits work by residual).
 template <int kLawSize>
 struct OutlineResidual {
   SightLine line;
   double tau_s = 0.0;
+  mutable ShellParams last_shell{kNaN, kNaN, kNaN, kNaN, kNaN, kNaN};
+  mutable double last_s_star = 0.0;
+  mutable bool last_found = false;
 
   template <typename T>
   bool operator()(const T* direction, const T* shape, const T* law, T* residual) const {
@@ -132,8 +138,15 @@ struct OutlineResidual {
     const ShellParams v{value_of(p.lon),           value_of(p.lat),        value_of(p.tilt),
                         value_of(p.apex_height_rs), value_of(p.half_angle), value_of(p.aspect_ratio)};
     if (!plausible(v)) return false;
-    double s_star = 0.0, d_star = 0.0;
-    if (!closest_depth(v, line, s_star, d_star)) return false;
+    const ShellParams& c = last_shell;
+    if (!(v.lon == c.lon && v.lat == c.lat && v.tilt == c.tilt && v.apex_height_rs == c.apex_height_rs &&
+          v.half_angle == c.half_angle && v.aspect_ratio == c.aspect_ratio)) {
+      double d_star = 0.0;
+      last_found = closest_depth(v, line, last_s_star, d_star);
+      last_shell = v;
+    }
+    if (!last_found) return false;
+    const double s_star = last_s_star;
     const Eigen::Vector3d heeq_q = line.heeq_p_obs_rs + s_star * line.heeq_w;
     const Eigen::Matrix<T, 3, 1> shell_q = heeq_R_shell(p).transpose() * heeq_q.cast<T>();
     residual[0] = signed_distance_rs(shell_shape(p), shell_q) * (line.sky_depth_rs / s_star);
