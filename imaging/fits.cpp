@@ -404,15 +404,21 @@ FitsImage read_open(fitsfile* file, long long file_size, const ByteReader& read,
   // floats are read with no null value, so NaN and ±Inf arrive as stored (§5.3).
   // cfitsio's tile decoders trust the bytes they are given (fits_rice_check.hpp): every
   // tile is traced first, so that a damaged one is refused rather than read past.
-  if (choice.compressed)
-    fits_detail::check_compressed_tiles(
-        file, source, choice.hdu == 0 ? "its primary image" : "its image in HDU " + std::to_string(choice.hdu + 1));
-  float nan = std::numeric_limits<float>::quiet_NaN();
-  const bool stored_float = choice.bitpix < 0 && !choice.compressed;
-  int any_null = 0, status = 0;
-  fits_read_img(file, TFLOAT, 1, static_cast<LONGLONG>(image.pixels.total()), stored_float ? nullptr : &nan,
-                image.pixels.ptr<float>(), &any_null, &status);
-  if (status != 0) fail(source, "its pixels cannot be read", status);
+  // Integer Rice tiles (what cameras and occulta write) are decoded by that trace itself,
+  // bit for bit what cfitsio gives, so each tile is decoded once (fits_rice_check.hpp).
+  const bool decoded =
+      choice.compressed &&
+      fits_detail::check_and_decode_tiles(
+          file, source, choice.hdu == 0 ? "its primary image" : "its image in HDU " + std::to_string(choice.hdu + 1),
+          image.pixels.ptr<float>(), choice.width, choice.height);
+  if (!decoded) {
+    float nan = std::numeric_limits<float>::quiet_NaN();
+    const bool stored_float = choice.bitpix < 0 && !choice.compressed;
+    int any_null = 0, status = 0;
+    fits_read_img(file, TFLOAT, 1, static_cast<LONGLONG>(image.pixels.total()), stored_float ? nullptr : &nan,
+                  image.pixels.ptr<float>(), &any_null, &status);
+    if (status != 0) fail(source, "its pixels cannot be read", status);
+  }
   const float* pixel = image.pixels.ptr<float>();
   for (std::size_t i = 0, n = image.pixels.total(); i < n; ++i)
     if (!std::isfinite(pixel[i])) ++image.nonfinite_count;
