@@ -15,6 +15,7 @@
 #include <fitsio.h>
 
 #include "imaging/fits.hpp"
+#include "imaging/fits_cfitsio.hpp"
 #include "imaging/fits_rice_check.hpp"
 #include "imaging/input_error.hpp"
 #include "tests/support/support.hpp"
@@ -460,4 +461,37 @@ TEST_CASE("fits_rice_check: decode_rice gives the values of hand-coded streams")
   CHECK(occulta::imaging::fits_detail::decode_rice(stream({0xAA, 0xFF, 0xE0, 0x00}), 2, 32, 1, bytes8.data())
             .problem.empty());
   CHECK(bytes8 == std::vector<std::int32_t>{0x2A, 0x2A});
+}
+
+TEST_CASE("fits_rice_check: a compressed image's header text is fits_convert_hdr2str's, byte for byte") {
+  // Issue 18: read_fits takes the image's header without the zero-filled scratch data
+  // unit fits_convert_hdr2str makes (fits_header.cpp); the text must not change.
+  const fs::path dir = scratch_dir("fits-rice-check-header");
+  write_tiled(dir / "cfitsio.fits", SHORT_IMG, 77, 45, 16, 16);
+  cv::Mat pixels(40, 60, CV_32FC1, cv::Scalar(5.0));
+  Header header;
+  header.set_real("CDELT1", 60.0);
+  header.set_text("DATE-OBS", "2031-03-14T06:10:00.000");
+  header.add_commentary("COMMENT", "a comment card");
+  write_fits(dir / "ours_int16.fits", pixels, header, FitsWriteOptions{FitsWriteOptions::Pixels::ScaledInt16, true});
+  write_fits(dir / "ours_float32.fits", pixels, header, FitsWriteOptions{FitsWriteOptions::Pixels::Float32, true});
+  for (const char* name : {"cfitsio.fits", "ours_int16.fits", "ours_float32.fits"}) {
+    const fs::path path = dir / name;
+    CAPTURE(path);
+    fitsfile* file = nullptr;
+    int status = 0, count = 0, ours_count = 0;
+    fits_open_diskfile(&file, path.c_str(), READONLY, &status);
+    fits_movabs_hdu(file, 2, nullptr, &status);
+    char *expected = nullptr, *ours = nullptr;
+    fits_convert_hdr2str(file, 0, nullptr, 0, &expected, &count, &status);
+    REQUIRE(status == 0);
+    CHECK(occulta::imaging::fits_detail::compressed_header_text(file, &ours, &ours_count) == 0);
+    REQUIRE(ours != nullptr);
+    CHECK(ours_count == count);
+    CHECK(std::string(ours) == std::string(expected));
+    CHECK(std::string(ours).find("NAXIS2  =                   ") != std::string::npos);
+    fits_free_memory(expected, &status);
+    fits_free_memory(ours, &status);
+    fits_close_file(file, &status);
+  }
 }
