@@ -25,10 +25,17 @@ double baumbach_allen_cm3(double r_rs) {
   return 1e8 * (0.036 * std::pow(r_rs, -1.5) + 1.55 * std::pow(r_rs, -6.0) + 2.99 * std::pow(r_rs, -16.0));
 }
 
+SaitoRadial saito_radial(double r_rs) {
+  return {std::pow(r_rs, -16.0), std::pow(r_rs, -6.0), std::pow(r_rs, -2.5)};
+}
+
+double saito_cm3(const SaitoRadial& radial, double s) {
+  return 1e8 * (3.09 * radial.r16 * (1.0 - 0.5 * s) + 1.58 * radial.r6 * (1.0 - 0.95 * s) +
+                0.0251 * radial.r2_5 * (1.0 - std::sqrt(s)));
+}
+
 double saito_cm3(double r_rs, double latitude_rad) {
-  const double s = std::sin(std::abs(latitude_rad));
-  return 1e8 * (3.09 * std::pow(r_rs, -16.0) * (1.0 - 0.5 * s) + 1.58 * std::pow(r_rs, -6.0) * (1.0 - 0.95 * s) +
-                0.0251 * std::pow(r_rs, -2.5) * (1.0 - std::sqrt(s)));
+  return saito_cm3(saito_radial(r_rs), std::sin(std::abs(latitude_rad)));
 }
 
 double baumbach_allen_m3(const Eigen::Vector3d& heeq_p_rs) {

@@ -23,6 +23,13 @@ double baumbach_allen_cm3(double r_rs);
 //   N_e = 10⁸ [3.09 r^−16 (1 − 0.5 sin φ) + 1.58 r^−6 (1 − 0.95 sin φ)
 //              + 0.0251 r^−2.5 (1 − √sin φ)] cm⁻³.
 double saito_cm3(double r_rs, double latitude_rad);
+// The same split for many latitudes at one r (fit/render's background table): the three
+// radial powers once, then each latitude by its |sin φ| alone.
+struct SaitoRadial {
+  double r16 = 0.0, r6 = 0.0, r2_5 = 0.0;  // r^−16, r^−6, r^−2.5
+};
+SaitoRadial saito_radial(double r_rs);
+double saito_cm3(const SaitoRadial& radial, double abs_sin_latitude);
 
 // The same as density fields over HEEQ points (m⁻³); zero inside the Sun (r < 1).
 double baumbach_allen_m3(const Eigen::Vector3d& heeq_p_rs);

@@ -4,6 +4,7 @@
 #include <algorithm>
 #include <atomic>
 #include <cmath>
+#include <span>
 #include <thread>
 
 #include "imaging/constants.hpp"
@@ -23,15 +24,6 @@ Ray ray_at(const imaging::Observer& observer, double p_rs, double pa) {
   const Eigen::Vector3d hcc_target(-q * std::sin(pa), q * std::cos(pa), 0.0);
   const Eigen::Vector3d hcc_obs(0.0, 0.0, d);
   return Ray{heeq_R_hcc * hcc_obs, heeq_R_hcc * (hcc_target - hcc_obs).normalized()};
-}
-
-// Closest approach of a ray to Sun centre, and where (as a PA seen by the observer).
-void closest_approach(const imaging::Observer& observer, const Ray& ray, double& p_rs, double& pa) {
-  const double s0 = -ray.heeq_p_origin_rs.dot(ray.heeq_dir);
-  const Eigen::Vector3d hcc = imaging::hcc_R_heeq(observer) * (ray.heeq_p_origin_rs + s0 * ray.heeq_dir);
-  p_rs = hcc.norm();
-  pa = std::atan2(-hcc.x(), hcc.y());
-  if (pa < 0.0) pa += 2.0 * kPi;
 }
 
 template <typename Body>
@@ -74,8 +66,7 @@ BackgroundTable tabulate_background(const imaging::Observer& observer, const Ren
   table.observer = observer;
   table.background = scene.background;
   table.factor = scene.background_factor;
-  const DensityField background = background_density(scene);
-  if (!background) return table;
+  if (scene.background == BackgroundCorona::none) return table;
   const bool symmetric = scene.background == BackgroundCorona::baumbach_allen;
   table.n_pa = symmetric ? 1 : 180;
   table.n_p = symmetric ? 1024 : 384;
@@ -84,13 +75,48 @@ BackgroundTable tabulate_background(const imaging::Observer& observer, const Ren
   table.dlog_p = std::max(1e-9, std::log(p_max_rs * 1.000001) - table.log_p0) / (table.n_p - 1);
   table.log_b.resize(static_cast<size_t>(table.n_pa) * table.n_p);
   table.log_pb.resize(table.log_b.size());
-  parallel_rows(table.n_pa, threads, [&](int a) {
-    for (int k = 0; k < table.n_p; ++k) {
-      const Ray ray = ray_at(observer, std::exp(table.log_p0 + k * table.dlog_p), a * table.dpa);
-      const Brightness b = integrate_brightness(ray, background, scene.line_of_sight);
-      const size_t i = static_cast<size_t>(a) * table.n_p + k;
-      table.log_b[i] = std::log(std::max(b.total_bsun, 1e-300));
-      table.log_pb[i] = std::log(std::max(b.polarized_bsun, 1e-300));
+  // Every ray of one closest approach p is the same ray turned about the observer–Sun line
+  // (ray_at): its nodes (smooth_ray_nodes) lie at the same distances s, hence the same r
+  // from Sun centre and the same scattering angle (cos χ = (s − s₀)/r). So the scattering
+  // and the radial part of the density are computed once per p; each PA adds only its
+  // latitude (Saito, through |sin φ| = |z|/r of its nodes). The sums are those of
+  // integrate_brightness (thomson.cpp) in another order: equal to rounding.
+  const double u = scene.line_of_sight.limb_darkening, factor = scene.background_factor * kM3PerCm3;
+  const double bsun_per_column = kSolarRadiusKm * 1000.0 * kElectronCrossSectionM2;  // N_e ds: m⁻³ · R☉ → B☉
+  parallel_rows(table.n_p, threads, [&](int k) {
+    const double p_rs = std::exp(table.log_p0 + k * table.dlog_p);
+    const Ray ray0 = ray_at(observer, p_rs, 0.0);
+    const std::vector<RayNode> nodes = smooth_ray_nodes(ray0, scene.line_of_sight);
+    const size_t n = nodes.size();
+    std::vector<double> inv_r(n, 0.0), w_total(n, 0.0), w_polarized(n, 0.0);  // w: ds × per-electron scattering
+    std::vector<SaitoRadial> radial(n);
+    for (size_t i = 0; i < n; ++i) {
+      const Eigen::Vector3d q = ray0.heeq_p_origin_rs + nodes[i].s_rs * ray0.heeq_dir;
+      const double r = q.norm();
+      if (r < 1.0) continue;  // no electrons inside the Sun (density.hpp)
+      const double cos_chi = q.dot(ray0.heeq_dir) / r;
+      const Scattering sc = scattering_per_electron(r, 1.0 - cos_chi * cos_chi, u);
+      const double ds = nodes[i].ds_rs * (symmetric ? factor * baumbach_allen_cm3(r) : 1.0);
+      inv_r[i] = 1.0 / r;
+      w_total[i] = ds * sc.total();
+      w_polarized[i] = ds * sc.polarized();
+      if (!symmetric) radial[i] = saito_radial(r);
+    }
+    for (int a = 0; a < table.n_pa; ++a) {
+      const Ray ray = a == 0 ? ray0 : ray_at(observer, p_rs, a * table.dpa);
+      double total = 0.0, polarized = 0.0;
+      for (size_t i = 0; i < n; ++i) {
+        double density = 1.0;
+        if (!symmetric) {
+          const double z = ray.heeq_p_origin_rs.z() + nodes[i].s_rs * ray.heeq_dir.z();
+          density = factor * saito_cm3(radial[i], std::min(1.0, std::abs(z) * inv_r[i]));
+        }
+        total += density * w_total[i];
+        polarized += density * w_polarized[i];
+      }
+      const size_t j = static_cast<size_t>(a) * table.n_p + k;
+      table.log_b[j] = std::log(std::max(total * bsun_per_column, 1e-300));
+      table.log_pb[j] = std::log(std::max(polarized * bsun_per_column, 1e-300));
     }
   });
   return table;
@@ -99,21 +125,45 @@ BackgroundTable tabulate_background(const imaging::Observer& observer, const Ren
 RenderedFrame render_frame(const imaging::ImageGeometry& geometry, const RenderScene& scene, int threads) {
   if (threads <= 0) threads = std::max(1u, std::thread::hardware_concurrency());
   const int w = geometry.width, h = geometry.height;
-  RenderedFrame out{cv::Mat(h, w, CV_64F, cv::Scalar(0.0)), cv::Mat(h, w, CV_64F, cv::Scalar(0.0))};
+  // Every pixel is written below, so the planes need no clearing.
+  RenderedFrame out{cv::Mat(h, w, CV_64F), cv::Mat(h, w, CV_64F)};
   const imaging::Observer& observer = geometry.observer;
 
-  // Every pixel's line of sight (one wcslib call) and its closest approach.
-  std::vector<Eigen::Vector2d> pixels(static_cast<size_t>(w) * h), hpc(pixels.size());
-  for (int y = 0; y < h; ++y)
-    for (int x = 0; x < w; ++x) pixels[static_cast<size_t>(y) * w + x] = Eigen::Vector2d(x, y);
-  imaging::hpc_from_pixels(geometry, pixels, hpc);
-  std::vector<Ray> rays(pixels.size());
-  std::vector<double> p_of(pixels.size()), pa_of(pixels.size());
+  // Every pixel's helioprojective direction: wcslib, in blocks of rows (it is not shared
+  // among threads).
+  std::vector<Eigen::Vector2d> hpc(static_cast<size_t>(w) * h);
+  {
+    constexpr int kBlockRows = 32;
+    std::vector<Eigen::Vector2d> pixels;
+    for (int y0 = 0; y0 < h; y0 += kBlockRows) {
+      const int rows = std::min(kBlockRows, h - y0);
+      pixels.clear();
+      for (int y = y0; y < y0 + rows; ++y)
+        for (int x = 0; x < w; ++x) pixels.emplace_back(x, y);
+      imaging::hpc_from_pixels(geometry, pixels, std::span(hpc).subspan(static_cast<size_t>(y0) * w, pixels.size()));
+    }
+  }
+  // A pixel's line of sight in HCC (Thompson 2006 eq. 15; x̂ west, ŷ north, ẑ toward the
+  // observer at (0, 0, D)) is the unit vector ŵ = (cos θy sin θx, sin θy, −cos θy cos θx).
+  // It passes Sun centre at s₀ = −D ŵz along it, at distance p = D √(ŵx² + ŵy²), toward
+  // the position angle atan2(−ŵx, ŵy) (PA from north through east, −x̂) — the same line,
+  // closest approach and PA as ray_from_hpc's in HEEQ, without a rotation per pixel.
+  const Eigen::Matrix3d heeq_R_hcc = imaging::hcc_R_heeq(observer).transpose();
+  const Eigen::Vector3d heeq_p_obs_rs = observer.heeq_p_obs_km() / kSolarRadiusKm;
+  const double d_rs = observer.dist_km / kSolarRadiusKm;
+  const auto hcc_dir = [](const Eigen::Vector2d& t) {
+    const double cy = std::cos(t.y());
+    return Eigen::Vector3d(cy * std::sin(t.x()), std::sin(t.y()), -cy * std::cos(t.x()));
+  };
+  std::vector<double> p_of(hpc.size());
+  std::vector<double> row_p_min(static_cast<size_t>(h), 1e300), row_p_max(static_cast<size_t>(h), 0.0);
   parallel_rows(h, threads, [&](int y) {
     for (int x = 0; x < w; ++x) {
       const size_t i = static_cast<size_t>(y) * w + x;
-      rays[i] = ray_from_hpc(observer, hpc[i]);
-      closest_approach(observer, rays[i], p_of[i], pa_of[i]);
+      const Eigen::Vector3d v = hcc_dir(hpc[i]);
+      const double p = d_rs * std::hypot(v.x(), v.y());
+      p_of[i] = p;
+      if (p >= 1.0) row_p_min[y] = std::min(row_p_min[y], p), row_p_max[y] = std::max(row_p_max[y], p);
     }
   });
 
@@ -123,9 +173,8 @@ RenderedFrame render_frame(const imaging::ImageGeometry& geometry, const RenderS
   BackgroundTable own;
   const BackgroundTable* table = &own;
   if (background) {
-    double p_min = 1e300, p_max = 0.0;
-    for (const double p : p_of)
-      if (p >= 1.0) p_min = std::min(p_min, p), p_max = std::max(p_max, p);
+    const double p_min = *std::min_element(row_p_min.begin(), row_p_min.end());
+    const double p_max = *std::max_element(row_p_max.begin(), row_p_max.end());
     if (p_max > 0.0) {
       if (scene.background_table && scene.background_table->covers(observer, scene, p_min, p_max))
         table = scene.background_table.get();
@@ -143,15 +192,22 @@ RenderedFrame render_frame(const imaging::ImageGeometry& geometry, const RenderS
     double* pol = out.polarized_bsun.ptr<double>(y);
     for (int x = 0; x < w; ++x) {
       const size_t i = static_cast<size_t>(y) * w + x;
-      const Ray& ray = rays[i];
+      const Eigen::Vector3d hcc_w = hcc_dir(hpc[i]);
+      const Ray ray{heeq_p_obs_rs, heeq_R_hcc * hcc_w};
+      total[x] = pol[x] = 0.0;
       if (background && p_of[i] < 1.0) {
         const Brightness b = integrate_brightness(ray, background, scene.line_of_sight);
         total[x] += b.total_bsun, pol[x] += b.polarized_bsun;
       } else if (!bg.empty()) {
+        double pa = 0.0;
+        if (bg.n_pa > 1) {
+          pa = std::atan2(-hcc_w.x(), hcc_w.y());
+          if (pa < 0.0) pa += 2.0 * kPi;
+        }
         const double fk = std::clamp((std::log(p_of[i]) - bg.log_p0) / bg.dlog_p, 0.0, bg.n_p - 1.000001);
         const int k = static_cast<int>(fk);
         const double tk = fk - k;
-        double fa = bg.n_pa == 1 ? 0.0 : pa_of[i] / bg.dpa;
+        double fa = pa / bg.dpa;
         const int a0 = static_cast<int>(fa) % bg.n_pa, a1 = (a0 + 1) % bg.n_pa;
         fa -= std::floor(fa);
         const auto at = [&](const std::vector<double>& v, int a) {

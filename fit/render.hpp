@@ -10,7 +10,8 @@
 // closest approach p to Sun centre, so it is tabulated once per frame on 1024 values of
 // log p and interpolated (log B linear in log p). Saito's density depends on latitude as
 // well: tabulated on a (position angle, log p) grid of 2° × 384, interpolated
-// bilinearly in (PA, log p, log B). Measured against per-pixel integration
+// bilinearly in (PA, log p, log B); the rays of one p share their nodes, scattering and
+// radial density, so each PA adds only the latitude term (render.cpp). Measured against per-pixel integration
 // (render_test.cpp): 1e-5 (Baumbach–Allen), 3e-3 (Saito, at its equatorial cusp). A sheath is integrated per pixel, only along the
 // chords that its bounding spheres cut from the ray (fit/density.hpp), and only for the
 // pixels whose rays meet them. Rows are shared among threads.

@@ -9,6 +9,7 @@
 #include <map>
 #include <memory>
 #include <numeric>
+#include <type_traits>
 
 #include <Eigen/Eigenvalues>
 #include <ceres/ceres.h>
@@ -60,14 +61,50 @@ bool plausible(const ShellParams& p) {
          p.half_angle + std::asin(p.aspect_ratio) < 0.5 * kPi - 1e-3;
 }
 
+// The rotation into the shell frame and the shape of the last shell this thread used.
+// Every residual of one Ceres evaluation has the same direction and shape (and a frame's
+// points the same apex height), with the same derivative parts for Jets (each residual
+// holds the same parameter blocks in the same order), so these are made once per
+// evaluation and frame rather than once per point (the same values to rounding).
+template <typename T>
+bool same_value(const T& a, const T& b) {
+  if constexpr (std::is_same_v<T, double>) {
+    return a == b;
+  } else {
+    return a.a == b.a && (a.v.array() == b.v.array()).all();
+  }
+}
+
+template <typename T>
+struct ShellCache {
+  bool filled = false;
+  BasicShellParams<T> key;
+  Eigen::Matrix<T, 3, 3> shell_R_heeq;
+  BasicShellShape<T> shape;
+};
+
+template <typename T>
+const ShellCache<T>& cached_shell(const BasicShellParams<T>& p) {
+  thread_local ShellCache<T> cache;
+  const BasicShellParams<T>& k = cache.key;
+  if (!cache.filled || !(same_value(p.lon, k.lon) && same_value(p.lat, k.lat) && same_value(p.tilt, k.tilt)))
+    cache.shell_R_heeq = heeq_R_shell(p).transpose();
+  if (!cache.filled || !(same_value(p.apex_height_rs, k.apex_height_rs) && same_value(p.half_angle, k.half_angle) &&
+                         same_value(p.aspect_ratio, k.aspect_ratio)))
+    cache.shape = shell_shape(p);
+  cache.key = p;
+  cache.filled = true;
+  return cache;
+}
+
 // s*: the depth along the line where the shell's signed distance is smallest, on values
 // alone. 32 samples over the stretch of the line within the apex height of Sun centre
 // (no surface point lies farther out), then golden-section refinement around the best.
 // False when no sample has a finite distance (the line meets no piece's domain).
 bool closest_depth(const ShellParams& p, const SightLine& line, double& s_star, double& d_star) {
-  const Eigen::Matrix3d shell_R_heeq = heeq_R_shell(p).transpose();
-  const ShellShape shape = shell_shape(p);
-  const Eigen::Vector3d o = shell_R_heeq * line.heeq_p_obs_rs, w = shell_R_heeq * line.heeq_w;
+  const ShellCache<double>& cache = cached_shell(p);
+  const ShellShape& shape = cache.shape;
+  const Eigen::Vector3d o = cache.shell_R_heeq * line.heeq_p_obs_rs, w = cache.shell_R_heeq * line.heeq_w;
   const double centre = -o.dot(w), reach = 1.05 * p.apex_height_rs;
   const auto distance = [&](double s) { return signed_distance_rs(shape, o + s * w); };
   constexpr int kSamples = 32;
@@ -77,8 +114,7 @@ bool closest_depth(const ShellParams& p, const SightLine& line, double& s_star, 
   for (int i = 0; i < kSamples; ++i) {
     const double d = distance(centre - reach + i * step);
     if (d < best_d) best_d = d, best = i;
-  }
-  if (best < 0 || !std::isfinite(best_d)) return false;
+  }  if (best < 0 || !std::isfinite(best_d)) return false;
   double lo = centre - reach + std::max(0, best - 1) * step, hi = centre - reach + std::min(kSamples - 1, best + 1) * step;
   constexpr double kGolden = 0.6180339887498949;
   double x1 = hi - kGolden * (hi - lo), x2 = lo + kGolden * (hi - lo);
@@ -115,10 +151,17 @@ T apex_height(const T* law, double tau_s) {
 // The residual of shell_fit.hpp:
 //   r = D_shell(o + s* ŵ; θ, h(t)) · s_sky / s*,   s* = argmin_s D_shell(o + s ŵ),
 // s* found on the values and held fixed for the derivatives (envelope theorem).
+// Ceres evaluates most accepted points twice — the cost of the trial step, then the
+// Jacobian there — so each residual keeps its last s*: the same shell values give the
+// same s*, bit for bit, without the search (closest_depth is most of a fit's time). One
+// residual is never evaluated by two threads at once (Ceres splits work by residual).
 template <int kLawSize>
 struct OutlineResidual {
   SightLine line;
   double tau_s = 0.0;
+  mutable ShellParams last_shell{kNaN, kNaN, kNaN, kNaN, kNaN, kNaN};
+  mutable double last_s_star = 0.0;
+  mutable bool last_found = false;
 
   template <typename T>
   bool operator()(const T* direction, const T* shape, const T* law, T* residual) const {
@@ -132,11 +175,19 @@ struct OutlineResidual {
     const ShellParams v{value_of(p.lon),           value_of(p.lat),        value_of(p.tilt),
                         value_of(p.apex_height_rs), value_of(p.half_angle), value_of(p.aspect_ratio)};
     if (!plausible(v)) return false;
-    double s_star = 0.0, d_star = 0.0;
-    if (!closest_depth(v, line, s_star, d_star)) return false;
+    const ShellParams& c = last_shell;
+    if (!(v.lon == c.lon && v.lat == c.lat && v.tilt == c.tilt && v.apex_height_rs == c.apex_height_rs &&
+          v.half_angle == c.half_angle && v.aspect_ratio == c.aspect_ratio)) {
+      double d_star = 0.0;
+      last_found = closest_depth(v, line, last_s_star, d_star);
+      last_shell = v;
+    }
+    if (!last_found) return false;
+    const double s_star = last_s_star;
     const Eigen::Vector3d heeq_q = line.heeq_p_obs_rs + s_star * line.heeq_w;
-    const Eigen::Matrix<T, 3, 1> shell_q = heeq_R_shell(p).transpose() * heeq_q.cast<T>();
-    residual[0] = signed_distance_rs(shell_shape(p), shell_q) * (line.sky_depth_rs / s_star);
+    const ShellCache<T>& cache = cached_shell(p);
+    const Eigen::Matrix<T, 3, 1> shell_q = cache.shell_R_heeq * heeq_q.cast<T>();
+    residual[0] = signed_distance_rs(cache.shape, shell_q) * (line.sky_depth_rs / s_star);
     return true;
   }
 };

@@ -76,7 +76,7 @@ RayGeometry ray_geometry(const Ray& ray, double outer_radius_rs) {
 
 // ∫ f(s) ds over [from, to] less the fine spans (smooth Gauss–Legendre in θ,
 // s = s₀ + p′ tan θ with p′ = max(p, 1)), plus the fine spans (composite 3-point rule).
-// f(point, s) returns the integrand's value(s) accumulated into Acc.
+// f(acc, s, ds) accumulates the integrand at the distance s along the ray, weight ds.
 template <typename Acc, typename F>
 Acc integrate_ray(const Ray& ray, const LineOfSightOptions& options, std::span<const RaySpan> fine_in, F&& f,
                   bool spans_only = false) {
@@ -107,7 +107,7 @@ Acc integrate_ray(const Ray& ray, const LineOfSightOptions& options, std::span<c
       const double c = std::cos(theta);
       const double s = g.s0 + scale * std::tan(theta);
       const double ds_dtheta = scale / (c * c);
-      f(sum, ray.heeq_p_origin_rs + s * ray.heeq_dir, gl.w[i] * half * ds_dtheta);
+      f(sum, s, gl.w[i] * half * ds_dtheta);
     }
   };
   const auto fine_piece = [&](const RaySpan& span) {
@@ -117,8 +117,7 @@ Acc integrate_ray(const Ray& ray, const LineOfSightOptions& options, std::span<c
     const double h = length / pieces;
     for (int k = 0; k < pieces; ++k) {
       const double mid = span.from_rs + (k + 0.5) * h;
-      for (size_t i = 0; i < 3; ++i)
-        f(sum, ray.heeq_p_origin_rs + (mid + 0.5 * h * gl.x[i]) * ray.heeq_dir, gl.w[i] * 0.5 * h);
+      for (size_t i = 0; i < 3; ++i) f(sum, mid + 0.5 * h * gl.x[i], gl.w[i] * 0.5 * h);
     }
   };
 
@@ -188,6 +187,11 @@ Ray ray_from_hpc(const imaging::Observer& observer, const Eigen::Vector2d& hpc_r
   return ray;
 }
 
+std::vector<RayNode> smooth_ray_nodes(const Ray& ray, const LineOfSightOptions& options) {
+  return integrate_ray<std::vector<RayNode>>(
+      ray, options, {}, [](std::vector<RayNode>& nodes, double s, double ds) { nodes.push_back({s, ds}); });
+}
+
 std::vector<RaySpan> merge_spans(std::vector<RaySpan> spans) {
   std::sort(spans.begin(), spans.end(), [](const RaySpan& a, const RaySpan& b) { return a.from_rs < b.from_rs; });
   std::vector<RaySpan> merged;
@@ -208,7 +212,8 @@ namespace {
 Brightness brightness_along(const Ray& ray, const DensityField& density_m3, const LineOfSightOptions& options,
                             std::span<const RaySpan> fine, bool spans_only) {
   const double u = options.limb_darkening;
-  const auto add = [&](Brightness& acc, const Eigen::Vector3d& p, double ds) {
+  const auto add = [&](Brightness& acc, double s, double ds) {
+    const Eigen::Vector3d p = ray.heeq_p_origin_rs + s * ray.heeq_dir;
     const double n = density_m3(p);
     if (n == 0.0) return;
     const double r = p.norm();
@@ -239,7 +244,8 @@ Brightness integrate_brightness_in_spans(const Ray& ray, const DensityField& den
 double integrate_column_m2(const Ray& ray, const DensityField& density_m3, const LineOfSightOptions& options,
                            std::span<const RaySpan> fine) {
   const double column = integrate_ray<double>(
-      ray, options, fine, [&](double& acc, const Eigen::Vector3d& p, double ds) { acc += density_m3(p) * ds; });
+      ray, options, fine,
+      [&](double& acc, double s, double ds) { acc += density_m3(ray.heeq_p_origin_rs + s * ray.heeq_dir) * ds; });
   return column * kMetresPerRs;
 }
 

@@ -106,6 +106,15 @@ double integrate_column_m2(const Ray& ray, const DensityField& density_m3, const
 Brightness integrate_brightness_in_spans(const Ray& ray, const DensityField& density_m3, std::span<const RaySpan> spans,
                                          const LineOfSightOptions& options = {});
 
+// The nodes of integrate_brightness along a ray without fine spans: distance s from the
+// ray's origin (R☉) and weight ds (R☉), so that ∫ f ds = Σ f(s) ds. For callers that
+// integrate many rays of one geometry and share what depends only on s (fit/render's
+// background table: rays of equal closest approach differ only in direction).
+struct RayNode {
+  double s_rs = 0.0, ds_rs = 0.0;
+};
+std::vector<RayNode> smooth_ray_nodes(const Ray& ray, const LineOfSightOptions& options = {});
+
 // Fine spans merged and clipped: overlapping or touching spans join (taking the smaller
 // step), and the result is sorted. Used by integrate_* and by callers combining hints.
 std::vector<RaySpan> merge_spans(std::vector<RaySpan> spans);

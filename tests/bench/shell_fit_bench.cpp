@@ -1,13 +1,16 @@
 // Benchmark: the shell fit (fit/shell_fit) over 2 and 3 views × 10 frames of leading-edge
 // points (every 1° of PA where the outline lies between 2.5 and 14.5 R☉, 0.15 R☉ noise;
-// the fit keeps 30 per frame). Budget (issue "true speed, width and direction"):
-// < 0.5 s on one core. Prints the best time of each and its ratio to the budget.
+// the fit keeps 30 per frame). Budgets: < 0.5 s on one core (issue "true speed, width and
+// direction"); 2 views ≤ 0.1 s (issue 18). The fit runs on one thread, so its time is
+// that thread's CPU time (CLOCK_THREAD_CPUTIME_ID), which other processes' load does not
+// inflate as it does wall time; the best of 5, also printed as wall time.
 // --short: one run each, for the test suite.
 #include <algorithm>
 #include <chrono>
 #include <cstdio>
 #include <cstring>
 #include <random>
+#include <time.h>
 #include <vector>
 
 #include "fit/shell_fit.hpp"
@@ -52,6 +55,12 @@ std::vector<EdgePoint> points_of(const Case& c, std::vector<ShellView>& views) {
   return points;
 }
 
+double thread_cpu_s() {
+  timespec ts{};
+  clock_gettime(CLOCK_THREAD_CPUTIME_ID, &ts);
+  return static_cast<double>(ts.tv_sec) + 1e-9 * static_cast<double>(ts.tv_nsec);
+}
+
 imaging::Observer at(double lon_deg, double lat_deg, double au) {
   return imaging::observer_from_degrees(lon_deg, lat_deg, au * kAuKm);
 }
@@ -71,9 +80,17 @@ int main(int argc, char** argv) {
     std::vector<ShellView> views;
     const std::vector<EdgePoint> points = points_of(c, views);
     ShellFit fit;
-    const double best = bench::best_of(short_mode ? 1 : 5, [&] { fit = fit_shell(views, points); });
-    std::printf("  %-8s %5zu points (%4d used)  %6.3f s    %.2f x the 0.5 s budget   (speed %.0f km/s, truth %.0f)\n",
-                c.name, points.size(), fit.points_used, best, best / 0.5, fit.law.speed_km_s, c.speed_km_s);
+    double cpu = 1e30;
+    const double wall = bench::best_of(short_mode ? 1 : 5, [&] {
+      const double t0 = thread_cpu_s();
+      fit = fit_shell(views, points);
+      cpu = std::min(cpu, thread_cpu_s() - t0);
+    });
+    const double budget = c.observers.size() == 2 ? 0.1 : 0.5;
+    std::printf("  %-8s %5zu points (%4d used)  %6.3f s CPU (%6.3f s wall)  %.2f x the %.1f s budget   "
+                "(speed %.0f km/s, truth %.0f)\n",
+                c.name, points.size(), fit.points_used, cpu, wall, cpu / budget, budget, fit.law.speed_km_s,
+                c.speed_km_s);
     if (!fit.ok) return 1;
   }
   return 0;

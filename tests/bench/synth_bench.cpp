@@ -1,7 +1,8 @@
 // Benchmark: a synthetic 512² frame with background corona and one shell.
-// Budget (issue "synthetic observations"): < 1 s per frame on one core.
-// Prints the render alone (one thread, then all threads) and a whole `synth` frame
-// (render + F corona + noise + masks + FITS write), and each one's ratio to the budget.
+// Budgets: < 1 s per frame on one core (issue "synthetic observations"); the render on one
+// core ≤ 0.3 s (issue 18). Prints the render alone (one thread — its CPU time, which other
+// processes' load does not inflate as it does wall time — then all threads) and a whole
+// `synth` frame (render + F corona + noise + masks + FITS write), each against its budget.
 // --short: fewer repetitions, for the test suite.
 #include <algorithm>
 #include <chrono>
@@ -9,6 +10,7 @@
 #include <cstring>
 #include <filesystem>
 #include <thread>
+#include <time.h>
 
 #include "fit/render.hpp"
 #include "fit/scenario.hpp"
@@ -19,6 +21,12 @@
 namespace {
 using namespace occulta;
 using bench::best_of;
+
+double thread_cpu_s() {
+  timespec ts{};
+  clock_gettime(CLOCK_THREAD_CPUTIME_ID, &ts);
+  return static_cast<double>(ts.tv_sec) + 1e-9 * static_cast<double>(ts.tv_nsec);
+}
 
 }  // namespace
 
@@ -51,7 +59,12 @@ int main(int argc, char** argv) {
   scene.background = fit::BackgroundCorona::saito;
   scene.sheaths.push_back({s.shells[0].at(0.0), 1e5, 0.08});
 
-  const double one = best_of(repeats, [&] { fit::render_frame(geometry, scene, 1); });
+  double one_cpu = 1e30;
+  const double one = best_of(repeats, [&] {
+    const double t0 = thread_cpu_s();
+    fit::render_frame(geometry, scene, 1);
+    one_cpu = std::min(one_cpu, thread_cpu_s() - t0);
+  });
   const int threads = int(std::max(1u, std::thread::hardware_concurrency()));
   const double all = best_of(repeats, [&] { fit::render_frame(geometry, scene, threads); });
   const auto dir = std::filesystem::temp_directory_path() / "occulta-synth-bench";
@@ -59,7 +72,8 @@ int main(int argc, char** argv) {
   std::filesystem::remove_all(dir);
 
   std::printf("synth bench: 512x512 frame, Saito K corona + one shell sheath (best of %d)\n", repeats);
-  std::printf("  render, 1 thread   %7.1f ms   %.2f x the 1 s budget\n", one * 1e3, one / kBudgetS);
+  std::printf("  render, 1 thread   %7.1f ms CPU (%.1f ms wall)   %.2f x the 0.3 s budget\n", one_cpu * 1e3, one * 1e3,
+              one_cpu / 0.3);
   std::printf("  render, %d threads  %7.1f ms   %.2f x the 1 s budget\n", threads, all * 1e3, all / kBudgetS);
   std::printf("  whole synth frame  %7.1f ms   %.2f x the 1 s budget (render on all threads, noise, FITS write)\n",
               whole * 1e3, whole / kBudgetS);
