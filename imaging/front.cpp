@@ -672,6 +672,24 @@ std::string no_track_why(const FrontOptions& o) {
          std::to_string(o.min_frames) + " frames along it.";
 }
 
+// Step 6: whether `later` is a part of `earlier` that trails it — seen after it (its
+// onset later), below its leading edge in every frame of its track (within ±10° of the
+// track's PA), yet with an origin earlier than its by more than tolerance_s. A CME of its
+// own would have been launched before the one above it and been overtaken by it, the
+// interaction the shell model leaves out (README "Limits"); what it is in our synthetic
+// events is the shell's own inner rim or a leg, whose short, faint track under the front
+// rises too slowly (tests/imaging/front_multi_test.cpp, the narrow tilted CME).
+bool trails(const Front& later, const Front& earlier, double tolerance_s, const PolarSequence& s) {
+  if (!(later.onset_utc_s > earlier.onset_utc_s) || !(later.origin_utc_s < earlier.origin_utc_s - tolerance_s) ||
+      later.track.empty())
+    return false;
+  for (const TrackPoint& p : later.track) {
+    const double above = edge_near(earlier, p.frame, p.pa_deg, 10.0, s.polar);
+    if (!(above > p.height_rs + s.polar.height_step_rs)) return false;
+  }
+  return true;
+}
+
 // Whether two fronts' spans overlap or lie within near_deg of each other.
 bool near_in_sky(const Front& a, const Front& b, double near_deg) {
   const auto span = [](const Front& f) { return std::fmod(f.pa_to_deg - f.pa_from_deg + 720.0, 360.0); };
@@ -798,6 +816,10 @@ FrontSet find_fronts(const PolarSequence& s, const FrontOptions& o) {
         if (near_in_sky(front, other, o.near_pa_deg)) refused = "it moves with a CME already found, in the same sky";
         else if (std::min(d, 360.0 - d) >= o.across_pa_deg) refused = "it is the far side of a CME already found";
       }
+      for (const Front& other : set.fronts)
+        if (refused.empty() && near_in_sky(front, other, o.near_pa_deg) &&
+            trails(front, other, o.same_origin_cadences * cadence_s, s))
+          refused = "it trails a CME already found, below it in the same sky";
     }
     if (refused.empty()) set.fronts.push_back(std::move(front));
     else ++set.refused_chains;
