@@ -614,17 +614,17 @@ int split_from_earlier(const std::vector<TrackPoint>& track, const Front& earlie
   return head_same && tail_other ? track[at].frame : -1;
 }
 
-// Where another front's leading edge lies above this one's in the track's PA band (±10°),
-// the track may not climb onto it: per frame, midway between the two edges (step 6);
-// empty when no other front lies above.
-std::vector<double> ceiling_under(const Front& front, const std::vector<const Front*>& others, const PolarSequence& s) {
+}  // namespace
+
+std::vector<double> ceiling_under(const Front& front, const std::vector<const Front*>& others, const PolarSequence& s,
+                                  double pa_deg) {
   std::vector<double> ceiling(s.frames.size(), std::numeric_limits<double>::infinity());
   bool any = false;
   for (size_t k = 0; k < s.frames.size(); ++k) {
-    const double own = edge_near(front, int(k), front.central_pa_deg, 10.0, s.polar);
+    const double own = edge_near(front, int(k), pa_deg, 10.0, s.polar);
     if (!std::isfinite(own)) continue;
     for (const Front* other : others) {
-      const double above = edge_near(*other, int(k), front.central_pa_deg, 10.0, s.polar);
+      const double above = edge_near(*other, int(k), pa_deg, 10.0, s.polar);
       if (std::isfinite(above) && above > own + s.polar.height_step_rs) {
         ceiling[k] = std::min(ceiling[k], 0.5 * (own + above));
         any = true;
@@ -634,6 +634,8 @@ std::vector<double> ceiling_under(const Front& front, const std::vector<const Fr
   if (!any) ceiling.clear();
   return ceiling;
 }
+
+namespace {
 
 Scene find_regions(const PolarSequence& s, const FrontOptions& o, std::string& why_not) {
   Scene scene;
@@ -791,7 +793,7 @@ FrontSet find_fronts(const PolarSequence& s, const FrontOptions& o) {
     std::vector<const Front*> found;
     for (const Front& f : set.fronts) found.push_back(&f);
     std::string refused;
-    const std::vector<double> ceiling = ceiling_under(front, found, s);
+    const std::vector<double> ceiling = ceiling_under(front, found, s, front.central_pa_deg);
     if (!track_front(s, o, front, ceiling)) refused = "no front can be followed outward along it";
     for (const Front& other : set.fronts) {
       if (!refused.empty() || !near_in_sky(front, other, o.near_pa_deg)) continue;
@@ -836,7 +838,7 @@ FrontSet find_fronts(const PolarSequence& s, const FrontOptions& o) {
       std::vector<const Front*> others;
       for (size_t q = 0; q < set.fronts.size(); ++q)
         if (q != f) others.push_back(&set.fronts[q]);
-      const std::vector<double> ceiling = ceiling_under(set.fronts[f], others, s);
+      const std::vector<double> ceiling = ceiling_under(set.fronts[f], others, s, set.fronts[f].central_pa_deg);
       if (!ceiling.empty()) track_front(s, o, set.fronts[f], ceiling);
     }
     std::sort(set.fronts.begin(), set.fronts.end(),

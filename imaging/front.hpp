@@ -165,6 +165,12 @@ std::vector<TrackPoint> follow_track(const PolarSequence& sequence, double pa_de
                                      const FrontOptions& options = {}, TrackCensoring* censored = nullptr,
                                      const std::vector<double>& ceiling_rs = {});
 
+// Step 6's ceiling for a track of `front` along `pa_deg`: per frame of the sequence, where
+// another front's leading edge lies above this one's (both within ±10° of pa_deg), midway
+// between the two (R☉; +∞ where none lies above); empty when none does in any frame.
+std::vector<double> ceiling_under(const Front& front, const std::vector<const Front*>& others,
+                                  const PolarSequence& sequence, double pa_deg);
+
 // Whether a height at `pa_deg` in frame `frame` lies where an edge can be measured: at
 // least `margin_rs` inside the frame's data along that PA band (above the lowest row
 // with data, below the highest, with no missing rows between it and either). Sets `why`
