@@ -26,30 +26,16 @@ void report(const MeasurementProgressCallback& progress, MeasurementStage stage,
   if (progress) progress({stage, view, view_index, view_count, frame, frame_count});
 }
 
-// The imaging chain over one view's frames: the view's observer, grid and polar running
-// differences; no CME yet.
-ViewMeasurement measure_view(const Event& event, const EventView& view, const MeasurementOptions& o,
-                             std::vector<std::string>& problems,
-                             const MeasurementProgressCallback& progress, int view_index, int view_count) {
-  const imaging::ChainOptions chain = chain_options(event, view, o.median);
-
+// A view's imaging as a measured view: the chain's outputs, no CME yet; its sentences go
+// to `problems`.
+ViewMeasurement measure_view(const ViewImaging& imaged, std::vector<std::string>& problems) {
   ViewMeasurement m;
-  m.name = view.name;
-  imaging::PolarSequence& polar = m.polar;
-  const int frame_count = static_cast<int>(view.files.size());
-  report(progress, MeasurementStage::chain, view.name, view_index, view_count, 0, frame_count);
-  const imaging::ViewRun run = imaging::run_view(view.name, view.files, chain, [&](const imaging::ChainFrame& f) {
-    m.observer = f.frame.geometry.observer;
-    polar.utc_s.push_back(f.frame.utc_s);
-    polar.frames.push_back(f.polar_running.clone());
-    report(progress, MeasurementStage::chain, view.name, view_index, view_count, static_cast<int>(polar.frames.size()),
-           frame_count);
-  });
-  polar.polar = run.polar;
-  m.grid = run.grid;
-  m.frames_used = run.frames_used;
-  for (const auto& p : run.problems) problems.push_back("view " + view.name + ": " + p);
-
+  m.name = imaged.name;
+  m.observer = imaged.observer;
+  m.grid = imaged.grid;
+  m.polar = imaged.polar;
+  m.frames_used = imaged.frames_used;
+  for (const auto& p : imaged.problems) problems.push_back("view " + m.name + ": " + p);
   return m;
 }
 
@@ -225,9 +211,63 @@ MeasurementInput load_measurement_input(const fs::path& input, const fs::path& t
   return in;
 }
 
-Measurement measure_event(const MeasurementInput& in, const MeasurementOptions& o,
-                          const MeasurementProgressCallback& progress) {
+ViewImaging image_view(const std::string& name, const std::vector<fs::path>& files, const imaging::ChainOptions& chain,
+                       const std::function<void(const imaging::ChainFrame&)>& each_frame) {
+  ViewImaging v;
+  v.name = name;
+  v.files = files;
+  imaging::PolarSequence& polar = v.polar;
+  const imaging::ViewRun run = imaging::run_view(name, files, chain, [&](const imaging::ChainFrame& f) {
+    v.observer = f.frame.geometry.observer;
+    polar.utc_s.push_back(f.frame.utc_s);
+    polar.frames.push_back(f.polar_running.clone());
+    if (each_frame) each_frame(f);
+  });
+  polar.polar = run.polar;
+  v.grid = run.grid;
+  v.radii = run.radii;
+  v.frames_used = run.frames_used;
+  v.problems = run.problems;
+  return v;
+}
+
+std::vector<ViewImaging> image_event(const MeasurementInput& in, const MeasurementOptions& o,
+                                     const MeasurementProgressCallback& progress) {
   if (o.checksum_policy) imaging::set_checksum_policy(*o.checksum_policy);
+  const Event& event = in.event;
+  const int view_count = static_cast<int>(event.views.size());
+  std::vector<ViewImaging> imaged;
+  for (std::size_t i = 0; i < event.views.size(); ++i) {
+    const EventView& listed = event.views[i];
+    const WindowSplit& split = in.windows[i];
+    ViewImaging& v = imaged.emplace_back();
+    v.name = listed.name;
+    if (listed.files.empty()) {
+      v.unusable = "view " + listed.name + ": no files match " + listed.globs.front() + ".";
+      continue;
+    }
+    if (split.inside.empty()) {
+      v.unusable = "view " + listed.name + ": none of its " + std::to_string(split.outside.size()) +
+                   " frames lies in the event's window " + imaging::iso_from_utc_seconds((*event.window_s)[0], 3) +
+                   " to " + imaging::iso_from_utc_seconds((*event.window_s)[1], 3) + ".";
+      continue;
+    }
+    const int view_index = static_cast<int>(i), frame_count = static_cast<int>(split.inside.size());
+    report(progress, MeasurementStage::chain, listed.name, view_index, view_count, 0, frame_count);
+    int frames = 0;
+    try {
+      v = image_view(listed.name, split.inside, chain_options(event, listed, o.median), [&](const imaging::ChainFrame&) {
+        report(progress, MeasurementStage::chain, listed.name, view_index, view_count, ++frames, frame_count);
+      });
+    } catch (const imaging::InputError& e) {
+      v.unusable = "view " + listed.name + ": " + e.what();
+    }
+  }
+  return imaged;
+}
+
+Measurement measure_imaged(const MeasurementInput& in, const std::vector<ViewImaging>& imaged,
+                           const MeasurementOptions& o, const MeasurementProgressCallback& progress) {
   const Event& event = in.event;
   Measurement m;
   m.event_id = event.id;
@@ -241,35 +281,21 @@ Measurement measure_event(const MeasurementInput& in, const MeasurementOptions& 
   std::vector<ViewSightings> parts(event.views.size());
   std::vector<ViewMeasurement> measured;  // the chain's outputs, no CME yet
   for (std::size_t i = 0; i < event.views.size(); ++i) {
-    const EventView& listed = event.views[i];
     const WindowSplit& split = in.windows[i];
     ViewSightings& part = parts[i];
     m.inputs.insert(m.inputs.end(), split.inside.begin(), split.inside.end());
-    if (listed.files.empty()) {
-      part.problems.push_back("view " + listed.name + ": no files match " + listed.globs.front() + ".");
+    if (!imaged[i].unusable.empty()) {
+      part.problems.push_back(imaged[i].unusable);
       continue;
     }
-    if (split.inside.empty()) {
-      part.problems.push_back("view " + listed.name + ": none of its " + std::to_string(split.outside.size()) +
-                              " frames lies in the event's window " +
-                              imaging::iso_from_utc_seconds((*event.window_s)[0], 3) + " to " +
-                              imaging::iso_from_utc_seconds((*event.window_s)[1], 3) + ".");
-      continue;
-    }
-    EventView view = listed;
-    view.files = split.inside;
-    try {
-      ViewMeasurement v = measure_view(event, view, o, part.problems, progress, static_cast<int>(i), view_count);
-      v.frames_outside_window = split.outside;
-      report(progress, MeasurementStage::front, view.name, static_cast<int>(i), view_count);
-      const imaging::FrontSet fronts = imaging::find_fronts(v.polar);
-      report(progress, MeasurementStage::kinematics, view.name, static_cast<int>(i), view_count);
-      find_sightings(v, fronts, in.analyst ? &*in.analyst : nullptr, part);
-      part.measured = static_cast<int>(measured.size());
-      measured.push_back(std::move(v));
-    } catch (const imaging::InputError& e) {
-      part.problems.push_back("view " + view.name + ": " + e.what());
-    }
+    ViewMeasurement v = measure_view(imaged[i], part.problems);
+    v.frames_outside_window = split.outside;
+    report(progress, MeasurementStage::front, v.name, static_cast<int>(i), view_count);
+    const imaging::FrontSet fronts = imaging::find_fronts(v.polar);
+    report(progress, MeasurementStage::kinematics, v.name, static_cast<int>(i), view_count);
+    find_sightings(v, fronts, in.analyst ? &*in.analyst : nullptr, part);
+    part.measured = static_cast<int>(measured.size());
+    measured.push_back(std::move(v));
   }
 
   report(progress, MeasurementStage::shell, "", -1, view_count);
@@ -284,6 +310,11 @@ Measurement measure_event(const MeasurementInput& in, const MeasurementOptions& 
   }
   report(progress, MeasurementStage::done, "", -1, view_count);
   return m;
+}
+
+Measurement measure_event(const MeasurementInput& in, const MeasurementOptions& o,
+                          const MeasurementProgressCallback& progress) {
+  return measure_imaged(in, image_event(in, o, progress), o, progress);
 }
 
 Measurement measure_event(const fs::path& event_or_folder, const fs::path& track_file, const MeasurementOptions& options,

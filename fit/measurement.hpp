@@ -44,6 +44,7 @@
 #include "fit/kinematics.hpp"
 #include "fit/shell_fit.hpp"
 #include "fit/track.hpp"
+#include "imaging/chain.hpp"
 #include "imaging/fits.hpp"
 #include "imaging/front.hpp"
 #include "imaging/register.hpp"
@@ -85,9 +86,9 @@ struct MeasurementInput {
 MeasurementInput load_measurement_input(const std::filesystem::path& event_or_folder,
                                         const std::filesystem::path& track_file = {});
 
-// Where a measurement is, for a progress display. Stages run in this order; chain,
-// front and kinematics once per view (view_index counts the event's views from 0, also
-// those skipped), then shell and arrival once.
+// Where a measurement is, for a progress display. Stages run in this order: chain once
+// per view, then front and kinematics once per view (view_index counts the event's views
+// from 0, also those skipped), then shell and arrival once.
 enum class MeasurementStage { chain, front, kinematics, shell, arrival, done };
 const char* to_string(MeasurementStage stage);  // "chain", "front", …
 
@@ -195,7 +196,45 @@ struct Measurement {
   std::filesystem::path track_file;        // as given ("" for none)
 };
 
-// The measurement. `progress`, when given, is called on the calling thread at each stage.
+// The measurement in two parts: the imaging of each view (the chain: what takes the
+// time), then the rest (front, track, kinematics, shell, boundary, arrival). A caller that
+// holds the views' imaging already (the window, whose loader ran the chain) runs the rest
+// only; measure_event runs both.
+
+// One view's imaging as the chain makes it over the view's frames inside the window.
+struct ViewImaging {
+  std::string name;
+  std::vector<std::filesystem::path> files;  // the frames the chain ran over
+  // Not empty: why the view cannot be measured (a sentence: no frames, none in the window,
+  // the chain refused them); nothing below is set then.
+  std::string unusable;
+  int frames_used = 0;
+  imaging::Observer observer;                // the last frame's
+  imaging::RegisteredGrid grid;
+  imaging::OcculterRadii radii;              // where the view's data lie
+  imaging::PolarSequence polar;              // running differences in σ, one per frame but the first
+  std::vector<std::string> problems;         // the chain's sentences (imaging::ViewRun::problems)
+};
+
+// Runs the chain over one view's frames; `each_frame` (when given) also sees every frame
+// the chain gives (the window makes its pictures from them). InputError when the chain
+// cannot use the frames.
+ViewImaging image_view(const std::string& name, const std::vector<std::filesystem::path>& files,
+                       const imaging::ChainOptions& chain,
+                       const std::function<void(const imaging::ChainFrame&)>& each_frame = {});
+
+// The imaging of every view of the event, in the event's order (chain_options(event, view,
+// options.median) over input.windows[i].inside); a view that cannot be used has `unusable`.
+std::vector<ViewImaging> image_event(const MeasurementInput& input, const MeasurementOptions& options,
+                                     const MeasurementProgressCallback& progress = {});
+
+// The rest of the measurement over the views' imaging (one per event view, in order, as
+// image_event makes it). Reports the front, kinematics, shell, arrival and done stages.
+Measurement measure_imaged(const MeasurementInput& input, const std::vector<ViewImaging>& imaged,
+                           const MeasurementOptions& options, const MeasurementProgressCallback& progress = {});
+
+// The measurement: image_event, then measure_imaged. `progress`, when given, is called on
+// the calling thread at each stage.
 Measurement measure_event(const MeasurementInput& input, const MeasurementOptions& options,
                           const MeasurementProgressCallback& progress = {});
 

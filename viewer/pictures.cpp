@@ -110,7 +110,8 @@ ViewPictures load_view(const ViewSource& source, int max_display_px, const std::
   cv::Size display;
   try {
     if (source.files.empty()) throw imaging::InputError(source.name, "no files match the view's globs");
-    imaging::ViewRun run = imaging::run_view(source.name, source.files, options, [&](const imaging::ChainFrame& f) {
+    // The chain through the measurement's imaging part: the fit reuses what it keeps.
+    fit::ViewImaging run = fit::image_view(source.name, source.files, options, [&](const imaging::ChainFrame& f) {
       const cv::Mat& now = f.registered;
       if (view.frames.empty()) {
         base = f.previous_registered.clone();  // the first frame, the default base
@@ -124,7 +125,6 @@ ViewPictures load_view(const ViewSource& source, int max_display_px, const std::
       p.calibrated = for_display(standardized(log_brightness(now)), display);
       p.running_difference = for_display(imaging::sigma_difference(now, f.previous_registered), display);
       p.base_difference = for_display(imaging::sigma_difference(now, base), display);
-      p.polar = f.polar_running.clone();
       p.nrgf = for_display(now, display);  // DN/s for now: filtered below, once the display grid is known
       view.frames.push_back(std::move(p));
       if (progress) progress(int(view.frames.size()) + 1, total);
@@ -135,10 +135,14 @@ ViewPictures load_view(const ViewSource& source, int max_display_px, const std::
     view.grid.height = display.height;
     view.grid.sun_center_px = {(run.grid.sun_center_px.x() + 0.5) * sx - 0.5, (run.grid.sun_center_px.y() + 0.5) * sy - 0.5};
     view.grid.rs_per_px = run.grid.rs_per_px / sx;
-    for (FramePictures& p : view.frames) p.nrgf = ring_nrgf(p.nrgf, view.grid);
+    for (std::size_t k = 0; k < view.frames.size(); ++k) {
+      view.frames[k].nrgf = ring_nrgf(view.frames[k].nrgf, view.grid);
+      view.frames[k].polar = run.polar.frames[k];  // shared with the imaging, not copied
+    }
     view.radii = run.radii;
-    view.polar = run.polar;
+    view.polar = run.polar.polar;
     view.problems = run.problems;
+    view.imaging = std::make_shared<const fit::ViewImaging>(std::move(run));
   } catch (const imaging::InputError& e) {
     view.frames.clear();
     view.error = e.what();

@@ -1,5 +1,6 @@
 // viewer/pictures.hpp — what the window's displays draw, made once per view by the imaging
-// chain (imaging/chain.hpp run_view), and the loader that makes them on a worker thread.
+// chain (run through fit::image_view, the measurement's imaging part, which the window's
+// fit then reuses), and the loader that makes them on a worker thread.
 //
 // The viewer does not read event files or command lines (DESIGN.md: imaging ← fit ← viewer
 // ← app): app/view.cpp hands it a plain list of ViewSource.
@@ -33,6 +34,7 @@
 
 #include <opencv2/core.hpp>
 
+#include "fit/measurement.hpp"
 #include "imaging/chain.hpp"
 #include "viewer/state.hpp"
 
@@ -60,6 +62,9 @@ struct ViewPictures {
   std::vector<FramePictures> frames;  // oldest first
   std::vector<std::string> problems;  // the chain's sentences
   std::string error;                  // why the view could not be loaded (then no frames)
+  // The measurement's imaging part of this view, as the chain made it over `files`
+  // (fit/measurement.hpp): the window's fit runs only the rest. Null when not loaded.
+  std::shared_ptr<const fit::ViewImaging> imaging;
 };
 
 inline constexpr int kDefaultDisplayPx = 512;

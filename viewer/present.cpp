@@ -284,7 +284,9 @@ int present(WindowState state, std::vector<ViewSource> sources, const std::vecto
           apply(state, *f);
           if (state.fit_request.empty()) continue;
           const WindowState asked = state;
-          fitting = std::async(std::launch::async, [&session, asked] { return run_fit(asked, session, asked.fit_request); });
+          fitting = std::async(std::launch::async, [&session, asked, imaged = imaging_of(views)] {
+            return run_fit(asked, session, asked.fit_request, imaged);
+          });
           continue;
         }
         perform(state, views, session, a);

@@ -1,6 +1,7 @@
 // viewer/session.cpp — see session.hpp.
 #include "viewer/session.hpp"
 
+#include <algorithm>
 #include <chrono>
 #include <set>
 
@@ -35,7 +36,30 @@ std::vector<MarkedPoint> points_of(const fit::Track& track) {
   return points;
 }
 
+// The loader's imaging in the event's order, when it is what image_event would make:
+// every view loaded over exactly its frames inside the window, with the checksum policy
+// already in force.
+std::optional<std::vector<fit::ViewImaging>> reusable(const fit::MeasurementInput& input, const fit::MeasurementOptions& o,
+                                                      const ViewImagings& imaged) {
+  if (o.checksum_policy) return std::nullopt;
+  std::vector<fit::ViewImaging> views;
+  for (std::size_t i = 0; i < input.event.views.size(); ++i) {
+    const auto held = std::find_if(imaged.begin(), imaged.end(), [&](const auto& v) {
+      return v && v->name == input.event.views[i].name && v->files == input.windows[i].inside;
+    });
+    if (held == imaged.end() || input.windows[i].inside.empty()) return std::nullopt;
+    views.push_back(**held);
+  }
+  return views;
+}
+
 }  // namespace
+
+ViewImagings imaging_of(const std::vector<ViewPictures>& views) {
+  ViewImagings imaged;
+  for (const ViewPictures& v : views) imaged.push_back(v.imaging);
+  return imaged;
+}
 
 fit::Track track_of(const WindowState& state) {
   fit::Track track{state.event_id, {}};
@@ -44,7 +68,8 @@ fit::Track track_of(const WindowState& state) {
   return track;
 }
 
-action::FitDone run_fit(const WindowState& state, const Session& session, const std::string& points) {
+action::FitDone run_fit(const WindowState& state, const Session& session, const std::string& points,
+                        const ViewImagings& imaged) {
   if (!session.input) return {nullptr, points, 0.0, "There is no event to measure: the window was opened without one."};
   const auto started = std::chrono::steady_clock::now();
   fit::MeasurementInput input = *session.input;
@@ -63,7 +88,9 @@ action::FitDone run_fit(const WindowState& state, const Session& session, const 
     input.analyst = std::move(track);
   }
   try {
-    auto measured = std::make_shared<const fit::Measurement>(fit::measure_event(input, session.options));
+    const auto held = reusable(input, session.options, imaged);
+    auto measured = std::make_shared<const fit::Measurement>(held ? fit::measure_imaged(input, *held, session.options)
+                                                                  : fit::measure_event(input, session.options));
     const double seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - started).count();
     char text[160];
     std::snprintf(text, sizeof text, "Measured over the %s points in %.2f s: %s.",
@@ -107,7 +134,7 @@ void perform(WindowState& state, const std::vector<ViewPictures>& views, const S
   apply(state, a);
   // A fit asked for: run to the end here (scripts); the window's loop runs it on a worker.
   if (std::holds_alternative<action::Fit>(a) && !state.fit_request.empty())
-    apply(state, run_fit(state, session, state.fit_request));
+    apply(state, run_fit(state, session, state.fit_request, imaging_of(views)));
 }
 
 void run_script(WindowState& state, const std::vector<ViewPictures>& views, std::span<const Action> script,

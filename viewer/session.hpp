@@ -38,10 +38,19 @@ struct Session {
 // The window's points as a track file (origin "analyst" or "auto").
 fit::Track track_of(const WindowState& state);
 
+// The views' imaging as the loader made it (ViewPictures::imaging), held apart from the
+// pictures so that a fit on a worker keeps it while the loader adds views.
+using ViewImagings = std::vector<std::shared_ptr<const fit::ViewImaging>>;
+ViewImagings imaging_of(const std::vector<ViewPictures>& views);
+
 // The measurement over the chosen points ("analyst", "auto" or "both": the analyst's and
 // the automatic track's), as `measure --track` makes it; FitDone with its time, or with
 // a message and no measurement when it cannot be made. Callable from a worker thread.
-action::FitDone run_fit(const WindowState& state, const Session& session, const std::string& points);
+// When `imaged` holds every view's imaging over the frames `measure` uses (those inside
+// the event's window), only the rest of the measurement runs (fit::measure_imaged: same
+// code, same result); else the chain runs again (fit::measure_event).
+action::FitDone run_fit(const WindowState& state, const Session& session, const std::string& points,
+                        const ViewImagings& imaged = {});
 
 // Applies one action, performing what reaches outside the state (see above).
 void perform(WindowState& state, const std::vector<ViewPictures>& views, const Session& session, const Action& action,

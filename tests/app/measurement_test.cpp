@@ -2,8 +2,9 @@
 // (but its provenance), result.csv and track.json are exactly what the library's writers
 // (fit/result_file.hpp, fit/track.hpp) make of the same call — run here on a worker
 // thread, as the window runs it — on the committed sample, with and without an
-// analyst's track; the progress it reports comes in stage order, view by view; and the
-// checksum policy in its options decides whether a damaged frame is read.
+// analyst's track; the progress it reports comes in stage order (every view's chain, then
+// the rest view by view); and the checksum policy in its options decides whether a
+// damaged frame is read.
 #include <algorithm>
 #include <thread>
 
@@ -59,8 +60,8 @@ void check_files_are_the_writers(const Measured& m, const fs::path& out) {
     CHECK(provenance["inputs"][i]["path"] == m.measurement.inputs[i].string());
 }
 
-// Stages in order: per view chain (frames counting up), front, kinematics; then shell,
-// arrival, done once each.
+// Stages in order: the chain per view (frames counting up); then front and kinematics per
+// view; then shell, arrival, done once each.
 void check_progress(const Measured& m, std::size_t views) {
   const auto& p = m.progress;
   REQUIRE(!p.empty());
@@ -84,6 +85,10 @@ void check_progress(const Measured& m, std::size_t views) {
     // One report per running difference: every frame but the first.
     CHECK(last == static_cast<int>(m.measurement.views[v].polar.frames.size()));
     CHECK(last == m.measurement.views[v].frames_used - 1);
+  }
+  for (std::size_t v = 0; v < views; ++v) {
+    const std::string name = m.measurement.views[v].name;
+    CAPTURE(name);
     for (const MeasurementStage stage : {MeasurementStage::front, MeasurementStage::kinematics}) {
       REQUIRE(k < p.size());
       CHECK(p[k].stage == stage);
