@@ -185,7 +185,7 @@ struct Measurement {
   // Every CME found (one entry when there is one, a copy of the above; none when no view
   // found any), by first sighting; cmes[primary] is the one above, chosen as
   // primary_reason says: the event's source region (the fitted direction nearest it), else
-  // its window (the earliest CME that starts inside it), else the earliest onset.
+  // the earliest onset.
   std::vector<CmeMeasurement> cmes;
   int primary = 0;                         // index into cmes
   std::string primary_reason;              // one sentence

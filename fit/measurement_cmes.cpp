@@ -76,10 +76,9 @@ double angle_between_deg(double lon1, double lat1, double lon2, double lat2) {
 }
 
 // The primary CME: the event's source region picks the CME whose fitted direction (from
-// its views, not held at the source) lies nearest it; else the event's window picks the
-// earliest CME that starts inside it (one already in the field in the window's first
-// frame, its onset before the start, is not the one the window was set for); else the
-// earliest onset.
+// its views, not held at the source) lies nearest it; else the earliest onset. (The
+// event's window does not pick: a fast CME already in the field in the window's first
+// frame is as often the one it was set for — measure_test's fast event.)
 void choose_primary(const Event& event, Measurement& m) {
   m.primary = 0;  // cmes are by first sighting
   if (m.cmes.size() < 2) {
@@ -104,28 +103,6 @@ void choose_primary(const Event& event, Measurement& m) {
       return;
     }
   }
-  if (event.window_s) {
-    // In flight when the window opened: its front in the field, above the lowest height
-    // examined, in the first frame of every view that sees it, its onset before the start.
-    const auto in_flight = [&](const CmeMeasurement& c) {
-      bool seen = false;
-      for (const ViewMeasurement& v : c.views)
-        if (v.front.found) {
-          if (v.front.onset_frame > 0) return false;
-          seen = true;
-        }
-      return seen && c.onset_utc_s < (*event.window_s)[0];
-    };
-    for (std::size_t k = 0; k < m.cmes.size(); ++k) {
-      if (in_flight(m.cmes[k])) continue;
-      if (k == 0) break;  // the earliest anyway
-      m.primary = int(k);
-      m.primary_reason = "the event's window: the earliest CME that starts inside it (first seen at " +
-                         imaging::iso_from_utc_seconds(m.cmes[k].first_seen_utc_s, 0) +
-                         "); those before were in flight when it opened";
-      return;
-    }
-  }
 }
 
 }  // namespace
@@ -138,13 +115,23 @@ void measure_cmes(const Event& event, const MeasurementOptions& o, const std::ve
   std::vector<int> marked;  // indices into seen: the analyst's, one CME by the analyst's word
   std::vector<imaging::Observer> observers;
   for (const ViewMeasurement& v : measured) observers.push_back(v.observer);
+  std::vector<std::size_t> marked_views;
   for (std::size_t i = 0; i < parts.size(); ++i)
+    for (const ViewMeasurement& s : parts[i].sightings)
+      if (s.by_analyst) marked_views.push_back(i);
+  for (std::size_t i = 0; i < parts.size(); ++i) {
+    int found = 0;
+    for (const ViewMeasurement& s : parts[i].sightings) found += s.front.found || s.by_analyst;
     for (std::size_t j = 0; j < parts[i].sightings.size(); ++j) {
       const ViewMeasurement& s = parts[i].sightings[j];
       if (!s.front.found && !s.by_analyst) continue;
-      if (s.by_analyst) marked.push_back(int(seen.size()));
+      // The analyst's CME: their points, and the one CME of a view they marked nothing in
+      // (the automatic track completes their measurement there, as it always did).
+      const bool view_marked = std::find(marked_views.begin(), marked_views.end(), i) != marked_views.end();
+      if (s.by_analyst || (!marked_views.empty() && !view_marked && found == 1)) marked.push_back(int(seen.size()));
       seen.push_back({i, j});
     }
+  }
   // Associate the automatic sightings (fit/associate.hpp); the analyst's are one CME.
   std::vector<int> automatic;
   for (int k = 0; k < int(seen.size()); ++k)
