@@ -692,6 +692,44 @@ bool trails(const Front& later, const Front& earlier, double tolerance_s, const 
   return true;
 }
 
+// The least-squares line h = h0 + v (t − t0) through a track's heights (R☉, R☉/s, t0 its
+// first time); v NaN with fewer than two distinct times.
+struct HeightLine {
+  double t0 = 0.0, h0 = 0.0, v = std::numeric_limits<double>::quiet_NaN();
+};
+HeightLine height_line(const std::vector<TrackPoint>& track) {
+  HeightLine line;
+  if (track.empty()) return line;
+  line.t0 = track.front().utc_s;
+  double n = 0.0, st = 0.0, sh = 0.0, stt = 0.0, sth = 0.0;
+  for (const TrackPoint& p : track) {
+    const double t = p.utc_s - line.t0;
+    n += 1.0, st += t, sh += p.height_rs, stt += t * t, sth += t * p.height_rs;
+  }
+  const double denom = n * stt - st * st;
+  if (!(denom > 0.0)) return line;
+  line.v = (n * sth - st * sh) / denom;
+  line.h0 = (sh - line.v * st) / n;
+  return line;
+}
+
+// Step 6: whether `later` rides in the wake of `earlier`: seen after it, slower on the
+// sky, and below the earlier front's leading edge carried on along its straight line at
+// every point of its track. That is the front's own trailing structure: in our synthetic
+// events the shell's rear rim and legs, which a fast CME leaves in the field after its
+// leading edge has gone beyond the field stop (measure_test's 2300 km/s event gave a
+// "second CME" at 1215 km/s, 20 minutes later, this way). A slower CME of its own,
+// launched later under a faster one in the same sky, would be taken for part of it
+// (README "Limits"); a faster one following is not.
+bool in_wake(const Front& later, const Front& earlier) {
+  if (!(later.onset_utc_s > earlier.onset_utc_s) || later.track.size() < 2 || earlier.track.size() < 2) return false;
+  const HeightLine lead = height_line(earlier.track), follow = height_line(later.track);
+  if (!(lead.v > 0.0) || !(follow.v < lead.v)) return false;
+  for (const TrackPoint& p : later.track)
+    if (!(p.height_rs < lead.h0 + lead.v * (p.utc_s - lead.t0))) return false;
+  return true;
+}
+
 // Whether two fronts' spans overlap or lie within near_deg of each other.
 bool near_in_sky(const Front& a, const Front& b, double near_deg) {
   const auto span = [](const Front& f) { return std::fmod(f.pa_to_deg - f.pa_from_deg + 720.0, 360.0); };
@@ -822,6 +860,9 @@ FrontSet find_fronts(const PolarSequence& s, const FrontOptions& o) {
         if (refused.empty() && near_in_sky(front, other, o.near_pa_deg) &&
             trails(front, other, o.same_origin_cadences * cadence_s, s))
           refused = "it trails a CME already found, below it in the same sky";
+      for (const Front& other : set.fronts)
+        if (refused.empty() && near_in_sky(front, other, o.near_pa_deg) && in_wake(front, other))
+          refused = "it follows a faster CME already found, below its leading edge, in the same sky";
     }
     if (refused.empty()) set.fronts.push_back(std::move(front));
     else ++set.refused_chains;
