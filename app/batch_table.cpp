@@ -107,12 +107,15 @@ std::vector<std::string> result_column_names() {
   return names;
 }
 
-std::vector<std::vector<std::string>> table_rows(const BatchSettings& settings, const CatalogueRow& row) {
+std::vector<std::vector<std::string>> table_rows(const BatchSettings& settings, const CatalogueRow& row,
+                                                 const StartFailures& not_started) {
   std::vector<std::vector<std::string>> rows;
   const fs::path folder = event_folder(settings, row.id);
   std::error_code error;
   if (!row.fault.empty()) {
     rows.push_back(one_row(row.id, "", "failed", row.fault));
+  } else if (const auto started = not_started.find(row.id); started != not_started.end()) {
+    rows.push_back(one_row(row.id, "", "failed", started->second));
   } else if (!stamp_matches(settings, row)) {
     rows.push_back(one_row(row.id, "", "not_run",
                            "not measured yet from this row with these options in " + settings.out_dir.string() + "."));
@@ -182,7 +185,7 @@ std::vector<std::vector<std::string>> table_rows(const BatchSettings& settings, 
   return rows;
 }
 
-TableCounts write_tables(const BatchSettings& settings, const fs::path& catalogue) {
+TableCounts write_tables(const BatchSettings& settings, const fs::path& catalogue, const StartFailures& not_started) {
   const fs::path csv_path = settings.out_dir / "results.csv", fits_path = settings.out_dir / "results.fits";
   const fs::path csv_pending = imaging::pending_path(csv_path);
   TableCounts counts;
@@ -195,7 +198,7 @@ TableCounts write_tables(const BatchSettings& settings, const fs::path& catalogu
     for (std::size_t i = 0; i < columns.size(); ++i) out << (i ? "," : "") << csv_quoted(columns[i].name);
     out << '\n';
     while (const std::optional<CatalogueRow> row = reader.next())
-      for (const std::vector<std::string>& r : table_rows(settings, *row)) {
+      for (const std::vector<std::string>& r : table_rows(settings, *row, not_started)) {
         for (std::size_t i = 0; i < r.size(); ++i) out << (i ? "," : "") << csv_quoted(r[i]);
         out << '\n';
         ++counts.rows;

@@ -353,3 +353,33 @@ TEST_CASE("batch: an event past --event-timeout and one whose process is killed 
   // The table names the event file each failed child was measuring, in one sentence.
   CHECK(rows[0].at("problems").find("measure of " + sample.string()) != std::string::npos);
 }
+
+TEST_CASE("batch: an event whose child cannot be started is a failed row with its sentence, under --jobs and --mpi") {
+  // The event's folder cannot be made: a file already holds its name. No frames are read,
+  // so the case is cheap; the second row (a glob matching nothing) is measured and fails.
+  const fs::path work = occulta::test::scratch_dir("batch_not_started");
+  occulta::test::spit(work / "catalogue.csv",
+                      "id,start,end,views\n"
+                      "blocked,2031-01-01T00:00:00,2031-01-01T06:00:00,a=nowhere/*.fits\n"
+                      "empty,2031-01-01T00:00:00,2031-01-01T06:00:00,a=nowhere/*.fits\n");
+  const std::string cat = shell_quote((work / "catalogue.csv").string());
+  for (const std::string way : {"--jobs 1", "--mpi"}) {
+    CAPTURE(way);
+    const fs::path dir = work / (way == "--mpi" ? "mpi" : "jobs");
+    fs::create_directories(dir);
+    occulta::test::spit(dir / "blocked", "a file where the event's folder would go\n");
+    const std::string arguments = cat + " --out " + shell_quote(dir.string()) + " " + way;
+    const auto run = occulta::test::run_command(way == "--mpi" ? mpirun_prefix(2) + batch_command(arguments)
+                                                               : batch_command(arguments));
+    INFO(run.output);
+    CHECK(run.exit_code == 1);
+    const std::vector<Row> rows = read_table(dir / "results.csv");
+    REQUIRE(rows.size() == 2);
+    CHECK(rows[0].at("id") == "blocked");
+    CHECK(rows[0].at("status") == "failed");
+    CHECK(rows[0].at("problems").starts_with((dir / "blocked").string() + ": cannot be made ("));  // errno's words follow
+    CHECK(run.output.find("occulta: problem: " + (dir / "blocked").string() + ": cannot be made") != std::string::npos);
+    CHECK(rows[1].at("status") == "failed");
+    CHECK(rows[1].at("problems").find("no files match") != std::string::npos);
+  }
+}
