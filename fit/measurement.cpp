@@ -139,7 +139,7 @@ ViewMeasurement measure_view(const Event& event, const EventView& view, const Tr
   return m;
 }
 
-// partial: a view could not be read, a view sees no CME while another does, the shell
+// partial: a view could not be read (or, in measure(), a frame of a view was skipped), a view sees no CME while another does, the shell
 // fit failed in a way its numbers do not show, or no arrival may be made from it.
 std::string status_of(int measured, std::size_t listed, const ShellMeasurement& shell) {
   const bool weak =
@@ -197,6 +197,7 @@ Measurement measure_event(const MeasurementInput& in, const MeasurementOptions& 
   std::vector<std::string>& problems = m.problems;
   const int view_count = static_cast<int>(event.views.size());
   int measured = 0;
+  bool frames_skipped = false;  // a frame in the window the chain could not use (cut short, a duplicate…)
   for (std::size_t i = 0; i < event.views.size(); ++i) {
     const EventView& listed = event.views[i];
     const WindowSplit& split = in.windows[i];
@@ -217,6 +218,7 @@ Measurement measure_event(const MeasurementInput& in, const MeasurementOptions& 
       ViewMeasurement v = measure_view(event, view, in.analyst ? &*in.analyst : nullptr, o, problems, progress,
                                        static_cast<int>(i), view_count);
       v.frames_outside_window = split.outside;
+      frames_skipped = frames_skipped || v.frames_used < static_cast<int>(view.files.size());
       m.views.push_back(std::move(v));
       ++measured;
     } catch (const imaging::InputError& e) {
@@ -233,6 +235,7 @@ Measurement measure_event(const MeasurementInput& in, const MeasurementOptions& 
     for (size_t j = problems.size(); j-- > i + 1;)
       if (problems[j] == problems[i]) problems.erase(problems.begin() + static_cast<std::ptrdiff_t>(j));
   m.status = status_of(measured, event.views.size(), m.shell);
+  if (frames_skipped && m.status == "ok") m.status = "partial";  // the chain named each skipped frame
 
   // The arrival estimate for the event's targets (default Earth), from the fit's boundary
   // values and covariance as result.json holds them (fit/arrival_json): model estimates
