@@ -57,7 +57,11 @@
 //     origin as a CME found on the far side of the Sun (central PAs ≥ across_pa_deg
 //     apart) is that CME's other side, a halo's, that step 3b did not join: in one view
 //     two CMEs launched together on opposite sides cannot be told from one halo, and are
-//     taken as one. Each front is
+//     taken as one. A chain in the sky of a CME found already that is seen after it, lies
+//     below its leading edge in every frame of its track, yet points to an earlier origin
+//     trails it: the shell's inner rim or a leg under the front, whose short faint track
+//     rises too slowly — a CME launched earlier and overtaken by the one above it would be
+//     the interaction the model leaves out. Each front is
 //     then tracked under the others: where another front's leading edge lies above its
 //     own in the track's PA band, its track may not climb above the midway height.
 // Every threshold below is our choice, tuned on `occulta synth` events (front_test.cpp).
@@ -160,6 +164,12 @@ FrontSet find_fronts(const PolarSequence& sequence, const FrontOptions& options 
 std::vector<TrackPoint> follow_track(const PolarSequence& sequence, double pa_deg, int from_frame,
                                      const FrontOptions& options = {}, TrackCensoring* censored = nullptr,
                                      const std::vector<double>& ceiling_rs = {});
+
+// Step 6's ceiling for a track of `front` along `pa_deg`: per frame of the sequence, where
+// another front's leading edge lies above this one's (both within ±10° of pa_deg), midway
+// between the two (R☉; +∞ where none lies above); empty when none does in any frame.
+std::vector<double> ceiling_under(const Front& front, const std::vector<const Front*>& others,
+                                  const PolarSequence& sequence, double pa_deg);
 
 // Whether a height at `pa_deg` in frame `frame` lies where an edge can be measured: at
 // least `margin_rs` inside the frame's data along that PA band (above the lowest row

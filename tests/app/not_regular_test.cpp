@@ -35,5 +35,5 @@ TEST_CASE("not regular: an event file or a frame that is a FIFO is refused with 
   const auto inspected = occulta::test::run_command(occulta_command("inspect " + shell_quote(frame.string()) + " 2>&1"));
   INFO(inspected.output);
   CHECK(inspected.exit_code == 1);
-  CHECK(inspected.output.find(frame.string() + ": it is not a regular file") != std::string::npos);
+  CHECK(inspected.output.find(frame.string() + ": NOT USABLE: it is not a regular file") != std::string::npos);
 }
