@@ -3,8 +3,9 @@
 // failure.json), never recomputed, in catalogue order. Both are written whole or not at
 // all, at the end of every run.
 //
-// One row per CME a catalogue row's window holds (today measure finds one: cme = 1); a
-// row that could not run, or whose event failed, is one row with cme empty. Columns:
+// One row per CME a catalogue row's window holds, in result.json's order (cme = the CME's
+// index, 1 when the window holds one; several each with their own status, problems and
+// views); a row that could not run, or whose event failed, is one row with cme empty. Columns:
 // ours (result_columns(), documented in the README), then the catalogue's extra columns
 // as text. Numbers are written as result.json holds them (shortest text that reads back
 // as the same double), missing values as "". No wall-clock value goes in, so two runs of
