@@ -280,6 +280,7 @@ Measurement measure_imaged(const MeasurementInput& in, const std::vector<ViewIma
   const int view_count = static_cast<int>(event.views.size());
   std::vector<ViewSightings> parts(event.views.size());
   std::vector<ViewMeasurement> measured;  // the chain's outputs, no CME yet
+  bool frames_skipped = false;  // a frame in the window the chain could not use (cut short, a duplicate…)
   for (std::size_t i = 0; i < event.views.size(); ++i) {
     const WindowSplit& split = in.windows[i];
     ViewSightings& part = parts[i];
@@ -290,6 +291,7 @@ Measurement measure_imaged(const MeasurementInput& in, const std::vector<ViewIma
     }
     ViewMeasurement v = measure_view(imaged[i], part.problems);
     v.frames_outside_window = split.outside;
+    frames_skipped = frames_skipped || v.frames_used < static_cast<int>(imaged[i].files.size());
     report(progress, MeasurementStage::front, v.name, static_cast<int>(i), view_count);
     const imaging::FrontSet fronts = imaging::find_fronts(v.polar);
     report(progress, MeasurementStage::kinematics, v.name, static_cast<int>(i), view_count);
@@ -300,6 +302,12 @@ Measurement measure_imaged(const MeasurementInput& in, const std::vector<ViewIma
 
   report(progress, MeasurementStage::shell, "", -1, view_count);
   measure_cmes(event, o, measured, parts, m);
+  // A skipped frame (the chain named it among the problems) leaves the result partial.
+  if (frames_skipped) {
+    if (m.status == "ok") m.status = "partial";
+    for (CmeMeasurement& cme : m.cmes)
+      if (cme.status == "ok") cme.status = "partial";
+  }
 
   report(progress, MeasurementStage::arrival, "", -1, view_count);
   for (CmeMeasurement& cme : m.cmes) make_arrival(event, o, m, cme);
