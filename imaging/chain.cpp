@@ -34,11 +34,12 @@ struct FrameLoader {
   cv::Mat median_scratch;  // read()'s only, reused frame to frame: no new 4 MB allocation per frame
 
   // The frame's pixels; nullopt (reported) when the frame cannot be read.
-  std::optional<FitsImage> read(std::size_t k) {
+  // `reuse`: a finished frame's pixel buffer to read into (fits.hpp), or empty.
+  std::optional<FitsImage> read(std::size_t k, cv::Mat reuse = {}) {
     if (failed[k]) return std::nullopt;
     const SequenceFrame& frame = sequence.frames[k];
     try {
-      FitsImage image = read_fits(frame.path);
+      FitsImage image = read_fits(frame.path, std::move(reuse));
       if (image.pixels.cols != frame.geometry.width || image.pixels.rows != frame.geometry.height)
         throw InputError(frame.path.string(), "its pixels are " + std::to_string(image.pixels.cols) + "×" +
                                                   std::to_string(image.pixels.rows) + " but its header says " +
@@ -185,8 +186,12 @@ ViewRun run_view(const std::string& view, const std::vector<std::filesystem::pat
   std::size_t newer_k = 0, older_k = 0;
   // cfitsio reads (and decompresses) frame k + 1 on a second thread while frame k is
   // processed; only that thread calls cfitsio meanwhile. Costs one raw frame of memory.
+  // Each read is handed the pixel buffer of a frame already finished with (`spare`), so
+  // the frames' buffers go round instead of being allocated (and faulted in) anew.
+  cv::Mat spare;
   const auto read_ahead = [&](std::size_t k) {
-    return std::async(std::launch::async, [&loader, k] { return loader.read(k); });
+    return std::async(std::launch::async,
+                      [&loader, k, buffer = std::move(spare)]() mutable { return loader.read(k, std::move(buffer)); });
   };
   std::future<std::optional<FitsImage>> next;
   if (first_index != 0 && n > 0) next = read_ahead(0);
@@ -222,10 +227,13 @@ ViewRun run_view(const std::string& view, const std::vector<std::filesystem::pat
     std::swap(current_grid, previous_grid);
     std::swap(current_polar, previous_polar);
     if (options.cartesian == Cartesian::Last) {
+      if (older) spare = std::move(older->pixels);
       older = std::move(newer);
       older_k = newer_k;
       newer = std::move(image);
       newer_k = k;
+    } else {
+      spare = std::move(image->pixels);
     }
   }
   run.registration_builds = loader.cache.builds();

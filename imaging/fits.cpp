@@ -387,7 +387,8 @@ Header read_header(fitsfile* file, const Choice& choice, const std::string& sour
   return header;
 }
 
-FitsImage read_open(fitsfile* file, long long file_size, const ByteReader& read, const std::string& source) {
+FitsImage read_open(fitsfile* file, long long file_size, const ByteReader& read, const std::string& source,
+                    cv::Mat reuse = {}) {
   const Choice choice = choose_image(file, file_size, read, source);
   FitsImage image;
   image.source = source;
@@ -398,21 +399,30 @@ FitsImage read_open(fitsfile* file, long long file_size, const ByteReader& read,
   fits_detail::check_checksums(
       file, source, choice.hdu == 0 ? "its primary image" : "its image in HDU " + std::to_string(choice.hdu + 1));
 
+  // cv::Mat::create keeps the buffer when the size and type match; a shared one is not
+  // written into (another Mat still shows it).
+  if (reuse.u && reuse.u->refcount == 1) image.pixels = std::move(reuse);
   image.pixels.create(static_cast<int>(choice.height), static_cast<int>(choice.width), CV_32FC1);
   // cfitsio applies BSCALE/BZERO (§4.4.2.5: physical = BZERO + BSCALE × stored) and turns
   // integers equal to BLANK (§4.4.2.5) into the null value given, NaN. Uncompressed
   // floats are read with no null value, so NaN and ±Inf arrive as stored (§5.3).
   // cfitsio's tile decoders trust the bytes they are given (fits_rice_check.hpp): every
   // tile is traced first, so that a damaged one is refused rather than read past.
-  if (choice.compressed)
-    fits_detail::check_compressed_tiles(
-        file, source, choice.hdu == 0 ? "its primary image" : "its image in HDU " + std::to_string(choice.hdu + 1));
-  float nan = std::numeric_limits<float>::quiet_NaN();
-  const bool stored_float = choice.bitpix < 0 && !choice.compressed;
-  int any_null = 0, status = 0;
-  fits_read_img(file, TFLOAT, 1, static_cast<LONGLONG>(image.pixels.total()), stored_float ? nullptr : &nan,
-                image.pixels.ptr<float>(), &any_null, &status);
-  if (status != 0) fail(source, "its pixels cannot be read", status);
+  // Integer Rice tiles (what cameras and occulta write) are decoded by that trace itself,
+  // bit for bit what cfitsio gives, so each tile is decoded once (fits_rice_check.hpp).
+  const bool decoded =
+      choice.compressed &&
+      fits_detail::check_and_decode_tiles(
+          file, source, choice.hdu == 0 ? "its primary image" : "its image in HDU " + std::to_string(choice.hdu + 1),
+          image.pixels.ptr<float>(), choice.width, choice.height);
+  if (!decoded) {
+    float nan = std::numeric_limits<float>::quiet_NaN();
+    const bool stored_float = choice.bitpix < 0 && !choice.compressed;
+    int any_null = 0, status = 0;
+    fits_read_img(file, TFLOAT, 1, static_cast<LONGLONG>(image.pixels.total()), stored_float ? nullptr : &nan,
+                  image.pixels.ptr<float>(), &any_null, &status);
+    if (status != 0) fail(source, "its pixels cannot be read", status);
+  }
   const float* pixel = image.pixels.ptr<float>();
   for (std::size_t i = 0, n = image.pixels.total(); i < n; ++i)
     if (!std::isfinite(pixel[i])) ++image.nonfinite_count;
@@ -501,7 +511,9 @@ FitsImage read_gunzipped(const std::vector<std::byte>& plain, const std::string&
 
 }  // namespace
 
-FitsImage read_fits(const std::filesystem::path& path) {
+FitsImage read_fits(const std::filesystem::path& path) { return read_fits(path, cv::Mat()); }
+
+FitsImage read_fits(const std::filesystem::path& path, cv::Mat reuse) {
   // A gzip-compressed file is uncompressed here under a bound, not by cfitsio (fits_gzip.cpp).
   if (is_gzip(path)) {
     const std::unique_ptr<std::FILE, int (*)(std::FILE*)> file(std::fopen(path.c_str(), "rb"), std::fclose);
@@ -509,7 +521,7 @@ FitsImage read_fits(const std::filesystem::path& path) {
     return read_gunzipped(fits_detail::gunzip_fits(file.get(), path.string()), path.string());
   }
   FitsHandle file = open_disk(path);
-  return read_open(file.get(), disk_size(file.get()), disk_reader(path), path.string());
+  return read_open(file.get(), disk_size(file.get()), disk_reader(path), path.string(), std::move(reuse));
 }
 
 Header read_fits_header(const std::filesystem::path& path) {

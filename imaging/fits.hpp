@@ -82,6 +82,11 @@ enum class ChecksumPolicy { Refuse, Warn };
 void set_checksum_policy(ChecksumPolicy policy, std::function<void(const std::string&)> warn = {});
 
 FitsImage read_fits(const std::filesystem::path& path);
+// The same, writing the pixels into `reuse` when it is CV_32FC1 of the image's size and
+// holds the only reference to its buffer (else a new one is made): a caller streaming
+// frames of one size hands back a finished frame's buffer and so spares a fresh 4 MB
+// allocation, and the kernel's page faults on it, per 1024² frame.
+FitsImage read_fits(const std::filesystem::path& path, cv::Mat reuse);
 
 // The same, from bytes already in memory (used by the fuzzer and for files read whole).
 FitsImage read_fits_memory(std::span<const std::byte> bytes, std::string name);

@@ -41,6 +41,11 @@ HeaderCard parse_card(std::string_view card);
 // Returns the cfitsio status.
 int read_header_cards(fitsfile* file, bool compressed, Header& header);
 
+// A tile-compressed image's header text, byte for byte what fits_convert_hdr2str gives,
+// without the zero-filled data unit that call makes and drops on every read. The caller
+// frees *text with fits_free_memory. Returns the cfitsio status.
+int compressed_header_text(fitsfile* file, char** text, int* count);
+
 // Verifies the current HDU's CHECKSUM and DATASUM when it has them (FITS Standard 4.0
 // §4.4.2.7); a mismatch is refused or reported as set_checksum_policy() says. `where`
 // begins the sentence ("its primary image").

@@ -22,6 +22,7 @@
 #include <bit>
 #include <cstdint>
 #include <cstring>
+#include <limits>
 
 #include "imaging/fits_cfitsio.hpp"
 #include "imaging/input_error.hpp"
@@ -80,7 +81,14 @@ std::string count_of(long long n, const char* one, const char* many) {
 
 }  // namespace
 
-RiceTrace trace_rice(std::span<const unsigned char> bytes, long long pixels, int blocksize, int bytepix) {
+namespace {
+
+// The one walk through a Rice stream that both the trace and the decoder take, so that
+// decoding carries every check the trace makes. `put` receives each pixel's mapped
+// difference (0 for a low-entropy block's pixels); the trace passes a sink that does
+// nothing, and the compiler drops the arithmetic that feeds it.
+template <bool kValues, typename Put>
+RiceTrace walk_rice(std::span<const unsigned char> bytes, long long pixels, int blocksize, int bytepix, Put&& put) {
   // cfitsio's decoders: fits_rdecomp_byte for BYTEPIX 1, fits_rdecomp_short for 2, and
   // fits_rdecomp (32-bit) for anything else; the code widths and fsmax are the paper's.
   int fsbits = 5, fsmax = 25, bbits = 32;
@@ -127,6 +135,15 @@ RiceTrace trace_rice(std::span<const unsigned char> bytes, long long pixels, int
     }
     return true;
   };
+  // Reads the next `count` (≤ 32) bits as a number, or says they are not there.
+  auto take = [&](int count, std::uint64_t& value) {
+    if (count == 0) return value = 0, true;
+    bits.refill();
+    if (bits.available() < count) return false;
+    value = bits.bits() >> (64 - count);
+    bits.consume(count);
+    return true;
+  };
 
   while (done < pixels) {
     const long long block = std::min<long long>(blocksize, pixels - done);
@@ -135,9 +152,19 @@ RiceTrace trace_rice(std::span<const unsigned char> bytes, long long pixels, int
     const int fs = static_cast<int>(bits.bits() >> (64 - fsbits)) - 1;
     bits.consume(fsbits);
     if (fs < 0) {
-      // Low-entropy block: no bits follow.
+      // Low-entropy block: no bits follow, every difference is zero.
+      if constexpr (kValues)
+        for (long long i = 0; i < block; ++i) put(0);
     } else if (fs == fsmax) {
-      if (!skip(static_cast<std::uint64_t>(block) * static_cast<std::uint64_t>(bbits))) return past_end();
+      if constexpr (kValues) {
+        for (long long i = 0; i < block; ++i) {
+          std::uint64_t raw = 0;
+          if (!take(bbits, raw)) return past_end();
+          put(static_cast<std::uint32_t>(raw));
+        }
+      } else if (!skip(static_cast<std::uint64_t>(block) * static_cast<std::uint64_t>(bbits))) {
+        return past_end();
+      }
     } else if (fs > fsmax) {
       // Only 32-bit codes have room for this (5 bits hold up to 30).
       return fail("the block at pixel " + std::to_string(done + 1) + " asks for " + std::to_string(fs) +
@@ -153,6 +180,11 @@ RiceTrace trace_rice(std::span<const unsigned char> bytes, long long pixels, int
           const int zeros = std::countl_zero(word);
           if (zeros + tail <= bits.available()) {
             if (static_cast<std::uint64_t>(zeros) > most_zeros) return too_wide(done + i);
+            if constexpr (kValues) {
+              // zeros + 1 ≤ 63 here, so both shifts are defined.
+              const std::uint64_t low = fs == 0 ? 0 : (word << (zeros + 1)) >> (64 - fs);
+              put(static_cast<std::uint32_t>((static_cast<std::uint64_t>(zeros) << fs) | low));
+            }
             bits.consume(zeros + tail);
             continue;
           }
@@ -174,13 +206,47 @@ RiceTrace trace_rice(std::span<const unsigned char> bytes, long long pixels, int
           if (zeros > most_zeros) return too_wide(done + i);
         }
         if (zeros > most_zeros) return too_wide(done + i);
-        if (!skip(static_cast<std::uint64_t>(fs))) return past_end();
+        if constexpr (kValues) {
+          std::uint64_t low = 0;
+          if (!take(fs, low)) return past_end();
+          put(static_cast<std::uint32_t>((zeros << fs) | low));
+        } else if (!skip(static_cast<std::uint64_t>(fs))) {
+          return past_end();
+        }
       }
     }
     done += block;
   }
   trace.bytes_used = first + static_cast<std::size_t>((bits.position() + 7) / 8);
   return trace;
+}
+
+}  // namespace
+
+RiceTrace trace_rice(std::span<const unsigned char> bytes, long long pixels, int blocksize, int bytepix) {
+  return walk_rice<false>(bytes, pixels, blocksize, bytepix, [](std::uint32_t) {});
+}
+
+RiceTrace decode_rice(std::span<const unsigned char> bytes, long long pixels, int blocksize, int bytepix,
+                      std::int32_t* values) {
+  // The first value, big-endian in BYTEPIX bytes (4 for anything but 1 and 2, as above);
+  // then each pixel is the one before plus its difference, in the data's width: the
+  // zig-zag map undone (even d → d/2, odd d → −(d+1)/2, i.e. ~(d >> 1)) and the sum taken
+  // modulo 2^bits, as the coder formed the differences (Pence et al. 2009 §3).
+  const int width = bytepix == 1 ? 1 : bytepix == 2 ? 2 : 4;
+  std::uint32_t last = 0;
+  for (int i = 0; i < width && i < static_cast<int>(bytes.size()); ++i) last = (last << 8) | bytes[static_cast<std::size_t>(i)];
+  const auto store = [width](std::uint32_t v) -> std::int32_t {
+    if (width == 1) return static_cast<std::int32_t>(v & 0xFFu);                     // unsigned 8-bit data
+    if (width == 2) return static_cast<std::int16_t>(static_cast<std::uint16_t>(v));  // signed 16-bit
+    return static_cast<std::int32_t>(v);                                               // signed 32-bit
+  };
+  long long at = 0;
+  return walk_rice<true>(bytes, pixels, blocksize, bytepix, [&](std::uint32_t mapped) {
+    const std::uint32_t difference = (mapped & 1u) ? ~(mapped >> 1) : (mapped >> 1);
+    last += difference;  // modulo 2^32; store() keeps the data's width
+    values[at++] = store(last);
+  });
 }
 
 namespace {
@@ -198,7 +264,24 @@ std::string printable(std::string text) {
 
 }  // namespace
 
-std::vector<TileCheck> check_compressed_tiles(fitsfile* file, const std::string& source, const std::string& where) {
+namespace {
+
+// Whether decode_rice() can give the pixels fits_read_img(TFLOAT) gives for this image:
+// integer data coded at their own width (cfitsio then decodes into that type and converts
+// each value v to float as (float)(v · BSCALE + BZERO), NaN where v equals the BLANK or
+// ZBLANK keyword), one plane, no quantisation and no per-tile null column. Anything else
+// is left to cfitsio after the trace.
+bool decodable(const FITSfile& layout) {
+  const bool width_matches = (layout.zbitpix == BYTE_IMG && layout.rice_bytepix == 1) ||
+                             (layout.zbitpix == SHORT_IMG && layout.rice_bytepix == 2) ||
+                             (layout.zbitpix == LONG_IMG && layout.rice_bytepix == 4);
+  const bool one_plane = layout.zndim == 2 || (layout.zndim == 3 && layout.znaxis[2] == 1);
+  return layout.compress_type == RICE_1 && width_matches && one_plane && layout.cn_zscale == 0 &&
+         layout.cn_zzero == 0 && layout.cn_zblank <= 0 && layout.cn_uncompressed <= 0 && layout.cn_gzip_data <= 0;
+}
+
+std::vector<TileCheck> check_tiles(fitsfile* file, const std::string& source, const std::string& where, float* pixels,
+                                   bool& decoded) {
   // What cfitsio parsed on entering the HDU (public in fitsio.h) is what its decoders
   // will use, so the check takes the same values rather than reading the keywords again:
   // the compression type (ZCMPTYPE, RICE_ONE taken as RICE_1), image and tile axes
@@ -246,15 +329,23 @@ std::vector<TileCheck> check_compressed_tiles(fitsfile* file, const std::string&
   std::vector<TileCheck> checks;
   checks.reserve(static_cast<std::size_t>(tiles));
   std::vector<unsigned char> bytes;
+  decoded = pixels != nullptr && decodable(layout);
+  std::vector<std::int32_t> values;
+  if (decoded) values.resize(static_cast<std::size_t>(layout.maxtilelen > 0 ? layout.maxtilelen : 0));
+  const bool blank = layout.cn_zblank == -1;  // the BLANK or ZBLANK keyword is there
+  const double scale = layout.cn_bscale, zero = layout.cn_bzero;
   for (long long row = 1; row <= tiles; ++row) {
     // Tiles are numbered along axis 1 first (Pence et al. 2009 §4); those at the far edge
     // of an axis are cut short by it.
     TileCheck check;
     check.pixels = 1;
+    std::array<long long, MAX_COMPRESS_DIM> corner{}, extent{};  // the tile's first pixel and size per axis
     for (long long d = 0, index = row - 1; d < dims; ++d) {
       const long long at = index % across[d];
       index /= across[d];
-      check.pixels *= std::min<long long>(layout.tilesize[d], layout.znaxis[d] - at * layout.tilesize[d]);
+      corner[d] = at * layout.tilesize[d];
+      extent[d] = std::min<long long>(layout.tilesize[d], layout.znaxis[d] - corner[d]);
+      check.pixels *= extent[d];
     }
     const std::string tile = "tile " + std::to_string(row) + " of " + where;
     LONGLONG length = 0, offset = 0;
@@ -269,11 +360,25 @@ std::vector<TileCheck> check_compressed_tiles(fitsfile* file, const std::string&
         int any_null = 0;
         fits_read_col(file, TBYTE, layout.cn_compressed, row, 1, length, &null, bytes.data(), &any_null, &status);
         if (status != 0) fail(source, "the compressed bytes of " + tile + " cannot be read", status);
-        const RiceTrace trace = trace_rice(bytes, check.pixels, blocksize, bytepix);
+        if (decoded && check.pixels > static_cast<long long>(values.size())) values.resize(static_cast<std::size_t>(check.pixels));
+        const RiceTrace trace = decoded ? decode_rice(bytes, check.pixels, blocksize, bytepix, values.data())
+                                        : trace_rice(bytes, check.pixels, blocksize, bytepix);
         if (!trace.problem.empty())
           throw InputError(source, "tile " + std::to_string(row) + " of the Rice-compressed image is damaged: " +
                                        trace.problem);
         check.traced_bytes = static_cast<long long>(trace.bytes_used);
+        if (decoded) {
+          // The tile's pixels run along axis 1 first (Pence et al. 2009 §4); the image's
+          // row y (FITS row y + 1) starts at pixel y · NAXIS1.
+          const long long image_width = layout.znaxis[0];
+          const std::int32_t* value = values.data();
+          for (long long y = corner[1]; y < corner[1] + extent[1]; ++y) {
+            float* out = pixels + y * image_width + corner[0];
+            for (long long x = 0; x < extent[0]; ++x, ++value)
+              out[x] = blank && *value == layout.zblank ? std::numeric_limits<float>::quiet_NaN()
+                                                        : static_cast<float>(*value * scale + zero);
+          }
+        }
       }
       // GZIP_1/GZIP_2 tiles go to zlib, which checks its own bounds and cfitsio the size.
     } else if (layout.cn_uncompressed > 0) {
@@ -298,6 +403,22 @@ std::vector<TileCheck> check_compressed_tiles(fitsfile* file, const std::string&
     checks.push_back(check);
   }
   return checks;
+}
+
+}  // namespace
+
+std::vector<TileCheck> check_compressed_tiles(fitsfile* file, const std::string& source, const std::string& where) {
+  bool decoded = false;
+  return check_tiles(file, source, where, nullptr, decoded);
+}
+
+bool check_and_decode_tiles(fitsfile* file, const std::string& source, const std::string& where, float* pixels,
+                            long long width, long long height) {
+  const FITSfile& layout = *file->Fptr;
+  const bool fits = layout.zndim >= 2 && layout.znaxis[0] == width && layout.znaxis[1] == height;
+  bool decoded = false;
+  check_tiles(file, source, where, fits ? pixels : nullptr, decoded);
+  return decoded;
 }
 
 }  // namespace occulta::imaging::fits_detail

@@ -9,6 +9,7 @@
 #pragma once
 
 #include <cstddef>
+#include <cstdint>
 #include <span>
 #include <string>
 #include <vector>
@@ -34,6 +35,13 @@ struct RiceTrace {
 // Takes blocksize ≥ 1 and pixels ≥ 1.
 RiceTrace trace_rice(std::span<const unsigned char> bytes, long long pixels, int blocksize, int bytepix);
 
+// The same trace, and the values it walks through (the trace's checks all hold, then
+// every value is written): `pixels` values of `bytepix` bytes' width (1: unsigned, 2 and
+// else 4: signed) to `values`. The first value is the stream's first, each next one the
+// one before plus its difference modulo 2^bits. On a problem the values are partial.
+RiceTrace decode_rice(std::span<const unsigned char> bytes, long long pixels, int blocksize, int bytepix,
+                      std::int32_t* values);
+
 // One tile of a compressed image as checked (for tests and diagnostics).
 struct TileCheck {
   long long pixels = 0;        // pixels in the tile (smaller at the image's far edges)
@@ -47,5 +55,14 @@ struct TileCheck {
 // cfitsio. Throws InputError(source, …) naming the first damaged tile; refuses the
 // compression types occulta does not read. `where` names the image ("its image in HDU 2").
 std::vector<TileCheck> check_compressed_tiles(fitsfile* file, const std::string& source, const std::string& where);
+
+// The same check, paid once: where the image is Rice-coded integer data at its own width
+// (8, 16 or 32 bits), one plane, no quantisation or per-tile null column, each tile's
+// trace also decodes it and writes the image's pixels (width × height, NAXIS1 fastest) as
+// fits_read_img(TFLOAT) gives them — (float)(v · BSCALE + BZERO), NaN where v is the
+// BLANK/ZBLANK value — and returns true. Otherwise it only checks, writes nothing and
+// returns false: cfitsio then decodes the tiles it checked.
+bool check_and_decode_tiles(fitsfile* file, const std::string& source, const std::string& where, float* pixels,
+                            long long width, long long height);
 
 }  // namespace occulta::imaging::fits_detail

@@ -14,6 +14,10 @@
 // machine wall time includes others' work, CPU time does not. `--short` (the test suite)
 // uses 6 frames and one round and fails only when a run fails. `--write DIR N` only writes
 // N frames and DIR/bench.event.json and keeps them (for profiling by hand).
+// `--instructions` also counts the instructions of one read and one `maps` run under
+// valgrind's callgrind (minutes; not in `./bootstrap bench`) and prints their ratio: unlike
+// times, the count does not change with the machine's load. (This machine's virtual CPU
+// has no hardware counters, so `perf stat -e instructions` cannot count them.)
 #include <sys/resource.h>
 #include <unistd.h>
 
@@ -24,6 +28,7 @@
 #include <cstring>
 #include <filesystem>
 #include <fstream>
+#include <stdexcept>
 #include <string>
 #include <vector>
 
@@ -52,6 +57,19 @@ Cost run(const std::string& command) {
   return {wall, children_cpu_s() - cpu0};
 }
 
+// Instructions of `command` (its words already quoted) under callgrind: its "summary:"
+// line. The child's output goes to /dev/null.
+double callgrind_instructions(const std::string& command, const fs::path& scratch) {
+  const fs::path out = scratch / "callgrind.out";
+  const std::string run = "valgrind --tool=callgrind --callgrind-out-file='" + out.string() + "' " + command +
+                          " > /dev/null 2>&1";
+  if (std::system(run.c_str()) != 0) throw std::runtime_error("failed under callgrind: " + command);
+  std::ifstream in(out);
+  for (std::string line; std::getline(in, line);)
+    if (line.rfind("summary:", 0) == 0) return std::stod(line.substr(8));
+  throw std::runtime_error("no instruction count from callgrind for: " + command);
+}
+
 double median(std::vector<double> v) {
   std::sort(v.begin(), v.end());
   return v.size() % 2 ? v[v.size() / 2] : 0.5 * (v[v.size() / 2 - 1] + v[v.size() / 2]);
@@ -71,6 +89,7 @@ int main(int argc, char** argv) {
     return 0;
   }
   const bool short_mode = argc > 1 && std::strcmp(argv[1], "--short") == 0;
+  const bool instructions = argc > 1 && std::strcmp(argv[1], "--instructions") == 0;
   const int frames = short_mode ? 6 : 30;
   const int rounds = short_mode ? 1 : 5;
   const fs::path dir = fs::temp_directory_path() / ("occulta-maps-bench-" + std::to_string(::getpid()));
@@ -87,6 +106,15 @@ int main(int argc, char** argv) {
     const std::string read = std::string("'") + OCCULTA_READ_FLOOR + "'" + files + " > /dev/null";
     const std::string maps = std::string("'") + OCCULTA_EXECUTABLE + "' maps '" + (dir / "bench.event.json").string() +
                              "' --out '" + (dir / "out").string() + "' > /dev/null";
+    if (instructions) {
+      // The read command without its redirection: callgrind_instructions adds its own.
+      const std::string read_files = std::string("'") + OCCULTA_READ_FLOOR + "'" + files;
+      const std::string maps_run = std::string("'") + OCCULTA_EXECUTABLE + "' maps '" +
+                                   (dir / "bench.event.json").string() + "' --out '" + (dir / "out").string() + "'";
+      const double read_count = callgrind_instructions(read_files, dir), maps_count = callgrind_instructions(maps_run, dir);
+      std::printf("  instructions (callgrind), %d frames: read floor %.3g, occulta maps (5×5 median) %.3g; ratio %.2f "
+                  "(budget 1.5)\n", frames, read_count, maps_count, maps_count / read_count);
+    }
     double load[3] = {0, 0, 0};
     if (getloadavg(load, 3) < 0) load[0] = -1;
     std::printf("  load average before timing %.2f (1 min): others' work inflates wall times, not CPU times\n", load[0]);

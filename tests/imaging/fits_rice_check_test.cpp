@@ -15,6 +15,7 @@
 #include <fitsio.h>
 
 #include "imaging/fits.hpp"
+#include "imaging/fits_cfitsio.hpp"
 #include "imaging/fits_rice_check.hpp"
 #include "imaging/input_error.hpp"
 #include "tests/support/support.hpp"
@@ -343,4 +344,154 @@ TEST_CASE("fits_rice_check: HCOMPRESS_1 and PLIO_1 images are refused with one s
   // GZIP tiles pass the check: zlib checks their bounds.
   write_tiled(dir / "gzip2.fits", SHORT_IMG, 64, 32, 64, 16, GZIP_2);
   CHECK(read_fits(dir / "gzip2.fits").pixels.rows == 32);
+}
+
+namespace {
+
+// The image as cfitsio's own decoder gives it: fits_read_img as float, NaN for blanks.
+cv::Mat cfitsio_pixels(const fs::path& path) {
+  fitsfile* file = nullptr;
+  int status = 0, any_null = 0;
+  fits_open_image(&file, path.c_str(), READONLY, &status);
+  long size[2] = {0, 0};
+  fits_get_img_size(file, 2, size, &status);
+  REQUIRE(status == 0);
+  cv::Mat pixels(static_cast<int>(size[1]), static_cast<int>(size[0]), CV_32FC1);
+  float null_value = NAN;
+  fits_read_img(file, TFLOAT, 1, static_cast<LONGLONG>(pixels.total()), &null_value, pixels.ptr<float>(), &any_null,
+                &status);
+  fits_close_file(file, &status);
+  REQUIRE(status == 0);
+  return pixels;
+}
+
+// What check_and_decode_tiles() decodes, and whether it did.
+std::pair<bool, cv::Mat> decoded_pixels(const fs::path& path) {
+  fitsfile* file = nullptr;
+  int status = 0;
+  fits_open_diskfile(&file, path.c_str(), READONLY, &status);
+  fits_movabs_hdu(file, 2, nullptr, &status);
+  long size[2] = {0, 0};
+  fits_get_img_size(file, 2, size, &status);
+  REQUIRE(status == 0);
+  cv::Mat pixels(static_cast<int>(size[1]), static_cast<int>(size[0]), CV_32FC1, cv::Scalar(-1.0));
+  bool decoded = false;
+  try {
+    decoded = occulta::imaging::fits_detail::check_and_decode_tiles(file, path.string(), "its image in HDU 2",
+                                                                    pixels.ptr<float>(), size[0], size[1]);
+  } catch (...) {
+    fits_close_file(file, &status);
+    throw;
+  }
+  fits_close_file(file, &status);
+  return {decoded, pixels};
+}
+
+// Bit for bit, NaN included (the same bytes).
+bool same_bits(const cv::Mat& a, const cv::Mat& b) {
+  return a.size() == b.size() && a.type() == b.type() &&
+         std::equal(a.ptr<unsigned char>(), a.ptr<unsigned char>() + a.total() * a.elemSize(), b.ptr<unsigned char>());
+}
+
+}  // namespace
+
+TEST_CASE("fits_rice_check: integer Rice tiles decoded by the trace equal cfitsio's decoding bit for bit") {
+  // Issue 18: the trace decodes the tiles it walks instead of cfitsio decoding them again.
+  // Every value of every kind of block (low entropy, high entropy, coded) at 8, 16 and
+  // 32 bits, row tiles and 2-D tiles cut short at the edges, must come out as cfitsio's
+  // own decoder gives it — BSCALE/BZERO applied and BLANK turned to NaN the same way.
+  const fs::path dir = scratch_dir("fits-rice-check-decode");
+  const struct {
+    int bitpix;
+    long tile_x, tile_y;
+  } cases[] = {{BYTE_IMG, 77, 1}, {SHORT_IMG, 77, 1}, {LONG_IMG, 77, 1},
+               {BYTE_IMG, 16, 16}, {SHORT_IMG, 16, 16}, {LONG_IMG, 30, 20}};
+  std::vector<fs::path> paths;
+  for (const auto& c : cases) {
+    paths.push_back(dir / ("cfitsio_" + std::to_string(paths.size()) + ".fits"));
+    write_tiled(paths.back(), c.bitpix, 77, 45, c.tile_x, c.tile_y);
+  }
+  // occulta's scaled int16 (BSCALE, BZERO, BLANK), with no-data pixels.
+  {
+    cv::Mat pixels(40, 300, CV_32FC1);
+    for (int y = 0; y < pixels.rows; ++y)
+      for (int x = 0; x < pixels.cols; ++x)
+        pixels.at<float>(y, x) = (x - 150) * (x - 150) + (y - 20) * (y - 20) < 15 * 15
+                                     ? NAN
+                                     : static_cast<float>(1e4 / (1.0 + 0.01 * x) + 30.0 * std::sin(0.7 * x * y));
+    paths.push_back(dir / "ours_int16_blank.fits");
+    write_fits(paths.back(), pixels, Header{}, FitsWriteOptions{FitsWriteOptions::Pixels::ScaledInt16, true});
+  }
+  for (const fs::path& path : paths) {
+    CAPTURE(path);
+    const cv::Mat expected = cfitsio_pixels(path);
+    const auto [decoded, pixels] = decoded_pixels(path);
+    CHECK(decoded);
+    CHECK(same_bits(pixels, expected));
+    CHECK(same_bits(read_fits(path).pixels, expected));
+  }
+  const cv::Mat with_blanks = cfitsio_pixels(paths.back());
+  CHECK(std::count_if(with_blanks.begin<float>(), with_blanks.end<float>(), [](float v) { return std::isnan(v); }) > 0);
+  // Quantised floats are left to cfitsio (after the trace): nothing written, false.
+  cv::Mat floats(30, 50, CV_32FC1);
+  cv::randn(floats, 100.0, 5.0);
+  write_fits(dir / "ours_float32.fits", floats, Header{}, FitsWriteOptions{FitsWriteOptions::Pixels::Float32, true});
+  const auto [decoded, untouched] = decoded_pixels(dir / "ours_float32.fits");
+  CHECK_FALSE(decoded);
+  CHECK(cv::countNonZero(untouched != -1.0f) == 0);
+  CHECK(same_bits(read_fits(dir / "ours_float32.fits").pixels, cfitsio_pixels(dir / "ours_float32.fits")));
+}
+
+TEST_CASE("fits_rice_check: decode_rice gives the values of hand-coded streams") {
+  // 16-bit, first value 0x1234, code 0001 (fs = 0), then "1" (mapped 0), "01"
+  // (mapped 1 → −1), "001" (mapped 2 → +1), "1" (0): 0x1234, 0x1233, 0x1234, 0x1234.
+  std::vector<std::int32_t> values(4, -7);
+  const auto bytes = stream({0x12, 0x34, 0x1A, 0x60});
+  const auto trace = occulta::imaging::fits_detail::decode_rice(bytes, 4, 32, 2, values.data());
+  CHECK(trace.problem.empty());
+  const std::vector<std::int32_t> got = values;
+  CAPTURE(got[0]);
+  CAPTURE(got[1]);
+  CAPTURE(got[2]);
+  CAPTURE(got[3]);
+  CHECK(values == std::vector<std::int32_t>{0x1234, 0x1233, 0x1234, 0x1234});
+  // 8-bit high entropy (code 111): raw mapped 0xFF → −128 from 0xAA, wrapping in 8 bits
+  // (0xAA − 128 = 0x2A), then 0x00 (no change).
+  std::vector<std::int32_t> bytes8(2, -7);
+  CHECK(occulta::imaging::fits_detail::decode_rice(stream({0xAA, 0xFF, 0xE0, 0x00}), 2, 32, 1, bytes8.data())
+            .problem.empty());
+  CHECK(bytes8 == std::vector<std::int32_t>{0x2A, 0x2A});
+}
+
+TEST_CASE("fits_rice_check: a compressed image's header text is fits_convert_hdr2str's, byte for byte") {
+  // Issue 18: read_fits takes the image's header without the zero-filled scratch data
+  // unit fits_convert_hdr2str makes (fits_header.cpp); the text must not change.
+  const fs::path dir = scratch_dir("fits-rice-check-header");
+  write_tiled(dir / "cfitsio.fits", SHORT_IMG, 77, 45, 16, 16);
+  cv::Mat pixels(40, 60, CV_32FC1, cv::Scalar(5.0));
+  Header header;
+  header.set_real("CDELT1", 60.0);
+  header.set_text("DATE-OBS", "2031-03-14T06:10:00.000");
+  header.add_commentary("COMMENT", "a comment card");
+  write_fits(dir / "ours_int16.fits", pixels, header, FitsWriteOptions{FitsWriteOptions::Pixels::ScaledInt16, true});
+  write_fits(dir / "ours_float32.fits", pixels, header, FitsWriteOptions{FitsWriteOptions::Pixels::Float32, true});
+  for (const char* name : {"cfitsio.fits", "ours_int16.fits", "ours_float32.fits"}) {
+    const fs::path path = dir / name;
+    CAPTURE(path);
+    fitsfile* file = nullptr;
+    int status = 0, count = 0, ours_count = 0;
+    fits_open_diskfile(&file, path.c_str(), READONLY, &status);
+    fits_movabs_hdu(file, 2, nullptr, &status);
+    char *expected = nullptr, *ours = nullptr;
+    fits_convert_hdr2str(file, 0, nullptr, 0, &expected, &count, &status);
+    REQUIRE(status == 0);
+    CHECK(occulta::imaging::fits_detail::compressed_header_text(file, &ours, &ours_count) == 0);
+    REQUIRE(ours != nullptr);
+    CHECK(ours_count == count);
+    CHECK(std::string(ours) == std::string(expected));
+    CHECK(std::string(ours).find("NAXIS2  =                   ") != std::string::npos);
+    fits_free_memory(expected, &status);
+    fits_free_memory(ours, &status);
+    fits_close_file(file, &status);
+  }
 }
