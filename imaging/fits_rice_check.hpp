@@ -5,7 +5,9 @@
 // within a block — a run of zero bytes in a unary code, a high-entropy block cut short —
 // and checks for the end of the stream only after the tile, so a damaged tile makes it
 // read (and crash) outside its buffer. Its HCOMPRESS and PLIO decoders are hand-written
-// too; occulta does not read those. So every tile is traced here first.
+// too; occulta does not read those. So every tile is traced here first. Its GZIP path
+// grows its buffer for as long as a tile's stream gives bytes and leaks it on a damaged
+// stream, so GZIP_1/GZIP_2 tiles are inflated here first too, bounded by their pixels.
 #pragma once
 
 #include <cstddef>

@@ -133,6 +133,23 @@ TEST_CASE("fits hostile: every FITS reproducer is refused with one sentence, thr
   CHECK(refusal(long_zbitpix).find("ZBITPIX is \"9999") != std::string::npos);
 }
 
+TEST_CASE("fits hostile: GZIP tiles whose stream is damaged or unpacks past its tile are refused before cfitsio") {
+  // Found by fits_fuzz under ASan (tests/fuzz/corpus/fits_fuzz): cfitsio 4.2 leaked its
+  // tile buffer on a damaged GZIP_2 stream, and grew its buffer for minutes (360 MB) on a
+  // GZIP tile whose stream unpacks far past the tile's pixels. imaging/fits_rice_check
+  // now inflates each GZIP tile first, bounded by 8 bytes a pixel.
+  for (const char* name : {"fuzz-gzip2-tile-damaged-leak.fits", "fuzz-gzip-tile-unbounded.fits"}) {
+    const fs::path path = occulta::test::source_path(std::string("tests/fuzz/corpus/fits_fuzz/") + name);
+    const std::string message = refusal(path);
+    INFO(name << ": " << message);
+    REQUIRE(!message.empty());
+    check_one_sentence(message, path.string());
+    CHECK(message.find("gzip stream") != std::string::npos);
+    const std::string bytes = slurp(path);
+    CHECK_THROWS_AS(read_fits_memory(std::as_bytes(std::span(bytes)), "memory"), InputError);
+  }
+}
+
 TEST_CASE("fits hostile: an integer card cfitsio converts must hold an integer within 64 bits") {
   const fs::path dir = scratch_dir("fits_hostile_integer_cards");
   FitsWriteOptions int16;
