@@ -713,16 +713,22 @@ HeightLine height_line(const std::vector<TrackPoint>& track) {
   return line;
 }
 
-// Step 6: whether `later` rides in the wake of `earlier`: seen after it, slower on the
-// sky, and below the earlier front's leading edge carried on along its straight line at
+// Step 6: whether `later` rides in the wake of `earlier`: seen after it, pointing to no
+// later origin, slower on the sky, and below the earlier front's leading edge carried on along its straight line at
 // every point of its track. That is the front's own trailing structure: in our synthetic
 // events the shell's rear rim and legs, which a fast CME leaves in the field after its
 // leading edge has gone beyond the field stop (measure_test's 2300 km/s event gave a
 // "second CME" at 1215 km/s, 20 minutes later, this way). A slower CME of its own,
 // launched later under a faster one in the same sky, would be taken for part of it
 // (README "Limits"); a faster one following is not.
-bool in_wake(const Front& later, const Front& earlier) {
+bool in_wake(const Front& later, const Front& earlier, double tolerance_s) {
   if (!(later.onset_utc_s > earlier.onset_utc_s) || later.track.size() < 2 || earlier.track.size() < 2) return false;
+  // Its own line must not point to a later start: parts of one self-similar front share
+  // its origin (the fast event's rear pointed 29 min earlier), and a CME launched after it
+  // does not — a second CME launched later can be slower on the sky, by projection, and
+  // still below the first's line (tests/fit/associate_test.cpp's two CMEs in view b:
+  // launched 44 min later).
+  if (!(later.origin_utc_s < earlier.origin_utc_s + tolerance_s)) return false;
   const HeightLine lead = height_line(earlier.track), follow = height_line(later.track);
   if (!(lead.v > 0.0) || !(follow.v < lead.v)) return false;
   for (const TrackPoint& p : later.track)
@@ -861,7 +867,8 @@ FrontSet find_fronts(const PolarSequence& s, const FrontOptions& o) {
             trails(front, other, o.same_origin_cadences * cadence_s, s))
           refused = "it trails a CME already found, below it in the same sky";
       for (const Front& other : set.fronts)
-        if (refused.empty() && near_in_sky(front, other, o.near_pa_deg) && in_wake(front, other))
+        if (refused.empty() && near_in_sky(front, other, o.near_pa_deg) &&
+            in_wake(front, other, o.same_origin_cadences * cadence_s))
           refused = "it follows a faster CME already found, below its leading edge, in the same sky";
     }
     if (refused.empty()) set.fronts.push_back(std::move(front));
