@@ -723,14 +723,15 @@ HeightLine height_line(const std::vector<TrackPoint>& track) {
 // (README "Limits"); a faster one following is not.
 bool in_wake(const Front& later, const Front& earlier, double tolerance_s) {
   if (!(later.onset_utc_s > earlier.onset_utc_s) || later.track.size() < 2 || earlier.track.size() < 2) return false;
-  // Its own line must not point to a later start: parts of one self-similar front share
-  // its origin (the fast event's rear pointed 29 min earlier), and a CME launched after it
-  // does not — a second CME launched later can be slower on the sky, by projection, and
-  // still below the first's line (tests/fit/associate_test.cpp's two CMEs in view b:
-  // launched 44 min later).
-  if (!(later.origin_utc_s < earlier.origin_utc_s + tolerance_s)) return false;
   const HeightLine lead = height_line(earlier.track), follow = height_line(later.track);
   if (!(lead.v > 0.0) || !(follow.v < lead.v)) return false;
+  // And either its own line points to no later start — parts of one self-similar front
+  // share its origin (the fast event's rear pointed 29 min earlier) — or it keeps pace
+  // with the front (≥ 0.85 of its sky speed: a trailing part of the same ejecta; the slow
+  // wide event of tests/app/shell_measure_test.cpp, 0.90, with an origin 2.8 h later from
+  // a four-point line). A CME launched later and slower on the sky by projection does
+  // neither (tests/fit/associate_test.cpp's two CMEs in view b: 44 min later, 0.67).
+  if (!(later.origin_utc_s < earlier.origin_utc_s + tolerance_s) && !(follow.v >= 0.85 * lead.v)) return false;
   for (const TrackPoint& p : later.track)
     if (!(p.height_rs < lead.h0 + lead.v * (p.utc_s - lead.t0))) return false;
   return true;
