@@ -177,6 +177,40 @@ void find_sightings(const ViewMeasurement& v, const imaging::FrontSet& set, cons
   }
 }
 
+// The doubtful chains of each view (imaging/front.hpp FrontSet::doubtful) that another
+// view's CME explains (fit/associate.hpp doubtful_stands_alone) become CMEs of their own:
+// the view's fronts are found again keeping them, and its sightings made again. The rest
+// stay the fronts' wake. Weighed against the firm sightings of all views, once.
+void keep_doubtful(const std::vector<ViewMeasurement>& measured, std::vector<imaging::FrontSet>& sets,
+                   std::vector<ViewSightings>& parts) {
+  std::vector<imaging::Observer> observers;
+  for (const ViewMeasurement& v : measured) observers.push_back(v.observer);
+  std::vector<Sighting> firm;
+  for (const ViewSightings& part : parts)
+    for (const ViewMeasurement& s : part.sightings)
+      if (part.measured >= 0 && s.front.found) firm.push_back(sighting_of(s, part.measured));
+  for (std::size_t i = 0; i < parts.size(); ++i) {
+    if (parts[i].measured < 0 || sets[i].doubtful.empty()) continue;
+    const ViewMeasurement& v = measured[std::size_t(parts[i].measured)];
+    std::vector<const imaging::Front*> fronts;
+    for (const imaging::Front& f : sets[i].fronts) fronts.push_back(&f);
+    std::vector<int> keep;
+    for (std::size_t d = 0; d < sets[i].doubtful.size(); ++d) {
+      const imaging::Front& chain = sets[i].doubtful[d];
+      ViewMeasurement seen = v;
+      std::vector<std::string> unused;
+      measure_sighting(seen, chain, {}, imaging::ceiling_under(chain, fronts, v.polar, chain.outermost_pa_deg), unused);
+      if (seen.kinematics_ok() && doubtful_stands_alone(observers, firm, sighting_of(seen, parts[i].measured)))
+        keep.push_back(int(d));
+    }
+    if (keep.empty()) continue;
+    sets[i] = imaging::find_fronts(v.polar, {}, keep);
+    parts[i].sightings.clear();
+    parts[i].sighting_problems.clear();
+    find_sightings(v, sets[i], nullptr, parts[i]);
+  }
+}
+
 }  // namespace
 
 const char* to_string(MeasurementStage stage) {
@@ -279,6 +313,7 @@ Measurement measure_imaged(const MeasurementInput& in, const std::vector<ViewIma
   // Per listed view: the chain, then each CME it sees (measurement_cmes.hpp).
   const int view_count = static_cast<int>(event.views.size());
   std::vector<ViewSightings> parts(event.views.size());
+  std::vector<imaging::FrontSet> sets(event.views.size());  // each view's fronts (imaging/front.hpp)
   std::vector<ViewMeasurement> measured;  // the chain's outputs, no CME yet
   bool frames_skipped = false;  // a frame in the window the chain could not use (cut short, a duplicate…)
   for (std::size_t i = 0; i < event.views.size(); ++i) {
@@ -293,12 +328,13 @@ Measurement measure_imaged(const MeasurementInput& in, const std::vector<ViewIma
     v.frames_outside_window = split.outside;
     frames_skipped = frames_skipped || v.frames_used < static_cast<int>(imaged[i].files.size());
     report(progress, MeasurementStage::front, v.name, static_cast<int>(i), view_count);
-    const imaging::FrontSet fronts = imaging::find_fronts(v.polar);
+    sets[i] = imaging::find_fronts(v.polar);
     report(progress, MeasurementStage::kinematics, v.name, static_cast<int>(i), view_count);
-    find_sightings(v, fronts, in.analyst ? &*in.analyst : nullptr, part);
+    find_sightings(v, sets[i], in.analyst ? &*in.analyst : nullptr, part);
     part.measured = static_cast<int>(measured.size());
     measured.push_back(std::move(v));
   }
+  if (!in.analyst) keep_doubtful(measured, sets, parts);
 
   report(progress, MeasurementStage::shell, "", -1, view_count);
   measure_cmes(event, o, measured, parts, m);

@@ -6,7 +6,6 @@
 #include <cstdio>
 
 #include "fit/arrival_json.hpp"
-#include "fit/associate.hpp"
 #include "fit/measurement_shell.hpp"
 #include "fit/result_file.hpp"
 #include "imaging/constants.hpp"
@@ -107,6 +106,16 @@ void choose_primary(const Event& event, Measurement& m) {
 
 }  // namespace
 
+Sighting sighting_of(const ViewMeasurement& s, int view) {
+  Sighting sighting;
+  sighting.view = view;
+  sighting.central_pa_deg = s.central_pa_deg;
+  sighting.width_deg = s.front.encircles ? 360.0 : s.front.width_deg;
+  if (s.kinematics) sighting.law = *s.kinematics;
+  sighting.cadence_s = cadence_of(s.polar);
+  return sighting;
+}
+
 void measure_cmes(const Event& event, const MeasurementOptions& o, const std::vector<ViewMeasurement>& measured,
                   const std::vector<ViewSightings>& parts, Measurement& m) {
   // The sightings that saw something: a front, or the analyst's points.
@@ -137,13 +146,8 @@ void measure_cmes(const Event& event, const MeasurementOptions& o, const std::ve
   for (int k = 0; k < int(seen.size()); ++k)
     if (std::find(marked.begin(), marked.end(), k) == marked.end()) {
       const ViewMeasurement& s = parts[seen[std::size_t(k)].listed].sightings[seen[std::size_t(k)].index];
-      Sighting sighting;
-      sighting.view = parts[seen[std::size_t(k)].listed].measured;
+      Sighting sighting = sighting_of(s, parts[seen[std::size_t(k)].listed].measured);
       sighting.front = k;
-      sighting.central_pa_deg = s.central_pa_deg;
-      sighting.width_deg = s.front.encircles ? 360.0 : s.front.width_deg;
-      if (s.kinematics) sighting.law = *s.kinematics;
-      sighting.cadence_s = cadence_of(s.polar);
       sightings.push_back(sighting);
       automatic.push_back(k);
     }

@@ -9,6 +9,7 @@
 #include <string>
 #include <vector>
 
+#include "fit/associate.hpp"
 #include "fit/event.hpp"
 #include "fit/measurement.hpp"
 
@@ -23,6 +24,10 @@ struct ViewSightings {
   std::vector<ViewMeasurement> sightings;
   std::vector<std::vector<std::string>> sighting_problems;  // each sighting's sentences
 };
+
+// One view's CME as the association weighs it (fit/associate.hpp): `view` indexes the
+// measured views.
+Sighting sighting_of(const ViewMeasurement& seen, int view);
 
 // Associates the sightings, fits each CME's shell and fills m.cmes, m.primary,
 // m.primary_reason, m.views, m.shell, m.problems (deduplicated) and m.status.

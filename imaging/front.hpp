@@ -151,12 +151,21 @@ Front find_front(const PolarSequence& sequence, const FrontOptions& options = {}
 // Every CME in the window (steps 1–6), by onset (earliest first). The front find_front
 // finds is among them, with the same track unless another front lies above it; where the
 // strongest chain has no track, find_fronts goes on to the next ones.
+//
+// A chain in a front's wake that this view alone cannot tell from a slower CME launched
+// later under it (front.cpp in_wake: later, slower, below the front's line, but neither
+// pointing to its origin nor keeping its pace) is refused and listed in `doubtful`, as
+// tracked; its ordinal is its index there. The other views decide (fit/associate.hpp
+// doubtful_stands_alone): find_fronts again with its ordinal in `keep_doubtful` keeps it
+// as a front of its own (the fronts are then tracked under it, and kept apart from it).
 struct FrontSet {
   std::vector<Front> fronts;
   std::string why_none;     // one sentence when fronts is empty
-  int refused_chains = 0;   // chains that moved outward but were not a CME of their own (step 6)
+  int refused_chains = 0;   // chains that moved outward but were not a CME of their own (step 6), doubtful ones included
+  std::vector<Front> doubtful;  // refused chains in a front's wake that may be CMEs of their own
 };
-FrontSet find_fronts(const PolarSequence& sequence, const FrontOptions& options = {});
+FrontSet find_fronts(const PolarSequence& sequence, const FrontOptions& options = {},
+                     const std::vector<int>& keep_doubtful = {});
 
 // Step 5 alone, e.g. at a PA the analyst chose: frames from_frame.. of the sequence.
 // Frames it could not measure are counted in `censored` when given. ceiling_rs (per frame
