@@ -73,7 +73,7 @@ int batch(const BatchOptions& o, std::ostream& out, std::ostream& err) {
           running.push_back(start_event(settings, *row));
         } catch (const imaging::InputError& e) {
           err << "occulta: problem: " << e.what() << '\n';
-          progress.count(row->id, "failed", "could not start");
+          progress.not_started(row->id, e.what());
         }
         break;
     }

@@ -184,8 +184,18 @@ RunningEvent start_event(const BatchSettings& settings, const CatalogueRow& row)
   posix_spawn_file_actions_addopen(&actions, 0, "/dev/null", O_RDONLY, 0);
   posix_spawn_file_actions_addopen(&actions, 1, "/dev/null", O_WRONLY, 0);
   posix_spawn_file_actions_addopen(&actions, 2, log.c_str(), O_WRONLY | O_CREAT | O_TRUNC, 0644);
+  // Each child in a session of its own (glibc's POSIX_SPAWN_SETSID): Linux's scheduler
+  // shares the cores between sessions first when autogroup is on (the default on desktop
+  // and many server kernels, /proc/sys/kernel/sched_autogroup_enabled), so children left in
+  // the coordinator's session would share one session's part of a busy machine however
+  // many --jobs run. Ctrl-C reaches the coordinator, which stops them (batch.cpp), and
+  // each dies with it (follow_batch_parent).
+  posix_spawnattr_t attributes;
+  posix_spawnattr_init(&attributes);
+  posix_spawnattr_setflags(&attributes, POSIX_SPAWN_SETSID);
   RunningEvent running{row, -1, -1, std::chrono::steady_clock::now()};
-  const int failed = posix_spawn(&running.pid, "/proc/self/exe", &actions, nullptr, argv.data(), envp.data());
+  const int failed = posix_spawn(&running.pid, "/proc/self/exe", &actions, &attributes, argv.data(), envp.data());
+  posix_spawnattr_destroy(&attributes);
   posix_spawn_file_actions_destroy(&actions);
   if (failed != 0)
     throw InputError(folder.string(), std::string("the measuring process could not be started (") + strerror(failed) + ")");

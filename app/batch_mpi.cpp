@@ -4,7 +4,8 @@
 // as the local pool does (app/batch_event.hpp) into the shared folder. Rank 0 then
 // writes the tables and every rank exits with its exit code.
 //
-// Messages (MPI_CHAR): worker → 0 "ready" (tag kReady) or "<status>" (tag kDone);
+// Messages (MPI_CHAR): worker → 0 "ready" (tag kReady) or "<id>\t<status>" (tag kDone),
+// "<id>\tfailed\t<sentence>" for an event whose child could not be started;
 // 0 → worker a row as JSON (tag kWork) or nothing (tag kStop). Waiting ranks look for
 // messages with MPI_Iprobe every few milliseconds rather than block in MPI: OpenMPI's
 // blocking calls spin and would take a core from the measuring children.
@@ -79,27 +80,35 @@ void work(const BatchSettings& settings) {
     const Message m = receive(0);
     if (m.tag == kStop) return;
     const CatalogueRow row = row_from(json::parse(m.text));
-    std::string status = "failed";
+    std::string done;
     try {
       std::vector<RunningEvent> running = {start_event(settings, row)};
       std::optional<Ended> ended;
       while (!(ended = wait_for_one(running, std::chrono::milliseconds(1000)))) {
       }
-      status = finish_event(settings, running[0], ended->wait_status, ended->timed_out);
-    } catch (const imaging::InputError&) {
-      // Could not start: the row shows not_run in the table, as in the local pool.
+      done = row.id + '\t' + finish_event(settings, running[0], ended->wait_status, ended->timed_out);
+    } catch (const imaging::InputError& e) {
+      // Could not start: a failed row with the sentence, as in the local pool.
+      done = row.id + "\tfailed\t" + e.what();
     }
-    send(0, kDone, row.id + '\t' + status);
+    send(0, kDone, done);
   }
 }
 
 // Rank 0: hand out the events, count what comes back, stop the workers, write the tables.
-int coordinate(const BatchOptions& o, const BatchSettings& settings, const Shard& shard, int ranks, std::ostream& out) {
+int coordinate(const BatchOptions& o, const BatchSettings& settings, const Shard& shard, int ranks, std::ostream& out,
+               std::ostream& err) {
   Progress progress(rows_in_share(o.catalogue, shard), o.quiet, out);
   const auto take = [&](const Message& m) {
     if (m.tag != kDone) return;
-    const std::size_t tab = m.text.find('\t');
-    progress.count(m.text.substr(0, tab), m.text.substr(tab + 1));
+    const std::size_t tab = m.text.find('\t'), second = m.text.find('\t', tab + 1);
+    if (second == std::string::npos) {
+      progress.count(m.text.substr(0, tab), m.text.substr(tab + 1));
+    } else {
+      const std::string sentence = m.text.substr(second + 1);
+      err << "occulta: problem: " << sentence << '\n';
+      progress.not_started(m.text.substr(0, tab), sentence);
+    }
   };
   CatalogueReader reader(o.catalogue, result_column_names());
   while (const std::optional<CatalogueRow> row = reader.next()) {
@@ -127,7 +136,6 @@ int coordinate(const BatchOptions& o, const BatchSettings& settings, const Shard
 }  // namespace
 
 int batch_mpi(const BatchOptions& o, std::ostream& out, std::ostream& err) {
-  (void)err;
   const Shard shard = parse_shard(o.shard);
   const BatchSettings settings = settings_from(o);
   MPI_Init(nullptr, nullptr);
@@ -144,7 +152,7 @@ int batch_mpi(const BatchOptions& o, std::ostream& out, std::ostream& err) {
     // A fault of the catalogue or the folder stops every rank, not only this one.
     try {
       fs::create_directories(settings.out_dir);
-      code = coordinate(o, settings, shard, ranks, out);
+      code = coordinate(o, settings, shard, ranks, out, err);
     } catch (...) {
       MPI_Abort(MPI_COMM_WORLD, 1);
       throw;

@@ -84,13 +84,18 @@ void Progress::count(const std::string& id, const std::string& status, const cha
   }
 }
 
+void Progress::not_started(const std::string& id, const std::string& sentence) {
+  not_started_[id] = sentence;
+  count(id, "failed", "could not start");
+}
+
 void Progress::finish() {
   if (!quiet_ && terminal_ && done_ > 0) out_ << '\n';
 }
 
 int close_run(const BatchOptions& options, const BatchSettings& settings, const Progress& progress, bool interrupted,
               std::ostream& out) {
-  const TableCounts counts = write_tables(settings, options.catalogue);
+  const TableCounts counts = write_tables(settings, options.catalogue, progress.start_failures());
   if (!options.quiet) {
     out << (interrupted ? "interrupted; " : "") << counts.rows << " rows: " << counts.ok << " ok, " << counts.partial
         << " partial, " << counts.failed << " failed";

@@ -10,6 +10,7 @@
 
 #include "app/batch.hpp"
 #include "app/batch_event.hpp"
+#include "app/batch_table.hpp"
 #include "app/catalogue.hpp"
 
 namespace occulta::app {
@@ -29,14 +30,17 @@ Plan plan_for(const CatalogueRow& row, const Shard& shard, const BatchSettings& 
 // The status of a kept event, from its result.json.
 std::string kept_status(const BatchSettings& settings, const CatalogueRow& row);
 
-class Progress {  // counts and the display; owns nothing but numbers
+class Progress {  // counts and the display; owns numbers and the sentences of events that could not start
  public:
   Progress(std::size_t total, bool quiet, std::ostream& out);
   // An event done: measured in this run, or not (`note` says why: kept, a row fault).
   void count(const std::string& id, const std::string& status, const char* note = nullptr);
+  // An event whose child could not be started: failed, with the sentence for its row.
+  void not_started(const std::string& id, const std::string& sentence);
   void finish();
   bool all_ok() const { return not_ok_ == 0; }
   std::size_t measured() const { return measured_; }
+  const StartFailures& start_failures() const { return not_started_; }
   double elapsed_s() const {
     return std::chrono::duration<double>(std::chrono::steady_clock::now() - started_).count();
   }
@@ -45,6 +49,7 @@ class Progress {  // counts and the display; owns nothing but numbers
   std::size_t total_, done_ = 0, ok_ = 0, not_ok_ = 0, measured_ = 0;
   bool quiet_, terminal_;
   std::ostream& out_;
+  StartFailures not_started_;  // only the events that could not start: stays small
   std::chrono::steady_clock::time_point started_ = std::chrono::steady_clock::now();
 };
 

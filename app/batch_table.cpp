@@ -76,12 +76,34 @@ std::string joined(const json& problems) {
   return text;
 }
 
-// The CMEs a result lists, each as {shell, boundary, arrival}. measure finds one CME per
-// window today: the result's own blocks. (Several per window will be listed by the
-// result itself; each then becomes a row here.)
+// The CMEs a result lists, each as {index, shell, boundary, arrival} and, when the window
+// holds several (result.json's `cmes`, in index order), the CME's own status, problems and
+// views. One CME: the result's own blocks, index 1.
 std::vector<json> cmes_of(const json& result) {
+  if (member(result, "cmes").is_array()) {
+    std::vector<json> cmes;
+    for (const json& c : result["cmes"])
+      if (c.is_object()) cmes.push_back(c);
+    return cmes;
+  }
   if (!member(result, "shell").is_object()) return {};
-  return {json{{"shell", result["shell"]}, {"boundary", member(result, "boundary")}, {"arrival", member(result, "arrival")}}};
+  return {json{{"index", 1}, {"shell", result["shell"]}, {"boundary", member(result, "boundary")},
+               {"arrival", member(result, "arrival")}}};
+}
+
+// What a list of views says: their names joined by ';', how many found the CME, frames used.
+struct ViewsSummary {
+  std::string names;
+  long long with_cme = 0, frames = 0;
+};
+ViewsSummary views_of(const json& views) {
+  ViewsSummary s;
+  for (const json& v : views.is_array() ? views : json::array()) {
+    s.names += (s.names.empty() ? "" : ";") + text_of(member(v, "name"));
+    s.with_cme += member(v, "found") == true;
+    if (member(v, "frames_used").is_number_integer()) s.frames += member(v, "frames_used").get<long long>();
+  }
+  return s;
 }
 
 std::vector<std::string> one_row(const std::string& id, const std::string& cme, const std::string& status,
@@ -107,12 +129,15 @@ std::vector<std::string> result_column_names() {
   return names;
 }
 
-std::vector<std::vector<std::string>> table_rows(const BatchSettings& settings, const CatalogueRow& row) {
+std::vector<std::vector<std::string>> table_rows(const BatchSettings& settings, const CatalogueRow& row,
+                                                 const StartFailures& not_started) {
   std::vector<std::vector<std::string>> rows;
   const fs::path folder = event_folder(settings, row.id);
   std::error_code error;
   if (!row.fault.empty()) {
     rows.push_back(one_row(row.id, "", "failed", row.fault));
+  } else if (const auto started = not_started.find(row.id); started != not_started.end()) {
+    rows.push_back(one_row(row.id, "", "failed", started->second));
   } else if (!stamp_matches(settings, row)) {
     rows.push_back(one_row(row.id, "", "not_run",
                            "not measured yet from this row with these options in " + settings.out_dir.string() + "."));
@@ -129,27 +154,26 @@ std::vector<std::vector<std::string>> table_rows(const BatchSettings& settings, 
     }
     const std::string status = result["status"].get<std::string>();
     const std::string problems = joined(member(result, "problems"));
-    std::string views;
-    long long with_cme = 0, frames = 0;
-    for (const json& v : member(result, "views")) {
-      views += (views.empty() ? "" : ";") + text_of(member(v, "name"));
-      with_cme += member(v, "found") == true;
-      if (member(v, "frames_used").is_number_integer()) frames += member(v, "frames_used").get<long long>();
-    }
+    const ViewsSummary views = views_of(member(result, "views"));
     const std::vector<json> cmes = cmes_of(result);
     if (cmes.empty()) {
       auto r = one_row(row.id, "", status, problems);
-      r[4] = views;
-      r[5] = std::to_string(with_cme);
-      r[6] = std::to_string(frames);
+      r[4] = views.names;
+      r[5] = std::to_string(views.with_cme);
+      r[6] = std::to_string(views.frames);
       rows.push_back(std::move(r));
     }
-    for (std::size_t i = 0; i < cmes.size(); ++i) {
-      const json& shell = cmes[i]["shell"];
-      const json& boundary = cmes[i]["boundary"];
-      const json& arrival = cmes[i]["arrival"];
-      std::vector<std::string> r = {row.id, std::to_string(i + 1), status, problems, views,
-                                    std::to_string(with_cme), std::to_string(frames),
+    for (const json& cme : cmes) {
+      const json& shell = member(cme, "shell");
+      const json& boundary = member(cme, "boundary");
+      const json& arrival = member(cme, "arrival");
+      // Several CMEs: each row has its own status, problems and views; one: the event's.
+      const bool own = member(cme, "status").is_string();
+      const ViewsSummary cme_views = own ? views_of(member(cme, "views")) : views;
+      std::vector<std::string> r = {row.id, text_of(member(cme, "index")),
+                                    own ? cme["status"].get<std::string>() : status,
+                                    own ? joined(member(cme, "problems")) : problems, cme_views.names,
+                                    std::to_string(cme_views.with_cme), std::to_string(cme_views.frames),
                                     text_of(member(shell, "direction_basis"))};
       for (const Keyed& k : kShellKeys) {
         r.push_back(text_of(member(shell, k.key)));
@@ -182,7 +206,7 @@ std::vector<std::vector<std::string>> table_rows(const BatchSettings& settings, 
   return rows;
 }
 
-TableCounts write_tables(const BatchSettings& settings, const fs::path& catalogue) {
+TableCounts write_tables(const BatchSettings& settings, const fs::path& catalogue, const StartFailures& not_started) {
   const fs::path csv_path = settings.out_dir / "results.csv", fits_path = settings.out_dir / "results.fits";
   const fs::path csv_pending = imaging::pending_path(csv_path);
   TableCounts counts;
@@ -195,7 +219,7 @@ TableCounts write_tables(const BatchSettings& settings, const fs::path& catalogu
     for (std::size_t i = 0; i < columns.size(); ++i) out << (i ? "," : "") << csv_quoted(columns[i].name);
     out << '\n';
     while (const std::optional<CatalogueRow> row = reader.next())
-      for (const std::vector<std::string>& r : table_rows(settings, *row)) {
+      for (const std::vector<std::string>& r : table_rows(settings, *row, not_started)) {
         for (std::size_t i = 0; i < r.size(); ++i) out << (i ? "," : "") << csv_quoted(r[i]);
         out << '\n';
         ++counts.rows;

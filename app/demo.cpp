@@ -108,7 +108,19 @@ int demo(const DemoOptions& given, std::ostream& out, std::ostream& err) {
       const imaging::FrontOptions finder;
       const double lo = (view.occulter_rs ? (*view.occulter_rs)[0] : 2.5) + finder.inner_margin_rs;
       const double hi = (view.occulter_rs ? (*view.occulter_rs)[1] : 14.5) - finder.outer_margin_rs;
-      const fit::ViewTruth t = fit::view_truth(truth, view.name, lo, hi);
+      fit::ViewTruth t;
+      try {
+        t = fit::view_truth(truth, view.name, lo, hi);
+      } catch (const std::exception&) {  // nlohmann's .at() or view_truth's own: a key or observer missing
+        err << "occulta: problem: "
+            << imaging::InputError(truth_path.string(), "holds no truth for view \"" + view.name +
+                                                            "\" (no observer of that name, or its shell or frames "
+                                                            "incomplete), so that view is not compared with it")
+                   .what()
+            << '\n';
+        all_ok = false;
+        continue;
+      }
       // The columns of print_result_table (app/measure.cpp); printf pads bytes, and "°"
       // takes two of them, "–" three, hence the widths.
       char central[32], span[48], width[32], line[300];

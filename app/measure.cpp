@@ -136,15 +136,31 @@ int measure(const MeasureOptions& o, std::ostream& out, std::ostream& err) {
   const json result = run_measure(o, err);
   if (!o.quiet) {
     out << "event " << result["event_id"].get<std::string>() << ": " << result["status"].get<std::string>() << "\n";
-    print_result_table(result, out);
-    if (result.contains("arrival")) {
-      if (result.contains("arrival_conditional_on"))
-        out << "arrival below is CONDITIONAL: it holds only if " << result["arrival_conditional_on"].get<std::string>()
-            << "\n";
-      print_arrival_table(result["arrival"], out);
+    // One block per CME: the document itself when it holds one, else each of its cmes.
+    const bool several = result.contains("cmes");
+    for (const json& cme : several ? result["cmes"] : json::array({result})) {
+      if (several) {
+        const int index = cme["index"].get<int>();
+        const std::string association = cme["association"].get<std::string>();
+        out << "\nCME " << index << " of " << result["cmes"].size() << " ("
+            << (association == "views"      ? "associated across views"
+                : association == "one view" ? "ONE view only"
+                                            : "UNDECIDED which CME of the other views it is")
+            << ", " << cme["status"].get<std::string>() << ")";
+        if (result["primary"] == index) out << " — primary: " << result["primary_reason"].get<std::string>();
+        out << "\n";
+      }
+      print_result_table(cme, out);
+      if (cme.contains("arrival")) {
+        if (cme.contains("arrival_conditional_on"))
+          out << "arrival below is CONDITIONAL: it holds only if " << cme["arrival_conditional_on"].get<std::string>()
+              << "\n";
+        print_arrival_table(cme["arrival"], out);
+      }
+      if (cme.contains("arrival_withheld"))
+        out << "arrival: WITHHELD: " << cme["arrival_withheld"].get<std::string>() << "\n";
     }
-    if (result.contains("arrival_withheld"))
-      out << "arrival: WITHHELD: " << result["arrival_withheld"].get<std::string>() << "\n";
+    if (several) out << "\n";
     out << "written: " << (fs::path(o.out_dir) / "result.json").string() << ", result.csv, track.json, <view>/time_height.png, <view>/front.png, <view>/shell.png\n";
   }
   return result["status"] == "ok" && result["problems"].empty() ? 0 : 1;

@@ -15,6 +15,9 @@ nlohmann::json read_json_file(const std::filesystem::path& path) {
   const auto status = std::filesystem::status(path, error);
   if (!std::filesystem::exists(status)) throw imaging::InputError(file, "does not exist");
   if (std::filesystem::is_directory(status)) throw imaging::InputError(file, "is a folder, not a JSON file");
+  // A FIFO, socket or device could block the reader for ever (a FIFO with no writer does).
+  if (!std::filesystem::is_regular_file(status))
+    throw imaging::InputError(file, "is not a regular file (a FIFO, socket or device), so it is not read");
   std::ifstream in(path, std::ios::binary);
   if (!in) throw imaging::InputError(file, "cannot be opened for reading");
   const std::string text((std::istreambuf_iterator<char>(in)), std::istreambuf_iterator<char>());

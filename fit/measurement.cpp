@@ -7,6 +7,7 @@
 
 #include "fit/arrival_json.hpp"
 #include "fit/json_file.hpp"
+#include "fit/measurement_cmes.hpp"
 #include "fit/measurement_shell.hpp"
 #include "fit/result_file.hpp"
 #include "fit/strict_json.hpp"
@@ -25,20 +26,26 @@ void report(const MeasurementProgressCallback& progress, MeasurementStage stage,
   if (progress) progress({stage, view, view_index, view_count, frame, frame_count});
 }
 
-ViewMeasurement measure_view(const ViewImaging& imaged, const Track* analyst, std::vector<std::string>& problems,
-                             const MeasurementProgressCallback& progress, int view_index, int view_count) {
+// A view's imaging as a measured view: the chain's outputs, no CME yet; its sentences go
+// to `problems`.
+ViewMeasurement measure_view(const ViewImaging& imaged, std::vector<std::string>& problems) {
   ViewMeasurement m;
   m.name = imaged.name;
-  const std::string& name = m.name;
   m.observer = imaged.observer;
   m.grid = imaged.grid;
   m.polar = imaged.polar;
   m.frames_used = imaged.frames_used;
-  const imaging::PolarSequence& polar = m.polar;
-  for (const auto& p : imaged.problems) problems.push_back("view " + name + ": " + p);
+  for (const auto& p : imaged.problems) problems.push_back("view " + m.name + ": " + p);
+  return m;
+}
 
-  report(progress, MeasurementStage::front, name, view_index, view_count);
-  m.front = imaging::find_front(polar);
+// One CME in a measured view: its front (not found when the view has analyst points only
+// for it), the points (the analyst's `analyst` when not empty, else the automatic track
+// under `ceiling`, imaging::ceiling_under), the height–time fit. Sentences go to `problems`.
+void measure_sighting(ViewMeasurement& m, const imaging::Front& found, const std::vector<TrackPoint>& analyst,
+                      const std::vector<double>& ceiling, std::vector<std::string>& problems) {
+  const imaging::PolarSequence& polar = m.polar;
+  m.front = found;
   const imaging::Front& front = m.front;
 
   // The points: the analyst's for this view when given, else the automatic track. Either
@@ -48,28 +55,26 @@ ViewMeasurement measure_view(const ViewImaging& imaged, const Track* analyst, st
   std::vector<TrackPoint>& points = m.points;
   imaging::TrackCensoring& censored = m.censored;
   const double step_rs = polar.polar.height_step_rs;
-  if (analyst)
-    for (const TrackPoint& p : analyst->points) {
-      if (p.view != name) continue;
-      m.by_analyst = true;
-      int frame = -1;  // the frame the point was marked on (within a second)
-      for (std::size_t k = 0; k < polar.utc_s.size(); ++k)
-        if (std::abs(polar.utc_s[k] - p.utc_s) < 1.0) frame = int(k);
-      std::string why;
-      if (frame >= 0 && !imaging::height_measurable(polar, frame, p.pa_deg, p.height_rs, step_rs, why)) {
-        if (why == "at the field stop") ++censored.at_field_stop;
-        else if (why == "at a data gap") ++censored.at_data_gap;
-        else ++censored.behind_occulter;
-        continue;
-      }
-      points.push_back(p);
+  for (const TrackPoint& p : analyst) {
+    m.by_analyst = true;
+    int frame = -1;  // the frame the point was marked on (within a second)
+    for (std::size_t k = 0; k < polar.utc_s.size(); ++k)
+      if (std::abs(polar.utc_s[k] - p.utc_s) < 1.0) frame = int(k);
+    std::string why;
+    if (frame >= 0 && !imaging::height_measurable(polar, frame, p.pa_deg, p.height_rs, step_rs, why)) {
+      if (why == "at the field stop") ++censored.at_field_stop;
+      else if (why == "at a data gap") ++censored.at_data_gap;
+      else ++censored.behind_occulter;
+      continue;
     }
+    points.push_back(p);
+  }
   // The automatic track follows the front where it reaches highest (the leading edge an
   // analyst measures — common practice), not the middle of the span.
   std::vector<imaging::TrackPoint> auto_track;
   if (!m.by_analyst && front.found) {
-    auto_track = imaging::follow_track(polar, front.outermost_pa_deg, front.onset_frame, {}, &censored);
-    for (const imaging::TrackPoint& p : auto_track) points.push_back({name, p.utc_s, p.pa_deg, p.height_rs, "auto"});
+    auto_track = imaging::follow_track(polar, front.outermost_pa_deg, front.onset_frame, {}, &censored, ceiling);
+    for (const imaging::TrackPoint& p : auto_track) points.push_back({m.name, p.utc_s, p.pa_deg, p.height_rs, "auto"});
   }
   // How far above the noise the front stood: the largest band-median running difference
   // on the automatic track, in σ (imaging/front.hpp; the track caps it at 50) — what a
@@ -83,7 +88,7 @@ ViewMeasurement measure_view(const ViewImaging& imaged, const Track* analyst, st
   if (front.found) {
     m.central_pa_deg = front.central_pa_deg;
   } else {
-    problems.push_back("view " + name + ": " + front.why_not);
+    problems.push_back("view " + m.name + ": " + front.why_not);
   }
   if (m.by_analyst && !front.found) {
     double sum_sin = 0.0, sum_cos = 0.0;  // mean direction of the analyst's PAs
@@ -91,7 +96,6 @@ ViewMeasurement measure_view(const ViewImaging& imaged, const Track* analyst, st
     m.central_pa_deg = std::fmod(std::atan2(sum_sin, sum_cos) * kDegPerRad + 360.0, 360.0);
   }
 
-  report(progress, MeasurementStage::kinematics, name, view_index, view_count);
   if (points.size() >= 2) {
     std::vector<HeightTimePoint> ht;
     for (const auto& p : points) ht.push_back({p.utc_s, p.height_rs, 0.0});
@@ -117,26 +121,94 @@ ViewMeasurement measure_view(const ViewImaging& imaged, const Track* analyst, st
     }
     if (chosen.status == FitStatus::ok) {
       if (!chosen.sigmas_known)
-        problems.push_back(name + ": no σ for the sky speed and onset: " + chosen.problem + ".");
+        problems.push_back(m.name + ": no σ for the sky speed and onset: " + chosen.problem + ".");
     } else {
-      problems.push_back("view " + name + ": the height–time fit failed: " + chosen.problem);
+      problems.push_back("view " + m.name + ": the height–time fit failed: " + chosen.problem);
     }
     m.kinematics = std::move(chosen);
   } else if (front.found || m.by_analyst) {
-    problems.push_back("view " + name + ": too few leading-edge points for a height–time fit.");
+    problems.push_back("view " + m.name + ": too few leading-edge points for a height–time fit.");
   }
   if (!points.empty()) m.track_pa_deg = points.front().pa_deg;
-  return m;
 }
 
-// partial: a view could not be read, a view sees no CME while another does, the shell
-// fit failed in a way its numbers do not show, or no arrival may be made from it.
-std::string status_of(int measured, std::size_t listed, const ShellMeasurement& shell) {
-  const bool weak =
-      shell.views_without_cme > 0 || !shell.arrival_withheld.empty() || (shell.fit && shell.status != "ok");
-  return measured == 0                                              ? "failed"
-         : measured < static_cast<int>(listed) || weak              ? "partial"
-                                                                    : "ok";
+// Every CME a measured view sees: one sighting per front, each tracked under the other
+// fronts above it (imaging::ceiling_under). The analyst's points for the view go to the
+// front nearest their mean PA (and replace its automatic track), or stand alone when the
+// view found none. A view that sees nothing keeps one sighting without a front.
+void find_sightings(const ViewMeasurement& v, const imaging::FrontSet& set, const Track* analyst, ViewSightings& part) {
+  std::vector<TrackPoint> marked;
+  if (analyst)
+    for (const TrackPoint& p : analyst->points)
+      if (p.view == v.name) marked.push_back(p);
+  std::size_t marked_front = set.fronts.size();
+  if (!marked.empty() && !set.fronts.empty()) {
+    double sum_sin = 0.0, sum_cos = 0.0;
+    for (const TrackPoint& p : marked) sum_sin += std::sin(p.pa_deg * kRadPerDeg), sum_cos += std::cos(p.pa_deg * kRadPerDeg);
+    const double mean_pa = std::atan2(sum_sin, sum_cos) * kDegPerRad;
+    double nearest = 1e9;
+    for (std::size_t f = 0; f < set.fronts.size(); ++f) {
+      const double d = std::abs(std::remainder(set.fronts[f].central_pa_deg - mean_pa, 360.0));
+      if (d < nearest) nearest = d, marked_front = f;
+    }
+  }
+  const auto add = [&](const imaging::Front& front, const std::vector<TrackPoint>& points,
+                       const std::vector<double>& ceiling) {
+    ViewMeasurement sighting = v;
+    part.sighting_problems.emplace_back();
+    measure_sighting(sighting, front, points, ceiling, part.sighting_problems.back());
+    part.sightings.push_back(std::move(sighting));
+  };
+  if (set.fronts.empty()) {
+    imaging::Front none;
+    none.why_not = set.why_none;
+    none.leading_edge_rs.assign(v.polar.frames.size(), std::vector<float>(std::size_t(v.polar.polar.pa_count),
+                                                                          std::numeric_limits<float>::quiet_NaN()));
+    add(none, marked, {});
+    return;
+  }
+  for (std::size_t f = 0; f < set.fronts.size(); ++f) {
+    std::vector<const imaging::Front*> others;
+    for (std::size_t q = 0; q < set.fronts.size(); ++q)
+      if (q != f) others.push_back(&set.fronts[q]);
+    const imaging::Front& front = set.fronts[f];
+    add(front, f == marked_front ? marked : std::vector<TrackPoint>{},
+        imaging::ceiling_under(front, others, v.polar, front.outermost_pa_deg));
+  }
+}
+
+// The doubtful chains of each view (imaging/front.hpp FrontSet::doubtful) that another
+// view's CME explains (fit/associate.hpp doubtful_stands_alone) become CMEs of their own:
+// the view's fronts are found again keeping them, and its sightings made again. The rest
+// stay the fronts' wake. Weighed against the firm sightings of all views, once.
+void keep_doubtful(const std::vector<ViewMeasurement>& measured, std::vector<imaging::FrontSet>& sets,
+                   std::vector<ViewSightings>& parts) {
+  std::vector<imaging::Observer> observers;
+  for (const ViewMeasurement& v : measured) observers.push_back(v.observer);
+  std::vector<Sighting> firm;
+  for (const ViewSightings& part : parts)
+    for (const ViewMeasurement& s : part.sightings)
+      if (part.measured >= 0 && s.front.found) firm.push_back(sighting_of(s, part.measured));
+  for (std::size_t i = 0; i < parts.size(); ++i) {
+    if (parts[i].measured < 0 || sets[i].doubtful.empty()) continue;
+    const ViewMeasurement& v = measured[std::size_t(parts[i].measured)];
+    std::vector<const imaging::Front*> fronts;
+    for (const imaging::Front& f : sets[i].fronts) fronts.push_back(&f);
+    std::vector<int> keep;
+    for (std::size_t d = 0; d < sets[i].doubtful.size(); ++d) {
+      const imaging::Front& chain = sets[i].doubtful[d];
+      ViewMeasurement seen = v;
+      std::vector<std::string> unused;
+      measure_sighting(seen, chain, {}, imaging::ceiling_under(chain, fronts, v.polar, chain.outermost_pa_deg), unused);
+      if (seen.kinematics_ok() && doubtful_stands_alone(observers, firm, sighting_of(seen, parts[i].measured)))
+        keep.push_back(int(d));
+    }
+    if (keep.empty()) continue;
+    sets[i] = imaging::find_fronts(v.polar, {}, keep);
+    parts[i].sightings.clear();
+    parts[i].sighting_problems.clear();
+    find_sightings(v, sets[i], nullptr, parts[i]);
+  }
 }
 
 }  // namespace
@@ -238,53 +310,47 @@ Measurement measure_imaged(const MeasurementInput& in, const std::vector<ViewIma
   if (!in.from_folder) m.inputs.push_back(event.path);
   if (in.analyst && !in.track_file.empty()) m.inputs.push_back(in.track_file);
 
-  std::vector<std::string>& problems = m.problems;
+  // Per listed view: the chain, then each CME it sees (measurement_cmes.hpp).
   const int view_count = static_cast<int>(event.views.size());
-  int measured = 0;
+  std::vector<ViewSightings> parts(event.views.size());
+  std::vector<imaging::FrontSet> sets(event.views.size());  // each view's fronts (imaging/front.hpp)
+  std::vector<ViewMeasurement> measured;  // the chain's outputs, no CME yet
+  bool frames_skipped = false;  // a frame in the window the chain could not use (cut short, a duplicate…)
   for (std::size_t i = 0; i < event.views.size(); ++i) {
     const WindowSplit& split = in.windows[i];
+    ViewSightings& part = parts[i];
     m.inputs.insert(m.inputs.end(), split.inside.begin(), split.inside.end());
     if (!imaged[i].unusable.empty()) {
-      problems.push_back(imaged[i].unusable);
+      part.problems.push_back(imaged[i].unusable);
       continue;
     }
-    try {
-      ViewMeasurement v = measure_view(imaged[i], in.analyst ? &*in.analyst : nullptr, problems, progress,
-                                       static_cast<int>(i), view_count);
-      v.frames_outside_window = split.outside;
-      m.views.push_back(std::move(v));
-      ++measured;
-    } catch (const imaging::InputError& e) {
-      problems.push_back("view " + imaged[i].name + ": " + e.what());
-    }
+    ViewMeasurement v = measure_view(imaged[i], part.problems);
+    v.frames_outside_window = split.outside;
+    frames_skipped = frames_skipped || v.frames_used < static_cast<int>(imaged[i].files.size());
+    report(progress, MeasurementStage::front, v.name, static_cast<int>(i), view_count);
+    sets[i] = imaging::find_fronts(v.polar);
+    report(progress, MeasurementStage::kinematics, v.name, static_cast<int>(i), view_count);
+    find_sightings(v, sets[i], in.analyst ? &*in.analyst : nullptr, part);
+    part.measured = static_cast<int>(measured.size());
+    measured.push_back(std::move(v));
   }
-  // One shell over every view that saw the CME: true direction, width and speed.
+  if (!in.analyst) keep_doubtful(measured, sets, parts);
+
   report(progress, MeasurementStage::shell, "", -1, view_count);
-  m.shell = measure_shell(m.views, event.source_deg, o.apex_law, problems);
+  measure_cmes(event, o, measured, parts, m);
+  // A skipped frame (the chain named it among the problems) leaves the result partial.
+  if (frames_skipped) {
+    if (m.status == "ok") m.status = "partial";
+    for (CmeMeasurement& cme : m.cmes)
+      if (cme.status == "ok") cme.status = "partial";
+  }
 
-  // A sentence said once: the same fault met twice (the same frame in two views' globs…)
-  // is one problem.
-  for (size_t i = 0; i < problems.size(); ++i)
-    for (size_t j = problems.size(); j-- > i + 1;)
-      if (problems[j] == problems[i]) problems.erase(problems.begin() + static_cast<std::ptrdiff_t>(j));
-  m.status = status_of(measured, event.views.size(), m.shell);
-
-  // The arrival estimate for the event's targets (default Earth), from the fit's boundary
-  // values and covariance as result.json holds them (fit/arrival_json): model estimates
-  // with stated uncertainty.
   report(progress, MeasurementStage::arrival, "", -1, view_count);
-  if (m.shell.arrival_withheld.empty() && m.shell.boundary) {
-    try {
-      const ArrivalInput arrival_in = read_arrival_input(result_json(m), o.result_name);
-      const ForecastSettings settings =
-          read_forecast_block(event.forecast, arrival_in.launch.boundary_utc_s, event.path.string());
-      m.ensemble = EnsembleOptions{};
-      m.ensemble.priors = settings.priors;
-      m.arrivals = forecast_arrivals(arrival_in.launch, arrival_in.covariance, settings.targets, m.ensemble);
-      m.arrival_made = true;
-    } catch (const imaging::InputError& e) {
-      problems.push_back(std::string("no arrival estimate: ") + e.what());
-    }
+  for (CmeMeasurement& cme : m.cmes) make_arrival(event, o, m, cme);
+  if (!m.cmes.empty()) {
+    const CmeMeasurement& primary = m.cmes[std::size_t(m.primary)];
+    m.arrival_made = primary.arrival_made;
+    m.arrivals = primary.arrivals;
   }
   report(progress, MeasurementStage::done, "", -1, view_count);
   return m;

@@ -4,11 +4,16 @@
 // print, draw and write what it returns and compute nothing of their own.
 //
 // Per view: the imaging chain over the frames inside the event's window (polar running
-// differences in σ), the CME's region and leading edge (imaging/front), the track (the
-// analyst's points for the view when given, else the automatic one along the PA where
-// the front reaches highest), the height–time fit (fit/kinematics). Over all views: one
-// shell fit (fit/shell_fit), its values at 21.5 R☉ (the boundary) and the drag-based
-// arrival for the event's targets (fit/arrival), or why it is withheld.
+// differences in σ), every CME's region and leading edge (imaging/front find_fronts),
+// each one's track (the analyst's points for the view when given — they go to the CME
+// nearest them in PA — else the automatic one along the PA where the front reaches
+// highest, kept under any other front above it), the height–time fit (fit/kinematics).
+// Across views: which CME is which (fit/associate: geometry and timing; an undecided
+// pairing is not guessed — each of its CMEs is measured from its own view and the
+// candidate pairings are named in a problem). Per CME: one shell fit over its own views'
+// points (fit/shell_fit), its values at 21.5 R☉ (the boundary) and the drag-based
+// arrival for the event's targets (fit/arrival), or why it is withheld. With one CME the
+// measurement is the one-CME measurement it always was.
 //
 // Units: degrees, km/s, m/s², R☉ at this interface; times in UTC seconds since
 // 2000-01-01 (imaging/time.hpp); NaN where a value was not measured. PAs counter-clockwise
@@ -143,10 +148,33 @@ struct ShellMeasurement {
   int views_without_cme = 0;            // views that see no CME while another does (named in problems)
 };
 
+// One CME of the event (a window can hold several, issue 16): its sightings in the views,
+// associated across views (fit/associate.hpp), and its own shell, boundary and arrival —
+// never fitted over another CME's points.
+struct CmeMeasurement {
+  int index = 1;                           // 1, 2, … by when it was first seen (earliest first)
+  // How its views were put together: "views" (one CME's sightings in several views, the
+  // association decided), "one view" (no other view's CME pairs with it) or "undecided"
+  // (it could pair with more than one: measured from its own view alone, not guessed).
+  std::string association = "views";
+  // Every view measured, in the event's order, as Measurement::views: this CME's front,
+  // points and kinematics where the view sees it, front.found false elsewhere.
+  std::vector<ViewMeasurement> views;
+  ShellMeasurement shell;
+  bool arrival_made = false;
+  std::vector<TargetArrival> arrivals;
+  std::string status;                      // as Measurement::status, for this CME alone
+  std::vector<std::string> problems;       // its own sentences (in Measurement::problems prefixed "CME k: ")
+  double first_seen_utc_s = kUnmeasured;   // the earliest onset frame (or analyst point) over its views
+  double onset_utc_s = kUnmeasured;        // the earliest kinematic onset (1 R☉ on the sky) over its views
+};
+
 struct Measurement {
   std::string event_id;
   std::string status;                      // "ok" | "partial" | "failed" (README "Outputs")
   std::vector<std::string> problems;       // sentences, each said once
+  // The primary CME (below) — all there is when the window holds one: every view measured,
+  // in the event's order; the shell; the arrival.
   std::vector<ViewMeasurement> views;      // the views measured, in the event's order
   ShellMeasurement shell;
   // The arrival at each of the event's targets (default Earth) from the shell's boundary
@@ -154,6 +182,13 @@ struct Measurement {
   bool arrival_made = false;
   std::vector<TargetArrival> arrivals;
   EnsembleOptions ensemble;                // what the arrivals were drawn with
+  // Every CME found (one entry when there is one, a copy of the above; none when no view
+  // found any), by first sighting; cmes[primary] is the one above, chosen as
+  // primary_reason says: the event's source region (the fitted direction nearest it), else
+  // the earliest onset.
+  std::vector<CmeMeasurement> cmes;
+  int primary = 0;                         // index into cmes
+  std::string primary_reason;              // one sentence
   // The files the result rests on: the event file, the track file, each view's frames
   // inside the window (what provenance hashes).
   std::vector<std::filesystem::path> inputs;

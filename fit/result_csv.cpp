@@ -24,16 +24,10 @@ std::string csv_field(const json& value) {
   return value.dump();
 }
 
-}  // namespace
-
-// One row: the event's keys, then each view's keys prefixed by its name.
-std::string result_csv(const json& result) {
-  std::vector<std::string> names = {"event_id", "status", "problems"};
-  // The problems as the sentences themselves, one after another in one quoted field.
-  std::string problems;
-  for (const auto& p : result["problems"]) problems += (problems.empty() ? "" : " ") + p.get<std::string>();
-  std::vector<std::string> values = {csv_field(result["event_id"]), csv_field(result["status"]), csv_field(json(problems))};
-  for (const auto& v : result["views"])
+// The columns after the event's keys, from `block` (the document, or one of its cmes):
+// each view's keys prefixed by its name, then the shell's, the arrival's and the boundary's.
+void cme_columns(const json& block, std::vector<std::string>& names, std::vector<std::string>& values) {
+  for (const auto& v : block["views"])
     for (const char* key : {"frames_used", "found", "central_pa_deg", "pa_span_deg", "sky_width_deg", "sky_speed_km_s",
                             "sky_speed_km_s_sigma", "sky_accel_m_s2", "sky_accel_m_s2_sigma", "onset_time",
                             "onset_time_sigma_s", "time_at_21_5_rs", "law_ref_time", "frames_outside_window"}) {
@@ -43,7 +37,7 @@ std::string result_csv(const json& result) {
                                                                     : csv_field(v.contains(key) ? v[key] : json(nullptr)));
     }
   // The shell and the boundary values, flat, with their σ.
-  const json& shell = result["shell"];
+  const json& shell = block["shell"];
   for (const char* key : {"lon_deg", "lat_deg", "tilt_deg", "half_angle_deg", "aspect_ratio", "speed_km_s", "accel_m_s2",
                           "face_on_width_deg", "edge_on_width_deg"}) {
     names.push_back(std::string("shell_") + key);
@@ -60,10 +54,10 @@ std::string result_csv(const json& result) {
   names.push_back("shell_not_constrained");
   values.push_back(shell.is_object() && shell.contains("not_constrained") ? csv_field(shell["not_constrained"]) : "");
   names.push_back("arrival_withheld");
-  values.push_back(result.contains("arrival_withheld") ? csv_field(result["arrival_withheld"]) : "");
+  values.push_back(block.contains("arrival_withheld") ? csv_field(block["arrival_withheld"]) : "");
   names.push_back("arrival_conditional_on");
-  values.push_back(result.contains("arrival_conditional_on") ? csv_field(result["arrival_conditional_on"]) : "");
-  const json& boundary = result["boundary"];
+  values.push_back(block.contains("arrival_conditional_on") ? csv_field(block["arrival_conditional_on"]) : "");
+  const json& boundary = block["boundary"];
   for (const char* key : {"time", "speed_km_s", "half_width_deg"}) {
     names.push_back(std::string("boundary_") + key);
     values.push_back(boundary.is_object() ? csv_field(boundary[key]) : "");
@@ -72,11 +66,35 @@ std::string result_csv(const json& result) {
     names.push_back(std::string("boundary_") + key + (std::string(key) == "time" ? "_sigma_s" : "_sigma"));
     values.push_back(boundary.is_object() && boundary.contains("sigma") ? csv_field(boundary["sigma"].value(sigma_key, json())) : "");
   }
+}
+
+}  // namespace
+
+// One row per CME: the event's keys (with the CME's index when there are several), then
+// cme_columns of the document (one CME) or of each of its cmes.
+std::string result_csv(const json& result) {
+  const bool several = result.contains("cmes");
+  std::vector<std::string> names = {"event_id", "status", "problems"};
+  if (several) names.insert(names.begin() + 1, "cme");
+  // The problems as the sentences themselves, one after another in one quoted field.
+  std::string problems;
+  for (const auto& p : result["problems"]) problems += (problems.empty() ? "" : " ") + p.get<std::string>();
+  std::vector<std::vector<std::string>> rows;
+  for (const json& block : several ? result["cmes"] : json::array({result})) {
+    std::vector<std::string> values = {csv_field(result["event_id"]), csv_field(result["status"]), csv_field(json(problems))};
+    if (several) values.insert(values.begin() + 1, csv_field(block["index"]));
+    std::vector<std::string> columns;
+    cme_columns(block, columns, values);
+    if (rows.empty()) names.insert(names.end(), columns.begin(), columns.end());
+    rows.push_back(values);
+  }
   std::ostringstream out;
   for (size_t i = 0; i < names.size(); ++i) out << (i ? "," : "") << names[i];
   out << '\n';
-  for (size_t i = 0; i < values.size(); ++i) out << (i ? "," : "") << values[i];
-  out << '\n';
+  for (const auto& values : rows) {
+    for (size_t i = 0; i < values.size(); ++i) out << (i ? "," : "") << values[i];
+    out << '\n';
+  }
   return out.str();
 }
 

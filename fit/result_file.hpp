@@ -1,6 +1,6 @@
 // fit/result_file.hpp — the measurement (fit/measurement.hpp) as occulta's result files:
 // the result.json document (schemas/result.schema.json; DESIGN.md "File contracts") and
-// its one-row result.csv. The one place either is written; every face calls these.
+// its result.csv (a row per CME). The one place either is written; every face calls these.
 //
 // result.json at this interface: degrees, km/s, m/s², R☉, ISO 8601 UTC (milliseconds);
 // σ under `sigma` with the same keys, or as `K_sigma` / `T_sigma_s` beside a value
@@ -24,8 +24,10 @@ namespace occulta::fit {
 // time taken: the face that writes the file adds it, app/provenance.hpp).
 nlohmann::json result_json(const Measurement& measurement);
 
-// result.csv: a header line and one row, from the same document — the event's keys,
-// each view's keys prefixed by its name, the shell and boundary values with their σ.
+// result.csv: a header line and one row per CME, from the same document — the event's
+// keys, each view's keys prefixed by its name, the shell and boundary values with their
+// σ. With several CMEs (the document's `cmes`) a `cme` column after event_id holds each
+// row's CME index; with one the file is the one-row file it always was.
 // Text fields quoted ("" for a quote), arrays joined by ';', nothing measured empty.
 std::string result_csv(const nlohmann::json& result);
 std::string result_csv(const Measurement& measurement);

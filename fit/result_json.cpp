@@ -145,34 +145,61 @@ json view_json(const ViewMeasurement& m) {
   return v;
 }
 
+json views_json(const std::vector<ViewMeasurement>& views) {
+  json out = json::array();
+  for (const ViewMeasurement& v : views) out.push_back(view_json(v));
+  return out;
+}
+
+json shell_json(const ShellMeasurement& s) {
+  if (!s.fit) return nullptr;
+  json shell = shell_block(*s.fit);
+  shell["views"] = s.views;
+  shell["direction_basis"] = s.direction_basis;
+  shell["not_constrained"] = s.not_constrained;
+  shell["at_bound"] = s.fit->at_bound;
+  shell["status"] = s.status;
+  return shell;
+}
+
+// The arrival members beside a shell (the document's or a CME's).
+void add_arrival(json& block, const ShellMeasurement& shell, bool made, const std::vector<TargetArrival>& arrivals,
+                 const EnsembleOptions& ensemble) {
+  if (!shell.arrival_withheld.empty()) {
+    block["arrival_withheld"] = shell.arrival_withheld;
+  } else if (made) {
+    block["arrival"] = arrival_block(arrivals, ensemble);
+    // An estimate that rests on an assumption the data do not test says so, beside it.
+    if (!shell.arrival_condition.empty()) block["arrival_conditional_on"] = shell.arrival_condition;
+    block["caution"] = std::string(kArrivalCaution);
+  }
+}
+
 }  // namespace
 
 json result_json(const Measurement& m) {
-  json views = json::array();
-  for (const ViewMeasurement& v : m.views) views.push_back(view_json(v));
-  json shell = nullptr;
-  if (m.shell.fit) {
-    shell = shell_block(*m.shell.fit);
-    shell["views"] = m.shell.views;
-    shell["direction_basis"] = m.shell.direction_basis;
-    shell["not_constrained"] = m.shell.not_constrained;
-    shell["at_bound"] = m.shell.fit->at_bound;
-    shell["status"] = m.shell.status;
-  }
   json result = {{"schema", "occulta.result/1"},
                  {"event_id", m.event_id},
                  {"status", m.status},
                  {"problems", m.problems},
-                 {"views", views},
-                 {"shell", shell},
+                 {"views", views_json(m.views)},
+                 {"shell", shell_json(m.shell)},
                  {"boundary", boundary_block(m.shell)}};
-  if (!m.shell.arrival_withheld.empty()) {
-    result["arrival_withheld"] = m.shell.arrival_withheld;
-  } else if (m.arrival_made) {
-    result["arrival"] = arrival_block(m.arrivals, m.ensemble);
-    // An estimate that rests on an assumption the data do not test says so, beside it.
-    if (!m.shell.arrival_condition.empty()) result["arrival_conditional_on"] = m.shell.arrival_condition;
-    result["caution"] = std::string(kArrivalCaution);
+  add_arrival(result, m.shell, m.arrival_made, m.arrivals, m.ensemble);
+  // Several CMEs (issue 16): each with the blocks the document has for the primary one
+  // (above), and which is primary and why. One CME: the document as it always was.
+  if (m.cmes.size() > 1) {
+    json cmes = json::array();
+    for (const CmeMeasurement& c : m.cmes) {
+      json cme = {{"index", c.index},           {"association", c.association}, {"status", c.status},
+                  {"problems", c.problems},     {"views", views_json(c.views)}, {"shell", shell_json(c.shell)},
+                  {"boundary", boundary_block(c.shell)}};
+      add_arrival(cme, c.shell, c.arrival_made, c.arrivals, m.ensemble);
+      cmes.push_back(cme);
+    }
+    result["cmes"] = cmes;
+    result["primary"] = m.cmes[std::size_t(m.primary)].index;
+    result["primary_reason"] = m.primary_reason;
   }
   return result;
 }

@@ -234,11 +234,21 @@ ShellParams shell_of(const Params& x, double tau_s) {
   return p;
 }
 
+// A solve's Ceres blocks all live in one array, in a fixed order (direction 2, shape 3, law
+// 3, free heights): Ceres orders a covariance's parameter blocks by their addresses, so
+// with the heights in an allocation of their own the order, and the covariance's last
+// bits (~1e-14 relative), changed with where the heap put them from run to run. Ceres
+// works on `packed`; `x` holds the values before and after.
 struct Solve {
   std::unique_ptr<ceres::Problem> problem;
   Params x;
+  std::vector<double> packed;
   double cost = std::numeric_limits<double>::infinity();
   bool usable = false;
+  double* direction() { return packed.data(); }
+  double* shape() { return packed.data() + 2; }
+  double* law() { return packed.data() + 5; }
+  double* height(std::size_t g) { return packed.data() + 8 + g; }
 };
 
 // One Ceres solve from a start over the points `use` (all when empty).
@@ -254,17 +264,21 @@ void run_solve(Solve& solve, const Data& d, ApexLawKind kind, bool hold_directio
     for (std::size_t g = 0; g < d.group_time_s.size(); ++g)
       x.heights[g] = apex_height<3>(x.law.data(), d.group_time_s[g] - d.ref_time_s);
   }
+  solve.packed.assign(x.direction.begin(), x.direction.end());
+  solve.packed.insert(solve.packed.end(), x.shape.begin(), x.shape.end());
+  solve.packed.insert(solve.packed.end(), x.law.begin(), x.law.end());
+  if (kind == ApexLawKind::free_per_time) solve.packed.insert(solve.packed.end(), x.heights.begin(), x.heights.end());
   ceres::LossFunction* loss = new ceres::HuberLoss(huber_rs);
   const auto add = [&](int i) {
     if (kind == ApexLawKind::free_per_time) {
       auto* cost = new ceres::AutoDiffCostFunction<OutlineResidual<1>, 1, 2, 3, 1>(
           new OutlineResidual<1>{d.lines[i], d.tau_s[i]});
-      problem.AddResidualBlock(cost, loss, x.direction.data(), x.shape.data(),
-                               &x.heights[static_cast<std::size_t>(d.time_group[i])]);
+      problem.AddResidualBlock(cost, loss, solve.direction(), solve.shape(),
+                               solve.height(static_cast<std::size_t>(d.time_group[i])));
     } else {
       auto* cost = new ceres::AutoDiffCostFunction<OutlineResidual<3>, 1, 2, 3, 3>(
           new OutlineResidual<3>{d.lines[i], d.tau_s[i]});
-      problem.AddResidualBlock(cost, loss, x.direction.data(), x.shape.data(), x.law.data());
+      problem.AddResidualBlock(cost, loss, solve.direction(), solve.shape(), solve.law());
     }
   };
   if (use.empty()) {
@@ -273,33 +287,33 @@ void run_solve(Solve& solve, const Data& d, ApexLawKind kind, bool hold_directio
     for (const int i : use) add(i);
   }
   problem.AddResidualBlock(new ceres::AutoDiffCostFunction<AspectPrior, 1, 3>(new AspectPrior{}), nullptr,
-                           x.shape.data());
+                           solve.shape());
   // Bounds (rad, R☉, km/s, m/s²): latitudes short of the poles, half-angles and aspect
   // ratios within the shapes the model describes, speeds and accelerations of CMEs
   // (~100–3000 km/s, common practice) with room on both sides.
-  problem.SetParameterLowerBound(x.direction.data(), 1, -0.49 * kPi);
-  problem.SetParameterUpperBound(x.direction.data(), 1, 0.49 * kPi);
-  problem.SetParameterLowerBound(x.shape.data(), 1, 1.0 * kRadPerDeg);
-  problem.SetParameterUpperBound(x.shape.data(), 1, 75.0 * kRadPerDeg);
-  problem.SetParameterLowerBound(x.shape.data(), 2, 0.03);
-  problem.SetParameterUpperBound(x.shape.data(), 2, 0.85);
-  if (hold_direction) problem.SetParameterBlockConstant(x.direction.data());
+  problem.SetParameterLowerBound(solve.direction(), 1, -0.49 * kPi);
+  problem.SetParameterUpperBound(solve.direction(), 1, 0.49 * kPi);
+  problem.SetParameterLowerBound(solve.shape(), 1, 1.0 * kRadPerDeg);
+  problem.SetParameterUpperBound(solve.shape(), 1, 75.0 * kRadPerDeg);
+  problem.SetParameterLowerBound(solve.shape(), 2, 0.03);
+  problem.SetParameterUpperBound(solve.shape(), 2, 0.85);
+  if (hold_direction) problem.SetParameterBlockConstant(solve.direction());
   if (kind == ApexLawKind::free_per_time) {
-    for (double& h : x.heights) {
-      if (!problem.HasParameterBlock(&h)) continue;
-      problem.SetParameterLowerBound(&h, 0, 1.0);
-      problem.SetParameterUpperBound(&h, 0, 300.0);
+    for (std::size_t g = 0; g < x.heights.size(); ++g) {
+      if (!problem.HasParameterBlock(solve.height(g))) continue;
+      problem.SetParameterLowerBound(solve.height(g), 0, 1.0);
+      problem.SetParameterUpperBound(solve.height(g), 0, 300.0);
     }
   } else {
-    problem.SetParameterLowerBound(x.law.data(), 0, 1.0);
-    problem.SetParameterUpperBound(x.law.data(), 0, 300.0);
-    problem.SetParameterLowerBound(x.law.data(), 1, 10.0);
-    problem.SetParameterUpperBound(x.law.data(), 1, 6000.0);
-    problem.SetParameterLowerBound(x.law.data(), 2, -1000.0);
-    problem.SetParameterUpperBound(x.law.data(), 2, 1000.0);
+    problem.SetParameterLowerBound(solve.law(), 0, 1.0);
+    problem.SetParameterUpperBound(solve.law(), 0, 300.0);
+    problem.SetParameterLowerBound(solve.law(), 1, 10.0);
+    problem.SetParameterUpperBound(solve.law(), 1, 6000.0);
+    problem.SetParameterLowerBound(solve.law(), 2, -1000.0);
+    problem.SetParameterUpperBound(solve.law(), 2, 1000.0);
     if (kind == ApexLawKind::linear) {
-      x.law[2] = 0.0;
-      problem.SetManifold(x.law.data(), new ceres::SubsetManifold(3, {2}));
+      solve.law()[2] = 0.0;
+      problem.SetManifold(solve.law(), new ceres::SubsetManifold(3, {2}));
     }
   }
   ceres::Solver::Options options;
@@ -311,6 +325,10 @@ void run_solve(Solve& solve, const Data& d, ApexLawKind kind, bool hold_directio
   options.num_threads = 1;
   ceres::Solver::Summary summary;
   ceres::Solve(options, &problem, &summary);
+  std::copy_n(solve.direction(), 2, x.direction.begin());
+  std::copy_n(solve.shape(), 3, x.shape.begin());
+  std::copy_n(solve.law(), 3, x.law.begin());
+  if (kind == ApexLawKind::free_per_time) std::copy_n(solve.height(0), x.heights.size(), x.heights.begin());
   solve.usable = summary.IsSolutionUsable() && std::isfinite(summary.final_cost);
   solve.cost = solve.usable ? summary.final_cost : std::numeric_limits<double>::infinity();
 }
@@ -648,10 +666,10 @@ ShellFit fit_shell(const std::vector<ShellView>& views, const std::vector<EdgePo
   const double s2 = finite > p_free ? ssr / (finite - p_free) : kNaN;
 
   std::vector<const double*> blocks;
-  if (constrained && !held) blocks.push_back(x.direction.data());
-  blocks.push_back(x.shape.data());
-  if (options.law != ApexLawKind::free_per_time) blocks.push_back(x.law.data());
-  if (!constrained || held) final_solve.problem->SetParameterBlockConstant(x.direction.data());
+  if (constrained && !held) blocks.push_back(final_solve.direction());
+  blocks.push_back(final_solve.shape());
+  if (options.law != ApexLawKind::free_per_time) blocks.push_back(final_solve.law());
+  if (!constrained || held) final_solve.problem->SetParameterBlockConstant(final_solve.direction());
   ceres::Covariance::Options cov_options;
   cov_options.algorithm_type = ceres::DENSE_SVD;
   cov_options.num_threads = 1;
@@ -672,8 +690,8 @@ ShellFit fit_shell(const std::vector<ShellView>& views, const std::vector<EdgePo
   }
   // Map each block to its rows in ShellFit::covariance.
   const auto rows_of = [&](const double* block) -> std::pair<int, int> {
-    if (block == x.direction.data()) return {kLon, 2};
-    if (block == x.shape.data()) return {kTilt, 3};
+    if (block == final_solve.direction()) return {kLon, 2};
+    if (block == final_solve.shape()) return {kTilt, 3};
     return {kHeight, 3};
   };
   if (have_cov) {

@@ -437,6 +437,9 @@ std::string read_start(const std::filesystem::path& path, std::uintmax_t& size) 
   const auto status = std::filesystem::status(path, error);
   if (!std::filesystem::exists(status)) throw InputError(source, "the file does not exist");
   if (std::filesystem::is_directory(status)) throw InputError(source, "it is a folder, not a FITS file");
+  // A FIFO, socket or device could block the reader for ever (a FIFO with no writer does).
+  if (!std::filesystem::is_regular_file(status))
+    throw InputError(source, "it is not a regular file (a FIFO, socket or device), so it is not read");
   size = std::filesystem::file_size(path, error);
   if (error) throw InputError(source, "its size cannot be read (" + error.message() + ")");
   std::ifstream in(path, std::ios::binary);

@@ -57,7 +57,11 @@
 //     origin as a CME found on the far side of the Sun (central PAs ≥ across_pa_deg
 //     apart) is that CME's other side, a halo's, that step 3b did not join: in one view
 //     two CMEs launched together on opposite sides cannot be told from one halo, and are
-//     taken as one. Each front is
+//     taken as one. A chain in the sky of a CME found already that is seen after it, lies
+//     below its leading edge in every frame of its track, yet points to an earlier origin
+//     trails it: the shell's inner rim or a leg under the front, whose short faint track
+//     rises too slowly — a CME launched earlier and overtaken by the one above it would be
+//     the interaction the model leaves out. Each front is
 //     then tracked under the others: where another front's leading edge lies above its
 //     own in the track's PA band, its track may not climb above the midway height.
 // Every threshold below is our choice, tuned on `occulta synth` events (front_test.cpp).
@@ -147,12 +151,21 @@ Front find_front(const PolarSequence& sequence, const FrontOptions& options = {}
 // Every CME in the window (steps 1–6), by onset (earliest first). The front find_front
 // finds is among them, with the same track unless another front lies above it; where the
 // strongest chain has no track, find_fronts goes on to the next ones.
+//
+// A chain in a front's wake that this view alone cannot tell from a slower CME launched
+// later under it (front.cpp in_wake: later, slower, below the front's line, but neither
+// pointing to its origin nor keeping its pace) is refused and listed in `doubtful`, as
+// tracked; its ordinal is its index there. The other views decide (fit/associate.hpp
+// doubtful_stands_alone): find_fronts again with its ordinal in `keep_doubtful` keeps it
+// as a front of its own (the fronts are then tracked under it, and kept apart from it).
 struct FrontSet {
   std::vector<Front> fronts;
   std::string why_none;     // one sentence when fronts is empty
-  int refused_chains = 0;   // chains that moved outward but were not a CME of their own (step 6)
+  int refused_chains = 0;   // chains that moved outward but were not a CME of their own (step 6), doubtful ones included
+  std::vector<Front> doubtful;  // refused chains in a front's wake that may be CMEs of their own
 };
-FrontSet find_fronts(const PolarSequence& sequence, const FrontOptions& options = {});
+FrontSet find_fronts(const PolarSequence& sequence, const FrontOptions& options = {},
+                     const std::vector<int>& keep_doubtful = {});
 
 // Step 5 alone, e.g. at a PA the analyst chose: frames from_frame.. of the sequence.
 // Frames it could not measure are counted in `censored` when given. ceiling_rs (per frame
@@ -160,6 +173,12 @@ FrontSet find_fronts(const PolarSequence& sequence, const FrontOptions& options 
 std::vector<TrackPoint> follow_track(const PolarSequence& sequence, double pa_deg, int from_frame,
                                      const FrontOptions& options = {}, TrackCensoring* censored = nullptr,
                                      const std::vector<double>& ceiling_rs = {});
+
+// Step 6's ceiling for a track of `front` along `pa_deg`: per frame of the sequence, where
+// another front's leading edge lies above this one's (both within ±10° of pa_deg), midway
+// between the two (R☉; +∞ where none lies above); empty when none does in any frame.
+std::vector<double> ceiling_under(const Front& front, const std::vector<const Front*>& others,
+                                  const PolarSequence& sequence, double pa_deg);
 
 // Whether a height at `pa_deg` in frame `frame` lies where an edge can be measured: at
 // least `margin_rs` inside the frame's data along that PA band (above the lowest row

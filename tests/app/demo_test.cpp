@@ -46,3 +46,32 @@ TEST_CASE("demo: summarises the committed sample event, every frame usable") {
   CHECK(result["arrival"][0]["target"] == "earth");
   CHECK(result["caution"].get<std::string>().find(caution) != std::string::npos);
 }
+
+TEST_CASE("demo: a sample whose truth file lacks a view's observer gets a sentence, not an internal fault") {
+  // One view of the sample (its first six frames), with the truth's observer of that view
+  // renamed: the truth has nothing to say about the view.
+  using occulta::test::shell_quote;
+  namespace fs = std::filesystem;
+  const fs::path work = occulta::test::scratch_dir("demo_truth_without_view");
+  const fs::path sample = work / "sample";
+  fs::create_directories(sample / "east");
+  for (int i = 0; i < 6; ++i) {
+    const std::string name = "east_00" + std::to_string(i) + ".fits";
+    fs::copy_file(occulta::test::source_path("sample_frames/east/" + name), sample / "east" / name);
+  }
+  auto event = occulta::fit::read_json_file(occulta::test::source_path("sample_frames/sample-2031-03-14.event.json"));
+  event["views"] = nlohmann::json::array({event["views"][0]});
+  occulta::test::spit(sample / "sample-2031-03-14.event.json", event.dump(2));
+  auto truth = occulta::fit::read_json_file(occulta::test::source_path("sample_frames/sample-2031-03-14.truth.json"));
+  for (auto& o : truth["observers"])
+    if (o["name"] == "east") o["name"] = "elsewhere";
+  const fs::path truth_path = sample / "sample-2031-03-14.truth.json";
+  occulta::test::spit(truth_path, truth.dump(2));
+  const auto run = occulta::test::run_command(shell_quote(occulta::test::occulta_binary().string()) + " demo --sample " +
+                                              shell_quote(sample.string()) + " --out " + shell_quote((work / "out").string()));
+  INFO(run.output);
+  CHECK(run.exit_code == 1);
+  CHECK(run.output.find("occulta: problem: " + truth_path.string() + ": holds no truth for view \"east\"") !=
+        std::string::npos);
+  CHECK(run.output.find("internal") == std::string::npos);
+}

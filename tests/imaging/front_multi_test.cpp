@@ -207,3 +207,45 @@ TEST_CASE("front: a bright point drifting across the field is not a CME, and the
   MESSAGE("the point changes the running difference by up to " << most << " σ");
   CHECK(most > 10.0);
 }
+
+TEST_CASE("front: one narrow, tilted CME is one front in each view, not the front and its inner rim") {
+  // tests/app/measure_test.cpp's third event (600 km/s, half-angle 15°, tilt 60°, toward
+  // Stonyhurst (−40°, +25°)), from its two views. In the right view a second chain rises
+  // under the front, inside its span (PA 55–71° of 24–109°), from frame 6 on: the shell's
+  // inner rim, at ~0.63 of the front's height in each frame (self-similar), whose faint
+  // three-point track rises at ~150 km/s and so points to an origin ~170 min before the
+  // front's. It trails the front (imaging/front.hpp step 6) and is not a CME of its own.
+  // Each view's one front is find_front's: same onset, central PA and track.
+  const std::string text = R"({
+    "id": "multi", "start": "2031-07-09T03:00:00", "cadence_s": 600, "frames": 10, "exposure_s": 6,
+    "image": {"size_px": 160, "half_width_rs": 15, "occulter_rs": [2.5, 14.5]},
+    "observers": [{"name": "left", "lon_deg": -60, "lat_deg": 2, "dist_au": 0.97, "roll_deg": 3},
+                  {"name": "right", "lon_deg": 30, "lat_deg": -3, "dist_au": 1.01}],
+    "shell": {"lon_deg": -40, "lat_deg": 25, "tilt_deg": 60, "half_angle_deg": 15, "aspect_ratio": 0.25,
+              "apex": {"time": "2031-07-09T03:00:00", "height_rs": 2.0, "speed_km_s": 600, "accel_m_s2": 0},
+              "density_cm3": 8e5},
+    "detector": {"dn_per_s_per_bsun": 2e12, "read_noise_dn": 3},
+    "jitter_px": 0.3, "cosmic_rays_per_frame": 6, "seed": 3
+  })";
+  const fs::path dir = occulta::test::synthesize_event("multi_one_tilted", text);
+  const auto event = occulta::fit::read_event(dir / "frames/multi.event.json");
+  int refused = 0;
+  for (const auto& view : event.views) {
+    CAPTURE(view.name);
+    oi::ChainOptions options;
+    options.median_filter = 5;
+    const oi::PolarSequence running = oi::polar_running_differences(view.name, view.files, options).running;
+    const auto set = oi::find_fronts(running);
+    const auto one = oi::find_front(running);
+    MESSAGE(view.name << ": " << describe(set, running.utc_s[0]));
+    REQUIRE(one.found);
+    REQUIRE(set.fronts.size() == 1);
+    refused += set.refused_chains;
+    const oi::Front& f = set.fronts[0];
+    CHECK(f.onset_frame == one.onset_frame);
+    CHECK(f.central_pa_deg == one.central_pa_deg);
+    REQUIRE(f.track.size() == one.track.size());
+    for (size_t i = 0; i < f.track.size(); ++i) CHECK(f.track[i].height_rs == one.track[i].height_rs);
+  }
+  CHECK(refused >= 1);  // the inner rim was there, and refused
+}

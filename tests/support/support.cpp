@@ -21,6 +21,21 @@ std::filesystem::path scratch_dir(const std::string& name) {
   return dir;
 }
 
+// GCC defines __SANITIZE_ADDRESS__; clang answers __has_feature(address_sanitizer).
+bool sanitized_build() {
+#if defined(__SANITIZE_ADDRESS__)
+  return true;
+#elif defined(__has_feature)
+#if __has_feature(address_sanitizer)
+  return true;
+#else
+  return false;
+#endif
+#else
+  return false;
+#endif
+}
+
 std::filesystem::path source_path(const std::string& relative) {
   return std::filesystem::path(OCCULTA_SOURCE_DIR) / relative;
 }

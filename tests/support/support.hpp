@@ -15,6 +15,10 @@ namespace occulta::test {
 // temporary folder), emptied when made. It is left behind afterwards to look at.
 std::filesystem::path scratch_dir(const std::string& name);
 
+// Whether this build runs under AddressSanitizer (the build-asan/ tree): suites whose
+// cost is dominated by sanitized child processes run a smaller case there.
+bool sanitized_build();
+
 // A path inside the source tree, e.g. source_path("tests/external/write_fits.py").
 std::filesystem::path source_path(const std::string& relative);
 

@@ -22,7 +22,7 @@ struct Cme {
 };
 
 // Ten CMEs seen by two observers 90° apart, all heading where both see them.
-constexpr Cme kCmes[occulta::test::kBatchScenarios] = {
+constexpr Cme kCmes[10] = {
     {-30, 5, 20, 25, 0.30, 900},   {-15, -10, -30, 30, 0.35, 1000}, {0, 15, 45, 20, 0.25, 850},
     {10, 0, 0, 28, 0.30, 950},     {25, -5, 60, 22, 0.40, 1100},    {40, 10, -45, 30, 0.30, 900},
     {-5, -15, 30, 25, 0.35, 800},  {15, 20, -20, 26, 0.30, 1000},   {-25, 3, 10, 24, 0.28, 950},
@@ -48,14 +48,15 @@ std::string iso(double utc_s) { return occulta::imaging::iso_from_utc_seconds(ut
 
 }  // namespace
 
-TEST_CASE("batch fixture: ten synthetic CMEs, three broken events, one catalogue of 33 rows") {
+TEST_CASE("batch fixture: synthetic CMEs, three broken events, one catalogue (33 rows in Release)") {
+  const occulta::test::BatchCatalogueSize size = occulta::test::batch_catalogue_size();
   const fs::path root = occulta::test::batch_events_dir();
   fs::remove_all(root);
   fs::create_directories(root);
   const std::string bin = shell_quote(occulta::test::occulta_binary().string());
   std::string rows = "id,start,end,views,truth\n";
   const double t0 = occulta::imaging::utc_seconds_from_iso("2031-07-09T03:00:00");
-  for (int n = 0; n < occulta::test::kBatchScenarios; ++n) {
+  for (int n = 0; n < size.scenarios; ++n) {
     const Cme& c = kCmes[n];
     // A cadence that carries the apex from 2 R☉ to the field stop (14.5 R☉) in about 8 frames.
     const double cadence_s = 10.0 * std::round(12.0 * 695700.0 / c.speed / 8.0 / 10.0);
@@ -67,8 +68,8 @@ TEST_CASE("batch fixture: ten synthetic CMEs, three broken events, one catalogue
     const auto made = occulta::test::run_command(bin + " synth --quiet " + shell_quote((dir / "s.scenario.json").string()) +
                                                  " --out " + shell_quote((dir / "frames").string()));
     REQUIRE_MESSAGE(made.exit_code == 0, made.output);
-    // Three windows of seven frames each: frames 0–6, 1–7, 2–8 (a minute's margin).
-    for (int w = 0; w < occulta::test::kBatchWindows; ++w) {
+    // Windows of seven frames each: frames 0–6, 1–7, 2–8 (a minute's margin).
+    for (int w = 0; w < size.windows; ++w) {
       const double from = t0 + w * cadence_s - 60, to = t0 + (w + 6) * cadence_s + 60;
       rows += std::string(name) + "w" + std::to_string(w) + "," + iso(from) + "," + iso(to) + ",a=" + name +
               "/frames/a/*.fits;b=" + name + "/frames/b/*.fits," + name + "/frames/" + name + ".truth.json\n";
@@ -97,5 +98,5 @@ TEST_CASE("batch fixture: ten synthetic CMEs, three broken events, one catalogue
   rows += "missing" + window + "a=broken/nowhere/*.fits,\n";
   rows += "no-observer" + window + "a=broken/no-observer/a/*.fits,\n";
   occulta::test::spit(root / "catalogue.csv", rows);
-  CHECK(std::count(rows.begin(), rows.end(), '\n') == occulta::test::kBatchRows + 1);
+  CHECK(std::count(rows.begin(), rows.end(), '\n') == size.rows() + 1);
 }

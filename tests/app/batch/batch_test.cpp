@@ -6,7 +6,6 @@
 #include <fcntl.h>
 #include <signal.h>
 #include <spawn.h>
-#include <sys/stat.h>
 #include <sys/wait.h>
 #include <unistd.h>
 
@@ -92,13 +91,25 @@ bool wait_until(Condition condition, double limit_s) {
   return condition();
 }
 
-// Events whose child has ended and been stamped (DIR/<id>/batch.json).
-std::size_t stamped(const fs::path& dir) {
+// Events among `ids` whose child has ended and been stamped (DIR/<id>/batch.json).
+std::size_t stamped(const fs::path& dir, const std::vector<std::string>& ids) {
   std::size_t n = 0;
-  std::error_code error;
-  for (fs::directory_iterator it(dir, error), end; !error && it != end; it.increment(error))
-    n += fs::exists(it->path() / "batch.json");
+  for (const std::string& id : ids) n += fs::exists(dir / id / "batch.json");
   return n;
+}
+
+// Events among `ids` stamped with a result: what a resumed run keeps (app/batch_event.hpp can_skip).
+std::size_t stamped_with_result(const fs::path& dir, const std::vector<std::string>& ids) {
+  std::size_t n = 0;
+  for (const std::string& id : ids) n += fs::exists(dir / id / "batch.json") && fs::exists(dir / id / "result.json");
+  return n;
+}
+
+// The ids of shard k of n (1-based k): every n-th row of the catalogue (app/batch_run.cpp).
+std::vector<std::string> shard_ids(const std::vector<Row>& rows, std::size_t k, std::size_t n) {
+  std::vector<std::string> ids;
+  for (std::size_t i = k - 1; i < rows.size(); i += n) ids.push_back(rows[i].at("id"));
+  return ids;
 }
 
 // Processes whose environment names `parent` as their catalogue run's coordinator
@@ -132,19 +143,28 @@ pid_t process_with_argument(const std::string& argument) {
   return -1;
 }
 
-// Kills a coordinator with SIGKILL at a moment fixed by progress (after `events` events
-// are stamped), and checks that none of its children lives on (PR_SET_PDEATHSIG).
-void kill_after(pid_t coordinator, const fs::path& dir, std::size_t events) {
-  REQUIRE(wait_until([&] { return stamped(dir) >= events; }, 900));
+// Kills a shard's coordinator with SIGKILL at a moment fixed by progress (after `events`
+// of its own events are stamped; the shard still has a good event to measure then), checks
+// that none of its children lives on (PR_SET_PDEATHSIG), and returns how many of its
+// events a resumed run must keep.
+std::size_t kill_after(pid_t coordinator, const fs::path& dir, const std::vector<std::string>& ids, std::size_t events) {
+  REQUIRE(wait_until([&] { return stamped(dir, ids) >= events; }, 900));
   kill(coordinator, SIGKILL);
   CHECK(wait_exit(coordinator) == 128 + SIGKILL);
   CHECK(wait_until([&] { return children_of(coordinator).empty(); }, 30));
+  return stamped_with_result(dir, ids);
 }
 
-std::string mpirun_prefix() {
+std::size_t kept_lines(const std::string& log) {
+  std::size_t n = 0;
+  for (std::size_t at = 0; (at = log.find("(kept from before)", at)) != std::string::npos; ++at) ++n;
+  return n;
+}
+
+std::string mpirun_prefix(int ranks = 3) {
   // OpenMPI refuses to run as root unless told (its documented environment variables);
   // LeakSanitizer would report OpenMPI's own allocations kept until exit.
-  std::string prefix = std::string(OCCULTA_MPIRUN) + " --oversubscribe -n 3 ";
+  std::string prefix = std::string(OCCULTA_MPIRUN) + " --oversubscribe -n " + std::to_string(ranks) + " ";
   std::string env = "env";
   if (getuid() == 0) env += " OMPI_ALLOW_RUN_AS_ROOT=1 OMPI_ALLOW_RUN_AS_ROOT_CONFIRM=1";
   const char* asan = std::getenv("ASAN_OPTIONS");
@@ -155,6 +175,8 @@ std::string mpirun_prefix() {
 }  // namespace
 
 TEST_CASE("batch: 33 rows with exactly the 3 broken not ok, and the same results.csv every way it runs") {
+  // 33 rows in Release; 7 under the sanitizers (batch_fixture.hpp), the same checks.
+  const occulta::test::BatchCatalogueSize size = occulta::test::batch_catalogue_size();
   const fs::path events = occulta::test::batch_events_dir();
   const fs::path catalogue = events / "catalogue.csv";
   REQUIRE(fs::exists(catalogue));
@@ -171,7 +193,7 @@ TEST_CASE("batch: 33 rows with exactly the 3 broken not ok, and the same results
   const std::string reference = occulta::test::slurp(dir / "results.csv");
   fs::copy_file(dir / "results.csv", work / "reference.csv", fs::copy_options::overwrite_existing);
   const std::vector<Row> rows = read_table(dir / "results.csv");
-  REQUIRE(rows.size() == occulta::test::kBatchRows);
+  REQUIRE(rows.size() == static_cast<std::size_t>(size.rows()));
   int not_ok = 0;
   for (const Row& r : rows) {
     const std::string id = r.at("id"), status = r.at("status"), problems = r.at("problems");
@@ -248,10 +270,13 @@ TEST_CASE("batch: 33 rows with exactly the 3 broken not ok, and the same results
   CHECK_MESSAGE(occulta::test::slurp(dir / "results.csv") == reference, two.output);
 
   // 3. Shards 1/2 and 2/2 at the same time on one folder, each killed with SIGKILL once
-  // (shard 1 when 6 events of the folder are done, shard 2 when 18 are) and started again
-  // with --resume; then a run without --shard that measures nothing more and writes the
-  // table. Moments fixed by progress, not by time, so the test is the same every run.
+  // (in Release shard 1 when 3 of its events are done, shard 2 when 9 are; under the
+  // sanitizers each after its first) and started again with --resume; then a run without
+  // --shard that measures nothing more and writes the table. Moments fixed by progress,
+  // not by time, so the test is the same every run.
   fs::remove_all(dir);
+  const std::vector<std::string> ids1 = shard_ids(rows, 1, 2), ids2 = shard_ids(rows, 2, 2);
+  const bool small = occulta::test::sanitized_build();
   const std::vector<std::string> shard1 = {catalogue.string(), "--out", dir.string(), "--jobs", "1", "--shard", "1/2"};
   std::vector<std::string> shard2 = shard1;
   shard2.back() = "2/2";
@@ -261,18 +286,17 @@ TEST_CASE("batch: 33 rows with exactly the 3 broken not ok, and the same results
   };
   pid_t first = start_batch(shard1, work / "shard1.log");
   pid_t second = start_batch(shard2, work / "shard2.log");
-  kill_after(first, dir, 6);
+  const std::size_t kept1 = kill_after(first, dir, ids1, small ? 1 : 3);
   first = start_batch(resumed(shard1), work / "shard1-resumed.log");
-  kill_after(second, dir, 18);
+  const std::size_t kept2 = kill_after(second, dir, ids2, small ? 1 : 9);
   second = start_batch(resumed(shard2), work / "shard2-resumed.log");
   const int first_exit = wait_exit(first), second_exit = wait_exit(second);
   CHECK(first_exit == 1);  // each shard holds a broken event or more
   CHECK(second_exit == 1);
-  const std::string again = occulta::test::slurp(work / "shard1-resumed.log") + occulta::test::slurp(work / "shard2-resumed.log");
-  std::size_t kept_lines = 0;
-  for (std::size_t at = 0; (at = again.find("(kept from before)", at)) != std::string::npos; ++at) ++kept_lines;
-  // Every event done before the first kill is kept by its shard's resumed run, not measured again.
-  CHECK(kept_lines >= 6);
+  // Every event done before its shard's kill is kept by the resumed run, not measured again.
+  CHECK(kept1 >= 1);
+  CHECK(kept_lines(occulta::test::slurp(work / "shard1-resumed.log")) == kept1);
+  CHECK(kept_lines(occulta::test::slurp(work / "shard2-resumed.log")) == kept2);
   const auto merged = occulta::test::run_command(batch_command(cat + " --out " + out + " --resume"));
   CHECK_MESSAGE(merged.output.find("; 0 events measured in this run in ") != std::string::npos, merged.output);
   CHECK_MESSAGE(occulta::test::slurp(dir / "results.csv") == reference, merged.output);
@@ -284,40 +308,29 @@ TEST_CASE("batch: 33 rows with exactly the 3 broken not ok, and the same results
   CHECK_MESSAGE(occulta::test::slurp(dir / "results.csv") == reference, mpi.output);
 }
 
-// Whether this is the AddressSanitizer build (GCC defines __SANITIZE_ADDRESS__, clang
-// answers __has_feature).
-#if defined(__SANITIZE_ADDRESS__)
-constexpr bool kSanitized = true;
-#elif defined(__has_feature)
-#if __has_feature(address_sanitizer)
-constexpr bool kSanitized = true;
-#else
-constexpr bool kSanitized = false;
-#endif
-#else
-constexpr bool kSanitized = false;
-#endif
-
 TEST_CASE("batch: an event past --event-timeout and one whose process is killed fail alone, the others finish") {
-  // Two events whose event file is a FIFO with no writer: reading it blocks, as on a hung
-  // network mount. One is left to the time limit; the test kills the other's process.
+  // Two events of the committed sample (2 views × 16 frames of 384², seconds to measure):
+  // the test stops one's process with SIGSTOP, as a child hung on a dead network mount
+  // would be, and leaves it to the time limit; it kills the other's. Both are found while
+  // their first frames are read (the children are the process with --out DIR/<id>).
   const fs::path events = occulta::test::batch_events_dir();
   const fs::path work = occulta::test::scratch_dir("batch_isolation");
-  for (const char* fifo : {"hangs.event.json", "killed.event.json"}) REQUIRE(mkfifo((work / fifo).c_str(), 0644) == 0);
+  const fs::path sample = occulta::test::source_path("sample_frames/sample-2031-03-14.event.json");
   occulta::test::spit(work / "catalogue.csv",
-                      "id,event\nhangs,hangs.event.json\nkilled,killed.event.json\n"
+                      "id,event\nhangs," + sample.string() + "\nkilled," + sample.string() + "\n"
                       "first," + (events / "s02" / "frames" / "s02.event.json").string() + "\n"
                       "second," + (events / "s03" / "frames" / "s03.event.json").string() + "\n");
   const fs::path dir = work / "run";
   // The limit must pass the two good events: a sample-sized measure takes a few seconds in
   // Release but over 30 s under the sanitizers on a loaded machine (seen once), so the
   // sanitized build gives them 150 s.
-  const std::string limit_s = kSanitized ? "150" : "30";
+  const std::string limit_s = occulta::test::sanitized_build() ? "150" : "30";
   const pid_t coordinator = start_batch({(work / "catalogue.csv").string(), "--out", dir.string(), "--jobs", "2",
                                          "--event-timeout", limit_s},
                                         work / "batch.log");
-  // The child measuring `killed` is the process with --out DIR/killed.
-  pid_t child = -1;
+  pid_t hung = -1, child = -1;
+  REQUIRE(wait_until([&] { return (hung = process_with_argument((dir / "hangs").string())) > 0; }, 120));
+  kill(hung, SIGSTOP);
   REQUIRE(wait_until([&] { return (child = process_with_argument((dir / "killed").string())) > 0; }, 120));
   kill(child, SIGKILL);
   const int exit_code = wait_exit(coordinator);
@@ -338,5 +351,35 @@ TEST_CASE("batch: an event past --event-timeout and one whose process is killed 
     CHECK(rows[i].at("status") == "ok");
   }
   // The table names the event file each failed child was measuring, in one sentence.
-  CHECK(rows[0].at("problems").find((work / "hangs.event.json").string()) != std::string::npos);
+  CHECK(rows[0].at("problems").find("measure of " + sample.string()) != std::string::npos);
+}
+
+TEST_CASE("batch: an event whose child cannot be started is a failed row with its sentence, under --jobs and --mpi") {
+  // The event's folder cannot be made: a file already holds its name. No frames are read,
+  // so the case is cheap; the second row (a glob matching nothing) is measured and fails.
+  const fs::path work = occulta::test::scratch_dir("batch_not_started");
+  occulta::test::spit(work / "catalogue.csv",
+                      "id,start,end,views\n"
+                      "blocked,2031-01-01T00:00:00,2031-01-01T06:00:00,a=nowhere/*.fits\n"
+                      "empty,2031-01-01T00:00:00,2031-01-01T06:00:00,a=nowhere/*.fits\n");
+  const std::string cat = shell_quote((work / "catalogue.csv").string());
+  for (const std::string way : {"--jobs 1", "--mpi"}) {
+    CAPTURE(way);
+    const fs::path dir = work / (way == "--mpi" ? "mpi" : "jobs");
+    fs::create_directories(dir);
+    occulta::test::spit(dir / "blocked", "a file where the event's folder would go\n");
+    const std::string arguments = cat + " --out " + shell_quote(dir.string()) + " " + way;
+    const auto run = occulta::test::run_command(way == "--mpi" ? mpirun_prefix(2) + batch_command(arguments)
+                                                               : batch_command(arguments));
+    INFO(run.output);
+    CHECK(run.exit_code == 1);
+    const std::vector<Row> rows = read_table(dir / "results.csv");
+    REQUIRE(rows.size() == 2);
+    CHECK(rows[0].at("id") == "blocked");
+    CHECK(rows[0].at("status") == "failed");
+    CHECK(rows[0].at("problems").starts_with((dir / "blocked").string() + ": cannot be made ("));  // errno's words follow
+    CHECK(run.output.find("occulta: problem: " + (dir / "blocked").string() + ": cannot be made") != std::string::npos);
+    CHECK(rows[1].at("status") == "failed");
+    CHECK(rows[1].at("problems").find("no files match") != std::string::npos);
+  }
 }
