@@ -198,7 +198,9 @@ RenderedFrame render_frame(const imaging::ImageGeometry& geometry, const RenderS
       if (background && p_of[i] < 1.0) {
         const Brightness b = integrate_brightness(ray, background, scene.line_of_sight);
         total[x] += b.total_bsun, pol[x] += b.polarized_bsun;
-      } else if (!bg.empty()) {
+      } else if (!bg.empty() && p_of[i] > 0.0 && std::isfinite(p_of[i]) && hcc_w.allFinite()) {
+        // (A pixel with no finite line of sight gets no background: the table's indices
+        // below would come from NaN.)
         double pa = 0.0;
         if (bg.n_pa > 1) {
           pa = std::atan2(-hcc_w.x(), hcc_w.y());

@@ -363,6 +363,20 @@ std::vector<TileCheck> check_tiles(fitsfile* file, const std::string& source, co
   std::vector<TileCheck> checks;
   checks.reserve(static_cast<std::size_t>(tiles));
   std::vector<unsigned char> bytes;
+  // A tile's bytes in `column`, read the way cfitsio reads them for its decoders.
+  const auto read_bytes = [&](int column, long long row, LONGLONG length, const std::string& tile) {
+    bytes.resize(static_cast<std::size_t>(length));
+    unsigned char null = 0;
+    int any_null = 0;
+    fits_read_col(file, TBYTE, column, row, 1, length, &null, bytes.data(), &any_null, &status);
+    if (status != 0) fail(source, "the compressed bytes of " + tile + " cannot be read", status);
+  };
+  // A gzip stream inflated and counted before cfitsio inflates it: at most 8 bytes a
+  // pixel, the widest values a tile holds (64-bit integers or floats).
+  const auto check_gzip = [&](const std::string& tile, long long pixels) {
+    const std::string problem = check_gzip_tile(bytes, 8 * pixels);
+    if (!problem.empty()) throw InputError(source, "the file is damaged: " + tile + ": " + problem);
+  };
   decoded = pixels != nullptr && decodable(layout);
   std::vector<std::int32_t> values;
   if (decoded) values.resize(static_cast<std::size_t>(layout.maxtilelen > 0 ? layout.maxtilelen : 0));
@@ -387,13 +401,8 @@ std::vector<TileCheck> check_tiles(fitsfile* file, const std::string& source, co
     if (status != 0) fail(source, "the place of " + tile + " cannot be read", status);
     check.stored_bytes = length;
     if (length > 0) {
+      read_bytes(layout.cn_compressed, row, length, tile);
       if (type == RICE_1) {
-        // The bytes cfitsio will hand its decoder, read the way it reads them.
-        bytes.resize(static_cast<std::size_t>(length));
-        unsigned char null = 0;
-        int any_null = 0;
-        fits_read_col(file, TBYTE, layout.cn_compressed, row, 1, length, &null, bytes.data(), &any_null, &status);
-        if (status != 0) fail(source, "the compressed bytes of " + tile + " cannot be read", status);
         if (decoded && check.pixels > static_cast<long long>(values.size())) values.resize(static_cast<std::size_t>(check.pixels));
         const RiceTrace trace = decoded ? decode_rice(bytes, check.pixels, blocksize, bytepix, values.data())
                                         : trace_rice(bytes, check.pixels, blocksize, bytepix);
@@ -414,16 +423,7 @@ std::vector<TileCheck> check_tiles(fitsfile* file, const std::string& source, co
           }
         }
       }
-      if (type == GZIP_1 || type == GZIP_2) {
-        bytes.resize(static_cast<std::size_t>(length));
-        unsigned char null = 0;
-        int any_null = 0;
-        fits_read_col(file, TBYTE, layout.cn_compressed, row, 1, length, &null, bytes.data(), &any_null, &status);
-        if (status != 0) fail(source, "the compressed bytes of " + tile + " cannot be read", status);
-        // At most 8 bytes a pixel: the widest values a tile holds (64-bit integers or floats).
-        const std::string problem = check_gzip_tile(bytes, 8 * check.pixels);
-        if (!problem.empty()) throw InputError(source, "the file is damaged: " + tile + ": " + problem);
-      }
+      if (type == GZIP_1 || type == GZIP_2) check_gzip(tile, check.pixels);
     } else if (layout.cn_uncompressed > 0) {
       // A tile the writer could not compress, stored as plain values (the convention's
       // UNCOMPRESSED_DATA); cfitsio copies as many as the descriptor says into the
@@ -440,13 +440,8 @@ std::vector<TileCheck> check_tiles(fitsfile* file, const std::string& source, co
       fits_read_descriptll(file, layout.cn_gzip_data, row, &length, &offset, &status);
       if (status != 0) fail(source, "the place of " + tile + " cannot be read", status);
       if (length < 1) throw InputError(source, "the file is damaged: " + tile + " holds no data in any column");
-      bytes.resize(static_cast<std::size_t>(length));
-      unsigned char null = 0;
-      int any_null = 0;
-      fits_read_col(file, TBYTE, layout.cn_gzip_data, row, 1, length, &null, bytes.data(), &any_null, &status);
-      if (status != 0) fail(source, "the compressed bytes of " + tile + " cannot be read", status);
-      const std::string problem = check_gzip_tile(bytes, 8 * check.pixels);
-      if (!problem.empty()) throw InputError(source, "the file is damaged: " + tile + ": " + problem);
+      read_bytes(layout.cn_gzip_data, row, length, tile);
+      check_gzip(tile, check.pixels);
     } else {
       throw InputError(source, "the file is damaged: " + tile + " holds no data in any column");
     }

@@ -13,8 +13,9 @@ namespace occulta::test {
 
 std::filesystem::path scratch_dir(const std::string& name) {
   const char* root = std::getenv("OCCULTA_TEST_TMP");
-  std::filesystem::path base = root ? std::filesystem::path(root)
-                                    : std::filesystem::temp_directory_path() / "occulta-tests";
+  // Without it (a test binary run by hand), the build tree's own test-tmp, as under ctest:
+  // two trees (Release and ASan, or two worktrees) never share scratch folders.
+  std::filesystem::path base = root ? std::filesystem::path(root) : std::filesystem::path(OCCULTA_BINARY_DIR) / "test-tmp";
   std::filesystem::path dir = base / name;
   std::filesystem::remove_all(dir);
   std::filesystem::create_directories(dir);

@@ -11,8 +11,8 @@
 
 namespace occulta::test {
 
-// A fresh, empty folder for one test case: $OCCULTA_TEST_TMP/<name> (or the system's
-// temporary folder), emptied when made. It is left behind afterwards to look at.
+// A fresh, empty folder for one test case: $OCCULTA_TEST_TMP/<name> (or the build tree's
+// test-tmp/<name>), emptied when made. It is left behind afterwards to look at.
 std::filesystem::path scratch_dir(const std::string& name);
 
 // Whether this build runs under AddressSanitizer (the build-asan/ tree): suites whose
