@@ -141,8 +141,12 @@ TEST_CASE("shell measure: the reported uncertainty covers the truth over 20 nois
   // straight line through the true sky-plane leading edge over the heights the finder
   // examines, as in measure_test.cpp.
   const occulta::imaging::FrontOptions finder;
+  // Under the sanitizers (CI's second pass) 4 realisations check the code path's memory;
+  // the statistics need all 20 and are checked in the Release pass.
+  const bool statistics = !occulta::test::sanitized_build();
+  const unsigned realisations = statistics ? 20 : 4;
   int speed_in = 0, lon_in = 0, runs = 0, sky_in = 0, sky_compared = 0;
-  for (unsigned seed = 500; seed < 520; ++seed) {
+  for (unsigned seed = 500; seed < 500 + realisations; ++seed) {
     std::string text = scenario(c, seed);
     const auto at = text.find("\"size_px\": 192");
     REQUIRE(at != std::string::npos);
@@ -173,7 +177,8 @@ TEST_CASE("shell measure: the reported uncertainty covers the truth over 20 nois
   CAPTURE(lon_in);
   CAPTURE(sky_in);
   CAPTURE(sky_compared);
-  CHECK(runs == 20);
+  CHECK(runs == int(realisations));
+  if (!statistics) return;
   CHECK(speed_in >= 17);
   CHECK(lon_in >= 17);
   CHECK(sky_compared >= 36);  // both views, in nearly every realisation
