@@ -621,11 +621,14 @@ void cme_list(const WindowState& state, std::vector<Action>& out) {
         std::snprintf(one, sizeof one, "%s%s %.0f°", pas.empty() ? "" : ", ", v.view.c_str(), v.central_pa_deg);
         pas += one;
       }
+      // Wrapped: long view names or σ "unknown" must not run out of the column.
+      ImGui::PushTextWrapPos(0);
       ImGui::TextDisabled("  onset %s   PA %s", std::isfinite(r.onset_utc_s) ? clock(r.onset_utc_s).substr(11, 8).c_str() : "?",
                           pas.empty() ? "—" : pas.c_str());
-      ImGui::TextDisabled("  %s   lon %s, lat %s", with_sigma(r.speed_km_s, r.speed_sigma_km_s, "%.0f", "km/s").c_str(),
-                          with_sigma(r.lon_deg, r.lon_sigma_deg, "%.1f", "°").c_str(),
+      ImGui::TextDisabled("  speed %s", with_sigma(r.speed_km_s, r.speed_sigma_km_s, "%.0f", "km/s").c_str());
+      ImGui::TextDisabled("  lon %s, lat %s", with_sigma(r.lon_deg, r.lon_sigma_deg, "%.1f", "°").c_str(),
                           with_sigma(r.lat_deg, r.lat_sigma_deg, "%.1f", "°").c_str());
+      ImGui::PopTextWrapPos();
     }
     if (rows.size() > 1) {
       ImGui::PushTextWrapPos(0);
