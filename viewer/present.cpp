@@ -224,7 +224,7 @@ int present(WindowState state, std::vector<ViewSource> sources, const std::vecto
   std::vector<std::uint32_t> scratch;
   {
     Loader loader(std::move(sources));
-    bool script_applied = false, measured_on_load = false;
+    bool script_applied = false;
     std::future<action::FitDone> fitting;  // the measurement running on a worker thread
     auto last_autosave = std::chrono::steady_clock::now();
     auto last_step = std::chrono::steady_clock::now();
@@ -266,13 +266,7 @@ int present(WindowState state, std::vector<ViewSource> sources, const std::vecto
       textures.push_back(font);
       ImGui_ImplGlfw_NewFrame();
       ImGui::NewFrame();
-      std::vector<Action> actions = draw_window(state, shown, views, loading, g_pressed);
-      // Once loaded (and the script applied), the automatic measurement, so that the CMEs
-      // found are listed at once (ui.hpp) — unless the script measured already.
-      if (script_applied && !measured_on_load) {
-        measured_on_load = true;
-        if (!state.measured && session.input) actions.push_back(action::Fit{"auto"});
-      }
+      const std::vector<Action> actions = draw_window(state, shown, views, loading, g_pressed);
       g_pressed.clear();
       ImGui::Render();
       Framebuffer fb(w, h, look.background);

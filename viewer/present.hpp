@@ -9,8 +9,7 @@
 // sentence that points to --snapshot, and returns 1.
 //
 // The views load on a worker thread (pictures.hpp Loader) while the window stays
-// responsive, with progress shown; `script` is applied once they have loaded, then (when
-// the script did not measure) the automatic measurement runs, listing the CMEs found. Playing
+// responsive, with progress shown; `script` is applied once they have loaded. Playing
 // steps one frame each kPlayStepS, wrapping at the end. Every fit the analyst asks for
 // (the automatic one gives the automatic track to show and adopt) runs on a worker
 // thread; the window keeps drawing meanwhile. Points changed and not saved are

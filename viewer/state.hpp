@@ -108,8 +108,8 @@ struct WindowState {
   std::optional<SkyMark> tie_first;
   std::vector<TiePoint> ties;
 
-  // The measurement (fit/measurement.hpp, the one `measure` runs): the last fit's, or the
-  // automatic one made on load; shared, never changed (copies of the state stay cheap).
+  // The measurement (fit/measurement.hpp, the one `measure` runs): the last fit's; shared,
+  // never changed (copies of the state stay cheap).
   std::string event_id;
   std::shared_ptr<const fit::Measurement> measured;
   std::string measured_points;          // the points it used: "analyst", "auto" or "both"
