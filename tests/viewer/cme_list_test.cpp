@@ -134,7 +134,7 @@ TEST_CASE("CME list: a click on the second CME's row in the drawn window picks i
   // Down the work column (the right quarter of the window): the first place whose click
   // picks CME 2 — each tried on a copy, so other controls' clicks leave no trace.
   bool picked = false;
-  for (float y = 40.0f; y < float(s.height) && !picked; y += 3.0f) {
+  for (float y = 40.0f; y < float(s.height) && !picked; y += 6.0f) {  // rows are ~20 px high
     WindowState tried = s;
     click_window(tried, {}, action::Click{float(s.width) - 150.0f, y});
     if (shown_cme(tried)->index == 2) {
