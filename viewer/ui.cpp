@@ -606,8 +606,8 @@ void cme_list(const WindowState& state, std::vector<Action>& out) {
   if (rows.empty()) {
     ImGui::TextColored(ImGui::ColorConvertU32ToFloat4(kProblem), "no CME found");
   } else {
-    if (rows.size() == 1) ImGui::TextUnformatted("1 CME found");
-    else ImGui::Text("%zu CMEs found: pick one", rows.size());
+    if (rows.size() == 1) ImGui::TextUnformatted("1 CME measured");
+    else ImGui::Text("%zu CMEs measured: pick one", rows.size());
     for (const CmeRow& r : rows) {
       std::string head = "CME " + std::to_string(r.number) + "  " + r.association + ", " + r.status;
       if (r.primary) head += ", primary";
