@@ -113,8 +113,8 @@ struct WindowState {
   std::string event_id;
   std::shared_ptr<const fit::Measurement> measured;
   std::string measured_points;          // the points it used: "analyst", "auto" or "both"
-  // The CME shown (index into measured->cmes; viewer/cme_list.hpp): its tracks, height–time
-  // fits, shell and answer. After a measurement: the analyst's CME when their points made
+  // The CME shown (index into measured->cmes; viewer/cme_list.hpp): its leading edges and
+  // tracks, height–time fits, shell and answer. After a measurement: the analyst's CME when their points made
   // one, else the primary; the analyst picks another from the list.
   int cme = 0;
   double measured_seconds = 0.0;        // how long it took

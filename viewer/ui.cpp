@@ -206,9 +206,34 @@ int draw_points(ImDrawList& draw, const PlotFrame& frame, const WindowState& sta
   return picked;
 }
 
-// The automatic tracks of the measurement's CMEs in this view (the analyst's points are
-// drawn as points): the shown CME's strong, the others faint, each labelled "CME k" at its
-// point on this frame.
+// A front's leading edge on this frame (imaging/front.hpp Front::leading_edge_rs, per PA
+// column of the measurement's polar grid), as runs of neighbouring columns.
+void draw_leading_edge(ImDrawList& draw, const PlotFrame& frame, bool polar, const fit::ViewMeasurement& v, double utc_s,
+                       ImU32 colour, float thickness) {
+  const imaging::PolarSequence& seq = v.polar;
+  for (std::size_t k = 0; k < seq.utc_s.size() && k < v.front.leading_edge_rs.size(); ++k) {
+    if (std::abs(seq.utc_s[k] - utc_s) >= kSameFrameS) continue;
+    const std::vector<float>& edge = v.front.leading_edge_rs[k];
+    std::vector<ImVec2> run;
+    const auto flush = [&] {
+      if (run.size() > 1) draw.AddPolyline(run.data(), int(run.size()), colour, ImDrawFlags_None, thickness);
+      run.clear();
+    };
+    for (std::size_t c = 0; c < edge.size(); ++c) {
+      if (!std::isfinite(edge[c])) {
+        flush();
+        continue;
+      }
+      const MarkedPoint p{v.name, utc_s, seq.polar.pa_deg(int(c)), double(edge[c])};
+      run.push_back(polar ? frame.to_pixel(p.pa_deg, p.height_rs) : frame.to_pixel(sky_x_rs(p), sky_y_rs(p)));
+    }
+    flush();
+  }
+}
+
+// The measurement's CMEs in this view: each front's leading edge on this frame and its
+// automatic track (the analyst's points are drawn as points) — the shown CME's strong, the
+// others faint — each labelled "CME k" at its point on this frame.
 void draw_cme_tracks(ImDrawList& draw, const PlotFrame& frame, bool polar, const WindowState& state, const std::string& view,
                      double utc_s) {
   if (!state.measured) return;
@@ -217,8 +242,10 @@ void draw_cme_tracks(ImDrawList& draw, const PlotFrame& frame, bool polar, const
   draw.PushClipRect(frame.pixel_min, frame.pixel_max, true);
   for (const fit::CmeMeasurement& cme : state.measured->cmes)
     for (const fit::ViewMeasurement& v : cme.views) {
-      if (v.name != view || v.by_analyst) continue;
+      if (v.name != view) continue;
       const bool strong = &cme == shown;
+      if (v.front.found) draw_leading_edge(draw, frame, polar, v, utc_s, strong ? kAutomatic : kOtherCme, 1.0f);
+      if (v.by_analyst) continue;
       for (const fit::TrackPoint& p : v.points) {
         const bool here = std::abs(p.utc_s - utc_s) < kSameFrameS;
         const MarkedPoint m{view, p.utc_s, p.pa_deg, p.height_rs};
