@@ -4,6 +4,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdio>
 
 #include "fit/arrival_json.hpp"
 #include "fit/json_file.hpp"
@@ -132,25 +133,40 @@ void measure_sighting(ViewMeasurement& m, const imaging::Front& found, const std
   if (!points.empty()) m.track_pa_deg = points.front().pa_deg;
 }
 
+// How far outside a front's PA span the mean PA of the analyst's points may lie and still
+// be that front's: the association's PA tolerance (fit/associate.hpp, 20°), our choice.
+constexpr double kMarkedNearFrontDeg = 20.0;
+
+// Whether a PA lies within a front's span widened by `margin_deg` on each side.
+bool within_span(const imaging::Front& front, double pa_deg, double margin_deg) {
+  if (front.encircles) return true;
+  const double span = std::fmod(front.pa_to_deg - front.pa_from_deg + 720.0, 360.0) + 2.0 * margin_deg;
+  return span >= 360.0 || std::fmod(pa_deg - (front.pa_from_deg - margin_deg) + 720.0, 360.0) <= span;
+}
+
 // Every CME a measured view sees: one sighting per front, each tracked under the other
 // fronts above it (imaging::ceiling_under). The analyst's points for the view go to the
-// front nearest their mean PA (and replace its automatic track), or stand alone when the
-// view found none. A view that sees nothing keeps one sighting without a front.
+// front nearest their mean PA (and replace its automatic track) when that mean lies within
+// the front's span (± kMarkedNearFrontDeg); else they are a CME the finder missed and stand
+// alone, as they do when the view found none. A view that sees nothing keeps one sighting
+// without a front.
 void find_sightings(const ViewMeasurement& v, const imaging::FrontSet& set, const Track* analyst, ViewSightings& part) {
   std::vector<TrackPoint> marked;
   if (analyst)
     for (const TrackPoint& p : analyst->points)
       if (p.view == v.name) marked.push_back(p);
   std::size_t marked_front = set.fronts.size();
+  double mean_pa = 0.0;
   if (!marked.empty() && !set.fronts.empty()) {
     double sum_sin = 0.0, sum_cos = 0.0;
     for (const TrackPoint& p : marked) sum_sin += std::sin(p.pa_deg * kRadPerDeg), sum_cos += std::cos(p.pa_deg * kRadPerDeg);
-    const double mean_pa = std::atan2(sum_sin, sum_cos) * kDegPerRad;
+    mean_pa = std::fmod(std::atan2(sum_sin, sum_cos) * kDegPerRad + 360.0, 360.0);
     double nearest = 1e9;
     for (std::size_t f = 0; f < set.fronts.size(); ++f) {
       const double d = std::abs(std::remainder(set.fronts[f].central_pa_deg - mean_pa, 360.0));
       if (d < nearest) nearest = d, marked_front = f;
     }
+    if (!within_span(set.fronts[marked_front], mean_pa, kMarkedNearFrontDeg)) marked_front = set.fronts.size();
   }
   const auto add = [&](const imaging::Front& front, const std::vector<TrackPoint>& points,
                        const std::vector<double>& ceiling) {
@@ -174,6 +190,18 @@ void find_sightings(const ViewMeasurement& v, const imaging::FrontSet& set, cons
     const imaging::Front& front = set.fronts[f];
     add(front, f == marked_front ? marked : std::vector<TrackPoint>{},
         imaging::ceiling_under(front, others, v.polar, front.outermost_pa_deg));
+  }
+  if (!marked.empty() && marked_front == set.fronts.size()) {
+    // A CME the finder missed, by the analyst's word: their points, no front.
+    imaging::Front none;
+    char why[160];
+    std::snprintf(why, sizeof why,
+                  "no CME found along the analyst's points (mean PA %.0f°): they are measured as a CME of their own.",
+                  mean_pa);
+    none.why_not = why;
+    none.leading_edge_rs.assign(v.polar.frames.size(), std::vector<float>(std::size_t(v.polar.polar.pa_count),
+                                                                          std::numeric_limits<float>::quiet_NaN()));
+    add(none, marked, {});
   }
 }
 

@@ -125,9 +125,13 @@ void measure_cmes(const Event& event, const MeasurementOptions& o, const std::ve
   std::vector<imaging::Observer> observers;
   for (const ViewMeasurement& v : measured) observers.push_back(v.observer);
   std::vector<std::size_t> marked_views;
-  for (std::size_t i = 0; i < parts.size(); ++i)
+  bool marked_missed = false;  // the analyst's points lie away from the CMEs found in their view
+  for (std::size_t i = 0; i < parts.size(); ++i) {
+    const bool view_found = std::any_of(parts[i].sightings.begin(), parts[i].sightings.end(),
+                                        [](const ViewMeasurement& s) { return s.front.found; });
     for (const ViewMeasurement& s : parts[i].sightings)
-      if (s.by_analyst) marked_views.push_back(i);
+      if (s.by_analyst) marked_views.push_back(i), marked_missed = marked_missed || (view_found && !s.front.found);
+  }
   for (std::size_t i = 0; i < parts.size(); ++i) {
     int found = 0;
     for (const ViewMeasurement& s : parts[i].sightings) found += s.front.found || s.by_analyst;
@@ -135,9 +139,12 @@ void measure_cmes(const Event& event, const MeasurementOptions& o, const std::ve
       const ViewMeasurement& s = parts[i].sightings[j];
       if (!s.front.found && !s.by_analyst) continue;
       // The analyst's CME: their points, and the one CME of a view they marked nothing in
-      // (the automatic track completes their measurement there, as it always did).
+      // (the automatic track completes their measurement there, as it always did) — unless
+      // their points lie away from the CMEs their view found (one the finder missed): the
+      // other view's CME is then as likely another, and left to the association.
       const bool view_marked = std::find(marked_views.begin(), marked_views.end(), i) != marked_views.end();
-      if (s.by_analyst || (!marked_views.empty() && !view_marked && found == 1)) marked.push_back(int(seen.size()));
+      if (s.by_analyst || (!marked_missed && !marked_views.empty() && !view_marked && found == 1))
+        marked.push_back(int(seen.size()));
       seen.push_back({i, j});
     }
   }

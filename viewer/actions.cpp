@@ -3,6 +3,7 @@
 
 #include "fit/measurement.hpp"
 #include "fit/shell.hpp"
+#include "viewer/cme_list.hpp"
 #include "viewer/shell_overlay.hpp"
 
 #include <algorithm>
@@ -69,10 +70,10 @@ void step_back(std::vector<std::vector<MarkedPoint>>& from, std::vector<std::vec
   s.unsaved = true;
 }
 
-// The points a measurement took from its automatic track (not the analyst's).
-std::vector<MarkedPoint> automatic_points(const fit::Measurement& m) {
+// The points a CME's measurement took from its automatic track (not the analyst's).
+std::vector<MarkedPoint> automatic_points(const std::vector<fit::ViewMeasurement>& views) {
   std::vector<MarkedPoint> out;
-  for (const fit::ViewMeasurement& v : m.views)
+  for (const fit::ViewMeasurement& v : views)
     if (!v.by_analyst)
       for (const fit::TrackPoint& p : v.points) out.push_back({p.view, p.utc_s, p.pa_deg, p.height_rs, true});
   return out;
@@ -91,6 +92,18 @@ ShellControls controls_of(const fit::ShellFit& fit, ShellControls c) {
   c.speed_km_s = fit.law.speed_km_s;
   c.accel_m_s2 = fit.law.accel_m_s2;
   return c;
+}
+
+// The shown CME (viewer/cme_list.hpp) in the shell's controls and, after an automatic fit,
+// as the automatic track to adopt; a measurement without CMEs shows its top level.
+void show_cme(WindowState& s) {
+  const fit::CmeMeasurement* cme = shown_cme(s);
+  const std::vector<fit::ViewMeasurement>& views = cme ? cme->views : s.measured->views;
+  const std::optional<fit::ShellFit>& fit = cme ? cme->shell.fit : s.measured->shell.fit;
+  if (s.measured_points == "auto") s.auto_points = automatic_points(views);
+  if (fit) s.shell = controls_of(*fit, s.shell);
+  // No fit: hide the outline rather than show another CME's shell as this one's.
+  if (fit || s.measured->cmes.size() > 1) s.shell.shown = bool(fit);
 }
 
 // " and N tie(s)" when the state holds ties: what a saved or read track file holds.
@@ -244,11 +257,18 @@ void apply(WindowState& s, const Action& a) {
             s.measured = d.measured;
             s.measured_points = d.points;
             s.measured_seconds = d.seconds;
-            if (d.points == "auto") s.auto_points = automatic_points(*d.measured);
-            if (const auto& fit = d.measured->shell.fit) {
-              s.shell = controls_of(*fit, s.shell);
-              s.shell.shown = true;
-            }
+            // The CME shown: the one the analyst's points made, else the primary.
+            const auto& cmes = d.measured->cmes;
+            const auto marked = std::find_if(cmes.begin(), cmes.end(), [](const fit::CmeMeasurement& c) {
+              return std::any_of(c.views.begin(), c.views.end(), [](const fit::ViewMeasurement& v) { return v.by_analyst; });
+            });
+            s.cme = marked != cmes.end() ? int(marked - cmes.begin()) : d.measured->primary;
+            show_cme(s);
+          },
+          [&](const action::PickCme& p) {
+            if (!s.measured || p.number < 1 || p.number > int(s.measured->cmes.size())) return;
+            s.cme = p.number - 1;
+            show_cme(s);
           },
           [&](const action::Adopt& adopt) {
             if (adopt.index >= int(s.auto_points.size()) || s.auto_points.empty()) return;

@@ -79,6 +79,11 @@ struct FitDone {
   double seconds = 0.0;
   std::string message;
 };
+// The CME the window shows, by its number in the measurement (result.json's `index`, from
+// 1; viewer/cme_list.hpp): its tracks on the frames, its height–time fits, its shell in the
+// controls (hidden when it has none) and its answer. A number the measurement does not
+// have changes nothing. {"do": "cme", "index": 2}
+struct PickCme { int number = 1; };
 // The automatic track's points adopted as points of the analyst's list (then editable):
 // one by its index in auto_points, or all (−1). {"do": "adopt", "index": 3}; {"do": "adopt"}
 struct Adopt { int index = -1; };
@@ -122,7 +127,7 @@ using Action = std::variant<action::Frame, action::Step, action::ShowDisplay, ac
                             action::TieMode, action::TieFirst, action::AddTie, action::Tie, action::ClearTies,
                             action::Fit, action::FitDone, action::Adopt, action::SaveTrack, action::LoadTrack,
                             action::Export, action::TrackRead, action::Saved, action::Note, action::QuitAnyway,
-                            action::KeepWorking, action::Help, action::HeightTimePa>;
+                            action::KeepWorking, action::Help, action::HeightTimePa, action::PickCme>;
 
 void apply(WindowState& state, const Action& action);
 

@@ -5,12 +5,18 @@
 #include <deque>
 #include <numbers>
 
+#include "fit/measurement.hpp"
 #include "imaging/constants.hpp"
+#include "viewer/cme_list.hpp"
 
 namespace occulta::viewer {
 
 std::optional<double> height_time_pa(const WindowState& state, const std::string& view) {
   if (std::isfinite(state.height_time_pa_deg)) return state.height_time_pa_deg;
+  // The shown CME's automatic track in this view (viewer/cme_list.hpp): where it was followed.
+  if (const fit::ViewMeasurement* seen = shown_sighting(state, view);
+      seen && !seen->by_analyst && std::isfinite(seen->track_pa_deg))
+    return seen->track_pa_deg;
   double s = 0.0, c = 0.0;
   int n = 0;
   for (const MarkedPoint& p : state.points)

@@ -19,7 +19,8 @@
 namespace occulta::viewer {
 
 // The PA a view's height–time panel follows: the one picked (state.height_time_pa_deg),
-// else the mean direction of the view's points, else none.
+// else the shown CME's automatic track in the view (viewer/cme_list.hpp), else the mean
+// direction of the view's points, else none.
 std::optional<double> height_time_pa(const WindowState& state, const std::string& view);
 
 // The time–height map along pa_deg: per frame, the mean of the polar running difference's

@@ -193,6 +193,10 @@ Action parse_action(const json& item, const std::string& source, std::size_t ind
     action = name == "save_track" ? Action{action::SaveTrack{path}} : Action{action::LoadTrack{path}};
   } else if (name == "height_time_pa") {
     action = action::HeightTimePa{args.has("pa_deg") ? args.number("pa_deg") : std::numeric_limits<double>::quiet_NaN()};
+  } else if (name == "cme") {
+    const int number = args.integer("index");
+    if (number < 1) args.fail("\"index\" counts the CMEs from 1, as result.json's cmes[].index");
+    action = action::PickCme{number};
   } else if (name == "help") {
     action = action::Help{args.boolean("shown")};
   } else if (name == "export") {
@@ -208,7 +212,7 @@ Action parse_action(const json& item, const std::string& source, std::size_t ind
                                           "\" is not an action (frame, step, display, view, contrast, colours, "
                                           "play, pause, resize, hover, leave, quit, point, move, select, delete, "
                                           "undo, redo, click, shell, tie_mode, tie, clear_ties, fit, adopt, save_track, "
-                                          "load_track, export, help, height_time_pa)");
+                                          "load_track, export, help, height_time_pa, cme)");
   }
   args.finish();
   return action;

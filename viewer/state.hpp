@@ -108,14 +108,18 @@ struct WindowState {
   std::optional<SkyMark> tie_first;
   std::vector<TiePoint> ties;
 
-  // The measurement (fit/measurement.hpp, the one `measure` runs): the last fit's, or the
-  // automatic one made on load; shared, never changed (copies of the state stay cheap).
+  // The measurement (fit/measurement.hpp, the one `measure` runs): the last fit's; shared,
+  // never changed (copies of the state stay cheap).
   std::string event_id;
   std::shared_ptr<const fit::Measurement> measured;
   std::string measured_points;          // the points it used: "analyst", "auto" or "both"
+  // The CME shown (index into measured->cmes; viewer/cme_list.hpp): its leading edges and
+  // tracks, height–time fits, shell and answer. After a measurement: the analyst's CME when their points made
+  // one, else the primary; the analyst picks another from the list.
+  int cme = 0;
   double measured_seconds = 0.0;        // how long it took
   std::string fit_request;              // a fit asked for and not yet done ("": none)
-  std::vector<MarkedPoint> auto_points; // the automatic track of the measurement on load
+  std::vector<MarkedPoint> auto_points; // the automatic track of the shown CME (after an automatic fit)
   std::string track_path;               // where the points were last saved or loaded from
   std::string message;                  // the last file or fit action's outcome, one sentence
   bool asking_quit = false;             // quit asked with unsaved points: the window asks

@@ -9,6 +9,7 @@
 
 #include "fit/measurement.hpp"
 #include "imaging/time.hpp"
+#include "viewer/cme_list.hpp"
 #include "viewer/height_time.hpp"
 #include "viewer/shell_overlay.hpp"
 #include "viewer/stereo.hpp"
@@ -30,6 +31,9 @@ constexpr ImU32 kAutomatic = IM_COL32(110, 200, 255, 255), kAutomaticFaint = IM_
 constexpr ImU32 kPointEdge = IM_COL32(0, 0, 0, 200);
 constexpr ImU32 kSelected = IM_COL32(255, 255, 255, 255);
 constexpr ImU32 kShell = IM_COL32(70, 235, 200, 255);  // the shell's outline
+// The measurement's automatic tracks: the shown CME's hollow sky-blue squares, the other
+// CMEs' hollow grey ones, each labelled with its number on the frame it was found on.
+constexpr ImU32 kOtherCme = IM_COL32(200, 200, 200, 150);
 constexpr ImU32 kTie = IM_COL32(255, 110, 220, 255);    // tie points and epipolar lines
 constexpr double kEpipolarReachRs = 40.0;               // drawn out to this far from Sun centre
 // A click within this many pixels of a point of the shown frame takes that point.
@@ -202,6 +206,75 @@ int draw_points(ImDrawList& draw, const PlotFrame& frame, const WindowState& sta
   return picked;
 }
 
+// A front's leading edge on this frame (imaging/front.hpp Front::leading_edge_rs, per PA
+// column of the measurement's polar grid), as runs of neighbouring columns.
+void draw_leading_edge(ImDrawList& draw, const PlotFrame& frame, bool polar, const fit::ViewMeasurement& v, double utc_s,
+                       ImU32 colour, float thickness) {
+  const imaging::PolarSequence& seq = v.polar;
+  for (std::size_t k = 0; k < seq.utc_s.size() && k < v.front.leading_edge_rs.size(); ++k) {
+    if (std::abs(seq.utc_s[k] - utc_s) >= kSameFrameS) continue;
+    const std::vector<float>& edge = v.front.leading_edge_rs[k];
+    std::vector<ImVec2> run;
+    const auto flush = [&] {
+      if (run.size() > 1) draw.AddPolyline(run.data(), int(run.size()), colour, ImDrawFlags_None, thickness);
+      run.clear();
+    };
+    for (std::size_t c = 0; c < edge.size(); ++c) {
+      if (!std::isfinite(edge[c])) {
+        flush();
+        continue;
+      }
+      const MarkedPoint p{v.name, utc_s, seq.polar.pa_deg(int(c)), double(edge[c])};
+      run.push_back(polar ? frame.to_pixel(p.pa_deg, p.height_rs) : frame.to_pixel(sky_x_rs(p), sky_y_rs(p)));
+    }
+    flush();
+  }
+}
+
+// The measurement's CMEs in this view: each front's leading edge on this frame and its
+// automatic track (the analyst's points are drawn as points) — the shown CME's strong, the
+// others faint — each labelled "CME k" at its point on this frame.
+void draw_cme_tracks(ImDrawList& draw, const PlotFrame& frame, bool polar, const WindowState& state, const std::string& view,
+                     double utc_s) {
+  if (!state.measured) return;
+  const fit::CmeMeasurement* shown = shown_cme(state);
+  const bool several = state.measured->cmes.size() > 1;
+  draw.PushClipRect(frame.pixel_min, frame.pixel_max, true);
+  for (const fit::CmeMeasurement& cme : state.measured->cmes)
+    for (const fit::ViewMeasurement& v : cme.views) {
+      if (v.name != view) continue;
+      const bool strong = &cme == shown;
+      if (v.front.found) draw_leading_edge(draw, frame, polar, v, utc_s, strong ? kAutomatic : kOtherCme, 1.0f);
+      if (v.by_analyst) continue;
+      for (const fit::TrackPoint& p : v.points) {
+        const bool here = std::abs(p.utc_s - utc_s) < kSameFrameS;
+        const MarkedPoint m{view, p.utc_s, p.pa_deg, p.height_rs};
+        const ImVec2 at = polar ? frame.to_pixel(p.pa_deg, p.height_rs) : frame.to_pixel(sky_x_rs(m), sky_y_rs(m));
+        const float r = here ? 5.0f : 3.0f;
+        const ImU32 colour = strong ? (here ? kAutomatic : kAutomaticFaint) : kOtherCme;
+        if (!here && !strong) continue;  // the other CMEs on their own frame only
+        draw.AddRect(ImVec2(at.x - r, at.y - r), ImVec2(at.x + r, at.y + r), colour, 0.0f, 0, here ? 1.5f : 1.0f);
+        if (here && several) draw.AddText(ImVec2(at.x + r + 2, at.y - r - 2), colour, ("CME " + std::to_string(cme.index)).c_str());
+      }
+    }
+  draw.PopClipRect();
+}
+
+// A height–time law over the panel's times with its ±1σ band (height_sigma_rs).
+void draw_law(ImDrawList& draw, const PlotFrame& frame, const ImageExtent& e, const fit::HeightTimeFit& fit, ImU32 colour,
+              ImU32 band) {
+  std::vector<DataPoint> law, above, below;
+  for (int i = 0; i <= 60; ++i) {
+    const double t = e.left + (e.right - e.left) * i / 60.0, h = fit.law.height_at(t), s = height_sigma_rs(fit, t);
+    law.push_back({t, h});
+    above.push_back({t, h + s});
+    below.push_back({t, h - s});
+  }
+  draw_line(draw, frame, above, band, 1.0f);
+  draw_line(draw, frame, below, band, 1.0f);
+  draw_line(draw, frame, law, colour, 1.5f);
+}
+
 // One view's panel in [lo, hi]; the cursor's action when it is over the image. Whether
 // the mouse is over the image.
 // The view's height–time panel: the map along its PA, the displayed time, the kinematic fit
@@ -226,17 +299,14 @@ void height_time_panel(const WindowState& state, const ShownView& shown, ImVec2 
   draw.PushClipRect(frame.pixel_min, frame.pixel_max, true);
   const double now = shown.view->frames[std::size_t(shown.frame)].utc_s;
   draw.AddLine(frame.to_pixel(now, e.bottom), frame.to_pixel(now, e.top), IM_COL32(255, 255, 255, 90), 1.0f);
-  if (const auto fit = height_time_fit(state, *shown.view)) {
-    std::vector<DataPoint> law, above, below;
-    for (int i = 0; i <= 60; ++i) {
-      const double t = e.left + (e.right - e.left) * i / 60.0, h = fit->law.height_at(t), s = height_sigma_rs(*fit, t);
-      law.push_back({t, h});
-      above.push_back({t, h + s});
-      below.push_back({t, h - s});
+  if (const auto fit = height_time_fit(state, *shown.view)) draw_law(draw, frame, e, *fit, kShell, IM_COL32(70, 235, 200, 140));
+  // The shown CME's automatic track in this view and the measurement's fit of it.
+  if (const fit::ViewMeasurement* seen = shown_sighting(state, shown.view->name); seen && !seen->by_analyst) {
+    if (seen->kinematics_ok()) draw_law(draw, frame, e, *seen->kinematics, kAutomatic, kAutomaticFaint);
+    for (const fit::TrackPoint& p : seen->points) {
+      const ImVec2 at = frame.to_pixel(p.utc_s, p.height_rs);
+      draw.AddRect(ImVec2(at.x - 3, at.y - 3), ImVec2(at.x + 3, at.y + 3), kAutomatic);
     }
-    draw_line(draw, frame, above, IM_COL32(70, 235, 200, 140), 1.0f);
-    draw_line(draw, frame, below, IM_COL32(70, 235, 200, 140), 1.0f);
-    draw_line(draw, frame, law, kShell, 1.5f);
   }
   for (const MarkedPoint& p : state.points)
     if (p.view == shown.view->name)
@@ -337,6 +407,7 @@ bool view_panel(const WindowState& state, const ShownView& shown, const std::vec
   }
   if (state.shell.shown) draw_shell(draw, frame, polar, state.shell, f);
   if (state.tying || !state.ties.empty()) draw_ties(draw, frame, polar, state, view, f, views);
+  draw_cme_tracks(draw, frame, polar, state, view.name, f.utc_s);
   const int picked = draw_points(draw, frame, state, view.name, f.utc_s);
   // The mouse over the image becomes a hover action (the plot's inverse mapping); a click
   // there takes the point under it or marks a new one, a drag moves the selected one —
@@ -487,10 +558,16 @@ void answer(const WindowState& state) {
     return;
   }
   ImGui::TextDisabled("over the %s points, %.2f s: %s", state.measured_points.c_str(), state.measured_seconds, m->status.c_str());
-  const auto& fit = m->shell.fit;
+  // The shown CME's answer (viewer/cme_list.hpp); the top level when none was found.
+  const fit::CmeMeasurement* cme = shown_cme(state);
+  const fit::ShellMeasurement& shell = cme ? cme->shell : m->shell;
+  const std::vector<fit::TargetArrival>& arrivals = cme ? cme->arrivals : m->arrivals;
+  const std::vector<std::string>& problems = cme ? cme->problems : m->problems;
+  if (cme && m->cmes.size() > 1) ImGui::Text("CME %d: %s", cme->index, cme->status.c_str());
+  const auto& fit = shell.fit;
   if (!fit) {
     ImGui::TextColored(ImGui::ColorConvertU32ToFloat4(kProblem), "no shell could be fitted");
-    for (const std::string& p : m->problems) ImGui::TextWrapped("%s", p.c_str());
+    for (const std::string& p : problems) ImGui::TextWrapped("%s", p.c_str());
     return;
   }
   constexpr double deg = 180.0 / std::numbers::pi;
@@ -503,48 +580,92 @@ void answer(const WindowState& state) {
   ImGui::TextUnformatted(("face-on width " + with_sigma(face, fit::face_on_width_sigma_rad(*fit) * deg, "%.0f", "°")).c_str());
   ImGui::TextUnformatted(("edge-on width " + with_sigma(edge, fit::edge_on_width_sigma_rad(*fit) * deg, "%.0f", "°")).c_str());
   // The residual per view: √(mean r²) over each view's points (fit/shell_fit.hpp's r).
-  for (std::size_t v = 0; v < m->shell.views.size(); ++v) {
+  for (std::size_t v = 0; v < shell.views.size(); ++v) {
     double sum = 0;
     int n = 0;
-    for (std::size_t i = 0; i < m->shell.points.size() && i < fit->residuals_rs.size(); ++i)
-      if (m->shell.points[i].view == int(v)) sum += fit->residuals_rs[i] * fit->residuals_rs[i], ++n;
-    if (n > 0) ImGui::TextDisabled("residual %s: %.3f R☉ (%d points)", m->shell.views[v].c_str(), std::sqrt(sum / n), n);
+    for (std::size_t i = 0; i < shell.points.size() && i < fit->residuals_rs.size(); ++i)
+      if (shell.points[i].view == int(v)) sum += fit->residuals_rs[i] * fit->residuals_rs[i], ++n;
+    if (n > 0) ImGui::TextDisabled("residual %s: %.3f R☉ (%d points)", shell.views[v].c_str(), std::sqrt(sum / n), n);
   }
-  if (!m->shell.not_constrained.empty()) {
+  if (!shell.not_constrained.empty()) {
     std::string keys;
-    for (const std::string& k : m->shell.not_constrained) keys += (keys.empty() ? "" : ", ") + k;
+    for (const std::string& k : shell.not_constrained) keys += (keys.empty() ? "" : ", ") + k;
     ImGui::PushTextWrapPos(0);
     ImGui::TextColored(ImGui::ColorConvertU32ToFloat4(kProblem), "not constrained by the data: %s", keys.c_str());
     ImGui::PopTextWrapPos();
   }
-  if (const auto& b = m->shell.boundary; b && b->found) {
+  if (const auto& b = shell.boundary; b && b->found) {
     const std::string when = clock(b->time_s).substr(5, 11);
     if (std::isfinite(b->time_sigma_s)) ImGui::Text("at 21.5 R☉: %s ± %.0f min", when.c_str(), b->time_sigma_s / 60.0);
     else ImGui::Text("at 21.5 R☉: %s (σ unknown)", when.c_str());
     ImGui::TextUnformatted(("  speed " + with_sigma(b->speed_km_s, b->speed_sigma_km_s, "%.0f", "km/s")).c_str());
   }
-  if (!m->shell.arrival_withheld.empty()) {
+  if (!shell.arrival_withheld.empty()) {
     ImGui::PushTextWrapPos(0);
-    ImGui::TextColored(ImGui::ColorConvertU32ToFloat4(kProblem), "no arrival: %s", m->shell.arrival_withheld.c_str());
+    ImGui::TextColored(ImGui::ColorConvertU32ToFloat4(kProblem), "no arrival: %s", shell.arrival_withheld.c_str());
     ImGui::PopTextWrapPos();
   }
   // The caution stands beside the arrival times: right under them, before any histogram.
-  for (const fit::TargetArrival& a : m->arrivals) {
+  for (const fit::TargetArrival& a : arrivals) {
     ImGui::Text("%s: hit %.0f %%", a.target.name.c_str(), 100.0 * a.hit_probability);
     if (a.time_p50 && a.time_p05 && a.time_p95)
       ImGui::Text("  %s (5–95 %%: %s to %s)", clock(*a.time_p50).substr(5, 11).c_str(), clock(*a.time_p05).substr(5, 11).c_str(),
                   clock(*a.time_p95).substr(5, 11).c_str());
   }
-  if (!m->arrivals.empty()) {
+  if (!arrivals.empty()) {
     ImGui::PushTextWrapPos(0);
     ImGui::TextColored(ImVec4(1.0f, 0.85f, 0.4f, 1.0f), "%s", std::string(fit::kArrivalCaution).c_str());
     ImGui::PopTextWrapPos();
   }
-  for (const fit::TargetArrival& a : m->arrivals)
+  for (const fit::TargetArrival& a : arrivals)
     if (a.time_p50) {
       ImGui::TextDisabled("%s: arrival times of the ensemble's hits", a.target.name.c_str());
       arrival_histogram(a);
     }
+}
+
+// Every CME the measurement found, one selectable entry each: its number, association,
+// status, whether it is the primary or the analyst's, onset, central PA per view, speed and
+// direction with σ. Picking one shows it everywhere the window shows "the CME".
+void cme_list(const WindowState& state, std::vector<Action>& out) {
+  if (!state.measured) return;
+  const std::vector<CmeRow> rows = cme_rows(state);
+  if (rows.empty()) {
+    ImGui::TextColored(ImGui::ColorConvertU32ToFloat4(kProblem), "no CME found");
+  } else {
+    if (rows.size() == 1) ImGui::TextUnformatted("1 CME measured");
+    else ImGui::Text("%zu CMEs measured: pick one", rows.size());
+    for (const CmeRow& r : rows) {
+      std::string head = "CME " + std::to_string(r.number) + "  " + r.association + ", " + r.status;
+      if (r.primary) head += ", primary";
+      if (r.by_analyst) head += ", your points";
+      ImGui::PushID(r.number);
+      if (ImGui::Selectable(head.c_str(), r.shown) && !r.shown) out.push_back(action::PickCme{r.number});
+      ImGui::PopID();
+      std::string pas;
+      for (const CmeRow::ViewPa& v : r.central_pa) {
+        char one[64];
+        std::snprintf(one, sizeof one, "%s%s %.0f°", pas.empty() ? "" : ", ", v.view.c_str(), v.central_pa_deg);
+        pas += one;
+      }
+      // Wrapped: long view names or σ "unknown" must not run out of the column.
+      ImGui::PushTextWrapPos(0);
+      ImGui::TextDisabled("  onset %s   PA %s", std::isfinite(r.onset_utc_s) ? clock(r.onset_utc_s).substr(11, 8).c_str() : "?",
+                          pas.empty() ? "—" : pas.c_str());
+      ImGui::TextDisabled("  speed %s", with_sigma(r.speed_km_s, r.speed_sigma_km_s, "%.0f", "km/s").c_str());
+      ImGui::TextDisabled("  lon %s, lat %s", with_sigma(r.lon_deg, r.lon_sigma_deg, "%.1f", "°").c_str(),
+                          with_sigma(r.lat_deg, r.lat_sigma_deg, "%.1f", "°").c_str());
+      ImGui::PopTextWrapPos();
+    }
+    if (rows.size() > 1) {
+      ImGui::PushTextWrapPos(0);
+      ImGui::TextDisabled("primary: %s", state.measured->primary_reason.c_str());
+      ImGui::PopTextWrapPos();
+    }
+  }
+  ImGui::PushTextWrapPos(0);
+  ImGui::TextDisabled("one missing? mark its leading edge away from those found and fit your points: it is measured as a CME of its own");
+  ImGui::PopTextWrapPos();
 }
 
 void work_column(const WindowState& state, std::vector<Action>& out) {
@@ -606,6 +727,7 @@ void work_column(const WindowState& state, std::vector<Action>& out) {
   if (ImGui::SmallButton("both")) out.push_back(action::Fit{"both"});
   ImGui::EndDisabled();
   if (!state.fit_request.empty()) ImGui::TextDisabled("measuring the %s points…", state.fit_request.c_str());
+  cme_list(state, out);
   answer(state);
   ImGui::Separator();
   if (!state.message.empty()) {

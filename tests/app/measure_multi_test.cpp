@@ -16,6 +16,7 @@
 #include "fit/truth.hpp"
 #include "imaging/front.hpp"
 #include "imaging/time.hpp"
+#include "tests/app/two_cmes.hpp"
 #include "tests/support/support.hpp"
 
 namespace {
@@ -24,35 +25,9 @@ using nlohmann::json;
 using occulta::test::run_command;
 using occulta::test::shell_quote;
 
-constexpr double kCadenceS = 600.0;
-
-// One CME: direction, tilt, speed, and when its apex is at 1.2 R☉ (minutes after 12:00).
-struct Cme {
-  double lon, lat, tilt, speed, at_min;
-};
-
-// Two views 90° apart (Stonyhurst lon −60° and 30°), 128 px, `frames` frames at 10 min;
-// `extra` adds top-level members (each with a leading comma).
-std::string scenario(const std::vector<Cme>& cmes, int frames, const std::string& extra = "") {
-  std::string shells;
-  for (const Cme& c : cmes) {
-    char shell[512];
-    std::snprintf(shell, sizeof shell, R"({"lon_deg": %g, "lat_deg": %g, "tilt_deg": %g, "half_angle_deg": 25, "aspect_ratio": 0.3,
-        "apex": {"time": "2031-06-01T12:%02d:00", "height_rs": 1.2, "speed_km_s": %g}, "density_cm3": 5e5})",
-                  c.lon, c.lat, c.tilt, int(c.at_min), c.speed);
-    shells += (shells.empty() ? "" : ", ") + std::string(shell);
-  }
-  char text[4096];
-  std::snprintf(text, sizeof text, R"({
-    "id": "multi", "start": "2031-06-01T12:00:00", "cadence_s": %g, "frames": %d, "exposure_s": 6,
-    "image": {"size_px": 128, "half_width_rs": 15, "occulter_rs": [2.5, 14.5]},
-    "observers": [{"name": "left", "lon_deg": -60, "lat_deg": 2, "dist_au": 0.98, "roll_deg": 4},
-                  {"name": "right", "lon_deg": 30, "lat_deg": -3, "dist_au": 1.01}],
-    "shells": [%s],
-    "detector": {"dn_per_s_per_bsun": 2e12}, "jitter_px": 0.3, "cosmic_rays_per_frame": 6, "seed": 7%s
-  })", kCadenceS, frames, shells.c_str(), extra.c_str());
-  return text;
-}
+constexpr double kCadenceS = occulta::test::kTwoCmesCadenceS;
+using Cme = occulta::test::ScenarioCme;
+using occulta::test::two_view_scenario;
 
 struct Run {
   json result, truth;
@@ -112,7 +87,7 @@ TEST_CASE("measure: two CMEs in different directions at overlapping times, two v
   // North-east of the Sun–Earth line at 900 km/s from 12:00; south-west at 1300 km/s 30 min
   // later: both in both views' fields together from ~12:50 on.
   const std::vector<Cme> cmes{{-20, 40, 20, 900, 0}, {10, -40, -30, 1300, 30}};
-  const Run r = synth_and_measure("measure_multi_apart", scenario(cmes, 10));
+  const Run r = synth_and_measure("measure_multi_apart", two_view_scenario(cmes, 10));
   INFO(r.stdout_text);
   REQUIRE(r.result.contains("cmes"));
   REQUIRE(r.result["cmes"].size() == 2);
@@ -157,8 +132,8 @@ TEST_CASE("measure: one CME and a bright point drifting across the field — exa
   const std::vector<Cme> one{{-20, 40, 20, 900, 0}};
   const std::string point =
       R"(, "point_sources": [{"view": "left", "from": {"pa_deg": 150, "height_rs": 6}, "to": {"pa_deg": 200, "height_rs": 9}, "brightness_bsun": 2e-9}])";
-  const Run with = synth_and_measure("measure_multi_point", scenario(one, 8, point));
-  const Run without = synth_and_measure("measure_multi_no_point", scenario(one, 8));
+  const Run with = synth_and_measure("measure_multi_point", two_view_scenario(one, 8, point));
+  const Run without = synth_and_measure("measure_multi_no_point", two_view_scenario(one, 8));
   // One CME: the document as a one-CME window always gave it — no cmes, one csv row.
   CHECK_FALSE(with.result.contains("cmes"));
   CHECK(with.result["status"] == without.result["status"]);
