@@ -43,8 +43,10 @@ int main(int argc, char** argv) {
   viewer::Session session;
   session.input = fit::load_measurement_input(event);
   std::vector<viewer::ViewPictures> views;
-  for (const fit::EventView& v : session.input->event.views)
-    views.push_back(viewer::load_view({v.name, v.files, fit::chain_options(session.input->event, v, 5)}));
+  for (std::size_t i = 0; i < session.input->event.views.size(); ++i) {  // the frames inside the window, as app/view.cpp
+    const fit::EventView& v = session.input->event.views[i];
+    views.push_back(viewer::load_view({v.name, session.input->windows[i].inside, fit::chain_options(session.input->event, v, 5)}));
+  }
 
   viewer::WindowState s;
   s.views = {"east", "west"};
