@@ -75,11 +75,11 @@ ImagePanel cached_time_height_panel(WindowCache* cache, const ViewPictures& view
 OutlineRuns cached_shell_outline(WindowCache* cache, const ShellControls& controls, const imaging::Observer& observer,
                                  double utc_s);
 
-// Work done ahead, in a frame with time to spare (after it is shown): what shown_views will
-// ask for at the next frame time (wrapping at the end when playing, as stepping does), or,
-// when that is ready, at the previous one — so that stepping and playing find their
-// pictures and outlines made. At most one frame time's worth per call (both views' images,
-// maps and outlines). Returns whether anything was made.
+// Work done ahead, in a quiet frame (nothing asked, nothing made; after it is shown): what
+// shown_views will ask for at the next frame time (wrapping at the end when playing, as
+// stepping does), or, when that is ready, at the previous one — so that stepping and
+// playing find their pictures and outlines made. At most one frame time's worth per call
+// (both views' images, maps and outlines). Returns whether anything was made.
 bool prepare_neighbours(WindowCache& cache, const WindowState& state, const std::vector<ViewPictures>& views);
 
 }  // namespace occulta::viewer
