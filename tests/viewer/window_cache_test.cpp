@@ -78,7 +78,7 @@ TEST_CASE("window cache: the same pixels as without it, as the state moves and c
   CHECK(cache.outlines.size() >= 6);
 }
 
-TEST_CASE("window cache: a picture already coloured is not coloured again; a changed one is") {
+TEST_CASE("window cache: a picture already coloured is not coloured again, and a changed one is") {
   std::vector<ViewPictures> views;
   views.push_back(load_view(sample_view("east"), 128));
   WindowState s;
