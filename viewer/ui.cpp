@@ -226,7 +226,7 @@ void height_time_panel(const WindowState& state, const ShownView& shown, ImVec2 
   draw.PushClipRect(frame.pixel_min, frame.pixel_max, true);
   const double now = shown.view->frames[std::size_t(shown.frame)].utc_s;
   draw.AddLine(frame.to_pixel(now, e.bottom), frame.to_pixel(now, e.top), IM_COL32(255, 255, 255, 90), 1.0f);
-  if (const auto fit = height_time_fit(state, *shown.view)) {
+  if (const auto& fit = shown.height_fit) {
     std::vector<DataPoint> law, above, below;
     for (int i = 0; i <= 60; ++i) {
       const double t = e.left + (e.right - e.left) * i / 60.0, h = fit->law.height_at(t), s = height_sigma_rs(*fit, t);
@@ -709,6 +709,7 @@ std::vector<ShownView> shown_views(const WindowState& state, const std::vector<V
         const ColourScale map_scale{state.colours, state.sigma_lo, state.sigma_hi, "σ"};
         s.time_height = cached_time_height_panel(cache, v, *pa, map_scale,
                                                  reinterpret_cast<ImTextureID>(std::uintptr_t(shown.size() + 101)));
+        s.height_fit = cached_height_time_fit(cache, state, v);
       }
       if (state.shell.shown) s.outline = cached_shell_outline(cache, state.shell, f.observer, f.utc_s);
     }

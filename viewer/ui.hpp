@@ -40,6 +40,7 @@ struct ShownView {
   // The height–time panel (viewer/height_time.hpp) along this PA; NaN: none to show yet.
   double time_height_pa_deg = std::numeric_limits<double>::quiet_NaN();
   ImagePanel time_height;
+  std::optional<fit::HeightTimeFit> height_fit;  // the kinematic fit drawn on it (height_time.hpp)
   OutlineRuns outline;  // the shell as this frame's observer sees it (when the shell is shown)
 };
 

@@ -108,6 +108,26 @@ OutlineRuns cached_shell_outline(WindowCache* cache, const ShellControls& contro
   return runs;
 }
 
+std::optional<fit::HeightTimeFit> cached_height_time_fit(WindowCache* cache, const WindowState& state, const ViewPictures& view) {
+  if (!cache) return height_time_fit(state, view);
+  std::vector<std::pair<double, double>> points;
+  for (const MarkedPoint& p : state.points)
+    if (p.view == view.name) points.emplace_back(p.utc_s, p.height_rs);
+  ++cache->clock;
+  for (WindowCache::KinematicFit& f : cache->fits)
+    if (f.view == view.name && f.height_step_rs == view.polar.height_step_rs && f.points == points) {
+      f.used = cache->clock;
+      return f.fit;
+    }
+  std::optional<fit::HeightTimeFit> made = height_time_fit(state, view);
+  ++cache->made;
+  if (cache->fits.size() >= cache->max_fits && !cache->fits.empty())
+    cache->fits.erase(std::min_element(cache->fits.begin(), cache->fits.end(),
+                                       [](const auto& a, const auto& b) { return a.used < b.used; }));
+  cache->fits.push_back({view.name, std::move(points), view.polar.height_step_rs, made, cache->clock});
+  return made;
+}
+
 bool prepare_neighbours(WindowCache& cache, const WindowState& state, const std::vector<ViewPictures>& views) {
   if (state.timeline_utc_s.size() < 2) return false;
   for (const action::Step step : {action::Step{1, state.playing}, action::Step{-1, false}}) {

@@ -76,6 +76,7 @@ TEST_CASE("window cache: the same pixels as without it, as the state moves and c
   // Kept: one entry per distinct picture asked for, never two for one.
   CHECK(cache.colourings.size() >= 10);
   CHECK(cache.outlines.size() >= 6);
+  CHECK(cache.fits.size() >= 3);  // each view's points, then the east view's with one more
 }
 
 TEST_CASE("window cache: a picture already coloured is not coloured again, and a changed one is") {
