@@ -57,8 +57,13 @@ int view(const ViewOptions& options, std::ostream& out, std::ostream& err) {
   state.width = width;
   state.height = height;
   state.event_id = event.id;
-  for (const fit::EventView& v : event.views) {
-    sources.push_back({v.name, v.files, fit::chain_options(event, v, options.median)});
+  for (std::size_t i = 0; i < event.views.size(); ++i) {
+    const fit::EventView& v = event.views[i];
+    // The frames `measure` images, those inside the event's window (fit::apply_window), so
+    // that the window's fit reuses its loader's imaging; a view with none inside shows them
+    // all (its fit reruns the chain, and names the view among the problems).
+    const std::vector<fs::path>& inside = session.input->windows.at(i).inside;
+    sources.push_back({v.name, inside.empty() ? v.files : inside, fit::chain_options(event, v, options.median)});
     state.views.push_back(v.name);
   }
 

@@ -87,7 +87,12 @@ std::optional<double> surface_distance_along(const ShellParams& params, const Ei
 std::vector<Eigen::Vector2d> project_mesh(const ShellMesh& mesh, const imaging::Observer& observer) {
   std::vector<Eigen::Vector2d> hpc;
   hpc.reserve(mesh.heeq_p_rs.size());
-  for (const Eigen::Vector3d& p : mesh.heeq_p_rs) hpc.push_back(imaging::hpc_from_heeq(observer, p * kSolarRadiusKm));
+  // imaging::hpc_from_heeq with its rotation made once, not per point (the same arithmetic).
+  const Eigen::Matrix3d hcc_R = imaging::hcc_R_heeq(observer);
+  for (const Eigen::Vector3d& p : mesh.heeq_p_rs) {
+    const Eigen::Vector3d heeq_p_km = p * kSolarRadiusKm;
+    hpc.push_back(imaging::hpc_from_hcc(observer, hcc_R * heeq_p_km));
+  }
   return hpc;
 }
 

@@ -2,7 +2,6 @@
 #include "viewer/height_time.hpp"
 
 #include <cmath>
-#include <deque>
 #include <numbers>
 
 #include "fit/measurement.hpp"
@@ -60,23 +59,9 @@ std::optional<fit::HeightTimeFit> height_time_fit(const WindowState& state, cons
     if (p.view == view.name) points.push_back({p.utc_s, p.height_rs, 0.0});
   if (points.size() < 3) return std::nullopt;
   const double resolution_rs = view.polar.height_step_rs / std::sqrt(12.0);
-  // The window asks every frame: the last few fits are remembered by their points.
-  struct Remembered {
-    std::vector<std::pair<double, double>> points;
-    double resolution_rs;
-    std::optional<fit::HeightTimeFit> fit;
-  };
-  thread_local std::deque<Remembered> remembered;
-  std::vector<std::pair<double, double>> key;
-  for (const fit::HeightTimePoint& p : points) key.emplace_back(p.time_s, p.height_rs);
-  for (const Remembered& r : remembered)
-    if (r.points == key && r.resolution_rs == resolution_rs) return r.fit;
   fit::HeightTimeFit chosen = fit::choose_height_time_model(points, true, 2.0, resolution_rs).chosen;
-  std::optional<fit::HeightTimeFit> out;
-  if (chosen.status == fit::FitStatus::ok) out = std::move(chosen);
-  remembered.push_front({std::move(key), resolution_rs, out});
-  if (remembered.size() > 8) remembered.pop_back();
-  return out;
+  if (chosen.status != fit::FitStatus::ok) return std::nullopt;
+  return chosen;
 }
 
 double height_sigma_rs(const fit::HeightTimeFit& fit, double utc_s) {

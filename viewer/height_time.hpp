@@ -35,6 +35,7 @@ ImageExtent time_height_extent(const ViewPictures& view);
 // The kinematic fit of the view's points (the analyst's and automatic ones in the list):
 // fit::choose_height_time_model, robust, as `measure` runs it on a view's track (its
 // resolution floor: the polar grid's height step / √12). None with fewer than 3 points.
+// Made anew at each call: the window keeps its fits in its cache (window_cache.hpp).
 std::optional<fit::HeightTimeFit> height_time_fit(const WindowState& state, const ViewPictures& view);
 
 // σ of the fitted height at utc_s from the fit's covariance (first order):

@@ -6,9 +6,15 @@ namespace occulta::viewer {
 
 ImagePanel make_image_panel(const cv::Mat& values, const ImageExtent& extent, const ColourScale& scale,
                             ImTextureID id, Sampling sampling) {
+  return image_panel_of(std::make_shared<const std::vector<std::uint8_t>>(texels(values, scale)), values.cols, values.rows,
+                        extent, scale, id, sampling);
+}
+
+ImagePanel image_panel_of(std::shared_ptr<const std::vector<std::uint8_t>> texels, int width, int height,
+                          const ImageExtent& extent, const ColourScale& scale, ImTextureID id, Sampling sampling) {
   ImagePanel panel;
-  panel.texels = texels(values, scale);
-  panel.texture = Texture{id, values.cols, values.rows, panel.texels.data(), sampling, Wrap::clamp_to_edge};
+  panel.texels = std::move(texels);
+  panel.texture = Texture{id, width, height, panel.texels->data(), sampling, Wrap::clamp_to_edge};
   panel.extent = extent;
   panel.scale = scale;
   return panel;

@@ -11,6 +11,7 @@
 #pragma once
 
 #include <cstdint>
+#include <memory>
 #include <string>
 #include <vector>
 
@@ -24,25 +25,24 @@
 
 namespace occulta::viewer {
 
-// Owns the texels its texture points at: movable (a vector's buffer moves with it), not
-// copyable (a copy's texture would point at the original's texels).
+// Shares the texels its texture points at: a copy points at the same texels and keeps
+// them alive (the window reuses one colouring over many frames: window_cache.hpp).
 struct ImagePanel {
-  std::vector<std::uint8_t> texels;
+  std::shared_ptr<const std::vector<std::uint8_t>> texels;
   Texture texture;  // give it to the renderer (draw_headless's textures) with the frame
   ImageExtent extent;
   ColourScale scale;
-
-  ImagePanel() = default;
-  ImagePanel(ImagePanel&&) = default;
-  ImagePanel& operator=(ImagePanel&&) = default;
-  ImagePanel(const ImagePanel&) = delete;
-  ImagePanel& operator=(const ImagePanel&) = delete;
 };
 
 // The image through `scale` (colour_table.hpp's texels) as texture `id` (any value but the
 // font atlas' id, unique among the frame's textures).
 ImagePanel make_image_panel(const cv::Mat& values, const ImageExtent& extent, const ColourScale& scale,
                             ImTextureID id, Sampling sampling = Sampling::nearest);
+
+// The same over texels already made (colour_table.hpp's texels of a width × height image).
+ImagePanel image_panel_of(std::shared_ptr<const std::vector<std::uint8_t>> texels, int width, int height,
+                          const ImageExtent& extent, const ColourScale& scale, ImTextureID id,
+                          Sampling sampling = Sampling::nearest);
 
 // imaging::render_on_time_axis(map, t_start, t_end, columns): columns span [t_start, t_end]
 // edge to edge; row i is centred on map.axis_start + i·map.axis_step (R☉ or degrees).

@@ -222,6 +222,7 @@ int present(WindowState state, std::vector<ViewSource> sources, const std::vecto
 
   std::vector<ViewPictures> views;
   std::vector<std::uint32_t> scratch;
+  WindowCache cache;  // colourings and outlines the next frames reuse (window_cache.hpp)
   {
     Loader loader(std::move(sources));
     bool script_applied = false;
@@ -261,7 +262,9 @@ int present(WindowState state, std::vector<ViewSource> sources, const std::vecto
 
       const Loader::Progress p = loader.progress();
       const LoadingShown loading{loader.done(), p.view, p.views, p.frame, p.frames, p.loading};
-      const std::vector<ShownView> shown = shown_views(state, views);
+      const std::uint64_t made_before = cache.made;
+      const std::vector<ShownView> shown = shown_views(state, views, &cache);
+      const bool made_nothing = cache.made == made_before;
       std::vector<Texture> textures = textures_of(shown);
       textures.push_back(font);
       ImGui_ImplGlfw_NewFrame();
@@ -292,6 +295,10 @@ int present(WindowState state, std::vector<ViewSource> sources, const std::vecto
         perform(state, views, session, a);
       }
       if (fitting.valid() && fitting.wait_for(std::chrono::seconds(0)) == std::future_status::ready) apply(state, fitting.get());
+      // A quiet frame (nothing asked, nothing to make) is shown: the neighbouring times'
+      // pictures and outlines made meanwhile, so that a step or playing finds them ready
+      // (window_cache.hpp). Not while a control is dragged: that frame's own work comes first.
+      if (loader.done() && actions.empty() && made_nothing) (void)prepare_neighbours(cache, state, views);
       // Unsaved points are never lost silently: an autosave every kAutosaveS.
       if (state.unsaved && std::chrono::duration<double>(now - last_autosave).count() >= kAutosaveS) {
         last_autosave = now;

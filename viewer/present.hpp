@@ -12,7 +12,9 @@
 // responsive, with progress shown; `script` is applied once they have loaded. Playing
 // steps one frame each kPlayStepS, wrapping at the end. Every fit the analyst asks for
 // (the automatic one gives the automatic track to show and adopt) runs on a worker
-// thread; the window keeps drawing meanwhile. Points changed and not saved are
+// thread; the window keeps drawing meanwhile. Colourings and shell outlines are kept in
+// the loop's WindowCache (window_cache.hpp), and after each frame is shown the next and the
+// previous time's are made ahead. Points changed and not saved are
 // written every kAutosaveS to the autosave file (autosave_path), and quitting with them
 // unsaved asks first.
 #pragma once

@@ -2,8 +2,6 @@
 #include "viewer/shell_overlay.hpp"
 
 #include <cmath>
-#include <deque>
-#include <tuple>
 
 #include "imaging/constants.hpp"
 
@@ -14,22 +12,6 @@ constexpr double kRad = std::numbers::pi / 180.0;
 
 // Finer than measure's shell picture ({16, 96, 72}): see the header.
 constexpr fit::MeshResolution kOutlineMesh{24, 144, 108};
-
-struct Remembered {
-  ShellControls controls;
-  imaging::Observer observer;
-  double utc_s = 0.0;
-  std::vector<std::vector<OutlinePoint>> outline;
-};
-
-bool same(const Remembered& r, const ShellControls& c, const imaging::Observer& o, double utc_s) {
-  const auto key = [](const ShellControls& k) {
-    return std::tie(k.lon_deg, k.lat_deg, k.tilt_deg, k.half_angle_deg, k.aspect_ratio, k.ref_utc_s, k.apex_height_rs,
-                    k.speed_km_s, k.accel_m_s2);
-  };
-  return key(r.controls) == key(c) && r.observer.lon_rad == o.lon_rad && r.observer.lat_rad == o.lat_rad &&
-         r.observer.dist_km == o.dist_km && r.utc_s == utc_s;
-}
 
 }  // namespace
 
@@ -47,10 +29,6 @@ fit::ShellParams shell_params(const ShellControls& c, double utc_s) {
 
 std::vector<std::vector<OutlinePoint>> shell_outline(const ShellControls& controls, const imaging::Observer& observer,
                                                      double utc_s) {
-  thread_local std::deque<Remembered> remembered;  // the window draws from one thread; tests may use others
-  for (const Remembered& r : remembered)
-    if (same(r, controls, observer, utc_s)) return r.outline;
-
   std::vector<std::vector<OutlinePoint>> runs;
   const fit::ShellParams shell = shell_params(controls, utc_s);
   if (fit::is_valid(shell)) {
@@ -76,8 +54,6 @@ std::vector<std::vector<OutlinePoint>> shell_outline(const ShellControls& contro
     }
     if (!run.empty()) runs.push_back(std::move(run));
   }
-  remembered.push_front({controls, observer, utc_s, runs});
-  if (remembered.size() > 8) remembered.pop_back();
   return runs;
 }
 

@@ -29,8 +29,8 @@ struct OutlinePoint {
 
 // The leading edge the observer sees at utc_s, as runs of neighbouring 1° PA bins (a run
 // crossing north continues past 360°: PA may exceed 360 within a run). Empty when the
-// shell is invalid there (apex height ≤ 0). Remembers its last few answers: the window
-// asks for the same outline every frame.
+// shell is invalid there (apex height ≤ 0). Made anew at each call: the window keeps its
+// outlines in its cache (window_cache.hpp), keyed by controls, observer and time.
 std::vector<std::vector<OutlinePoint>> shell_outline(const ShellControls& controls, const imaging::Observer& observer,
                                                      double utc_s);
 

@@ -151,11 +151,11 @@ void radius_scale(ImDrawList& draw, const PlotFrame& frame) {
   draw.AddText(ImVec2(right.x - 0.5f * px - 0.5f * size.x, right.y - 4 - size.y), IM_COL32_WHITE, label);
 }
 
-// The controls' shell as this frame's observer sees it at the frame's time.
-void draw_shell(ImDrawList& draw, const PlotFrame& frame, bool polar, const ShellControls& controls, const FramePictures& f) {
+// The controls' shell as this frame's observer sees it at the frame's time (shown_views).
+void draw_shell(ImDrawList& draw, const PlotFrame& frame, bool polar, const OutlineRuns& outline) {
   draw.PushClipRect(frame.pixel_min, frame.pixel_max, true);
   std::vector<ImVec2> line;
-  for (const std::vector<OutlinePoint>& run : shell_outline(controls, f.observer, f.utc_s)) {
+  for (const std::vector<OutlinePoint>& run : outline) {
     line.clear();
     for (const OutlinePoint& o : run) {
       if (polar) {
@@ -299,7 +299,7 @@ void height_time_panel(const WindowState& state, const ShownView& shown, ImVec2 
   draw.PushClipRect(frame.pixel_min, frame.pixel_max, true);
   const double now = shown.view->frames[std::size_t(shown.frame)].utc_s;
   draw.AddLine(frame.to_pixel(now, e.bottom), frame.to_pixel(now, e.top), IM_COL32(255, 255, 255, 90), 1.0f);
-  if (const auto fit = height_time_fit(state, *shown.view)) draw_law(draw, frame, e, *fit, kShell, IM_COL32(70, 235, 200, 140));
+  if (const auto& fit = shown.height_fit) draw_law(draw, frame, e, *fit, kShell, IM_COL32(70, 235, 200, 140));
   // The shown CME's automatic track in this view and the measurement's fit of it.
   if (const fit::ViewMeasurement* seen = shown_sighting(state, shown.view->name); seen && !seen->by_analyst) {
     if (seen->kinematics_ok()) draw_law(draw, frame, e, *seen->kinematics, kAutomatic, kAutomaticFaint);
@@ -405,7 +405,7 @@ bool view_panel(const WindowState& state, const ShownView& shown, const std::vec
     const ImVec2 p = frame.to_pixel(px, py);
     draw.AddCircle(p, 6.0f, kCursor, 16, 1.5f);
   }
-  if (state.shell.shown) draw_shell(draw, frame, polar, state.shell, f);
+  if (state.shell.shown) draw_shell(draw, frame, polar, shown.outline);
   if (state.tying || !state.ties.empty()) draw_ties(draw, frame, polar, state, view, f, views);
   draw_cme_tracks(draw, frame, polar, state, view.name, f.utc_s);
   const int picked = draw_points(draw, frame, state, view.name, f.utc_s);
@@ -810,7 +810,7 @@ DataPoint sky_at(const PlotFrame& frame, Display display, ImVec2 pixel) {
   return {-d.y * std::sin(d.x * kDeg), d.y * std::cos(d.x * kDeg)};
 }
 
-std::vector<ShownView> shown_views(const WindowState& state, const std::vector<ViewPictures>& views) {
+std::vector<ShownView> shown_views(const WindowState& state, const std::vector<ViewPictures>& views, WindowCache* cache) {
   std::vector<ShownView> shown;
   const double now = displayed_time(state);
   for (const ViewPictures& v : views) {
@@ -823,15 +823,17 @@ std::vector<ShownView> shown_views(const WindowState& state, const std::vector<V
       const ColourScale scale{state.colours, state.sigma_lo, state.sigma_hi, scale_label(state.display)};
       const ImageExtent extent = state.display == Display::polar ? polar_extent(v.polar) : sky_extent(v.grid);
       // Ids 1, 2, …: never the font atlas' (an address).
-      s.panel = make_image_panel(f.image(state.display), extent, scale,
-                                 reinterpret_cast<ImTextureID>(std::uintptr_t(shown.size() + 1)),
-                                 state.display == Display::polar ? Sampling::nearest : Sampling::bilinear);
+      s.panel = cached_image_panel(cache, f.image(state.display), extent, scale,
+                                   reinterpret_cast<ImTextureID>(std::uintptr_t(shown.size() + 1)),
+                                   state.display == Display::polar ? Sampling::nearest : Sampling::bilinear);
       if (const auto pa = height_time_pa(state, v.name)) {
         s.time_height_pa_deg = *pa;
         const ColourScale map_scale{state.colours, state.sigma_lo, state.sigma_hi, "σ"};
-        s.time_height = make_image_panel(time_height_map(v, *pa), time_height_extent(v), map_scale,
-                                         reinterpret_cast<ImTextureID>(std::uintptr_t(shown.size() + 101)), Sampling::nearest);
+        s.time_height = cached_time_height_panel(cache, v, *pa, map_scale,
+                                                 reinterpret_cast<ImTextureID>(std::uintptr_t(shown.size() + 101)));
+        s.height_fit = cached_height_time_fit(cache, state, v);
       }
+      if (state.shell.shown) s.outline = cached_shell_outline(cache, state.shell, f.observer, f.utc_s);
     }
     shown.push_back(std::move(s));
   }
@@ -925,11 +927,11 @@ namespace {
 // The actions draw_window asks for in one frame of the current context with the mouse at
 // `at` (the left button down or not).
 std::vector<Action> frame_actions(const WindowState& state, const std::vector<ViewPictures>& views, ImVec2 at, bool down,
-                                  std::vector<PanelPlace>* placed = nullptr) {
+                                  WindowCache& cache, std::vector<PanelPlace>* placed = nullptr) {
   ImGuiIO& io = ImGui::GetIO();
   io.MousePos = at;
   io.MouseDown[0] = down;
-  const std::vector<ShownView> shown = shown_views(state, views);
+  const std::vector<ShownView> shown = shown_views(state, views, &cache);
   ImGui::NewFrame();
   std::vector<Action> out = draw_window(state, shown, views, {}, {}, placed);
   ImGui::EndFrame();
@@ -965,9 +967,10 @@ void click_window(WindowState& state, const std::vector<ViewPictures>& views, co
                   const HeadlessOptions& options) {
   in_fresh_context(state, options, [&] {
     const ImVec2 at(c.x, c.y);
-    for (int i = 0; i < 2; ++i) (void)frame_actions(state, views, at, false);
+    WindowCache cache;  // the frames of one click show the same pictures
+    for (int i = 0; i < 2; ++i) (void)frame_actions(state, views, at, false, cache);
     for (const bool down : {true, false})
-      for (const Action& a : frame_actions(state, views, at, down)) apply(state, a);
+      for (const Action& a : frame_actions(state, views, at, down, cache)) apply(state, a);
   });
 }
 
@@ -976,8 +979,9 @@ std::vector<PanelPlace> panel_places(const WindowState& state, const std::vector
   std::vector<PanelPlace> placed;
   in_fresh_context(state, options, [&] {
     // The mouse off the window: nothing hovered, nothing asked.
-    (void)frame_actions(state, views, ImVec2(-1e6f, -1e6f), false);
-    (void)frame_actions(state, views, ImVec2(-1e6f, -1e6f), false, &placed);
+    WindowCache cache;
+    (void)frame_actions(state, views, ImVec2(-1e6f, -1e6f), false, cache);
+    (void)frame_actions(state, views, ImVec2(-1e6f, -1e6f), false, cache, &placed);
   });
   return placed;
 }

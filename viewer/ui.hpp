@@ -27,11 +27,12 @@
 #include "viewer/headless.hpp"
 #include "viewer/image_panel.hpp"
 #include "viewer/pictures.hpp"
+#include "viewer/window_cache.hpp"
 
 namespace occulta::viewer {
 
-// One shown view's image, coloured as the state says: made before the frame is drawn,
-// because the renderer needs every texture the frame uses.
+// One shown view's image, coloured as the state says, and the shell's outline on it: made
+// before the frame is drawn, because the renderer needs every texture the frame uses.
 struct ShownView {
   const ViewPictures* view = nullptr;
   int frame = -1;  // index into view->frames: the frame nearest the displayed time; −1: none yet
@@ -39,9 +40,14 @@ struct ShownView {
   // The height–time panel (viewer/height_time.hpp) along this PA; NaN: none to show yet.
   double time_height_pa_deg = std::numeric_limits<double>::quiet_NaN();
   ImagePanel time_height;
+  std::optional<fit::HeightTimeFit> height_fit;  // the kinematic fit drawn on it (height_time.hpp)
+  OutlineRuns outline;  // the shell as this frame's observer sees it (when the shell is shown)
 };
 
-std::vector<ShownView> shown_views(const WindowState& state, const std::vector<ViewPictures>& views);
+// With a cache (window_cache.hpp), what the last frames already coloured or outlined is
+// taken from it; the pictures are the same either way.
+std::vector<ShownView> shown_views(const WindowState& state, const std::vector<ViewPictures>& views,
+                                   WindowCache* cache = nullptr);
 
 // The textures of shown_views, for the renderer.
 std::vector<Texture> textures_of(const std::vector<ShownView>& shown);

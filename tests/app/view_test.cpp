@@ -6,6 +6,7 @@
 #include <thread>
 
 #include <doctest/doctest.h>
+#include <nlohmann/json.hpp>
 #include <opencv2/core.hpp>
 #include <opencv2/imgcodecs.hpp>
 
@@ -131,6 +132,23 @@ TEST_CASE("view --snapshot draws the sample with a script's state") {
   const cv::Mat png = cv::imread((dir / "s.png").string());
   CHECK(png.cols == 800);
   CHECK(png.rows == 500);
+}
+
+TEST_CASE("view loads only the frames inside the event's window, as measure images them") {
+  // The sample's event with its window cut to 06:00–07:30: 10 of each view's 16 frames
+  // inside, so 9 running differences (frame times) on the timeline instead of 15.
+  const fs::path dir = occulta::test::scratch_dir("view_event_window");
+  nlohmann::json event =
+      nlohmann::json::parse(slurp(occulta::test::source_path("sample_frames/sample-2031-03-14.event.json")));
+  for (nlohmann::json& v : event.at("views"))
+    for (nlohmann::json& f : v.at("files")) f = (occulta::test::source_path("sample_frames") / f.get<std::string>()).string();
+  event["window"] = {{"start", "2031-03-14T06:00:00"}, {"end", "2031-03-14T07:30:00"}};
+  occulta::test::spit(dir / "narrow.event.json", event.dump());
+  const auto run = run_command(occulta_cmd() + " view " + shell_quote((dir / "narrow.event.json").string()) + " --snapshot " +
+                               shell_quote((dir / "n.png").string()));
+  INFO(run.output);
+  REQUIRE(run.exit_code == 0);
+  CHECK(run.output.find("frame 1 of 9)") != std::string::npos);
 }
 
 TEST_CASE("view: a bad script or size or input is one sentence and no PNG") {

@@ -14,32 +14,16 @@
 #include <utility>
 #include <vector>
 
-#include <time.h>
-
 #include "tests/bench/best_of.hpp"
 #include "viewer/headless.hpp"
 #include "viewer/raster.hpp"
 
 namespace {
 using namespace occulta;
+using bench::best_cpu_of;
 using bench::best_of;
 
 constexpr int kWidth = 1280, kHeight = 800, kFrame = 1024;
-
-// The same rule as best_of, on this thread's CPU clock: on a machine shared with other
-// builds the wall clock also counts the time this thread waited for a core.
-template <typename Work>
-double best_cpu_of(int repeats, const Work& work) {
-  double best = 1e30;
-  for (int i = 0; i < repeats; ++i) {
-    timespec t0{}, t1{};
-    clock_gettime(CLOCK_THREAD_CPUTIME_ID, &t0);
-    work();
-    clock_gettime(CLOCK_THREAD_CPUTIME_ID, &t1);
-    best = std::min(best, double(t1.tv_sec - t0.tv_sec) + 1e-9 * double(t1.tv_nsec - t0.tv_nsec));
-  }
-  return best;
-}
 
 // A deterministic 1024² picture with structure at every scale (a bright ring, rays, fine
 // ripples), opaque, standing in for a registered frame.

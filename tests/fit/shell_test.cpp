@@ -126,6 +126,21 @@ TEST_CASE("shell: a limb CME seen from Earth has its apex at the limb's position
   CHECK(std::isnan(out.max_height_rs[90]));  // nothing on the east side
 }
 
+TEST_CASE("shell: the projected mesh is imaging::hpc_from_heeq of each point, to the last bit") {
+  // project_mesh makes the rotation once; the outlines the window and measure draw must
+  // not move by it.
+  const imaging::Observer observer = imaging::observer_from_degrees(-60.0, 4.0, 0.97 * kAuKm);
+  for (const ShellParams& shell : kShells) {
+    const ShellMesh mesh = make_mesh(shell, {8, 32, 24});
+    const std::vector<Eigen::Vector2d> hpc = project_mesh(mesh, observer);
+    REQUIRE(hpc.size() == mesh.heeq_p_rs.size());
+    int differ = 0;
+    for (std::size_t i = 0; i < hpc.size(); ++i)
+      differ += hpc[i] != imaging::hpc_from_heeq(observer, mesh.heeq_p_rs[i] * kSolarRadiusKm);
+    CHECK(differ == 0);
+  }
+}
+
 TEST_CASE("shell: limits κ → 0 and α = 0") {
   // κ → 0: the cross-sections shrink to points, the shell to its axis (two leg lines and
   // the circle of centre (0, 0, b) and radius ρ) — Thernisien (2011).
