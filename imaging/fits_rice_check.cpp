@@ -373,8 +373,8 @@ std::vector<TileCheck> check_tiles(fitsfile* file, const std::string& source, co
   };
   // A gzip stream inflated and counted before cfitsio inflates it: at most 8 bytes a
   // pixel, the widest values a tile holds (64-bit integers or floats).
-  const auto check_gzip = [&](const std::string& tile, long long pixels) {
-    const std::string problem = check_gzip_tile(bytes, 8 * pixels);
+  const auto check_gzip = [&](const std::string& tile, long long tile_pixels) {
+    const std::string problem = check_gzip_tile(bytes, 8 * tile_pixels);
     if (!problem.empty()) throw InputError(source, "the file is damaged: " + tile + ": " + problem);
   };
   decoded = pixels != nullptr && decodable(layout);
