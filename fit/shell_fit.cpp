@@ -97,9 +97,61 @@ const ShellCache<T>& cached_shell(const BasicShellParams<T>& p) {
   return cache;
 }
 
+// Brent's minimisation of f on [lo, hi] from a point x inside it whose value fx is known
+// (Brent 1973, "Algorithms for Minimization without Derivatives", ch. 5, procedure
+// localmin: parabolic steps through the three best points, golden-section steps when a
+// parabola is not trusted; the method of scipy.optimize.minimize_scalar's "bounded" and
+// "brent"). Stops when x is within 2·tol of the bracket's middle; x, fx are the best.
+// A non-finite f(u) only narrows the bracket (comparisons with it fail).
+template <typename F>
+void brent_minimise(const F& f, double lo, double hi, double tol, double& x, double& fx) {
+  constexpr double kGoldenStep = 0.3819660112501051;  // (3 − √5) / 2
+  double v = x, w = x, fv = fx, fw = fx, d = 0.0, e = 0.0;
+  for (int iteration = 0; iteration < 60; ++iteration) {
+    const double m = 0.5 * (lo + hi), tol1 = tol, tol2 = 2.0 * tol1;
+    if (std::abs(x - m) <= tol2 - 0.5 * (hi - lo)) break;
+    double p = 0.0, q = 0.0, r = 0.0;
+    if (std::abs(e) > tol1) {
+      r = (x - w) * (fx - fv);
+      q = (x - v) * (fx - fw);
+      p = (x - v) * q - (x - w) * r;
+      q = 2.0 * (q - r);
+      if (q > 0.0) p = -p;
+      else q = -q;
+      r = e;
+      e = d;
+    }
+    if (std::abs(p) < std::abs(0.5 * q * r) && p > q * (lo - x) && p < q * (hi - x)) {
+      d = p / q;  // parabolic step
+      const double u = x + d;
+      if (u - lo < tol2 || hi - u < tol2) d = x < m ? tol1 : -tol1;
+    } else {
+      e = (x < m ? hi : lo) - x;  // golden-section step into the larger part
+      d = kGoldenStep * e;
+    }
+    const double u = x + (std::abs(d) >= tol1 ? d : (d > 0.0 ? tol1 : -tol1));
+    const double fu = f(u);
+    if (fu <= fx) {
+      (u < x ? hi : lo) = x;
+      v = w, fv = fw, w = x, fw = fx, x = u, fx = fu;
+    } else {
+      (u < x ? lo : hi) = u;
+      if (fu <= fw || w == x) {
+        v = w, fv = fw, w = u, fw = fu;
+      } else if (fu <= fv || v == x || v == w) {
+        v = u, fv = fu;
+      }
+    }
+  }
+}
+
 // s*: the depth along the line where the shell's signed distance is smallest, on values
 // alone. 32 samples over the stretch of the line within the apex height of Sun centre
-// (no surface point lies farther out), then golden-section refinement around the best.
+// (no surface point lies farther out), then Brent's minimisation between the best
+// sample's neighbours, from the best sample, to 10⁻⁵ of the apex height. (Golden-section
+// search before: 20 evaluations to a bracket of ~2·10⁻⁵ of the apex height; Brent's
+// parabolic steps reach the same minimum in about half as many. d is stationary at s*,
+// so the residual moves by O(Δs²) — in its 9th digit.)
 // False when no sample has a finite distance (the line meets no piece's domain).
 bool closest_depth(const ShellParams& p, const SightLine& line, double& s_star, double& d_star) {
   const ShellCache<double>& cache = cached_shell(p);
@@ -114,26 +166,13 @@ bool closest_depth(const ShellParams& p, const SightLine& line, double& s_star, 
   for (int i = 0; i < kSamples; ++i) {
     const double d = distance(centre - reach + i * step);
     if (d < best_d) best_d = d, best = i;
-  }  if (best < 0 || !std::isfinite(best_d)) return false;
-  double lo = centre - reach + std::max(0, best - 1) * step, hi = centre - reach + std::min(kSamples - 1, best + 1) * step;
-  constexpr double kGolden = 0.6180339887498949;
-  double x1 = hi - kGolden * (hi - lo), x2 = lo + kGolden * (hi - lo);
-  double f1 = distance(x1), f2 = distance(x2);
-  for (int i = 0; i < 18; ++i) {
-    if (f1 < f2) {
-      hi = x2, x2 = x1, f2 = f1;
-      x1 = hi - kGolden * (hi - lo), f1 = distance(x1);
-    } else {
-      lo = x1, x1 = x2, f1 = f2;
-      x2 = lo + kGolden * (hi - lo), f2 = distance(x2);
-    }
   }
-  s_star = f1 < f2 ? x1 : x2;
-  d_star = std::min(f1, f2);
-  if (best_d < d_star) {  // a sample at the stretch's end beat the bracket's interior
-    s_star = centre - reach + best * step;
-    d_star = best_d;
-  }
+  if (best < 0 || !std::isfinite(best_d)) return false;
+  const double lo = centre - reach + std::max(0, best - 1) * step;
+  const double hi = centre - reach + std::min(kSamples - 1, best + 1) * step;
+  s_star = centre - reach + best * step;
+  d_star = best_d;
+  brent_minimise(distance, lo, hi, 1e-5 * p.apex_height_rs, s_star, d_star);
   return std::isfinite(d_star) && s_star > 0.0;
 }
 

@@ -4,7 +4,8 @@
 // direction"); 2 views ≤ 0.1 s (issue 18). The fit runs on one thread, so its time is
 // that thread's CPU time (CLOCK_THREAD_CPUTIME_ID), which other processes' load does not
 // inflate as it does wall time; the best of 5, also printed as wall time.
-// --short: one run each, for the test suite.
+// --short: one run each, for the test suite. --params: also print the fitted parameters in
+// full, to compare two builds' results.
 #include <algorithm>
 #include <chrono>
 #include <cstdio>
@@ -68,7 +69,11 @@ imaging::Observer at(double lon_deg, double lat_deg, double au) {
 }  // namespace
 
 int main(int argc, char** argv) {
-  const bool short_mode = argc > 1 && std::strcmp(argv[1], "--short") == 0;
+  bool short_mode = false, print_params = false;
+  for (int i = 1; i < argc; ++i) {
+    short_mode |= std::strcmp(argv[i], "--short") == 0;
+    print_params |= std::strcmp(argv[i], "--params") == 0;
+  }
   const double r = kRadPerDeg;
   const std::vector<Case> cases = {
       {"2 views", {-12 * r, 6 * r, 30 * r, 3.0, 26 * r, 0.33}, 950.0, {at(-62, 1.5, 0.97), at(24, -2, 1.01)}},
@@ -92,6 +97,16 @@ int main(int argc, char** argv) {
                 c.name, points.size(), fit.points_used, cpu, wall, cpu / budget, budget, fit.law.speed_km_s,
                 c.speed_km_s);
     if (!fit.ok) return 1;
+    if (print_params) {
+      std::printf("    lon %.9g lat %.9g tilt %.9g deg, alpha %.9g deg, kappa %.9g, h %.9g R_sun, v %.9g km/s, "
+                  "residual rms %.9g R_sun, cost %.9g\n",
+                  fit.shell.lon * kDegPerRad, fit.shell.lat * kDegPerRad, fit.shell.tilt * kDegPerRad,
+                  fit.shell.half_angle * kDegPerRad, fit.shell.aspect_ratio, fit.law.height_rs, fit.law.speed_km_s,
+                  fit.residual_rms_rs, fit.cost);
+      std::printf("    sigma:");
+      for (const double s : fit.sigma) std::printf(" %.6g", s);
+      std::printf("\n");
+    }
   }
   return 0;
 }
