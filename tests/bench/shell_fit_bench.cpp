@@ -5,10 +5,12 @@
 // that thread's CPU time (CLOCK_THREAD_CPUTIME_ID), which other processes' load does not
 // inflate as it does wall time; the best of 5, also printed as wall time.
 // --short: one run each, for the test suite. --params: also print the fitted parameters in
-// full, to compare two builds' results.
+// full, to compare two builds' results. --views N: only the case of N views (to count one
+// fit's instructions: valgrind --tool=callgrind --toggle-collect='occulta::fit::fit_shell*').
 #include <algorithm>
 #include <chrono>
 #include <cstdio>
+#include <cstdlib>
 #include <cstring>
 #include <random>
 #include <time.h>
@@ -70,9 +72,11 @@ imaging::Observer at(double lon_deg, double lat_deg, double au) {
 
 int main(int argc, char** argv) {
   bool short_mode = false, print_params = false;
+  std::size_t only_views = 0;
   for (int i = 1; i < argc; ++i) {
     short_mode |= std::strcmp(argv[i], "--short") == 0;
     print_params |= std::strcmp(argv[i], "--params") == 0;
+    if (std::strcmp(argv[i], "--views") == 0 && i + 1 < argc) only_views = std::strtoul(argv[++i], nullptr, 10);
   }
   const double r = kRadPerDeg;
   const std::vector<Case> cases = {
@@ -82,6 +86,7 @@ int main(int argc, char** argv) {
   };
   std::printf("shell fit bench: leading edges of 10 frames per view (best of %d)\n", short_mode ? 1 : 5);
   for (const Case& c : cases) {
+    if (only_views != 0 && c.observers.size() != only_views) continue;
     std::vector<ShellView> views;
     const std::vector<EdgePoint> points = points_of(c, views);
     ShellFit fit;
