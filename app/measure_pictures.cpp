@@ -4,6 +4,7 @@
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
+#include <vector>
 
 #include "app/quicklook.hpp"
 #include "imaging/polar.hpp"
@@ -69,8 +70,8 @@ void draw_front(const cv::Mat& difference, const imaging::RegisteredGrid& grid, 
 // Quicklook: three running differences (first, middle and last frame with points) with
 // the fitted shell's outline (cyan: its largest sky height per 1° of PA) and the points
 // the fit used there (yellow), north up, side by side on axes in R☉ about Sun centre.
-void draw_shell(const fit::ViewMeasurement& v, const fit::ShellFit& fit, const std::vector<fit::EdgePoint>& points,
-                int view_index, const fs::path& path) {
+void draw_shell(const fit::ViewMeasurement& v, const PolarToCartesian& remap, const fit::ShellFit& fit,
+                const std::vector<fit::EdgePoint>& points, int view_index, const fs::path& path) {
   std::vector<int> frames;
   for (std::size_t k = 0; k < v.polar.utc_s.size(); ++k)
     for (const fit::EdgePoint& p : points)
@@ -89,7 +90,7 @@ void draw_shell(const fit::ViewMeasurement& v, const fit::ShellFit& fit, const s
     std::snprintf(title, sizeof title, "%s · %s UTC · apex %.1f R☉", v.name.c_str(),
                   imaging::iso_from_utc_seconds(t, 0).substr(11, 5).c_str(), shell.apex_height_rs);
     QuicklookPanel panel{Plane::sky,
-                         cartesian_from_polar(v.polar.frames[static_cast<std::size_t>(k)], v.grid, v.polar.polar),
+                         cartesian_from_polar(v.polar.frames[static_cast<std::size_t>(k)], remap),
                          viewer::sky_extent(v.grid),
                          sigma_scale(4.0, "running difference (σ)"),
                          title,
@@ -114,7 +115,7 @@ void draw_shell(const fit::ViewMeasurement& v, const fit::ShellFit& fit, const s
   write_quicklook(path, panels, v.name + ": the fitted shell's outline over three running differences, with the points it fits");
 }
 
-void draw_view(const fit::ViewMeasurement& v, const fs::path& dir) {
+void draw_view(const fit::ViewMeasurement& v, const PolarToCartesian& remap, const fs::path& dir) {
   const imaging::PolarSequence& polar = v.polar;
   const double pa = !v.points.empty()                        ? v.track_pa_deg
                     : std::isfinite(v.central_pa_deg) ? v.central_pa_deg
@@ -127,17 +128,19 @@ void draw_view(const fit::ViewMeasurement& v, const fs::path& dir) {
   const int shown = v.front.found ? std::min(v.front.last_frame, last) : last;
   std::snprintf(caption, sizeof caption, "%s · running difference, north up · %s UTC", v.name.c_str(),
                 imaging::iso_from_utc_seconds(polar.utc_s[shown], 0).substr(0, 16).replace(10, 1, " ").c_str());
-  draw_front(cartesian_from_polar(polar.frames[shown], v.grid, polar.polar), v.grid, polar.polar, v.front, shown,
+  draw_front(cartesian_from_polar(polar.frames[shown], remap), v.grid, polar.polar, v.front, shown,
              caption, dir / "front.png");
 }
 
 }  // namespace
 
 void write_measurement_pictures(const fit::Measurement& m, const fs::path& out_dir) {
+  std::vector<PolarToCartesian> remaps;  // one per view, for its front and shell pictures
   for (const fit::ViewMeasurement& v : m.views) {
     const fs::path dir = out_dir / v.name;
     fs::create_directories(dir);
-    draw_view(v, dir);
+    remaps.push_back(polar_to_cartesian(v.grid, v.polar.polar));
+    draw_view(v, remaps.back(), dir);
   }
   if (!m.shell.fit) return;
   for (std::size_t i = 0; i < m.shell.views.size(); ++i) {
@@ -145,7 +148,8 @@ void write_measurement_pictures(const fit::Measurement& m, const fs::path& out_d
                                 [&](const fit::ViewMeasurement& view) { return view.name == m.shell.views[i]; });
     if (v == m.views.end()) continue;
     fs::create_directories(out_dir / v->name);
-    draw_shell(*v, *m.shell.fit, m.shell.points, static_cast<int>(i), out_dir / v->name / "shell.png");
+    draw_shell(*v, remaps[static_cast<std::size_t>(v - m.views.begin())], *m.shell.fit, m.shell.points,
+               static_cast<int>(i), out_dir / v->name / "shell.png");
   }
 }
 

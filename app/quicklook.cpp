@@ -168,20 +168,23 @@ void write_quicklook(const std::filesystem::path& path, std::span<const Quickloo
   viewer::write_png(draw_quicklook(panels, heading).picture, path);
 }
 
-cv::Mat cartesian_from_polar(const cv::Mat& polar_image, const imaging::RegisteredGrid& grid,
-                             const imaging::PolarGrid& polar) {
-  cv::Mat map_x(grid.height, grid.width, CV_32FC1), map_y(grid.height, grid.width, CV_32FC1);
+PolarToCartesian polar_to_cartesian(const imaging::RegisteredGrid& grid, const imaging::PolarGrid& polar) {
+  PolarToCartesian remap{cv::Mat(grid.height, grid.width, CV_32FC1), cv::Mat(grid.height, grid.width, CV_32FC1)};
   for (int y = 0; y < grid.height; ++y)
     for (int x = 0; x < grid.width; ++x) {
       const cv::Point2d p(x, y);
-      map_x.at<float>(y, x) = float(imaging::grid_pa_deg(grid, p) / polar.pa_step_deg);
-      map_y.at<float>(y, x) = float((imaging::grid_height_rs(grid, p) - polar.height_min_rs) / polar.height_step_rs);
+      remap.map_x.at<float>(y, x) = float(imaging::grid_pa_deg(grid, p) / polar.pa_step_deg);
+      remap.map_y.at<float>(y, x) = float((imaging::grid_height_rs(grid, p) - polar.height_min_rs) / polar.height_step_rs);
     }
+  return remap;
+}
+
+cv::Mat cartesian_from_polar(const cv::Mat& polar_image, const PolarToCartesian& remap) {
   // PA wraps through north: one column of the far side appended lets the remap interpolate across.
   cv::Mat wrapped;
   cv::hconcat(polar_image, polar_image.col(0), wrapped);
   cv::Mat out;
-  cv::remap(wrapped, out, map_x, map_y, cv::INTER_LINEAR, cv::BORDER_CONSTANT, cv::Scalar(NAN));
+  cv::remap(wrapped, out, remap.map_x, remap.map_y, cv::INTER_LINEAR, cv::BORDER_CONSTANT, cv::Scalar(NAN));
   return out;
 }
 

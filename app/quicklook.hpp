@@ -100,7 +100,13 @@ void write_quicklook(const std::filesystem::path& path, std::span<const Quickloo
 // A polar image (imaging/polar.hpp: rows = height, columns = PA) back on the registered
 // grid, bilinear in PA and height, NaN outside the polar grid: the Cartesian picture of any
 // running difference, without keeping the Cartesian frames of a sequence in memory.
-cv::Mat cartesian_from_polar(const cv::Mat& polar_image, const imaging::RegisteredGrid& grid,
-                             const imaging::PolarGrid& polar);
+// The remap (each grid pixel's polar column and row: an arctangent and a square root per
+// pixel) is the same for every frame of a view; it is made once by polar_to_cartesian and
+// used for each of its pictures.
+struct PolarToCartesian {
+  cv::Mat map_x, map_y;  // CV_32FC1 of the grid's size: polar column, polar row
+};
+PolarToCartesian polar_to_cartesian(const imaging::RegisteredGrid& grid, const imaging::PolarGrid& polar);
+cv::Mat cartesian_from_polar(const cv::Mat& polar_image, const PolarToCartesian& remap);
 
 }  // namespace occulta::app

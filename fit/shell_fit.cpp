@@ -97,11 +97,78 @@ const ShellCache<T>& cached_shell(const BasicShellParams<T>& p) {
   return cache;
 }
 
+// Brent's minimisation of f on [lo, hi] from a point x inside it whose value fx is known
+// (Brent 1973, "Algorithms for Minimization without Derivatives", ch. 5, procedure
+// localmin: parabolic steps through the three best points, golden-section steps when a
+// parabola is not trusted; the method of scipy.optimize.minimize_scalar's "bounded" and
+// "brent"). Stops when x is within 2·tol of the bracket's middle; x, fx are the best.
+// A non-finite f(u) only narrows the bracket (comparisons with it fail).
+template <typename F>
+void brent_minimise(const F& f, double lo, double hi, double tol, double& x, double& fx) {
+  constexpr double kGoldenStep = 0.3819660112501051;  // (3 − √5) / 2
+  double v = x, w = x, fv = fx, fw = fx, d = 0.0, e = 0.0;
+  for (int iteration = 0; iteration < 60; ++iteration) {
+    const double m = 0.5 * (lo + hi), tol1 = tol, tol2 = 2.0 * tol1;
+    if (std::abs(x - m) <= tol2 - 0.5 * (hi - lo)) break;
+    double p = 0.0, q = 0.0, r = 0.0;
+    if (std::abs(e) > tol1) {
+      r = (x - w) * (fx - fv);
+      q = (x - v) * (fx - fw);
+      p = (x - v) * q - (x - w) * r;
+      q = 2.0 * (q - r);
+      if (q > 0.0) p = -p;
+      else q = -q;
+      r = e;
+      e = d;
+    }
+    if (std::abs(p) < std::abs(0.5 * q * r) && p > q * (lo - x) && p < q * (hi - x)) {
+      d = p / q;  // parabolic step
+      const double u = x + d;
+      if (u - lo < tol2 || hi - u < tol2) d = x < m ? tol1 : -tol1;
+    } else {
+      e = (x < m ? hi : lo) - x;  // golden-section step into the larger part
+      d = kGoldenStep * e;
+    }
+    const double u = x + (std::abs(d) >= tol1 ? d : (d > 0.0 ? tol1 : -tol1));
+    const double fu = f(u);
+    if (fu <= fx) {
+      (u < x ? hi : lo) = x;
+      v = w, fv = fw, w = x, fw = fx, x = u, fx = fu;
+    } else {
+      (u < x ? lo : hi) = u;
+      if (fu <= fw || w == x) {
+        v = w, fv = fw, w = u, fw = fu;
+      } else if (fu <= fv || v == x || v == w) {
+        v = u, fv = fu;
+      }
+    }
+  }
+}
+
 // s*: the depth along the line where the shell's signed distance is smallest, on values
-// alone. 32 samples over the stretch of the line within the apex height of Sun centre
-// (no surface point lies farther out), then golden-section refinement around the best.
+// alone. Of 32 samples over the stretch of the line within the apex height of Sun centre
+// (no surface point lies farther out), the lowest (the first of equals); then Brent's
+// minimisation between its neighbours, from it, to 10⁻⁵ of the apex height. (Golden-
+// section search before: 20 evaluations to a bracket of ~2·10⁻⁵ of the apex height;
+// Brent's parabolic steps reach the same minimum in about 6. d is stationary at s*, so
+// the residual moves by O(Δs²), in its 9th digit.)
+// The samples are visited from the one nearest `s_hint` (the last s* of this line) outward,
+// and those that cannot be the lowest are skipped: d changes by at most kDepthSlope per R☉
+// along the line, so k samples beyond one of value d_i lie above d_i − k·kDepthSlope·step,
+// and when that is still above the lowest so far they are not evaluated. The lowest
+// sample, and so s*, is the one all 32 would give; the skipped ones are most of those far
+// from the shell.
 // False when no sample has a finite distance (the line meets no piece's domain).
-bool closest_depth(const ShellParams& p, const SightLine& line, double& s_star, double& d_star) {
+//
+// kDepthSlope: the legs' distance changes by at most 1 per R☉ (an exact distance); the
+// front's, measured within the cross-section plane through the point, by more near the
+// line the planes share (the centre of the front's arc), where its circle turns with the
+// plane: the largest slope between neighbouring samples in the fits of
+// tests/bench/shell_fit_bench and the sample event was 3.2. 5 leaves a margin (our choice;
+// a larger value only skips fewer samples).
+constexpr double kDepthSlope = 5.0;
+
+bool closest_depth(const ShellParams& p, const SightLine& line, double s_hint, double& s_star, double& d_star) {
   const ShellCache<double>& cache = cached_shell(p);
   const ShellShape& shape = cache.shape;
   const Eigen::Vector3d o = cache.shell_R_heeq * line.heeq_p_obs_rs, w = cache.shell_R_heeq * line.heeq_w;
@@ -111,29 +178,25 @@ bool closest_depth(const ShellParams& p, const SightLine& line, double& s_star, 
   const double step = 2.0 * reach / (kSamples - 1);
   int best = -1;
   double best_d = std::numeric_limits<double>::infinity();
-  for (int i = 0; i < kSamples; ++i) {
-    const double d = distance(centre - reach + i * step);
-    if (d < best_d) best_d = d, best = i;
-  }  if (best < 0 || !std::isfinite(best_d)) return false;
-  double lo = centre - reach + std::max(0, best - 1) * step, hi = centre - reach + std::min(kSamples - 1, best + 1) * step;
-  constexpr double kGolden = 0.6180339887498949;
-  double x1 = hi - kGolden * (hi - lo), x2 = lo + kGolden * (hi - lo);
-  double f1 = distance(x1), f2 = distance(x2);
-  for (int i = 0; i < 18; ++i) {
-    if (f1 < f2) {
-      hi = x2, x2 = x1, f2 = f1;
-      x1 = hi - kGolden * (hi - lo), f1 = distance(x1);
-    } else {
-      lo = x1, x1 = x2, f1 = f2;
-      x2 = lo + kGolden * (hi - lo), f2 = distance(x2);
+  const int first = std::isfinite(s_hint)
+                        ? static_cast<int>(std::lround(std::clamp((s_hint - (centre - reach)) / step, 0.0, kSamples - 1.0)))
+                        : kSamples / 2;
+  for (const int direction : {1, -1}) {
+    for (int i = direction > 0 ? first : first - 1; i >= 0 && i < kSamples;) {
+      const double d = distance(centre - reach + i * step);
+      if (d < best_d || (d == best_d && i < best)) best_d = d, best = i;
+      // Samples i + direction·j, 1 ≤ j ≤ skip, lie above d − j·kDepthSlope·step > best_d.
+      const double room = (d - best_d) / (kDepthSlope * step);
+      const int skip = std::isfinite(room) && room > 0.0 ? static_cast<int>(std::min(std::ceil(room) - 1.0, 64.0)) : 0;
+      i += direction * (1 + skip);
     }
   }
-  s_star = f1 < f2 ? x1 : x2;
-  d_star = std::min(f1, f2);
-  if (best_d < d_star) {  // a sample at the stretch's end beat the bracket's interior
-    s_star = centre - reach + best * step;
-    d_star = best_d;
-  }
+  if (best < 0 || !std::isfinite(best_d)) return false;
+  const double lo = centre - reach + std::max(0, best - 1) * step;
+  const double hi = centre - reach + std::min(kSamples - 1, best + 1) * step;
+  s_star = centre - reach + best * step;
+  d_star = best_d;
+  brent_minimise(distance, lo, hi, 1e-5 * p.apex_height_rs, s_star, d_star);
   return std::isfinite(d_star) && s_star > 0.0;
 }
 
@@ -160,7 +223,7 @@ struct OutlineResidual {
   SightLine line;
   double tau_s = 0.0;
   mutable ShellParams last_shell{kNaN, kNaN, kNaN, kNaN, kNaN, kNaN};
-  mutable double last_s_star = 0.0;
+  mutable double last_s_star = kNaN;  // also where the next search starts
   mutable bool last_found = false;
 
   template <typename T>
@@ -179,7 +242,7 @@ struct OutlineResidual {
     if (!(v.lon == c.lon && v.lat == c.lat && v.tilt == c.tilt && v.apex_height_rs == c.apex_height_rs &&
           v.half_angle == c.half_angle && v.aspect_ratio == c.aspect_ratio)) {
       double d_star = 0.0;
-      last_found = closest_depth(v, line, last_s_star, d_star);
+      last_found = closest_depth(v, line, last_s_star, last_s_star, d_star);
       last_shell = v;
     }
     if (!last_found) return false;
@@ -337,6 +400,18 @@ double wrap_pi(double a) {
   a = std::fmod(a + kPi, 2.0 * kPi);
   if (a < 0.0) a += 2.0 * kPi;
   return a - kPi;
+}
+
+// Two coarse solutions (normalised) in the same minimum: every parameter within 10⁻³ (rad,
+// κ; h, v and a relative to their size). The coarse solves stop within ~10⁻⁴ of their
+// minimum (shell_fit_bench: starts at six tilts end within 10⁻⁴ rad of each other); two
+// distinct minima of the shell's cost lie much farther apart than that (our choice).
+bool same_minimum(const Params& a, const Params& b) {
+  const auto near = [](double x, double y, double scale) { return std::abs(x - y) <= 1e-3 * scale; };
+  return std::abs(wrap_pi(a.direction[0] - b.direction[0])) <= 1e-3 && near(a.direction[1], b.direction[1], 1.0) &&
+         std::abs(std::remainder(a.shape[0] - b.shape[0], kPi)) <= 1e-3 && near(a.shape[1], b.shape[1], 1.0) &&
+         near(a.shape[2], b.shape[2], 1.0) && near(a.law[0], b.law[0], std::abs(a.law[0])) &&
+         near(a.law[1], b.law[1], std::abs(a.law[1])) && near(a.law[2], b.law[2], std::max(1.0, std::abs(a.law[2])));
 }
 
 // lon into (−π, π]; tilt into (−π/2, π/2] (the shell is the same turned by π about its
@@ -639,7 +714,15 @@ ShellFit fit_shell(const std::vector<ShellView>& views, const std::vector<EdgePo
             [](const auto& a, const auto& b) { return a.first < b.first; });
   // Solves live on the heap: their Ceres problems point into their parameters.
   std::unique_ptr<Solve> chosen;
+  std::vector<Params> refined_from;
   for (std::size_t k = 0; k < std::min<std::size_t>(3, coarse_results.size()); ++k) {
+    // Starts that ended in the same minimum as one already refined (most do) would refine
+    // to it again, to the solver's tolerance: refined once.
+    Params start = coarse_results[k].second;
+    normalise(start);
+    if (std::any_of(refined_from.begin(), refined_from.end(), [&](const Params& q) { return same_minimum(q, start); }))
+      continue;
+    refined_from.push_back(start);
     auto refined = std::make_unique<Solve>();
     refined->x = coarse_results[k].second;
     refined->x.heights.clear();

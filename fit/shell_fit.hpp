@@ -32,7 +32,8 @@
 // that view's central PA (Inhester 2006, shared/REFERENCES.md); half-angle from the
 // widest PA span; aspect ratio 0.3; the height law from the outermost leading edge of the
 // least foreshortened view. Six tilts × two half-angles are started on a quarter of the
-// points; the three best are refined on all points and the lowest cost is kept.
+// points; the three best are refined on all points (each minimum among them once) and the
+// lowest cost is kept.
 // Planes fewer than kPlanesWellApartDeg apart also start from seven directions along the
 // first view's plane (ε = 0, ±30°, ±60°, ±85° out of its sky plane: ±85° are nearly
 // toward and away from that observer, where a CME seen as a partial halo there lies). Two or more views always

@@ -4,10 +4,13 @@
 // direction"); 2 views ≤ 0.1 s (issue 18). The fit runs on one thread, so its time is
 // that thread's CPU time (CLOCK_THREAD_CPUTIME_ID), which other processes' load does not
 // inflate as it does wall time; the best of 5, also printed as wall time.
-// --short: one run each, for the test suite.
+// --short: one run each, for the test suite. --params: also print the fitted parameters in
+// full, to compare two builds' results. --views N: only the case of N views (to count one
+// fit's instructions: valgrind --tool=callgrind --toggle-collect='occulta::fit::fit_shell*').
 #include <algorithm>
 #include <chrono>
 #include <cstdio>
+#include <cstdlib>
 #include <cstring>
 #include <random>
 #include <time.h>
@@ -68,7 +71,13 @@ imaging::Observer at(double lon_deg, double lat_deg, double au) {
 }  // namespace
 
 int main(int argc, char** argv) {
-  const bool short_mode = argc > 1 && std::strcmp(argv[1], "--short") == 0;
+  bool short_mode = false, print_params = false;
+  std::size_t only_views = 0;
+  for (int i = 1; i < argc; ++i) {
+    short_mode |= std::strcmp(argv[i], "--short") == 0;
+    print_params |= std::strcmp(argv[i], "--params") == 0;
+    if (std::strcmp(argv[i], "--views") == 0 && i + 1 < argc) only_views = std::strtoul(argv[++i], nullptr, 10);
+  }
   const double r = kRadPerDeg;
   const std::vector<Case> cases = {
       {"2 views", {-12 * r, 6 * r, 30 * r, 3.0, 26 * r, 0.33}, 950.0, {at(-62, 1.5, 0.97), at(24, -2, 1.01)}},
@@ -77,6 +86,7 @@ int main(int argc, char** argv) {
   };
   std::printf("shell fit bench: leading edges of 10 frames per view (best of %d)\n", short_mode ? 1 : 5);
   for (const Case& c : cases) {
+    if (only_views != 0 && c.observers.size() != only_views) continue;
     std::vector<ShellView> views;
     const std::vector<EdgePoint> points = points_of(c, views);
     ShellFit fit;
@@ -92,6 +102,16 @@ int main(int argc, char** argv) {
                 c.name, points.size(), fit.points_used, cpu, wall, cpu / budget, budget, fit.law.speed_km_s,
                 c.speed_km_s);
     if (!fit.ok) return 1;
+    if (print_params) {
+      std::printf("    lon %.9g lat %.9g tilt %.9g deg, alpha %.9g deg, kappa %.9g, h %.9g R_sun, v %.9g km/s, "
+                  "residual rms %.9g R_sun, cost %.9g\n",
+                  fit.shell.lon * kDegPerRad, fit.shell.lat * kDegPerRad, fit.shell.tilt * kDegPerRad,
+                  fit.shell.half_angle * kDegPerRad, fit.shell.aspect_ratio, fit.law.height_rs, fit.law.speed_km_s,
+                  fit.residual_rms_rs, fit.cost);
+      std::printf("    sigma:");
+      for (const double s : fit.sigma) std::printf(" %.6g", s);
+      std::printf("\n");
+    }
   }
   return 0;
 }
