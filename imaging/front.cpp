@@ -18,6 +18,9 @@ namespace {
 
 constexpr double kKmPerRs = 695700.0;  // IAU 2015 nominal solar radius (Prša et al. 2016)
 constexpr float kNaN = std::numeric_limits<float>::quiet_NaN();
+// Step 6: a track point this many rows off a straight line through a front's others is
+// not on that front (our choice: the track's own scatter is under a row or two).
+constexpr double kOffLineRows = 3.0;
 
 // Rows that may hold a front: between the occulter edge and the field stop, each with its
 // margin. The edges are the lowest and highest rows where at least a quarter of the PAs
@@ -574,6 +577,27 @@ bool track_front(const PolarSequence& s, const FrontOptions& o, Front& front, co
   return int(std::max(front.track.size(), outer.size())) >= o.min_frames;
 }
 
+// The least-squares line h = h0 + v (t − t0) through a track's heights (R☉, R☉/s, t0 its
+// first time); v NaN with fewer than two distinct times.
+struct HeightLine {
+  double t0 = 0.0, h0 = 0.0, v = std::numeric_limits<double>::quiet_NaN();
+};
+HeightLine height_line(const std::vector<TrackPoint>& track) {
+  HeightLine line;
+  if (track.empty()) return line;
+  line.t0 = track.front().utc_s;
+  double n = 0.0, st = 0.0, sh = 0.0, stt = 0.0, sth = 0.0;
+  for (const TrackPoint& p : track) {
+    const double t = p.utc_s - line.t0;
+    n += 1.0, st += t, sh += p.height_rs, stt += t * t, sth += t * p.height_rs;
+  }
+  const double denom = n * stt - st * st;
+  if (!(denom > 0.0)) return line;
+  line.v = (n * sth - st * sh) / denom;
+  line.h0 = (sh - line.v * st) / n;
+  return line;
+}
+
 // Origin (h = 0) and sum of squared residuals of the least-squares line through points
 // [from, to) of a track; NaN origin when it does not rise.
 std::pair<double, double> line_origin(const std::vector<TrackPoint>& p, size_t from, size_t to) {
@@ -612,6 +636,32 @@ int split_from_earlier(const std::vector<TrackPoint>& track, const Front& earlie
   const bool head_same = std::abs(head - earlier.origin_utc_s) <= tolerance_s;
   const bool tail_other = !(std::abs(tail - earlier.origin_utc_s) <= tolerance_s);
   return head_same && tail_other ? track[at].frame : -1;
+}
+
+// Step 6: a later chain can also begin on a slower structure in an earlier front's wake
+// (its rear rim or legs, rising little from frame to frame) and run on into a new CME that
+// overtakes it there. Then the track's first points lie above the straight line through
+// the rest carried back, by more than off_line_rs at each, while the rest lies on that
+// line (within off_line_rs at every point, ≥ min_frames points) with an origin not the
+// earlier front's: the new CME starts with the rest, at the first such split. Not a
+// single CME's acceleration: a constant 100 m/s² bends a track by 0.03 R☉ over a 10-min
+// frame, far under off_line_rs. Returns the frame to start from, or −1 to keep the chain
+// whole (tests/imaging/front_multi_test.cpp: the faster CME 45° from both views, whose
+// chain began on the slower one's rear, 1.1 R☉ above its own line a frame earlier).
+int cut_wake_head(const std::vector<TrackPoint>& track, const Front& earlier, double tolerance_s, double off_line_rs,
+                  const FrontOptions& o) {
+  const size_t n = track.size();
+  for (size_t j = 1; j + size_t(o.min_frames) <= n; ++j) {
+    const HeightLine line = height_line({track.begin() + std::ptrdiff_t(j), track.end()});
+    if (!(line.v > 0.0)) continue;
+    const auto off = [&](const TrackPoint& p) { return p.height_rs - (line.h0 + line.v * (p.utc_s - line.t0)); };
+    bool head_above = true, tail_on = true;
+    for (size_t i = 0; i < j; ++i) head_above = head_above && off(track[i]) > off_line_rs;
+    for (size_t i = j; i < n; ++i) tail_on = tail_on && std::abs(off(track[i])) <= off_line_rs;
+    const double origin = line.t0 - line.h0 / line.v;
+    if (head_above && tail_on && !(std::abs(origin - earlier.origin_utc_s) <= tolerance_s)) return track[j].frame;
+  }
+  return -1;
 }
 
 }  // namespace
@@ -692,27 +742,6 @@ bool trails(const Front& later, const Front& earlier, double tolerance_s, const 
   return true;
 }
 
-// The least-squares line h = h0 + v (t − t0) through a track's heights (R☉, R☉/s, t0 its
-// first time); v NaN with fewer than two distinct times.
-struct HeightLine {
-  double t0 = 0.0, h0 = 0.0, v = std::numeric_limits<double>::quiet_NaN();
-};
-HeightLine height_line(const std::vector<TrackPoint>& track) {
-  HeightLine line;
-  if (track.empty()) return line;
-  line.t0 = track.front().utc_s;
-  double n = 0.0, st = 0.0, sh = 0.0, stt = 0.0, sth = 0.0;
-  for (const TrackPoint& p : track) {
-    const double t = p.utc_s - line.t0;
-    n += 1.0, st += t, sh += p.height_rs, stt += t * t, sth += t * p.height_rs;
-  }
-  const double denom = n * stt - st * st;
-  if (!(denom > 0.0)) return line;
-  line.v = (n * sth - st * sh) / denom;
-  line.h0 = (sh - line.v * st) / n;
-  return line;
-}
-
 // Step 6: whether `later` rides in the wake of `earlier`: seen after it, slower on the
 // sky, and below the earlier front's leading edge carried on along its straight line at
 // every point of its track. That is the front's own trailing structure — in our synthetic
@@ -757,8 +786,13 @@ bool near_in_sky(const Front& a, const Front& b, double near_deg) {
 // later one's span (± kSpanMarginDeg) may be the later one's — the threshold joins two
 // fronts that meet into one region, and a faint later front shows there before its own
 // chain begins — so they are dropped from the earlier front (its span, central PA and
-// last frame recomputed from what is left). Its track stays (tracked under the later
-// front, above). Fronts by onset.
+// last frame recomputed from what is left). An edge that lies above the later front —
+// above its track's straight line carried through that frame and above its own edge near
+// that PA there, by more than kOffLineRows rows — is the earlier front's own and stays: a
+// faster CME following a slower one in the same sky rises below it, and without its
+// edges there the earlier front's central PA would swing to its flanks (by 20° in
+// tests/imaging/front_multi_test.cpp's follower 45° from both views). Its track stays
+// (tracked under the later front, above). Fronts by onset.
 void keep_fronts_apart(std::vector<Front>& fronts, const PolarSequence& s, const RowRange& rows) {
   constexpr double kSpanMarginDeg = 5.0;
   const PolarGrid& g = s.polar;
@@ -769,15 +803,24 @@ void keep_fronts_apart(std::vector<Front>& fronts, const PolarSequence& s, const
       const Front& late = fronts[l];
       const double from_s = std::isfinite(late.origin_utc_s) ? std::min(late.origin_utc_s, late.onset_utc_s) : late.onset_utc_s;
       const double span = std::fmod(late.pa_to_deg - late.pa_from_deg + 720.0, 360.0) + 2.0 * kSpanMarginDeg;
+      const HeightLine line = height_line(late.track);
       for (int k = early.onset_frame; k <= early.last_frame; ++k) {
         if (s.utc_s[size_t(k)] < from_s) continue;
+        // The later front's height in this frame: NaN (every edge in its span dropped)
+        // when its track has no rising line.
+        const double late_rs = line.v > 0.0 ? line.h0 + line.v * (s.utc_s[size_t(k)] - line.t0)
+                                            : std::numeric_limits<double>::quiet_NaN();
         auto& mine = early.leading_edge_rs[size_t(k)];
-        for (int c = 0; c < g.pa_count; ++c)
-          if (std::isfinite(mine[size_t(c)]) &&
-              std::fmod(g.pa_deg(c) - late.pa_from_deg + kSpanMarginDeg + 720.0, 360.0) <= span) {
+        for (int c = 0; c < g.pa_count; ++c) {
+          if (!std::isfinite(mine[size_t(c)])) continue;
+          const double near = edge_near(late, k, g.pa_deg(c), 10.0, g);
+          const double below = std::isfinite(near) ? std::max(late_rs, near) : late_rs;
+          if (mine[size_t(c)] > below + kOffLineRows * g.height_step_rs) continue;  // above the later front: its own
+          if (std::fmod(g.pa_deg(c) - late.pa_from_deg + kSpanMarginDeg + 720.0, 360.0) <= span) {
             mine[size_t(c)] = kNaN;
             changed = true;
           }
+        }
       }
     }
     if (!changed) continue;
@@ -847,7 +890,8 @@ FrontSet find_fronts(const PolarSequence& s, const FrontOptions& o, const std::v
     for (const Front& other : set.fronts) {
       if (!refused.empty() || !near_in_sky(front, other, o.near_pa_deg)) continue;
       const std::vector<TrackPoint>& track = front.track;
-      const int from = split_from_earlier(track, other, o.same_origin_cadences * cadence_s, o);
+      int from = split_from_earlier(track, other, o.same_origin_cadences * cadence_s, o);
+      if (from < 0) from = cut_wake_head(track, other, o.same_origin_cadences * cadence_s, kOffLineRows * s.polar.height_step_rs, o);
       if (from < 0) continue;
       for (int k = front.onset_frame; k < from; ++k)
         std::fill(front.leading_edge_rs[size_t(k)].begin(), front.leading_edge_rs[size_t(k)].end(), kNaN);
