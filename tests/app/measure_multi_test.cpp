@@ -31,26 +31,26 @@ struct Cme {
   double lon, lat, tilt, speed, at_min;
 };
 
-// Two views 90° apart (Stonyhurst lon −60° and 30°), 128 px, `frames` frames at 10 min;
-// `extra` adds top-level members (each with a leading comma).
-std::string scenario(const std::vector<Cme>& cmes, int frames, const std::string& extra = "") {
+// Two views 90° apart (Stonyhurst lon −60° and 30°), `size_px` px, `frames` frames at
+// 10 min; `extra` adds top-level members (each with a leading comma).
+std::string scenario(const std::vector<Cme>& cmes, int frames, const std::string& extra = "", int size_px = 128) {
   std::string shells;
   for (const Cme& c : cmes) {
     char shell[512];
     std::snprintf(shell, sizeof shell, R"({"lon_deg": %g, "lat_deg": %g, "tilt_deg": %g, "half_angle_deg": 25, "aspect_ratio": 0.3,
-        "apex": {"time": "2031-06-01T12:%02d:00", "height_rs": 1.2, "speed_km_s": %g}, "density_cm3": 5e5})",
-                  c.lon, c.lat, c.tilt, int(c.at_min), c.speed);
+        "apex": {"time": "2031-06-01T%02d:%02d:00", "height_rs": 1.2, "speed_km_s": %g}, "density_cm3": 5e5})",
+                  c.lon, c.lat, c.tilt, 12 + int(c.at_min) / 60, int(c.at_min) % 60, c.speed);
     shells += (shells.empty() ? "" : ", ") + std::string(shell);
   }
   char text[4096];
   std::snprintf(text, sizeof text, R"({
     "id": "multi", "start": "2031-06-01T12:00:00", "cadence_s": %g, "frames": %d, "exposure_s": 6,
-    "image": {"size_px": 128, "half_width_rs": 15, "occulter_rs": [2.5, 14.5]},
+    "image": {"size_px": %d, "half_width_rs": 15, "occulter_rs": [2.5, 14.5]},
     "observers": [{"name": "left", "lon_deg": -60, "lat_deg": 2, "dist_au": 0.98, "roll_deg": 4},
                   {"name": "right", "lon_deg": 30, "lat_deg": -3, "dist_au": 1.01}],
     "shells": [%s],
     "detector": {"dn_per_s_per_bsun": 2e12}, "jitter_px": 0.3, "cosmic_rays_per_frame": 6, "seed": 7%s
-  })", kCadenceS, frames, shells.c_str(), extra.c_str());
+  })", kCadenceS, frames, size_px, shells.c_str(), extra.c_str());
   return text;
 }
 
@@ -149,6 +149,34 @@ TEST_CASE("measure: two CMEs in different directions at overlapping times, two v
   CHECK(r.csv.rfind("event_id,cme,status,", 0) == 0);
   CHECK(r.csv.find("\n\"multi\",1,") != std::string::npos);
   CHECK(r.csv.find("\n\"multi\",2,") != std::string::npos);
+}
+
+TEST_CASE("measure: a faster CME after a slower one toward the same direction — each found, paired, its own shell") {
+  // tests/imaging/front_multi_test.cpp's follower: both toward Stonyhurst (−15°, +5°), 45°
+  // from both views; 1200 km/s from 12:00, then 1800 km/s with its apex at 1.2 R☉ at
+  // 13:00, rising through the first's wake in the same PA range of each view. 150 px, 14
+  // frames: the window the README's Limits once gave as a known fault (each view found
+  // two fronts from the first CME's origin and missed the second).
+  const std::vector<Cme> cmes{{-15, 5, 10, 1200, 0}, {-15, 5, 10, 1800, 60}};
+  const Run r = synth_and_measure("measure_multi_follow", scenario(cmes, 14, "", 150));
+  INFO(r.stdout_text);
+  REQUIRE(r.result.contains("cmes"));
+  REQUIRE(r.result["cmes"].size() == 2);
+  CHECK(r.result["status"] == "ok");
+  for (int k = 0; k < 2; ++k) {
+    const json& c = r.result["cmes"][std::size_t(k)];
+    CAPTURE(k);
+    CHECK(c["association"] == "views");
+    // Each view's sighting against its own CME's truth: central PA, sky speed, and the
+    // onset within one cadence (check_views).
+    CHECK(check_views(c, r.truth, k) == 2);
+    REQUIRE(c["shell"].is_object());
+    const json& s = c["shell"];
+    CAPTURE(s.dump());
+    CHECK(angle_between_deg(s["lon_deg"].get<double>(), cmes[std::size_t(k)].lon) <= 4.0);
+    CHECK(std::abs(s["lat_deg"].get<double>() - cmes[std::size_t(k)].lat) <= 4.0);
+    CHECK(s["speed_km_s"].get<double>() == doctest::Approx(cmes[std::size_t(k)].speed).epsilon(0.07));
+  }
 }
 
 TEST_CASE("measure: one CME and a bright point drifting across the field — exactly one CME, as accurate") {
