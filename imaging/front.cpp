@@ -824,7 +824,8 @@ void follow_through_merge(std::vector<Front>& fronts, const PolarSequence& s, co
       cv::Mat mask(g.height_count, span_cols, CV_8U, cv::Scalar(0));
       for (int r = std::max(0, rows.lo); r <= cap_row; ++r)
         for (int j = 0; j < span_cols; ++j)
-          mask.at<uint8_t>(r, j) = sigma.at<float>(r, (first_col + j) % g.pa_count) > float(o.threshold_sigma) ? 255 : 0;
+          mask.at<uint8_t>(r, j) =
+              sigma.at<float>(r, (first_col + j) % g.pa_count) > float(o.threshold_sigma) ? 255 : 0;
       cv::Mat labels;
       cv::connectedComponents(mask, labels, 8, CV_32S);
       // The labels at the track's point: its band of PA, from kOffLineRows rows below it up.
@@ -870,8 +871,8 @@ void follow_through_merge(std::vector<Front>& fronts, const PolarSequence& s, co
 // would swing to its flanks (by 20° in tests/imaging/front_multi_test.cpp's follower 45°
 // from both views). Not under a slower later chain: there the earlier region can hold
 // the later CME's own front above the chain (tests/fit/associate_test.cpp, view b, a
-// doubtful chain kept: the first CME's central PA went 23° into the second's sky). Its track stays
-// (tracked under the later front, above). Fronts by onset.
+// doubtful chain kept: the first CME's central PA went 23° into the second's sky). Its
+// track stays (tracked under the later front, above). Fronts by onset.
 void keep_fronts_apart(std::vector<Front>& fronts, const PolarSequence& s, const RowRange& rows) {
   constexpr double kSpanMarginDeg = 5.0;
   const PolarGrid& g = s.polar;
@@ -971,7 +972,8 @@ FrontSet find_fronts(const PolarSequence& s, const FrontOptions& o, const std::v
       if (!refused.empty() || !near_in_sky(front, other, o.near_pa_deg)) continue;
       const std::vector<TrackPoint>& track = front.track;
       int from = split_from_earlier(track, other, o.same_origin_cadences * cadence_s, o);
-      if (from < 0) from = cut_wake_head(track, other, o.same_origin_cadences * cadence_s, kOffLineRows * s.polar.height_step_rs, o);
+      if (from < 0)
+        from = cut_wake_head(track, other, o.same_origin_cadences * cadence_s, kOffLineRows * s.polar.height_step_rs, o);
       if (from < 0) continue;
       for (int k = front.onset_frame; k < from; ++k)
         std::fill(front.leading_edge_rs[size_t(k)].begin(), front.leading_edge_rs[size_t(k)].end(), kNaN);
