@@ -18,6 +18,9 @@ namespace {
 
 constexpr double kKmPerRs = 695700.0;  // IAU 2015 nominal solar radius (Prša et al. 2016)
 constexpr float kNaN = std::numeric_limits<float>::quiet_NaN();
+// Step 6: a track point this many rows off a straight line through a front's others is
+// not on that front (our choice: the track's own scatter is under a row or two).
+constexpr double kOffLineRows = 3.0;
 
 // Rows that may hold a front: between the occulter edge and the field stop, each with its
 // margin. The edges are the lowest and highest rows where at least a quarter of the PAs
@@ -574,6 +577,27 @@ bool track_front(const PolarSequence& s, const FrontOptions& o, Front& front, co
   return int(std::max(front.track.size(), outer.size())) >= o.min_frames;
 }
 
+// The least-squares line h = h0 + v (t − t0) through a track's heights (R☉, R☉/s, t0 its
+// first time); v NaN with fewer than two distinct times.
+struct HeightLine {
+  double t0 = 0.0, h0 = 0.0, v = std::numeric_limits<double>::quiet_NaN();
+};
+HeightLine height_line(const std::vector<TrackPoint>& track) {
+  HeightLine line;
+  if (track.empty()) return line;
+  line.t0 = track.front().utc_s;
+  double n = 0.0, st = 0.0, sh = 0.0, stt = 0.0, sth = 0.0;
+  for (const TrackPoint& p : track) {
+    const double t = p.utc_s - line.t0;
+    n += 1.0, st += t, sh += p.height_rs, stt += t * t, sth += t * p.height_rs;
+  }
+  const double denom = n * stt - st * st;
+  if (!(denom > 0.0)) return line;
+  line.v = (n * sth - st * sh) / denom;
+  line.h0 = (sh - line.v * st) / n;
+  return line;
+}
+
 // Origin (h = 0) and sum of squared residuals of the least-squares line through points
 // [from, to) of a track; NaN origin when it does not rise.
 std::pair<double, double> line_origin(const std::vector<TrackPoint>& p, size_t from, size_t to) {
@@ -612,6 +636,32 @@ int split_from_earlier(const std::vector<TrackPoint>& track, const Front& earlie
   const bool head_same = std::abs(head - earlier.origin_utc_s) <= tolerance_s;
   const bool tail_other = !(std::abs(tail - earlier.origin_utc_s) <= tolerance_s);
   return head_same && tail_other ? track[at].frame : -1;
+}
+
+// Step 6: a later chain can also begin on a slower structure in an earlier front's wake
+// (its rear rim or legs, rising little from frame to frame) and run on into a new CME that
+// overtakes it there. Then the track's first points lie above the straight line through
+// the rest carried back, by more than off_line_rs at each, while the rest lies on that
+// line (within off_line_rs at every point, ≥ min_frames points) with an origin not the
+// earlier front's: the new CME starts with the rest, at the first such split. Not a
+// single CME's acceleration: a constant 100 m/s² bends a track by 0.03 R☉ over a 10-min
+// frame, far under off_line_rs. Returns the frame to start from, or −1 to keep the chain
+// whole (tests/imaging/front_multi_test.cpp: the faster CME 45° from both views, whose
+// chain began on the slower one's rear, 1.1 R☉ above its own line a frame earlier).
+int cut_wake_head(const std::vector<TrackPoint>& track, const Front& earlier, double tolerance_s, double off_line_rs,
+                  const FrontOptions& o) {
+  const size_t n = track.size();
+  for (size_t j = 1; j + size_t(o.min_frames) <= n; ++j) {
+    const HeightLine line = height_line({track.begin() + std::ptrdiff_t(j), track.end()});
+    if (!(line.v > 0.0)) continue;
+    const auto off = [&](const TrackPoint& p) { return p.height_rs - (line.h0 + line.v * (p.utc_s - line.t0)); };
+    bool head_above = true, tail_on = true;
+    for (size_t i = 0; i < j; ++i) head_above = head_above && off(track[i]) > off_line_rs;
+    for (size_t i = j; i < n; ++i) tail_on = tail_on && std::abs(off(track[i])) <= off_line_rs;
+    const double origin = line.t0 - line.h0 / line.v;
+    if (head_above && tail_on && !(std::abs(origin - earlier.origin_utc_s) <= tolerance_s)) return track[j].frame;
+  }
+  return -1;
 }
 
 }  // namespace
@@ -692,27 +742,6 @@ bool trails(const Front& later, const Front& earlier, double tolerance_s, const 
   return true;
 }
 
-// The least-squares line h = h0 + v (t − t0) through a track's heights (R☉, R☉/s, t0 its
-// first time); v NaN with fewer than two distinct times.
-struct HeightLine {
-  double t0 = 0.0, h0 = 0.0, v = std::numeric_limits<double>::quiet_NaN();
-};
-HeightLine height_line(const std::vector<TrackPoint>& track) {
-  HeightLine line;
-  if (track.empty()) return line;
-  line.t0 = track.front().utc_s;
-  double n = 0.0, st = 0.0, sh = 0.0, stt = 0.0, sth = 0.0;
-  for (const TrackPoint& p : track) {
-    const double t = p.utc_s - line.t0;
-    n += 1.0, st += t, sh += p.height_rs, stt += t * t, sth += t * p.height_rs;
-  }
-  const double denom = n * stt - st * st;
-  if (!(denom > 0.0)) return line;
-  line.v = (n * sth - st * sh) / denom;
-  line.h0 = (sh - line.v * st) / n;
-  return line;
-}
-
 // Step 6: whether `later` rides in the wake of `earlier`: seen after it, slower on the
 // sky, and below the earlier front's leading edge carried on along its straight line at
 // every point of its track. That is the front's own trailing structure — in our synthetic
@@ -752,13 +781,98 @@ bool near_in_sky(const Front& a, const Front& b, double near_deg) {
          near_deg;
 }
 
+// Step 6: a later front whose chain ends while an earlier, slower one goes on above it in
+// the same sky — the threshold joins the later one's bright sheath to the earlier one's legs
+// and rear into one region, which the earlier chain took — is followed on through that
+// region for as long as its track goes on (tracked under the earlier front, above). In
+// each such frame its leading edge per PA column of its span is the outermost significant
+// pixel (step 1) of what lies below a cap — its track's height there (the band's outer
+// side, step 5) plus one row, at most midway up to the earlier front's edge — connected to
+// its track's point. Where the earlier front's legs fill the sky above it the edge is the
+// cap: the track, not the threshold, then sets the height. Without it the later front's
+// edges end when the merge begins, and its shell rests on its first two or three frames
+// low in the field (tests/app/measure_multi_test.cpp's follower: shell speed 17 % low;
+// with a cap 0, 1, 2 or 3 rows above the track: −0.5, +1.1, +9.6, +10.4 %). Fronts by onset.
+void follow_through_merge(std::vector<Front>& fronts, const PolarSequence& s, const FrontOptions& o,
+                          const RowRange& rows) {
+  const PolarGrid& g = s.polar;
+  const double step = g.height_step_rs;
+  for (size_t l = 1; l < fronts.size(); ++l) {
+    Front& late = fronts[l];
+    const HeightLine line = height_line(late.track);
+    int first_col = 0;
+    for (int c = 1; c < g.pa_count; ++c)
+      if (std::abs(std::remainder(g.pa_deg(c) - late.pa_from_deg, 360.0)) <
+          std::abs(std::remainder(g.pa_deg(first_col) - late.pa_from_deg, 360.0)))
+        first_col = c;
+    const int span_cols = std::min(g.pa_count, int(std::lround(late.width_deg / g.pa_step_deg)));
+    int last = late.last_frame;
+    for (const TrackPoint& p : late.track) {
+      if (p.frame <= late.last_frame) continue;
+      double above = std::numeric_limits<double>::quiet_NaN();  // the lowest earlier edge over it
+      for (size_t e = 0; e < l; ++e)
+        if (fronts[e].last_frame >= p.frame && near_in_sky(late, fronts[e], o.near_pa_deg) &&
+            line.v > height_line(fronts[e].track).v) {
+          const double h = edge_near(fronts[e], p.frame, p.pa_deg, 10.0, g);
+          if (h > p.height_rs + step && !(h > above)) above = h;
+        }
+      if (!std::isfinite(above)) continue;  // nothing above it took its region
+      const double cap_rs = std::min(p.height_rs + step, 0.5 * (p.height_rs + above));
+      const int cap_row = std::min(rows.hi, int(std::floor((cap_rs - g.height_rs(0)) / step)));
+      // The span's columns in order (across north too), rows up to the cap.
+      const cv::Mat sigma = smooth_sigma(s.frames[size_t(p.frame)], o, g);
+      cv::Mat mask(g.height_count, span_cols, CV_8U, cv::Scalar(0));
+      for (int r = std::max(0, rows.lo); r <= cap_row; ++r)
+        for (int j = 0; j < span_cols; ++j)
+          mask.at<uint8_t>(r, j) =
+              sigma.at<float>(r, (first_col + j) % g.pa_count) > float(o.threshold_sigma) ? 255 : 0;
+      cv::Mat labels;
+      cv::connectedComponents(mask, labels, 8, CV_32S);
+      // The labels at the track's point: its band of PA, from kOffLineRows rows below it up.
+      std::vector<uint8_t> mine;
+      const int point_row = int(std::lround((p.height_rs - g.height_rs(0)) / step));
+      for (int j = 0; j < span_cols; ++j) {
+        const double d = std::abs(std::remainder(g.pa_deg((first_col + j) % g.pa_count) - p.pa_deg, 360.0));
+        if (d > o.track_half_width_deg) continue;
+        for (int r = std::max(0, point_row - int(kOffLineRows)); r <= std::min(cap_row, point_row + 1); ++r) {
+          const int label = labels.at<int>(r, j);
+          if (label <= 0) continue;
+          if (size_t(label) >= mine.size()) mine.resize(size_t(label) + 1, 0);
+          mine[size_t(label)] = 1;
+        }
+      }
+      bool any = false;
+      auto& edge = late.leading_edge_rs[size_t(p.frame)];
+      for (int j = 0; j < span_cols; ++j)
+        for (int r = cap_row; r >= std::max(0, rows.lo); --r) {
+          const int label = labels.at<int>(r, j);
+          if (label > 0 && size_t(label) < mine.size() && mine[size_t(label)]) {
+            edge[size_t((first_col + j) % g.pa_count)] = float(g.height_rs(r));
+            any = true;
+            break;
+          }
+        }
+      if (any) last = p.frame;
+    }
+    late.last_frame = last;
+  }
+}
+
 // Step 6, no points of two CMEs in one front: once a later front has started (its
 // origin, or its onset when it has none), an earlier front's leading edges inside the
 // later one's span (± kSpanMarginDeg) may be the later one's — the threshold joins two
 // fronts that meet into one region, and a faint later front shows there before its own
 // chain begins — so they are dropped from the earlier front (its span, central PA and
-// last frame recomputed from what is left). Its track stays (tracked under the later
-// front, above). Fronts by onset.
+// last frame recomputed from what is left). When the later front is faster on the sky
+// (a follower), an edge that lies above it — above its track's straight line carried
+// through that frame and above its own edge near that PA there, by more than kOffLineRows
+// rows — is the earlier front's own and stays: a faster CME following a slower one in the
+// same sky rises below it, and without its edges there the earlier front's central PA
+// would swing to its flanks (by 20° in tests/imaging/front_multi_test.cpp's follower 45°
+// from both views). Not under a slower later chain: there the earlier region can hold
+// the later CME's own front above the chain (tests/fit/associate_test.cpp, view b, a
+// doubtful chain kept: the first CME's central PA went 23° into the second's sky). Its
+// track stays (tracked under the later front, above). Fronts by onset.
 void keep_fronts_apart(std::vector<Front>& fronts, const PolarSequence& s, const RowRange& rows) {
   constexpr double kSpanMarginDeg = 5.0;
   const PolarGrid& g = s.polar;
@@ -769,15 +883,25 @@ void keep_fronts_apart(std::vector<Front>& fronts, const PolarSequence& s, const
       const Front& late = fronts[l];
       const double from_s = std::isfinite(late.origin_utc_s) ? std::min(late.origin_utc_s, late.onset_utc_s) : late.onset_utc_s;
       const double span = std::fmod(late.pa_to_deg - late.pa_from_deg + 720.0, 360.0) + 2.0 * kSpanMarginDeg;
+      const HeightLine line = height_line(late.track), early_line = height_line(early.track);
+      const bool follower = line.v > 0.0 && line.v > early_line.v;  // false when either is NaN
       for (int k = early.onset_frame; k <= early.last_frame; ++k) {
         if (s.utc_s[size_t(k)] < from_s) continue;
+        // The later front's height in this frame: NaN (every edge in its span dropped)
+        // unless it is a follower, faster on the sky than the earlier front.
+        const double late_rs = follower ? line.h0 + line.v * (s.utc_s[size_t(k)] - line.t0)
+                                        : std::numeric_limits<double>::quiet_NaN();
         auto& mine = early.leading_edge_rs[size_t(k)];
-        for (int c = 0; c < g.pa_count; ++c)
-          if (std::isfinite(mine[size_t(c)]) &&
-              std::fmod(g.pa_deg(c) - late.pa_from_deg + kSpanMarginDeg + 720.0, 360.0) <= span) {
+        for (int c = 0; c < g.pa_count; ++c) {
+          if (!std::isfinite(mine[size_t(c)])) continue;
+          const double near = edge_near(late, k, g.pa_deg(c), 10.0, g);
+          const double below = std::isfinite(near) ? std::max(late_rs, near) : late_rs;
+          if (mine[size_t(c)] > below + kOffLineRows * g.height_step_rs) continue;  // above the later front: its own
+          if (std::fmod(g.pa_deg(c) - late.pa_from_deg + kSpanMarginDeg + 720.0, 360.0) <= span) {
             mine[size_t(c)] = kNaN;
             changed = true;
           }
+        }
       }
     }
     if (!changed) continue;
@@ -847,7 +971,9 @@ FrontSet find_fronts(const PolarSequence& s, const FrontOptions& o, const std::v
     for (const Front& other : set.fronts) {
       if (!refused.empty() || !near_in_sky(front, other, o.near_pa_deg)) continue;
       const std::vector<TrackPoint>& track = front.track;
-      const int from = split_from_earlier(track, other, o.same_origin_cadences * cadence_s, o);
+      int from = split_from_earlier(track, other, o.same_origin_cadences * cadence_s, o);
+      if (from < 0)
+        from = cut_wake_head(track, other, o.same_origin_cadences * cadence_s, kOffLineRows * s.polar.height_step_rs, o);
       if (from < 0) continue;
       for (int k = front.onset_frame; k < from; ++k)
         std::fill(front.leading_edge_rs[size_t(k)].begin(), front.leading_edge_rs[size_t(k)].end(), kNaN);
@@ -906,6 +1032,7 @@ FrontSet find_fronts(const PolarSequence& s, const FrontOptions& o, const std::v
     }
     std::sort(set.fronts.begin(), set.fronts.end(),
               [](const Front& a, const Front& b) { return a.onset_utc_s < b.onset_utc_s; });
+    follow_through_merge(set.fronts, s, o, scene.rows);
     keep_fronts_apart(set.fronts, s, scene.rows);
   }
   return set;

@@ -61,9 +61,18 @@
 //     below its leading edge in every frame of its track, yet points to an earlier origin
 //     trails it: the shell's inner rim or a leg under the front, whose short faint track
 //     rises too slowly — a CME launched earlier and overtaken by the one above it would be
-//     the interaction the model leaves out. Each front is
+//     the interaction the model leaves out. A later chain that begins on a piece of an
+//     earlier front (its first track points share that front's origin) or on a slower
+//     structure in its wake (its first track points lie above the straight line through
+//     the rest by more than 3 rows, the rest on it) is cut where the new CME begins: its
+//     onset is the first frame of the rest. Each front is
 //     then tracked under the others: where another front's leading edge lies above its
-//     own in the track's PA band, its track may not climb above the midway height.
+//     own in the track's PA band, its track may not climb above the midway height. A
+//     later front whose chain ends while an earlier one goes on above it (the threshold
+//     joined its sheath to the earlier one's legs, in a region the earlier chain took) is
+//     followed on through that region while its track goes on. Once a later front has
+//     started, an earlier front's edges inside its span are dropped unless they lie above
+//     it (its track's line and its own edge there) by more than 3 rows.
 // Every threshold below is our choice, tuned on `occulta synth` events (front_test.cpp).
 #pragma once
 

@@ -126,6 +126,34 @@ TEST_CASE("measure: two CMEs in different directions at overlapping times, two v
   CHECK(r.csv.find("\n\"multi\",2,") != std::string::npos);
 }
 
+TEST_CASE("measure: a faster CME after a slower one toward the same direction — each found, paired, its own shell") {
+  // tests/imaging/front_multi_test.cpp's follower: both toward Stonyhurst (−15°, +5°), 45°
+  // from both views; 1200 km/s from 12:00, then 1800 km/s with its apex at 1.2 R☉ at
+  // 13:00, rising through the first's wake in the same PA range of each view. 150 px, 14
+  // frames: the window the README's Limits once gave as a known fault (each view found
+  // two fronts from the first CME's origin and missed the second).
+  const std::vector<Cme> cmes{{-15, 5, 10, 1200, 0}, {-15, 5, 10, 1800, 60}};
+  const Run r = synth_and_measure("measure_multi_follow", two_view_scenario(cmes, 14, "", 150));
+  INFO(r.stdout_text);
+  REQUIRE(r.result.contains("cmes"));
+  REQUIRE(r.result["cmes"].size() == 2);
+  CHECK(r.result["status"] == "ok");
+  for (int k = 0; k < 2; ++k) {
+    const json& c = r.result["cmes"][std::size_t(k)];
+    CAPTURE(k);
+    CHECK(c["association"] == "views");
+    // Each view's sighting against its own CME's truth: central PA, sky speed, and the
+    // onset within one cadence (check_views).
+    CHECK(check_views(c, r.truth, k) == 2);
+    REQUIRE(c["shell"].is_object());
+    const json& s = c["shell"];
+    CAPTURE(s.dump());
+    CHECK(angle_between_deg(s["lon_deg"].get<double>(), cmes[std::size_t(k)].lon) <= 4.0);
+    CHECK(std::abs(s["lat_deg"].get<double>() - cmes[std::size_t(k)].lat) <= 4.0);
+    CHECK(s["speed_km_s"].get<double>() == doctest::Approx(cmes[std::size_t(k)].speed).epsilon(0.07));
+  }
+}
+
 TEST_CASE("measure: one CME and a bright point drifting across the field — exactly one CME, as accurate") {
   // A point of 2e-9 B☉ (as bright as the sheath's brightest pixels, our choice) crossing
   // the left view's southern sky, away from the CME's northern one.

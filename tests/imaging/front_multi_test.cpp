@@ -37,37 +37,48 @@ std::string shell_json(const Cme& c) {
   return text;
 }
 
-// One view at Stonyhurst lon −60°, 150 px, `frames` frames at 10 min; `extra` adds
-// top-level members (each with a leading comma).
-std::string scenario(const std::vector<Cme>& cmes, int frames, const std::string& extra = "", int seed = 7) {
+constexpr const char* kOneView = R"({"name": "one", "lon_deg": -60, "lat_deg": 2, "dist_au": 0.98, "roll_deg": 4})";
+
+// Views `observers` (by default one at Stonyhurst lon −60°), 150 px, `frames` frames at
+// 10 min; `extra` adds top-level members (each with a leading comma).
+std::string scenario(const std::vector<Cme>& cmes, int frames, const std::string& extra = "", int seed = 7,
+                     const std::string& observers = kOneView) {
   std::string shells;
   for (const Cme& c : cmes) shells += (shells.empty() ? "" : ", ") + shell_json(c);
   char text[4096];
   std::snprintf(text, sizeof text, R"({
     "id": "multi", "start": "2031-06-01T12:00:00", "cadence_s": %g, "frames": %d, "exposure_s": 6,
     "image": {"size_px": 150, "half_width_rs": 15, "occulter_rs": [%g, %g]},
-    "observers": [{"name": "one", "lon_deg": -60, "lat_deg": 2, "dist_au": 0.98, "roll_deg": 4}],
+    "observers": [%s],
     "shells": [%s],
     "detector": {"dn_per_s_per_bsun": 2e12}, "jitter_px": 0.3, "cosmic_rays_per_frame": 6, "seed": %d%s
-  })", kCadenceS, frames, kInnerRs, kOuterRs, shells.c_str(), seed, extra.c_str());
+  })", kCadenceS, frames, kInnerRs, kOuterRs, observers.c_str(), shells.c_str(), seed, extra.c_str());
   return text;
 }
 
 struct Window {
   json truth;
   oi::PolarSequence running;
+  std::string view = "one";
 };
 
-Window synth_and_difference(const std::string& name, const std::string& scenario_text) {
-  const fs::path dir = occulta::test::synthesize_event(name, scenario_text);
+// View `view` of a synthesized window (`dir` from synthesize_event): its truth and
+// polar running differences.
+Window difference_view(const fs::path& dir, const std::string& view) {
   Window out;
+  out.view = view;
   std::ifstream in(dir / "frames/multi.truth.json");
   out.truth = json::parse(in);
   const auto event = occulta::fit::read_event(dir / "frames/multi.event.json");
   oi::ChainOptions options;
   options.median_filter = 5;  // against the scenario's cosmic-ray tracks (up to 4 px long)
-  out.running = oi::polar_running_differences("one", event.views.at(0).files, options).running;
+  for (const auto& v : event.views)
+    if (v.name == view) out.running = oi::polar_running_differences(view, v.files, options).running;
   return out;
+}
+
+Window synth_and_difference(const std::string& name, const std::string& scenario_text) {
+  return difference_view(occulta::test::synthesize_event(name, scenario_text), "one");
 }
 
 double pa_distance(double a, double b) {
@@ -81,8 +92,9 @@ double pa_distance(double a, double b) {
 // Returns the worst track error.
 double check_against(const Window& w, const oi::Front& front, int cme, double track_tolerance_rs = 0.3) {
   CAPTURE(cme);
+  CAPTURE(w.view);
   const oi::FrontOptions finder;
-  const auto truth = occulta::fit::view_truth(w.truth, "one", kInnerRs + finder.inner_margin_rs,
+  const auto truth = occulta::fit::view_truth(w.truth, w.view, kInnerRs + finder.inner_margin_rs,
                                               kOuterRs - finder.outer_margin_rs, cme);
   const double truth_pa = truth.central_pa_deg, found_pa = front.central_pa_deg;
   CAPTURE(truth_pa);
@@ -90,7 +102,7 @@ double check_against(const Window& w, const oi::Front& front, int cme, double tr
   CHECK(pa_distance(found_pa, truth_pa) <= 5.0);
   int truth_onset = -1;
   for (size_t i = 0; i < w.running.utc_s.size() && truth_onset < 0; ++i) {
-    const double edge = occulta::fit::sky_front_rs(w.truth, "one", w.running.utc_s[i], truth.apex_pa_deg, cme);
+    const double edge = occulta::fit::sky_front_rs(w.truth, w.view, w.running.utc_s[i], truth.apex_pa_deg, cme);
     if (std::isfinite(edge) && edge > kInnerRs + 0.5) truth_onset = int(i);
   }
   // The truth's edge at the apex PA (above) or the largest sky height (view_truth):
@@ -108,7 +120,7 @@ double check_against(const Window& w, const oi::Front& front, int cme, double tr
   int compared = 0;
   double worst = 0.0;
   for (const auto& p : front.track) {
-    const double edge = occulta::fit::sky_front_rs(w.truth, "one", p.utc_s, p.pa_deg, cme);
+    const double edge = occulta::fit::sky_front_rs(w.truth, w.view, p.utc_s, p.pa_deg, cme);
     if (!std::isfinite(edge) || edge < kInnerRs + 0.8 || edge > kOuterRs - 0.8) continue;
     const double height = p.height_rs;
     CAPTURE(height);
@@ -172,6 +184,30 @@ TEST_CASE("front: a faster CME after a slower one in the same PA range is found 
   // earlier for both CMEs, still within the cadence the issue allows).
   check_against(w, set.fronts[1], 1, 0.4);
   CHECK(set.fronts[1].onset_frame > set.fronts[0].onset_frame + 3);
+}
+
+TEST_CASE("front: a faster CME after a slower one toward the same direction, 45° from both views, each found") {
+  // The "same PA range" window above turned 45° from both views: both toward Stonyhurst
+  // (−15°, +5°), seen from lon −60° and +30°; 1200 km/s from the start, then 1800 km/s
+  // with its apex at 1.2 R☉ 60 min in. In each view the second rises through the first's
+  // wake, where its chain begins on the first's slow rear (a frame before the second
+  // clears the occulter); the first is still above it in the same PA range when the window
+  // ends. Truth onsets: synth's projected shells (fit/truth.hpp), as check_against says.
+  const std::string views = R"({"name": "left", "lon_deg": -60, "lat_deg": 2, "dist_au": 0.98, "roll_deg": 4},
+                                {"name": "right", "lon_deg": 30, "lat_deg": -3, "dist_au": 1.01})";
+  const fs::path dir = occulta::test::synthesize_event(
+      "multi_follow", scenario({{-15, 5, 1200, 10, 0}, {-15, 5, 1800, 10, 60}}, 14, "", 7, views));
+  for (const std::string view : {"left", "right"}) {
+    CAPTURE(view);
+    const Window w = difference_view(dir, view);
+    const auto set = oi::find_fronts(w.running);
+    INFO(set.why_none);
+    MESSAGE(view << ": " << describe(set, w.running.utc_s[0]));
+    REQUIRE(set.fronts.size() == 2);
+    check_against(w, set.fronts[0], 0);
+    // Through the first's wake: the same 0.4 R☉ as the window above.
+    check_against(w, set.fronts[1], 1, 0.4);
+  }
 }
 
 TEST_CASE("front: a bright point drifting across the field is not a CME, and the CME is measured as without it") {
