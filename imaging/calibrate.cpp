@@ -55,6 +55,9 @@ OcculterRadii estimate_occulter_radii(const cv::Mat& registered, const Registere
   if (first < 0)
     throw InputError(source, "it holds no ring of finite, non-zero data around Sun centre, so the occulter "
                              "and field-stop radii cannot be estimated (give them in the event file)");
+  if (last <= first)  // (the polar grid needs a field stop beyond the occulter: chain_fuzz found one ring only)
+    throw InputError(source, "its data fill a single ring around Sun centre, so no field lies between the occulter "
+                             "and the field stop (give the radii in the event file)");
   return {first * grid.rs_per_px, last * grid.rs_per_px, OcculterRadii::Origin::Data};
 }
 
