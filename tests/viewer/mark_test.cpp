@@ -13,6 +13,7 @@
 #include "imaging/register.hpp"
 #include "imaging/time.hpp"
 #include "tests/support/support.hpp"
+#include "tests/viewer/sample_view.hpp"
 #include "viewer/script.hpp"
 #include "viewer/session.hpp"
 #include "viewer/ui.hpp"
@@ -31,14 +32,7 @@ WindowState two_views() {
   return s;
 }
 
-ViewSource sample_view(const std::string& name) {
-  ViewSource source;
-  source.name = name;
-  for (const auto& entry : fs::directory_iterator(occulta::test::source_path("sample_frames") / name))
-    if (entry.path().extension() == ".fits") source.files.push_back(entry.path());
-  source.options.occulter_rs = std::make_pair(2.5, 14.5);  // as the sample's event file says
-  return source;
-}
+using occulta::test::sample_view;
 
 }  // namespace
 

@@ -15,6 +15,7 @@
 #include "imaging/input_error.hpp"
 #include "imaging/time.hpp"
 #include "tests/support/support.hpp"
+#include "tests/viewer/sample_view.hpp"
 #include "viewer/script.hpp"
 #include "viewer/stereo.hpp"
 #include "viewer/session.hpp"
@@ -25,14 +26,7 @@ using namespace occulta::viewer;
 namespace fs = std::filesystem;
 constexpr double kRad = std::numbers::pi / 180.0;
 
-ViewSource sample_view(const std::string& name) {
-  ViewSource source;
-  source.name = name;
-  for (const auto& entry : fs::directory_iterator(occulta::test::source_path("sample_frames") / name))
-    if (entry.path().extension() == ".fits") source.files.push_back(entry.path());
-  source.options.occulter_rs = std::make_pair(2.5, 14.5);  // as the sample's event file says
-  return source;
-}
+using occulta::test::sample_view;
 
 // Distance (R☉ on the sky) from a point to a polyline.
 double distance_to_line(const Eigen::Vector2d& p, const std::vector<Eigen::Vector2d>& line) {

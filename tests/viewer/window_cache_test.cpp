@@ -5,21 +5,24 @@
 #include <doctest/doctest.h>
 
 #include "tests/support/support.hpp"
+#include "tests/viewer/sample_view.hpp"
 #include "viewer/pictures.hpp"
 #include "viewer/ui.hpp"
 #include "viewer/window_cache.hpp"
 
 namespace {
 using namespace occulta::viewer;
-namespace fs = std::filesystem;
 
-ViewSource sample_view(const std::string& name) {
-  ViewSource source;
-  source.name = name;
-  for (const auto& entry : fs::directory_iterator(occulta::test::source_path("sample_frames") / name))
-    if (entry.path().extension() == ".fits") source.files.push_back(entry.path());
-  source.options.occulter_rs = std::make_pair(2.5, 14.5);  // as the sample's event file says
-  return source;
+using occulta::test::sample_view;
+
+// The east view alone, its shell drawn, at frame 4.
+WindowState east_with_shell_at_frame_4(const std::vector<ViewPictures>& views) {
+  WindowState s;
+  s.views = {"east"};
+  apply(s, action::Timeline{frame_times(views)});
+  apply(s, action::SetShell{.shown = true});
+  apply(s, action::Frame{4});
+  return s;
 }
 
 // The window as the state draws it, its images and outlines from `cache` (none: made anew).
@@ -80,13 +83,8 @@ TEST_CASE("window cache: the same pixels as without it, as the state moves and c
 }
 
 TEST_CASE("window cache: a picture already coloured is not coloured again, and a changed one is") {
-  std::vector<ViewPictures> views;
-  views.push_back(load_view(sample_view("east"), 128));
-  WindowState s;
-  s.views = {"east"};
-  apply(s, action::Timeline{frame_times(views)});
-  apply(s, action::SetShell{.shown = true});
-  apply(s, action::Frame{4});
+  const std::vector<ViewPictures> views{load_view(sample_view("east"), 128)};
+  WindowState s = east_with_shell_at_frame_4(views);
   WindowCache cache;
   const std::vector<ShownView> first = shown_views(s, views, &cache);
   REQUIRE(first.size() == 1);
@@ -114,13 +112,8 @@ TEST_CASE("window cache: a picture already coloured is not coloured again, and a
 }
 
 TEST_CASE("window cache: made ahead, a step finds the next time's pictures and outlines ready") {
-  std::vector<ViewPictures> views;
-  views.push_back(load_view(sample_view("east"), 128));
-  WindowState s;
-  s.views = {"east"};
-  apply(s, action::Timeline{frame_times(views)});
-  apply(s, action::SetShell{.shown = true});
-  apply(s, action::Frame{4});
+  const std::vector<ViewPictures> views{load_view(sample_view("east"), 128)};
+  WindowState s = east_with_shell_at_frame_4(views);
   WindowCache cache;
   (void)shown_views(s, views, &cache);
   const std::uint64_t shown = cache.made;

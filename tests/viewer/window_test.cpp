@@ -10,6 +10,7 @@
 #include <doctest/doctest.h>
 
 #include "tests/support/support.hpp"
+#include "tests/viewer/sample_view.hpp"
 #include "viewer/pictures.hpp"
 #include "viewer/ui.hpp"
 
@@ -18,11 +19,7 @@ using namespace occulta::viewer;
 namespace fs = std::filesystem;
 
 ViewSource sample_view(const std::string& name) {
-  ViewSource source;
-  source.name = name;
-  for (const auto& entry : fs::directory_iterator(occulta::test::source_path("sample_frames") / name))
-    if (entry.path().extension() == ".fits") source.files.push_back(entry.path());
-  source.options.occulter_rs = std::make_pair(2.5, 14.5);  // as the sample's event file says
+  ViewSource source = occulta::test::sample_view(name);
   source.options.median_filter = 5;
   return source;
 }
