@@ -145,23 +145,6 @@ void check_mandatory_cards(const ByteReader& read, long long offset, int hdu_num
                                    [](char c) { return c >= '0' && c <= '9'; });
     if (tiled && text.size() >= 10 && text[8] == '=' && integer(index, key) < 1)
       throw InputError(source, hdu + key + " is not a positive integer (tiled image convention, Pence et al. 2009 §4)");
-    // A table's column names, formats, units and display formats are quoted texts
-    // (FITS Standard 4.0 §7.3.1–7.3.2). cfitsio 4.2 copies an unquoted value of up to 71
-    // characters into its 70-byte column name unchecked (fits_fuzz: a buffer overflow in
-    // ffgtbp), so anything else is refused before it sees the header.
-    const bool column_text = [&] {
-      for (const std::string_view prefix : {"TTYPE", "TFORM", "TUNIT", "TDISP"})
-        if (key.size() > prefix.size() && key.starts_with(prefix) &&
-            std::all_of(key.begin() + static_cast<std::ptrdiff_t>(prefix.size()), key.end(),
-                        [](char c) { return c >= '0' && c <= '9'; }))
-          return true;
-      return false;
-    }();
-    if (column_text && text.size() >= 10 && text[8] == '=') {
-      const std::size_t value = text.find_first_not_of(' ', 10);
-      if (text[9] != ' ' || value == std::string_view::npos || text[value] != '\'')
-        throw InputError(source, hdu + key + " is not a quoted text value (FITS Standard 4.0 §7.3.2)");
-    }
   }
   // The Rice parameters of the tiled convention (Pence et al. 2009 §4: ZNAMEn =
   // 'BLOCKSIZE' or 'BYTEPIX' names ZVALn) are positive integers: cfitsio 4.2 divides by

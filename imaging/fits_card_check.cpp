@@ -15,7 +15,7 @@ namespace occulta::imaging::fits_detail {
 
 namespace {
 
-enum class Type { Other, Integer, Number, IntegerOrText };
+enum class Type { Other, Integer, Number, IntegerOrText, Text };
 
 bool numbered(std::string_view key, std::string_view stem) {
   return key.size() > stem.size() && key.size() <= 8 && key.starts_with(stem) &&
@@ -40,7 +40,28 @@ Type type_of(std::string_view key, bool ascii_table) {
     if (key == name) return Type::Number;
   for (std::string_view stem : {"TSCAL", "TZERO", "ZVAL"})
     if (numbered(key, stem)) return Type::Number;
+  // A table's column names, formats, units and display formats are quoted texts (§7.3.2).
+  // cfitsio copies TTYPEn into its 70-byte column name (fitsio.h's tcolumn) when it opens
+  // the table; unquoted, a value runs to 70 characters and its terminating zero lands past
+  // the field (fits_fuzz: a buffer overflow in ffgtbp, once with "=" in column 9 and once,
+  // `TTYPE1   =C'…`, in column 10).
+  for (std::string_view stem : {"TTYPE", "TFORM", "TUNIT", "TDISP"})
+    if (numbered(key, stem)) return Type::Text;
   return Type::Other;
+}
+
+// §4.2.1: a string in single quotes, a quote inside written twice, closed within the card.
+bool is_quoted(std::string_view value) {
+  if (!value.starts_with('\'')) return false;
+  for (std::size_t at = 1; at < value.size(); ++at) {
+    if (value[at] != '\'') continue;
+    if (at + 1 < value.size() && value[at + 1] == '\'') {
+      ++at;
+      continue;
+    }
+    return true;
+  }
+  return false;
 }
 
 // §4.2.3: an optional sign and digits.
@@ -116,6 +137,11 @@ void check_card_values(std::string_view cards, bool ascii_table, const std::stri
     const Type type = type_of(key, ascii_table);
     if (type == Type::Other) continue;
     const std::string name(key);
+    if (type == Type::Text) {  // "= ", then past spaces a quoted text
+      const std::size_t start = card.find_first_not_of(' ', 10);
+      if (card[9] == ' ' && start != std::string_view::npos && is_quoted(card.substr(start))) continue;
+      throw InputError(source, hdu + name + " is not a quoted text value (FITS Standard 4.0 §7.3.2)");
+    }
     if (card[9] != ' ')
       throw InputError(source, hdu + name + " has \"=\" without the space after it that makes a value indicator "
                                    "(FITS Standard 4.0 §4.1.2.2)");

@@ -202,6 +202,22 @@ TEST_CASE("fits hostile: an integer card cfitsio converts must hold an integer w
   }
 }
 
+TEST_CASE("fits hostile: a table's column name with its \"=\" out of place is refused before cfitsio") {
+  // fits_fuzz found cfitsio 4.2's ffgtbp copying an unquoted TTYPE1 value of 70 bytes into
+  // its 70-byte column name (fitsio.h's tcolumn::ttype), one past the end: glibc's fortify
+  // check ended the process (tests/fuzz/corpus/fits_fuzz/fuzz-ttype-equals-in-column-10.fits,
+  // whose "=" stands in column 10).
+  const fs::path found = occulta::test::source_path("tests/fuzz/corpus/fits_fuzz/fuzz-ttype-equals-in-column-10.fits");
+  const std::string message = refusal(found);
+  INFO(message);
+  check_one_sentence(message, found.string());
+  CHECK(message.find("TTYPE1 has its value indicator \"=\" in column 10") != std::string::npos);
+  const std::string found_bytes = slurp(found);
+  CHECK_THROWS_AS(read_fits_memory(std::as_bytes(std::span(found_bytes)), "memory"), InputError);
+
+  // The same fault with "=" in column 9: tests/imaging/fits_test.cpp.
+}
+
 TEST_CASE("fits hostile: checksums are verified, a mismatch refused unless the policy says warn") {
   const fs::path dir = scratch_dir("fits_hostile_checksum");
   // Float32 in the primary HDU: one pixel's bytes changed.
