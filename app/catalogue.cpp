@@ -17,7 +17,15 @@ using imaging::InputError;
 
 namespace {
 
-std::string json_text(const std::string& text) { return nlohmann::json(text).dump(); }
+// The text in double quotes as JSON writes it, for our sentences. Bytes that are not
+// UTF-8 are shown as U+FFFD (nlohmann's `replace`): a catalogue is any bytes until checked.
+std::string json_text(const std::string& text) {
+  return nlohmann::json(text).dump(-1, ' ', false, nlohmann::json::error_handler_t::replace);
+}
+
+// The text with every byte sequence that is not UTF-8 (RFC 3629) replaced by U+FFFD: the
+// same text when it is UTF-8 already.
+std::string as_utf8(const std::string& text) { return nlohmann::json::parse(json_text(text)).get<std::string>(); }
 
 }  // namespace
 
@@ -41,6 +49,10 @@ CatalogueReader::CatalogueReader(const fs::path& path, const std::vector<std::st
   columns_ = header.size();
   for (std::size_t i = 0; i < header.size(); ++i) {
     const std::string& name = header[i];
+    // Column names and values go into results.csv, results.fits and JSON files, all UTF-8.
+    if (as_utf8(name) != name)
+      throw InputError(file, "the header's column " + std::to_string(i + 1) + ", " + json_text(name) +
+                                 ", holds bytes that are not UTF-8 text (RFC 3629)");
     if (std::count(header.begin(), header.end(), name) > 1)
       throw InputError(file, "the header names column " + json_text(name) + " twice");
     int* known = name == "id" ? &id_ : name == "event" ? &event_ : name == "start" ? &start_ : name == "end" ? &end_
@@ -85,8 +97,14 @@ std::optional<CatalogueRow> CatalogueReader::next() {
   };
   if (fields.size() != columns_)
     return fail("has " + std::to_string(fields.size()) + " fields where the header has " + std::to_string(columns_));
-  row.id = fields[static_cast<std::size_t>(id_)];
-  for (int at : extra_at_) row.extra.push_back(fields[static_cast<std::size_t>(at)]);
+  // A field that is not UTF-8 fails its row; the row's id and extra columns are kept with
+  // U+FFFD for those bytes, so that the results tables can name the row.
+  for (int at : extra_at_) row.extra.push_back(as_utf8(fields[static_cast<std::size_t>(at)]));
+  row.id = as_utf8(fields[static_cast<std::size_t>(id_)]);
+  for (std::size_t i = 0; i < fields.size(); ++i)
+    if (as_utf8(fields[i]) != fields[i])
+      return fail("field " + std::to_string(i + 1) + " holds bytes that are not UTF-8 text (RFC 3629): " +
+                  json_text(fields[i]));
   if (!fit::is_safe_name(row.id))
     return fail("id " + json_text(row.id) +
                 " names the event's folder, so use letters, digits, '-', '_' and '.' only (not empty, not starting "

@@ -114,3 +114,26 @@ TEST_CASE("catalogue: a header at fault refuses the whole file, naming it") {
         std::string::npos);
   CHECK(header_fault(dir, "id,\"event\n").find("never closed") != std::string::npos);
 }
+
+TEST_CASE("catalogue: bytes that are not UTF-8 fail their row, or the file in the header, with a sentence") {
+  // catalogue_fuzz: a view glob holding the byte 0x86 made the sentence's JSON quoting
+  // throw, and `batch` stopped with an internal fault
+  // (tests/fuzz/corpus/catalogue_fuzz/fuzz-not-utf8-view-glob.csv). Results tables and
+  // JSON files are UTF-8 (RFC 3629), so such a field fails its row; the rest run.
+  const fs::path dir = occulta::test::scratch_dir("catalogue_utf8");
+  const std::string file = (dir / "c.csv").string();
+  occulta::test::spit(dir / "c.csv",
+                      "id,start,end,views,note\n"
+                      "a,2031-03-14T06:00:00,2031-03-14T10:00:00,east=e/*.fit\x86s,caf\xc3\xa9\n"
+                      "b\xe9,2031-03-14T06:00:00,2031-03-14T10:00:00,east=e/*.fits,x\n"
+                      "c,2031-03-14T06:00:00,2031-03-14T10:00:00,east=e/*.fits,caf\xc3\xa9\n");
+  const std::vector<CatalogueRow> rows = read_all(dir / "c.csv");
+  REQUIRE(rows.size() == 3);
+  CHECK(rows[0].fault == file + " line 2: field 4 holds bytes that are not UTF-8 text (RFC 3629): \"east=e/*.fit\xef\xbf\xbds\".");
+  CHECK(rows[0].extra == std::vector<std::string>{"caf\xc3\xa9"});  // valid UTF-8 kept as it is
+  CHECK(rows[1].fault.find("field 1 holds bytes that are not UTF-8") != std::string::npos);
+  CHECK(rows[1].id == "b\xef\xbf\xbd");  // U+FFFD for the stray byte: the tables can name the row
+  CHECK(rows[2].fault.empty());
+  CHECK(header_fault(dir, "id,event,n\xffte\n") ==
+        file + ": the header's column 3, \"n\xef\xbf\xbdte\", holds bytes that are not UTF-8 text (RFC 3629).");
+}
