@@ -94,7 +94,7 @@ fs::path event_file_for(const BatchSettings& settings, const CatalogueRow& row) 
                       {"id", row.id},
                       {"views", views},
                       {"window", {{"start", row.start}, {"end", row.end}}}};
-  const std::string text = event.dump(2) + "\n";
+  const std::string text = fit::json_text(event, 2) + "\n";
   const fs::path path = settings.out_dir / "events" / (row.id + ".event.json");
   std::error_code error;
   if (fs::is_regular_file(path, error)) {

@@ -20,6 +20,7 @@
 
 #include "app/batch_run.hpp"
 #include "app/batch_table.hpp"
+#include "fit/json_file.hpp"
 #include "imaging/input_error.hpp"
 
 namespace occulta::app {
@@ -119,7 +120,7 @@ int coordinate(const BatchOptions& o, const BatchSettings& settings, const Shard
       case Plan::measure: {
         const Message free = receive(MPI_ANY_SOURCE);  // a worker that is ready, or done with one
         take(free);
-        send(free.source, kWork, row_json(*row).dump());
+        send(free.source, kWork, fit::json_text(row_json(*row)));
         break;
       }
     }

@@ -7,6 +7,7 @@
 #include <nlohmann/json.hpp>
 
 #include "app/csv.hpp"
+#include "fit/json_file.hpp"
 #include "fit/strict_json.hpp"
 #include "imaging/input_error.hpp"
 #include "imaging/time.hpp"
@@ -18,10 +19,8 @@ using imaging::InputError;
 namespace {
 
 // The text in double quotes as JSON writes it, for our sentences. Bytes that are not
-// UTF-8 are shown as U+FFFD (nlohmann's `replace`): a catalogue is any bytes until checked.
-std::string json_text(const std::string& text) {
-  return nlohmann::json(text).dump(-1, ' ', false, nlohmann::json::error_handler_t::replace);
-}
+// UTF-8 are shown as U+FFFD (fit/json_file.hpp): a catalogue is any bytes until checked.
+std::string json_text(const std::string& text) { return fit::json_text(nlohmann::json(text)); }
 
 // The text with every byte sequence that is not UTF-8 (RFC 3629) replaced by U+FFFD: the
 // same text when it is UTF-8 already.

@@ -7,6 +7,7 @@
 #include <ostream>
 #include <sstream>
 
+#include "fit/json_file.hpp"
 #include "fit/event.hpp"
 #include "imaging/constants.hpp"
 #include "imaging/fits.hpp"
@@ -104,7 +105,7 @@ int inspect(const InspectOptions& options, std::ostream& out, std::ostream& err)
     if (!options.json) out << summary_line(r) << '\n';
     reports.push_back(std::move(r));
   }
-  if (options.json) out << reports.dump(2) << '\n';
+  if (options.json) out << fit::json_text(reports, 2) << '\n';
   for (const auto& note : notes) err << "occulta: note: " << note << '\n';
   if (files.empty()) {
     err << "occulta: problem: no FITS files found in the given paths.\n";

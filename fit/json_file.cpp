@@ -38,8 +38,12 @@ nlohmann::json read_json_file(const std::filesystem::path& path) {
   }
 }
 
+std::string json_text(const nlohmann::json& doc, int indent) {
+  return doc.dump(indent, ' ', false, nlohmann::json::error_handler_t::replace);
+}
+
 void write_json_file(const std::filesystem::path& path, const nlohmann::json& doc) {
-  write_text_file(path, doc.dump(2) + "\n");
+  write_text_file(path, json_text(doc, 2) + "\n");
 }
 
 void write_text_file(const std::filesystem::path& path, const std::string& text) {

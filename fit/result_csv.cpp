@@ -3,6 +3,7 @@
 #include <vector>
 
 #include "fit/result_file.hpp"
+#include "fit/json_file.hpp"
 
 namespace occulta::fit {
 using nlohmann::json;
@@ -18,10 +19,10 @@ std::string csv_field(const json& value) {
   }
   if (value.is_array()) {
     std::string joined;
-    for (const auto& x : value) joined += (joined.empty() ? "" : ";") + x.dump();
+    for (const auto& x : value) joined += (joined.empty() ? "" : ";") + json_text(x);
     return joined;
   }
-  return value.dump();
+  return json_text(value);
 }
 
 // The columns after the event's keys, from `block` (the document, or one of its cmes):

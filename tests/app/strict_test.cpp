@@ -431,3 +431,23 @@ TEST_CASE("strict: names that become file names are letters, digits, '-', '_' an
   CHECK(occulta::fit::nearest_word("--output", {"--out", "--track"}) == "--out");
   CHECK(occulta::fit::nearest_word("frobnicate", {"inspect", "measure", "maps"}).empty());
 }
+
+TEST_CASE("strict: a path that is not UTF-8 is written into JSON with U+FFFD, not a crash") {
+  // Linux paths are any bytes; JSON text is UTF-8 (RFC 8259 §8.1). A view folder named
+  // "e\xe9st" made `measure`'s result.json (its provenance) and `inspect --json` throw
+  // inside nlohmann's writer: "an unexpected internal fault". fit::json_text writes such
+  // bytes as U+FFFD.
+  CHECK(occulta::fit::json_text(json{{"path", "e\xe9st/a.fits"}}) == "{\"path\":\"e\xef\xbf\xbdst/a.fits\"}");
+  const fs::path dir = occulta::test::scratch_dir("strict_not_utf8") / "e\xe9st";
+  fs::create_directories(dir);
+  fs::copy_file(occulta::test::source_path("sample_frames/east/east_000.fits"), dir / "east_000.fits",
+                fs::copy_options::overwrite_existing);
+  const auto run = run_command(shell_quote(occulta::test::occulta_binary().string()) + " inspect --json " +
+                               shell_quote((dir / "east_000.fits").string()));
+  INFO(run.output);
+  CHECK(run.exit_code == 0);
+  CHECK(run.output.find("e\xef\xbf\xbdst/east_000.fits") != std::string::npos);
+  occulta::fit::write_json_file(dir.parent_path() / "w.json", json{{"path", dir.string()}});
+  CHECK(occulta::fit::read_json_file(dir.parent_path() / "w.json")["path"].get<std::string>().find("\xef\xbf\xbd") !=
+        std::string::npos);
+}
