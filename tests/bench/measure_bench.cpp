@@ -110,10 +110,7 @@ int paired(const std::vector<std::string>& others, int rounds, bool instructions
   }
   if (instructions) {
     std::vector<double> counts;
-    for (std::size_t b = 0; b < builds.size(); ++b) {
-      std::string c = commands[b];
-      counts.push_back(callgrind_instructions(c, scratch));
-    }
+    for (const std::string& c : commands) counts.push_back(callgrind_instructions(c, scratch));
     std::printf("  instructions (callgrind, all threads):");
     for (std::size_t b = 0; b < builds.size(); ++b) std::printf(" %.4g", counts[b]);
     for (std::size_t b = 1; b < builds.size(); ++b) std::printf("; this build / build %zu: %.3f", b + 1, counts[0] / counts[b]);
