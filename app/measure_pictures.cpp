@@ -2,8 +2,13 @@
 #include "app/measure_pictures.hpp"
 
 #include <algorithm>
+#include <atomic>
 #include <cmath>
 #include <cstdio>
+#include <exception>
+#include <functional>
+#include <mutex>
+#include <thread>
 #include <vector>
 
 #include "app/quicklook.hpp"
@@ -115,42 +120,78 @@ void draw_shell(const fit::ViewMeasurement& v, const PolarToCartesian& remap, co
   write_quicklook(path, panels, v.name + ": the fitted shell's outline over three running differences, with the points it fits");
 }
 
-void draw_view(const fit::ViewMeasurement& v, const PolarToCartesian& remap, const fs::path& dir) {
-  const imaging::PolarSequence& polar = v.polar;
+void draw_time_height_of(const fit::ViewMeasurement& v, const fs::path& dir) {
   const double pa = !v.points.empty()                        ? v.track_pa_deg
                     : std::isfinite(v.central_pa_deg) ? v.central_pa_deg
                                                                : 0.0;
   char caption[200];
   std::snprintf(caption, sizeof caption, "%s · time–height along PA %.0f° (median over ±2°) · %s track",
                 v.name.c_str(), pa, v.by_analyst ? "the analyst's" : "automatic");
-  draw_time_height(polar, pa, v.points, v.kinematics ? &*v.kinematics : nullptr, caption, dir / "time_height.png");
+  draw_time_height(v.polar, pa, v.points, v.kinematics ? &*v.kinematics : nullptr, caption, dir / "time_height.png");
+}
+
+void draw_front_of(const fit::ViewMeasurement& v, const PolarToCartesian& remap, const fs::path& dir) {
+  const imaging::PolarSequence& polar = v.polar;
   const int last = int(polar.frames.size()) - 1;
   const int shown = v.front.found ? std::min(v.front.last_frame, last) : last;
+  char caption[200];
   std::snprintf(caption, sizeof caption, "%s · running difference, north up · %s UTC", v.name.c_str(),
                 imaging::iso_from_utc_seconds(polar.utc_s[shown], 0).substr(0, 16).replace(10, 1, " ").c_str());
   draw_front(cartesian_from_polar(polar.frames[shown], remap), v.grid, polar.polar, v.front, shown,
              caption, dir / "front.png");
 }
 
+// Runs the tasks on up to as many threads as the machine has cores (this one among them),
+// each taking the next task not yet taken. The pictures share nothing but what they read
+// (the measurement) and Dear ImGui, which viewer::draw_headless keeps to one thread at a
+// time; each writes its own file. The first exception is thrown here once every thread has
+// stopped (no task starts after it).
+void run_on_cores(const std::vector<std::function<void()>>& tasks) {
+  std::atomic<std::size_t> next{0};
+  std::exception_ptr failure;
+  std::mutex failure_mutex;
+  std::atomic<bool> failed{false};
+  const auto work = [&] {
+    for (std::size_t i; !failed && (i = next++) < tasks.size();) {
+      try {
+        tasks[i]();
+      } catch (...) {
+        const std::lock_guard<std::mutex> lock(failure_mutex);
+        if (!failure) failure = std::current_exception();
+        failed = true;
+      }
+    }
+  };
+  const std::size_t threads = std::min<std::size_t>(tasks.size(), std::max(1u, std::thread::hardware_concurrency()));
+  std::vector<std::thread> helpers;
+  for (std::size_t t = 1; t < threads; ++t) helpers.emplace_back(work);
+  work();
+  for (std::thread& h : helpers) h.join();
+  if (failure) std::rethrow_exception(failure);
+}
+
 }  // namespace
 
 void write_measurement_pictures(const fit::Measurement& m, const fs::path& out_dir) {
-  std::vector<PolarToCartesian> remaps;  // one per view, for its front and shell pictures
+  // Each view's pictures, as independent tasks: its time–height map; its remap (made once
+  // for its front and shell pictures), front and shell. Listed longest first so that
+  // both cores finish together.
+  std::vector<std::function<void()>> tasks;
   for (const fit::ViewMeasurement& v : m.views) {
     const fs::path dir = out_dir / v.name;
     fs::create_directories(dir);
-    remaps.push_back(polar_to_cartesian(v.grid, v.polar.polar));
-    draw_view(v, remaps.back(), dir);
+    const auto shell = std::find(m.shell.views.begin(), m.shell.views.end(), v.name);
+    const bool with_shell = m.shell.fit && shell != m.shell.views.end();
+    const int shell_index = static_cast<int>(shell - m.shell.views.begin());
+    tasks.push_back([&m, &v, dir, with_shell, shell_index] {
+      const PolarToCartesian remap = polar_to_cartesian(v.grid, v.polar.polar);
+      draw_front_of(v, remap, dir);
+      if (with_shell) draw_shell(v, remap, *m.shell.fit, m.shell.points, shell_index, dir / "shell.png");
+    });
   }
-  if (!m.shell.fit) return;
-  for (std::size_t i = 0; i < m.shell.views.size(); ++i) {
-    const auto v = std::find_if(m.views.begin(), m.views.end(),
-                                [&](const fit::ViewMeasurement& view) { return view.name == m.shell.views[i]; });
-    if (v == m.views.end()) continue;
-    fs::create_directories(out_dir / v->name);
-    draw_shell(*v, remaps[static_cast<std::size_t>(v - m.views.begin())], *m.shell.fit, m.shell.points,
-               static_cast<int>(i), out_dir / v->name / "shell.png");
-  }
+  for (const fit::ViewMeasurement& v : m.views)
+    tasks.push_back([&v, dir = out_dir / v.name] { draw_time_height_of(v, dir); });
+  run_on_cores(tasks);
 }
 
 }  // namespace occulta::app

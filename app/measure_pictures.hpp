@@ -13,7 +13,9 @@
 namespace occulta::app {
 
 // Writes the pictures under out_dir/<view>/ (folders made as needed); InputError naming
-// the file when one cannot be written.
+// the file when one cannot be written. They are drawn on as many threads as the machine
+// has cores (two here): each picture is independent, and its bytes do not depend on the
+// thread or the order.
 void write_measurement_pictures(const fit::Measurement& measurement, const std::filesystem::path& out_dir);
 
 }  // namespace occulta::app

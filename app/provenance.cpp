@@ -32,10 +32,25 @@ std::string sha256_file(const std::filesystem::path& path) {
   return text;
 }
 
+KnownSha256 sha256_files(const std::vector<std::filesystem::path>& files) {
+  KnownSha256 known;
+  for (const auto& path : files) {
+    try {
+      known.emplace(path, sha256_file(path));
+    } catch (const imaging::InputError&) {
+      // Left out: provenance() reads it again and names it.
+    }
+  }
+  return known;
+}
+
 nlohmann::json provenance(const std::vector<std::filesystem::path>& inputs, const nlohmann::json& options,
-                          double elapsed_s) {
+                          double elapsed_s, const KnownSha256& known) {
   nlohmann::json files = nlohmann::json::array();
-  for (const auto& path : inputs) files.push_back({{"path", path.generic_string()}, {"sha256", sha256_file(path)}});
+  for (const auto& path : inputs) {
+    const auto found = known.find(path);
+    files.push_back({{"path", path.generic_string()}, {"sha256", found != known.end() ? found->second : sha256_file(path)}});
+  }
   return {{"version", OCCULTA_VERSION}, {"inputs", files}, {"options", options}, {"elapsed_s", elapsed_s}};
 }
 

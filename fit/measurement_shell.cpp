@@ -4,6 +4,7 @@
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
+#include <future>
 
 #include "fit/kinematics.hpp"
 #include "imaging/constants.hpp"
@@ -210,16 +211,21 @@ ShellMeasurement measure_shell(const std::vector<ViewMeasurement>& views,
     options.law = ApexLawKind::quadratic;
   else if (apex_law == "free")
     options.law = ApexLawKind::free_per_time;
+  // The same fit to the fronts' outer edges (the threshold edge of imaging/front) needs
+  // nothing of the rim fit, so it runs on a second thread beside it: the same inputs give
+  // the same fit on any thread (fit_shell's only state is a per-thread cache of values it
+  // would compute the same way). It is used only when the rim fit succeeds.
+  std::future<ShellFit> outer_fit;
+  if (automatic) outer_fit = std::async(std::launch::async, [&] { return fit_shell(fit_views, edge_points, options); });
   ShellFit fit = fit_shell(fit_views, points, options);
   if (!fit.ok) {
     problems.push_back("no shell fit: " + fit.problem + ".");
     name_views_without_cme(views, used, points, nullptr, report, problems);
     return report;
   }
-  // The same fit to the fronts' outer edges (the threshold edge of imaging/front): the
-  // reported shell joins the two (fit/shell_fit.hpp merge_edge_fits says how).
+  // The reported shell joins the two (fit/shell_fit.hpp merge_edge_fits says how).
   if (automatic) {
-    const ShellFit outer = fit_shell(fit_views, edge_points, options);
+    const ShellFit outer = outer_fit.get();
     merge_edge_fits(fit, outer);
     if (outer.ok)
       fit.notes.push_back("shape from the fronts' bright rims, apex law the mean of the rim and outer-edge fits; σ include half their difference");

@@ -46,6 +46,13 @@ struct HeadlessOptions {
 // the rasterized picture. `textures` are the caller's images its ImGui::Image calls use
 // (their ids must differ from the font's, which is the atlas' address). The caller's own
 // current context, if any, is current again on return, also when `frame` throws.
+// The font's atlas is built once per process for each font file and size and shared by
+// every such context (the same texels each time).
+// Threads: draw_headless may be called from several threads at once. Dear ImGui's
+// current context is one global of the process, so `frame` runs with the others' ImGui
+// work held off (one process-wide mutex); the rasterizing, most of the time, runs beside
+// them. A thread that runs ImGui frames of its own context (the window's loop) must not
+// run beside it.
 Framebuffer draw_headless(int width, int height, const std::function<void()>& frame,
                           std::span<const Texture> textures = {}, const HeadlessOptions& options = {});
 

@@ -1,6 +1,9 @@
 // tests/viewer/headless_test.cpp — one ImGui frame drawn with no display, written as PNG.
+#include <chrono>
 #include <stdexcept>
 #include <string>
+#include <thread>
+#include <vector>
 
 #include <doctest/doctest.h>
 #include <opencv2/imgcodecs.hpp>
@@ -82,6 +85,45 @@ TEST_CASE("headless: a panel drawn with no display, written as PNG, reads back t
   CHECK_THROWS_AS(draw_headless(64, 64, [] { throw std::runtime_error("a frame that fails"); }), std::runtime_error);
   CHECK(ImGui::GetCurrentContext() == callers);
   ImGui::DestroyContext(callers);
+}
+
+TEST_CASE("headless: pictures drawn on several threads at once are the pictures drawn alone") {
+  // measure draws its pictures on both cores; Dear ImGui's current context is one global,
+  // so draw_headless keeps the ImGui part of each to one thread at a time. Eight threads
+  // drawing at once (two panels of different sizes, each thread ten times) must give
+  // exactly the pixels of one thread drawing alone, and leave the caller's context current.
+  std::uint8_t ramp_texels[64 * 4];
+  for (int i = 0; i < 64; ++i) {
+    ramp_texels[4 * i] = std::uint8_t(4 * i);
+    ramp_texels[4 * i + 1] = 90;
+    ramp_texels[4 * i + 2] = std::uint8_t(255 - 4 * i);
+    ramp_texels[4 * i + 3] = 255;
+  }
+  const Texture ramp{reinterpret_cast<ImTextureID>(ramp_texels), 1, 64, ramp_texels, Sampling::bilinear, Wrap::clamp_to_edge};
+  // Each frame pauses before its ImGui calls, so that without the mutex another thread
+  // would make its own context current meanwhile (the pause changes nothing with it).
+  const auto panel = [&] {
+    std::this_thread::sleep_for(std::chrono::microseconds(200));
+    test_panel(ramp.id);
+  };
+  const auto draw = [&](int k) {
+    return k % 2 ? draw_headless(320, 240, panel, {&ramp, 1}) : draw_headless(360, 260, panel, {&ramp, 1});
+  };
+  const Framebuffer alone[2] = {draw(0), draw(1)};
+  ImGuiContext* callers = ImGui::CreateContext();
+  std::vector<std::vector<Framebuffer>> drawn(8);
+  std::vector<std::thread> threads;
+  for (int t = 0; t < 8; ++t)
+    threads.emplace_back([&, t] {
+      for (int k = 0; k < 10; ++k) drawn[std::size_t(t)].push_back(draw(t + k));
+    });
+  for (std::thread& t : threads) t.join();
+  CHECK(ImGui::GetCurrentContext() == callers);
+  ImGui::DestroyContext(callers);
+  int differ = 0;
+  for (int t = 0; t < 8; ++t)
+    for (int k = 0; k < 10; ++k) differ += drawn[std::size_t(t)][std::size_t(k)].pixels != alone[(t + k) % 2].pixels;
+  CHECK(differ == 0);
 }
 
 TEST_CASE("headless: a draw list of more than 65 536 vertices (16-bit indices, VtxOffset)") {
