@@ -1,6 +1,7 @@
 // imaging/fits_write.cpp — writing one image as FITS with cfitsio: float32 or int16 with
 // BSCALE/BZERO, optionally Rice tile-compressed; and float32 cubes, whole or plane by
 // plane (FitsCubeWriter). Every file appears whole or not at all.
+#include <bit>
 #include <cmath>
 #include <cstdint>
 #include <cstdio>
@@ -422,8 +423,8 @@ void FitsCubeWriter::add(const cv::Mat& plane) {
   // cannot overflow 64 bits.
   std::uint64_t sum = s.data_sum;
   for (int y = 0; y < data.rows; ++y) {
-    const auto* word = reinterpret_cast<const std::uint32_t*>(data.ptr<float>(y));
-    for (int x = 0; x < data.cols; ++x) sum += word[x];
+    const float* pixel = data.ptr<float>(y);
+    for (int x = 0; x < data.cols; ++x) sum += std::bit_cast<std::uint32_t>(pixel[x]);
   }
   while (sum >> 32) sum = (sum & 0xffffffffu) + (sum >> 32);
   s.data_sum = sum;
