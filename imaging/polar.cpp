@@ -59,35 +59,20 @@ cv::Mat grid_pixels(const RegisteredGrid& grid, const PolarGrid& polar) {
   return xy;
 }
 
-// Tables for polar samples at grid pixels `xy` read from image pixel A · (x, y, 1), in
-// cv::remap's fixed-point form. Made directly, in one pass over the samples and in bands
-// of rows on both cores, as cv::convertMaps (OpenCV 4, CV_32FC2 → CV_16SC2 + CV_16UC1, not
-// nearest) makes them from the float table: each coordinate, rounded to float, times
-// INTER_TAB_SIZE (exact: a power of two), rounded to the nearest integer (ties to even,
-// cvRound); its integer pixel (>> INTER_BITS, saturated to short) in map_xy, its fraction
-// (& INTER_TAB_SIZE − 1, y's times INTER_TAB_SIZE plus x's) in map_frac. The same tables
-// bit for bit without the float table in between (polar_test checks them against
-// cv::convertMaps).
+// Tables for polar samples at grid pixels `xy` read from image pixel A · (x, y, 1).
 PolarMaps polar_tables(const RegisteredGrid& grid, const PolarGrid& polar, const cv::Mat& xy, const cv::Matx23d& a,
                        cv::Size source) {
   PolarMaps maps{grid, polar, {}, {}, source, {}};
-  maps.map_xy.create(xy.size(), CV_16SC2);
-  maps.map_frac.create(xy.size(), CV_16UC1);
-  constexpr int kMask = cv::INTER_TAB_SIZE - 1;
-  cv::parallel_for_(cv::Range(0, xy.rows), [&](const cv::Range& rows) {
-    for (int i = rows.start; i < rows.end; ++i) {
-      const auto* p = xy.ptr<cv::Vec2d>(i);
-      auto* m = maps.map_xy.ptr<cv::Vec2s>(i);
-      auto* f = maps.map_frac.ptr<ushort>(i);
-      for (int j = 0; j < xy.cols; ++j) {
-        const double x = p[j][0], y = p[j][1];
-        const float sx = float(a(0, 0) * x + a(0, 1) * y + a(0, 2)), sy = float(a(1, 0) * x + a(1, 1) * y + a(1, 2));
-        const int ix = cvRound(sx * float(cv::INTER_TAB_SIZE)), iy = cvRound(sy * float(cv::INTER_TAB_SIZE));
-        m[j] = {cv::saturate_cast<short>(ix >> cv::INTER_BITS), cv::saturate_cast<short>(iy >> cv::INTER_BITS)};
-        f[j] = ushort((iy & kMask) * cv::INTER_TAB_SIZE + (ix & kMask));
-      }
+  cv::Mat map(xy.size(), CV_32FC2);
+  for (int i = 0; i < xy.rows; ++i) {
+    const auto* p = xy.ptr<cv::Vec2d>(i);
+    auto* m = map.ptr<cv::Vec2f>(i);
+    for (int j = 0; j < xy.cols; ++j) {
+      const double x = p[j][0], y = p[j][1];
+      m[j] = {float(a(0, 0) * x + a(0, 1) * y + a(0, 2)), float(a(1, 0) * x + a(1, 1) * y + a(1, 2))};
     }
-  });
+  }
+  cv::convertMaps(map, cv::noArray(), maps.map_xy, maps.map_frac, CV_16SC2);
   return maps;
 }
 
