@@ -3,7 +3,9 @@
 
 #include <cstdio>
 #include <exception>
+#include <deque>
 #include <future>
+#include <mutex>
 #include <optional>
 #include <limits>
 
@@ -18,12 +20,24 @@ namespace {
 // Reads and calibrates frames of one view onto its polar grid (and, when asked, its
 // registered grid); remembers frames that failed so that a second pass skips them without
 // a second report.
+//
+// read_frame may run on several threads at once (the stream reads ahead, chain.hpp), each
+// on its own frame: a frame's failure flag and sentence are written only by the thread
+// reading it, and the main thread reports them (report) when it takes that frame, so the
+// problems keep frame order whatever order the reads finish in. The pixel buffers of
+// finished frames go round through `buffers` (under its mutex) instead of being allocated
+// and faulted in anew for every read.
 struct FrameLoader {
+  FrameLoader(const ViewSequence& sequence_, const ChainOptions& options_, const RegisteredGrid& grid,
+              std::vector<std::string>& problems_)
+      : sequence(sequence_), options(options_), cache(grid), problems(problems_),
+        failed(sequence_.frames.size(), 0), failure(sequence_.frames.size()) {}
   const ViewSequence& sequence;
   const ChainOptions& options;
   RegistrationCache cache;
   std::vector<std::string>& problems;
-  std::vector<bool> failed;
+  std::vector<char> failed;            // per frame, written by its reader only
+  std::vector<std::string> failure;    // per frame: the sentence not yet reported
   PolarGrid polar;         // set before the first to_polar_frame
   PolarMaps source_maps;   // raw frame → polar grid, for the cache's current registration
   // What the tables of every registration share (the samples' grid pixels, the keep-mask
@@ -31,34 +45,62 @@ struct FrameLoader {
   std::optional<PolarSampling> sampling;
   int maps_built_for = 0;  // cache.builds() when source_maps were made
   cv::Mat background, grid_background;  // polar and registered grid; empty: none
-  cv::Mat median_scratch;  // read()'s only, reused frame to frame: no new 4 MB allocation per frame
+  std::mutex buffers_mutex;
+  std::vector<cv::Mat> buffers;  // finished frames' pixel buffers, for the next reads
 
-  // The frame's pixels; nullopt (reported) when the frame cannot be read.
-  // `reuse`: a finished frame's pixel buffer to read into (fits.hpp), or empty.
-  std::optional<FitsImage> read(std::size_t k, cv::Mat reuse = {}) {
+  cv::Mat take_buffer() {
+    const std::lock_guard lock(buffers_mutex);
+    if (buffers.empty()) return {};
+    cv::Mat m = std::move(buffers.back());
+    buffers.pop_back();
+    return m;
+  }
+  void give_buffer(cv::Mat m) {
+    if (m.empty()) return;
+    const std::lock_guard lock(buffers_mutex);
+    buffers.push_back(std::move(m));
+  }
+
+  // The frame's pixels; nullopt when the frame cannot be read (its sentence kept for
+  // report). Safe on several threads for different frames.
+  std::optional<FitsImage> read_frame(std::size_t k) {
     if (failed[k]) return std::nullopt;
     const SequenceFrame& frame = sequence.frames[k];
     try {
-      FitsImage image = read_fits(frame.path, std::move(reuse));
+      FitsImage image = read_fits(frame.path, take_buffer());
       if (image.pixels.cols != frame.geometry.width || image.pixels.rows != frame.geometry.height)
         throw InputError(frame.path.string(), "its pixels are " + std::to_string(image.pixels.cols) + "×" +
                                                   std::to_string(image.pixels.rows) + " but its header says " +
                                                   std::to_string(frame.geometry.width) + "×" +
                                                   std::to_string(frame.geometry.height));
       // The median filter runs on the raw frame, where cosmic-ray hits lie (a few detector
-      // pixels long), before any resampling; so it runs on the read-ahead thread too. On
+      // pixels long), before any resampling; so it runs on the read-ahead threads too. On
       // the polar grid it would not be equivalent: near the occulter a 0.5° PA step is a
       // fraction of a pixel, a 4-pixel track spans many PA columns and survives a 5×5
-      // window (tried: front_test's quiet sequences then show false detections). Only
-      // read() uses median_scratch, and only one read runs at a time; the swap leaves the
-      // scratch holding the buffer this image gave up, which nothing else refers to.
-      if (options.median_filter) median_filter(image.pixels, options.median_filter, median_scratch);
+      // window (tried: front_test's quiet sequences then show false detections). The
+      // filter swaps its scratch with the image: the scratch then holds the buffer the
+      // image gave up, which nothing else refers to, and goes back to the round.
+      if (options.median_filter) {
+        cv::Mat scratch = take_buffer();
+        median_filter(image.pixels, options.median_filter, scratch);
+        give_buffer(std::move(scratch));
+      }
       return image;
     } catch (const std::exception& e) {
-      failed[k] = true;
-      problems.push_back(std::string(e.what()) + " The frame is skipped.");
+      failed[k] = 1;
+      failure[k] = std::string(e.what()) + " The frame is skipped.";
       return std::nullopt;
     }
+  }
+  // Main thread only: frame k's failure into the problems, once.
+  void report(std::size_t k) {
+    if (!failure[k].empty()) problems.push_back(std::move(failure[k]));
+    failure[k].clear();
+  }
+  std::optional<FitsImage> read(std::size_t k) {
+    std::optional<FitsImage> image = read_frame(k);
+    if (!image) report(k);
+    return image;
   }
 
   // Straight from the raw frame to the polar grid: one remap whose tables compose the
@@ -105,8 +147,25 @@ ViewRun run_view(const std::string& view, const std::vector<std::filesystem::pat
 
   // Occulter and field-stop radii: event file, else header, else the first readable frame
   // (registered onto the grid, where the radii are found; its raw pixels start the stream).
-  FrameLoader loader{sequence, options, RegistrationCache(run.grid), run.problems, std::vector<bool>(n, false),
-                     {}, {}, {}, 0, {}, {}, {}};
+  FrameLoader loader(sequence, options, run.grid, run.problems);
+  // The stream reads ahead: frames k + 1 … k + kAhead are read, decompressed and
+  // median-filtered each on its own thread while frame k is processed, so the reads keep
+  // both cores busy when the rest of the chain does not (the read and the median are
+  // most of a frame's cost). When frames are read once in order (no background pass, no
+  // base frame), the reads start at once, beside the start-up work on this thread (the
+  // occulter radii from the first frame, the polar sampling). Costs kAhead raw frames of
+  // memory (and their median scratch). Only read_frame runs on those threads.
+  constexpr std::size_t kAhead = 2;
+  std::deque<std::pair<std::size_t, std::future<std::optional<FitsImage>>>> ahead;
+  std::size_t next_read = 0;
+  const auto read_ahead = [&](std::size_t skip) {
+    for (; ahead.size() < kAhead && next_read < n; ++next_read)
+      if (next_read != skip)
+        ahead.emplace_back(next_read, std::async(std::launch::async,
+                                                 [&loader, k = next_read] { return loader.read_frame(k); }));
+  };
+  const bool need_base = options.base_difference || options.background == ChainOptions::Background::BaseFrame;
+  const bool read_once = !need_base && options.background == ChainOptions::Background::None;
   std::optional<FitsImage> first_image;
   std::size_t first_index = n;
   if (options.occulter_rs) {
@@ -118,10 +177,15 @@ ViewRun run_view(const std::string& view, const std::vector<std::filesystem::pat
     while (k < n && !(first_image = loader.read(k))) ++k;
     if (k == n) throw InputError("view " + view, "none of its frames could be read");
     first_index = k;
+    if (read_once) {
+      next_read = k + 1;  // the frames before it failed, and were reported
+      read_ahead(first_index);
+    }
     cv::Mat first_registered;
     loader.to_grid(k, *first_image, first_registered);
     run.radii = estimate_occulter_radii(first_registered, run.grid, sequence.frames[k].path.string());
   }
+  if (read_once && first_index == n) read_ahead(n);
   char note[300];
   std::snprintf(note, sizeof note, "view %s: data are used from %.2f to %.2f R☉ (occulter and field stop, from the %s).",
                 view.c_str(), run.radii.inner_rs, run.radii.outer_rs, origin_name(run.radii.origin));
@@ -139,7 +203,6 @@ ViewRun run_view(const std::string& view, const std::vector<std::filesystem::pat
     for (std::size_t k = 0; k < n; ++k)
       if (sequence.frames[k].utc_s <= *options.base_time_utc_s) base = k;
   cv::Mat base_polar, base_registered;
-  const bool need_base = options.base_difference || options.background == ChainOptions::Background::BaseFrame;
   if (need_base) {
     std::optional<FitsImage> image;
     while (base < n && !(image = loader.read(base))) ++base;
@@ -184,26 +247,23 @@ ViewRun run_view(const std::string& view, const std::vector<std::filesystem::pat
   // Cartesian::Last: the raw frames of the latest difference, registered after the stream.
   std::optional<FitsImage> newer, older;
   std::size_t newer_k = 0, older_k = 0;
-  // cfitsio reads (and decompresses) frame k + 1 on a second thread while frame k is
-  // processed; only that thread calls cfitsio meanwhile. Costs one raw frame of memory.
-  // Each read is handed the pixel buffer of a frame already finished with (`spare`), so
-  // the frames' buffers go round instead of being allocated (and faulted in) anew.
-  cv::Mat spare;
-  const auto read_ahead = [&](std::size_t k) {
-    return std::async(std::launch::async,
-                      [&loader, k, buffer = std::move(spare)]() mutable { return loader.read(k, std::move(buffer)); });
-  };
-  std::future<std::optional<FitsImage>> next;
-  if (first_index != 0 && n > 0) next = read_ahead(0);
   for (std::size_t k = 0; k < n; ++k) {
     std::optional<FitsImage> image;
     if (k == first_index) {
-      if (k + 1 < n) next = read_ahead(k + 1);
       image = std::move(first_image);
     } else {
-      image = next.get();
-      if (k + 1 < n && k + 1 != first_index) next = read_ahead(k + 1);
-      if (!image) continue;
+      read_ahead(first_index);
+      if (!ahead.empty() && ahead.front().first == k) {
+        image = ahead.front().second.get();
+        ahead.pop_front();
+      } else {
+        image = loader.read_frame(k);  // before the first readable frame, whose reads began after it: failed
+      }
+    }
+    read_ahead(first_index);
+    if (!image) {
+      loader.report(k);
+      continue;
     }
     ++run.frames_used;
     loader.to_polar_frame(k, *image, current_polar);
@@ -227,13 +287,13 @@ ViewRun run_view(const std::string& view, const std::vector<std::filesystem::pat
     std::swap(current_grid, previous_grid);
     std::swap(current_polar, previous_polar);
     if (options.cartesian == Cartesian::Last) {
-      if (older) spare = std::move(older->pixels);
+      if (older) loader.give_buffer(std::move(older->pixels));
       older = std::move(newer);
       older_k = newer_k;
       newer = std::move(image);
       newer_k = k;
     } else {
-      spare = std::move(image->pixels);
+      loader.give_buffer(std::move(image->pixels));
     }
   }
   run.registration_builds = loader.cache.builds();

@@ -8,7 +8,8 @@
 // (ChainOptions::cartesian): they cost about as much again as the polar chain.
 //
 // Memory does not grow with the number of frames: the chain holds the previous raw frame,
-// the base frame, the remap tables and a few polar images; what the caller keeps
+// the two frames it reads ahead (each read on its own thread while the chain works on the
+// current one), the base frame, the remap tables and a few polar images; what the caller keeps
 // from each ChainFrame (e.g. the polar running differences, polar_running_differences())
 // is the only part that grows (maps writes them to its cube's file as they come:
 // fits.hpp FitsCubeWriter). Exception: a low-percentile background needs one extra pass

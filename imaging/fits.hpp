@@ -127,6 +127,7 @@ void write_fits_cube(const std::filesystem::path& path, const std::vector<cv::Ma
 // plane, not the cube. The image is created with room for max_planes (NAXIS3 must be in
 // the header before the data); finish() sets NAXIS3 to the planes added — cfitsio's
 // fits_resize_img drops the unused planes at the end of the data — writes the checksums
+// (DATASUM summed as the planes come, not read back: the same cards fits_write_chksum writes)
 // and the table (one row per plane added), and renames the file into place. Until then
 // the file is a hidden temporary (output_file.hpp); a writer destroyed before finish()
 // removes it. The file equals write_fits_cube's of the same planes, DATE and CHECKSUM

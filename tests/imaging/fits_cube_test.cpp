@@ -3,8 +3,10 @@
 #include <cstring>
 #include <filesystem>
 #include <iterator>
+#include <string>
 
 #include <doctest/doctest.h>
+#include <fitsio.h>
 #include <nlohmann/json.hpp>
 
 #include "imaging/fits.hpp"
@@ -135,4 +137,46 @@ TEST_CASE("fits: a cube written plane by plane with room to spare equals the cub
   CHECK_THROWS_WITH_AS(cube.add(planes[1]), doctest::Contains("small.fits"), occulta::imaging::InputError);
   CHECK_THROWS_WITH_AS(cube.add(cv::Mat(2, 2, CV_32FC1, cv::Scalar(0))), doctest::Contains("small.fits"),
                        occulta::imaging::InputError);
+}
+
+TEST_CASE("fits: a cube's DATASUM summed plane by plane equals cfitsio's, cards and all") {
+  // FitsCubeWriter sums the data unit as planes come instead of reading the cube back; the
+  // file must be what cfitsio's fits_write_chksum makes (FITS Standard 4.0 Appendix J):
+  // a copy has its CHECKSUM and DATASUM removed and rewritten by cfitsio from the data,
+  // and the two files must be the same bytes (the dates in the cards aside).
+  using occulta::imaging::FitsCubeWriter;
+  const auto dir = occulta::test::scratch_dir("fits_cube_datasum");
+  occulta::imaging::Header header;
+  header.set_text("CTYPE3", "FRAME", "plane index");
+  {
+    // Planes of 3 × 7 × 4 bytes (not whole blocks), values of every sign and magnitude,
+    // NaN and infinities: carries in the sum and padding after the data.
+    FitsCubeWriter cube(dir / "summed.fits", cv::Size(7, 3), 4, header);
+    cv::RNG rng(7);
+    for (int k = 0; k < 3; ++k) {
+      cv::Mat plane(3, 7, CV_32FC1);
+      for (int y = 0; y < 3; ++y)
+        for (int x = 0; x < 7; ++x) plane.at<float>(y, x) = float(rng.gaussian(1.0) * std::pow(10.0, 3 * k - 3));
+      plane.at<float>(1, k) = NAN;
+      plane.at<float>(2, k) = k % 2 ? -INFINITY : INFINITY;
+      plane.at<float>(0, 6) = -0.0f;
+      cube.add(plane);
+    }
+    cube.finish();
+  }
+  std::filesystem::copy_file(dir / "summed.fits", dir / "by_cfitsio.fits",
+                             std::filesystem::copy_options::overwrite_existing);
+  fitsfile* file = nullptr;
+  int status = 0;
+  fits_open_file(&file, (dir / "by_cfitsio.fits").c_str(), READWRITE, &status);
+  fits_delete_key(file, "CHECKSUM", &status);
+  fits_delete_key(file, "DATASUM", &status);
+  fits_write_chksum(file, &status);
+  fits_close_file(file, &status);
+  REQUIRE(status == 0);
+  const std::string ours = occulta::test::slurp(dir / "summed.fits");
+  const std::string theirs = occulta::test::slurp(dir / "by_cfitsio.fits");
+  CHECK(ours.size() == theirs.size());
+  CHECK(without_dates(ours) == without_dates(theirs));
+  CHECK(ours.find("DATASUM") != std::string::npos);
 }
