@@ -15,6 +15,8 @@
 // assignment to the returned value that would change nothing). Copies of a PolarFrames
 // share the file; adding to one does not add to the others.
 //
+// A class, not a plain struct, because the two keepings must not be told apart by its
+// readers (front finding, the pictures, the window read `frames[k]` either way).
 // Threads: reading from several threads is safe (pread); adding is not.
 // Errors: a file that cannot be made, written or read is an InputError naming the folder
 // and the system's reason (e.g. a full disk).
@@ -41,7 +43,8 @@ class PolarFrames {
   std::size_t size() const { return in_memory() ? memory_.size() : planes_.size(); }
   bool empty() const { return size() == 0; }
 
-  // Adds a frame (any continuous or not cv::Mat; in memory its pixels are shared, not copied).
+  // Adds a frame, a view into a larger image too: in memory its pixels are shared, not
+  // copied (as std::vector<cv::Mat> would); in a file they are written now.
   void push_back(const cv::Mat& frame);
 
   const cv::Mat operator[](std::size_t k) const;
