@@ -44,6 +44,11 @@ json run_measure(const MeasureOptions& o, std::ostream& err) {
   std::vector<fs::path> frames;
   for (const fit::WindowSplit& split : input.windows) frames.insert(frames.end(), split.inside.begin(), split.inside.end());
   std::future<KnownSha256> hashed = std::async(std::launch::async, [&frames] { return sha256_files(frames); });
+  // The polar running differences in an unlinked temporary file, in TMPDIR (else the
+  // output folder, when TMPDIR names no folder): memory flat in frames (issue 18).
+  std::error_code no_tmp;
+  const fs::path tmp = fs::temp_directory_path(no_tmp);
+  options.polar_scratch_dir = no_tmp ? fs::path(o.out_dir) : tmp;
   const fit::Measurement measurement = fit::measure_event(input, options);
   write_measurement_pictures(measurement, o.out_dir);
 

@@ -274,15 +274,19 @@ MeasurementInput load_measurement_input(const fs::path& input, const fs::path& t
 }
 
 ViewImaging image_view(const std::string& name, const std::vector<fs::path>& files, const imaging::ChainOptions& chain,
-                       const std::function<void(const imaging::ChainFrame&)>& each_frame) {
+                       const std::function<void(const imaging::ChainFrame&)>& each_frame,
+                       const std::optional<fs::path>& scratch_dir) {
   ViewImaging v;
   v.name = name;
   v.files = files;
   imaging::PolarSequence& polar = v.polar;
+  if (scratch_dir) polar.frames = imaging::PolarFrames::in_file(*scratch_dir);
   const imaging::ViewRun run = imaging::run_view(name, files, chain, [&](const imaging::ChainFrame& f) {
     v.observer = f.frame.geometry.observer;
     polar.utc_s.push_back(f.frame.utc_s);
-    polar.frames.push_back(f.polar_running.clone());
+    // The chain's image is valid during the call only: in memory a copy is kept, a file
+    // takes its bytes now.
+    polar.frames.push_back(polar.frames.in_memory() ? f.polar_running.clone() : f.polar_running);
     if (each_frame) each_frame(f);
   });
   polar.polar = run.polar;
@@ -320,7 +324,7 @@ std::vector<ViewImaging> image_event(const MeasurementInput& in, const Measureme
     try {
       v = image_view(listed.name, split.inside, chain_options(event, listed, o.median), [&](const imaging::ChainFrame&) {
         report(progress, MeasurementStage::chain, listed.name, view_index, view_count, ++frames, frame_count);
-      });
+      }, o.polar_scratch_dir);
     } catch (const imaging::InputError& e) {
       v.unusable = "view " + listed.name + ": " + e.what();
     }

@@ -26,7 +26,9 @@
 // already runs the imaging chain) and show `progress`. The arrival ensemble is seeded
 // (EnsembleOptions::seed): the same input gives the same struct.
 // Memory: each view keeps its polar running differences (frames × heights × PAs floats),
-// what the pictures and the window draw; the Cartesian frames are not kept.
+// what front finding, tracking, the pictures and the window read: in memory, or in a
+// temporary file when options.polar_scratch_dir is set (then flat in frames: what grows
+// is a few floats per frame and PA); the Cartesian frames are not kept.
 // Bad input: imaging::InputError (one sentence naming the file and the fault) from
 // load_measurement_input; a view that cannot be used is a problem, the others go on.
 #pragma once
@@ -66,6 +68,12 @@ struct MeasurementOptions {
   // How sentences about the result document name it (measure: the path of its
   // result.json); the arrival reader quotes it when it refuses the boundary values.
   std::string result_name = "result.json";
+  // Where each view's polar running differences are kept (imaging/polar_frames.hpp): unset,
+  // in memory (the window, which shows every frame); set, in an unlinked temporary file in
+  // this folder, written as frames finish and read back frame by frame as the steps need
+  // them, so memory stays flat in frames (`measure` and `batch`: TMPDIR). The results are
+  // the same either way: the frames read back are the same floats.
+  std::optional<std::filesystem::path> polar_scratch_dir;
 };
 
 // What a measurement starts from: the event, the analyst's points, each view's frames
@@ -217,11 +225,14 @@ struct ViewImaging {
 };
 
 // Runs the chain over one view's frames; `each_frame` (when given) also sees every frame
-// the chain gives (the window makes its pictures from them). InputError when the chain
-// cannot use the frames.
+// the chain gives (the window makes its pictures from them). The polar running
+// differences go to a temporary file in `scratch_dir` when given, else stay in memory.
+// InputError when the chain cannot use the frames, or the temporary file cannot be made
+// or written.
 ViewImaging image_view(const std::string& name, const std::vector<std::filesystem::path>& files,
                        const imaging::ChainOptions& chain,
-                       const std::function<void(const imaging::ChainFrame&)>& each_frame = {});
+                       const std::function<void(const imaging::ChainFrame&)>& each_frame = {},
+                       const std::optional<std::filesystem::path>& scratch_dir = {});
 
 // The imaging of every view of the event, in the event's order (chain_options(event, view,
 // options.median) over input.windows[i].inside); a view that cannot be used has `unusable`.

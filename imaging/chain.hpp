@@ -12,8 +12,9 @@
 // current one), the base frame, the remap tables and a few polar images; what the caller keeps
 // from each ChainFrame (e.g. the polar running differences, polar_running_differences())
 // is the only part that grows (maps writes them to its cube's file as they come:
-// fits.hpp FitsCubeWriter). Exception: a low-percentile background needs one extra pass
-// over all frames before the differences start (each frame is then read twice).
+// fits.hpp FitsCubeWriter; measure to a temporary file: polar_frames.hpp). Exception: a
+// low-percentile background needs one extra pass over all frames before the differences
+// start (each frame is then read twice).
 //
 // Conventions: see register.hpp (grid: north up, west +x, east −x, row 0 = bottom as
 // displayed) and polar.hpp (rows = heights in R☉, columns = PA in degrees CCW from north

@@ -13,14 +13,16 @@
 #include <opencv2/core.hpp>
 
 #include "imaging/polar.hpp"
+#include "imaging/polar_frames.hpp"
 
 namespace occulta::imaging {
 
-// Polar frames of one view, oldest first, all on `polar`.
+// Polar frames of one view, oldest first, all on `polar`; the frames in memory or in a
+// temporary file (polar_frames.hpp: a caller whose memory must stay flat in frames).
 struct PolarSequence {
   PolarGrid polar;
   std::vector<double> utc_s;
-  std::vector<cv::Mat> frames;  // CV_32FC1, polar.height_count × polar.pa_count
+  PolarFrames frames;  // CV_32FC1, polar.height_count × polar.pa_count
 };
 
 // The median, over the PAs of the band [pa − half_width, pa + half_width] (wrapping
