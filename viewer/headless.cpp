@@ -85,7 +85,9 @@ std::mutex& imgui_mutex() {
 
 // The caller holds imgui_mutex().
 SharedFont shared_font(const std::filesystem::path& font_file, float pixel_size) {
-  static std::map<std::pair<std::string, float>, SharedFont> fonts;
+  // Made once and never destroyed: a thread may still draw while the process exits, and
+  // LeakSanitizer (which checks after static destructors) sees the atlases reachable.
+  static auto& fonts = *new std::map<std::pair<std::string, float>, SharedFont>();
   const auto key = std::make_pair(font_file.string(), pixel_size);
   if (const auto found = fonts.find(key); found != fonts.end()) return found->second;
   auto atlas = std::make_unique<ImFontAtlas>();
