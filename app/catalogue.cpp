@@ -20,11 +20,11 @@ namespace {
 
 // The text in double quotes as JSON writes it, for our sentences. Bytes that are not
 // UTF-8 are shown as U+FFFD (fit/json_file.hpp): a catalogue is any bytes until checked.
-std::string json_text(const std::string& text) { return fit::json_text(nlohmann::json(text)); }
+std::string in_quotes(const std::string& text) { return fit::json_text(nlohmann::json(text)); }
 
 // The text with every byte sequence that is not UTF-8 (RFC 3629) replaced by U+FFFD: the
 // same text when it is UTF-8 already.
-std::string as_utf8(const std::string& text) { return nlohmann::json::parse(json_text(text)).get<std::string>(); }
+std::string as_utf8(const std::string& text) { return nlohmann::json::parse(in_quotes(text)).get<std::string>(); }
 
 }  // namespace
 
@@ -50,10 +50,10 @@ CatalogueReader::CatalogueReader(const fs::path& path, const std::vector<std::st
     const std::string& name = header[i];
     // Column names and values go into results.csv, results.fits and JSON files, all UTF-8.
     if (as_utf8(name) != name)
-      throw InputError(file, "the header's column " + std::to_string(i + 1) + ", " + json_text(name) +
+      throw InputError(file, "the header's column " + std::to_string(i + 1) + ", " + in_quotes(name) +
                                  ", holds bytes that are not UTF-8 text (RFC 3629)");
     if (std::count(header.begin(), header.end(), name) > 1)
-      throw InputError(file, "the header names column " + json_text(name) + " twice");
+      throw InputError(file, "the header names column " + in_quotes(name) + " twice");
     int* known = name == "id" ? &id_ : name == "event" ? &event_ : name == "start" ? &start_ : name == "end" ? &end_
                  : name == "views" ? &views_ : nullptr;
     if (known) {
@@ -61,7 +61,7 @@ CatalogueReader::CatalogueReader(const fs::path& path, const std::vector<std::st
       continue;
     }
     if (std::find(reserved.begin(), reserved.end(), name) != reserved.end())
-      throw InputError(file, "column " + json_text(name) +
+      throw InputError(file, "column " + in_quotes(name) +
                                  " has the name of a column occulta writes into results.csv; rename it");
     extra_at_.push_back(static_cast<int>(i));
     extra_names_.push_back(name);
@@ -103,16 +103,16 @@ std::optional<CatalogueRow> CatalogueReader::next() {
   for (std::size_t i = 0; i < fields.size(); ++i)
     if (as_utf8(fields[i]) != fields[i])
       return fail("field " + std::to_string(i + 1) + " holds bytes that are not UTF-8 text (RFC 3629): " +
-                  json_text(fields[i]));
+                  in_quotes(fields[i]));
   if (!fit::is_safe_name(row.id))
-    return fail("id " + json_text(row.id) +
+    return fail("id " + in_quotes(row.id) +
                 " names the event's folder, so use letters, digits, '-', '_' and '.' only (not empty, not starting "
                 "with '.', no \"..\")");
   // The run's own names in DIR (app/batch_event.hpp, app/batch_table.hpp) are not ids.
   if (row.id == "events" || row.id == "results.csv" || row.id == "results.fits")
-    return fail("id " + json_text(row.id) + " is the name of the run's own folder or table in --out; choose another");
+    return fail("id " + in_quotes(row.id) + " is the name of the run's own folder or table in --out; choose another");
   if (const auto [at, fresh] = seen_.emplace(row.id, first_line); !fresh)
-    return fail("id " + json_text(row.id) + " is used already on line " + std::to_string(at->second));
+    return fail("id " + in_quotes(row.id) + " is used already on line " + std::to_string(at->second));
   if (event_ >= 0) {
     const std::string& event = fields[static_cast<std::size_t>(event_)];
     if (event.empty()) return fail("`event` is empty; give the path to an event file");
@@ -126,7 +126,7 @@ std::optional<CatalogueRow> CatalogueReader::next() {
     try {
       *value = imaging::utc_seconds_from_iso(*text);
     } catch (const std::invalid_argument& e) {
-      return fail(std::string("`") + name + "` is " + json_text(*text) + " — " + e.what());
+      return fail(std::string("`") + name + "` is " + in_quotes(*text) + " — " + e.what());
     }
   }
   if (end_s < start_s) return fail("`end` " + row.end + " comes before `start` " + row.start);
@@ -138,12 +138,12 @@ std::optional<CatalogueRow> CatalogueReader::next() {
     from = to + 1;
     const std::size_t eq = item.find('=');
     if (eq == std::string::npos || eq == 0 || eq + 1 == item.size())
-      return fail("`views` holds " + json_text(item) + "; it needs name=glob, several joined by ';'");
+      return fail("`views` holds " + in_quotes(item) + "; it needs name=glob, several joined by ';'");
     const std::string name = item.substr(0, eq), glob = item.substr(eq + 1);
     if (!fit::is_safe_name(name))
-      return fail("view name " + json_text(name) + " names a folder, so use letters, digits, '-', '_' and '.' only");
+      return fail("view name " + in_quotes(name) + " names a folder, so use letters, digits, '-', '_' and '.' only");
     for (const auto& [other, _] : row.views)
-      if (other == name) return fail("view name " + json_text(name) + " is used twice");
+      if (other == name) return fail("view name " + in_quotes(name) + " is used twice");
     row.views.emplace_back(name, (base_ / glob).lexically_normal().string());
   }
   return row;
