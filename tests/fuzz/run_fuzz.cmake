@@ -1,11 +1,11 @@
 # tests/fuzz/run_fuzz.cmake — one deterministic fuzz step for CTest:
 #   cmake -DFUZZER=… -DWORK=… -DRUNS=… -DCORPORA="a;b" -P run_fuzz.cmake
 # Runs the fuzzer with a fixed -seed, a fixed -runs, no corpus reloading, no address-space
-# randomisation and inputs of at most 20 000 bytes
-# (the regression step runs longer ones whole) over the given corpora (read, never
-# written: new inputs go to WORK, emptied first), twice, and fails on a crash, a sanitizer
-# report, a leak, a timeout, or when the two runs do not find the same new inputs
-# (libFuzzer names each by its SHA-1, so equal names mean equal inputs).
+# randomisation and inputs of at most 20 000 bytes (the regression step runs longer ones
+# whole) over one copy of the given corpora (read, never written: new inputs go to WORK,
+# emptied first), twice, and fails on a crash, a sanitizer report, a leak, a timeout, or
+# when the two runs do not find the same new inputs (libFuzzer names each by its SHA-1, so
+# equal names mean equal inputs). Each pass's log is kept in WORK/passN/log.
 foreach(var FUZZER WORK RUNS CORPORA)
   if(NOT DEFINED ${var})
     message(FATAL_ERROR "run_fuzz.cmake needs -D${var}=…")
@@ -17,16 +17,35 @@ endforeach()
 # randomisation (some code under test follows pointer values), which setarch -R turns off
 # for the fuzzer (util-linux, setarch(8)).
 find_program(SETARCH setarch REQUIRED)
+
+# Both passes read one copy of the corpora, taken before the first: a folder that changed
+# between the passes (the generated FITS seeds, rewritten by another run of the suite's
+# fixture) would make them differ for a reason that is not the fuzzer's.
+file(REMOVE_RECURSE ${WORK}/corpora)
+set(snapshots "")
+set(index 0)
+foreach(corpus ${CORPORA})
+  file(MAKE_DIRECTORY ${WORK}/corpora/${index})
+  file(GLOB inputs ${corpus}/*)
+  if(inputs)
+    file(COPY ${inputs} DESTINATION ${WORK}/corpora/${index})
+  endif()
+  list(APPEND snapshots ${WORK}/corpora/${index})
+  math(EXPR index "${index} + 1")
+endforeach()
+
 set(found "")
 foreach(pass 1 2)
   file(REMOVE_RECURSE ${WORK}/pass${pass})
   file(MAKE_DIRECTORY ${WORK}/pass${pass}/new ${WORK}/pass${pass}/artifacts)
   execute_process(
     COMMAND ${SETARCH} -R ${FUZZER} -seed=1 -runs=${RUNS} -reload=0 -max_len=20000 -timeout=60 -rss_limit_mb=2048 -malloc_limit_mb=2048
-            -print_final_stats=1 -artifact_prefix=${WORK}/pass${pass}/artifacts/ ${WORK}/pass${pass}/new ${CORPORA}
+            -print_final_stats=1 -artifact_prefix=${WORK}/pass${pass}/artifacts/ ${WORK}/pass${pass}/new ${snapshots}
     RESULT_VARIABLE status
     OUTPUT_VARIABLE output
     ERROR_VARIABLE output)
+  # Kept beside the pass's inputs: when two passes differ, their logs show where.
+  file(WRITE ${WORK}/pass${pass}/log "${output}")
   if(NOT status EQUAL 0)
     message(FATAL_ERROR "${FUZZER} failed (exit ${status}) on pass ${pass}:\n${output}")
   endif()
