@@ -137,6 +137,13 @@ void measure_sighting(ViewMeasurement& m, const imaging::Front& found, const std
 // be that front's: the association's PA tolerance (fit/associate.hpp, 20°), our choice.
 constexpr double kMarkedNearFrontDeg = 20.0;
 
+// The circular mean of the points' PAs, in [0°, 360°).
+double mean_pa_deg(const std::vector<TrackPoint>& points) {
+  double sum_sin = 0.0, sum_cos = 0.0;
+  for (const TrackPoint& p : points) sum_sin += std::sin(p.pa_deg * kRadPerDeg), sum_cos += std::cos(p.pa_deg * kRadPerDeg);
+  return std::fmod(std::atan2(sum_sin, sum_cos) * kDegPerRad + 360.0, 360.0);
+}
+
 // Whether a PA lies within a front's span widened by `margin_deg` on each side.
 bool within_span(const imaging::Front& front, double pa_deg, double margin_deg) {
   if (front.encircles) return true;
@@ -155,19 +162,9 @@ void find_sightings(const ViewMeasurement& v, const imaging::FrontSet& set, cons
   if (analyst)
     for (const TrackPoint& p : analyst->points)
       if (p.view == v.name) marked.push_back(p);
-  std::size_t marked_front = set.fronts.size();
-  double mean_pa = 0.0;
-  if (!marked.empty() && !set.fronts.empty()) {
-    double sum_sin = 0.0, sum_cos = 0.0;
-    for (const TrackPoint& p : marked) sum_sin += std::sin(p.pa_deg * kRadPerDeg), sum_cos += std::cos(p.pa_deg * kRadPerDeg);
-    mean_pa = std::fmod(std::atan2(sum_sin, sum_cos) * kDegPerRad + 360.0, 360.0);
-    double nearest = 1e9;
-    for (std::size_t f = 0; f < set.fronts.size(); ++f) {
-      const double d = std::abs(std::remainder(set.fronts[f].central_pa_deg - mean_pa, 360.0));
-      if (d < nearest) nearest = d, marked_front = f;
-    }
-    if (!within_span(set.fronts[marked_front], mean_pa, kMarkedNearFrontDeg)) marked_front = set.fronts.size();
-  }
+  std::vector<const imaging::Front*> fronts;
+  for (const imaging::Front& f : set.fronts) fronts.push_back(&f);
+  const std::size_t marked_at = marked_front(fronts, marked).value_or(set.fronts.size());
   const auto add = [&](const imaging::Front& front, const std::vector<TrackPoint>& points,
                        const std::vector<double>& ceiling) {
     ViewMeasurement sighting = v;
@@ -188,12 +185,13 @@ void find_sightings(const ViewMeasurement& v, const imaging::FrontSet& set, cons
     for (std::size_t q = 0; q < set.fronts.size(); ++q)
       if (q != f) others.push_back(&set.fronts[q]);
     const imaging::Front& front = set.fronts[f];
-    add(front, f == marked_front ? marked : std::vector<TrackPoint>{},
+    add(front, f == marked_at ? marked : std::vector<TrackPoint>{},
         imaging::ceiling_under(front, others, v.polar, front.outermost_pa_deg));
   }
-  if (!marked.empty() && marked_front == set.fronts.size()) {
+  if (!marked.empty() && marked_at == set.fronts.size()) {
     // A CME the finder missed, by the analyst's word: their points, no front.
     imaging::Front none;
+    const double mean_pa = mean_pa_deg(marked);
     char why[160];
     std::snprintf(why, sizeof why,
                   "no CME found along the analyst's points (mean PA %.0f°): they are measured as a CME of their own.",
@@ -396,6 +394,20 @@ Measurement measure_event(const MeasurementInput& in, const MeasurementOptions& 
 Measurement measure_event(const fs::path& event_or_folder, const fs::path& track_file, const MeasurementOptions& options,
                           const MeasurementProgressCallback& progress) {
   return measure_event(load_measurement_input(event_or_folder, track_file), options, progress);
+}
+
+std::optional<std::size_t> marked_front(const std::vector<const imaging::Front*>& fronts,
+                                        const std::vector<TrackPoint>& marked) {
+  if (fronts.empty() || marked.empty()) return std::nullopt;
+  const double mean_pa = mean_pa_deg(marked);
+  std::size_t nearest = 0;
+  double distance = 1e9;
+  for (std::size_t f = 0; f < fronts.size(); ++f) {
+    const double d = std::abs(std::remainder(fronts[f]->central_pa_deg - mean_pa, 360.0));
+    if (d < distance) distance = d, nearest = f;
+  }
+  if (!within_span(*fronts[nearest], mean_pa, kMarkedNearFrontDeg)) return std::nullopt;
+  return nearest;
 }
 
 Track used_track(const Measurement& m) {

@@ -256,4 +256,13 @@ Measurement measure_event(const std::filesystem::path& event_or_folder, const st
 // The points a measurement used, every view's in order: the track file it writes.
 Track used_track(const Measurement& measurement);
 
+// Which of a view's fronts the analyst's points for that view (`marked`, not empty) are
+// given to: the front whose central PA is nearest their circular mean PA, when that mean
+// lies within the front's PA span widened by 20° on each side (the association's PA
+// tolerance, our choice). None (nullopt): the points are a CME the finder missed, and
+// stand alone. The measurement's rule; the window asks it too, so that it never fits one
+// CME's points with another's.
+std::optional<std::size_t> marked_front(const std::vector<const imaging::Front*>& fronts,
+                                        const std::vector<TrackPoint>& marked);
+
 }  // namespace occulta::fit

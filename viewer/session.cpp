@@ -8,6 +8,7 @@
 #include <set>
 
 #include "imaging/input_error.hpp"
+#include "viewer/cme_list.hpp"
 #include "viewer/stereo.hpp"
 #include "viewer/ui.hpp"
 
@@ -73,6 +74,29 @@ std::optional<std::vector<fit::ViewImaging>> reusable(const fit::MeasurementInpu
   return views;
 }
 
+// Whether the shown CME's automatic points in `view` may join the list's points there:
+// the list has none there, or the measurement gives them to the shown CME's front
+// (fit::marked_front, over every CME's front in that view). Otherwise the two sets are
+// different CMEs, which one fit would mix.
+bool shown_cme_joins(const WindowState& state, const fit::Track& listed, const std::string& view) {
+  std::vector<fit::TrackPoint> marked;
+  for (const fit::TrackPoint& p : listed.points)
+    if (p.view == view) marked.push_back(p);
+  if (marked.empty() || !state.measured) return true;
+  const fit::ViewMeasurement* shown = shown_sighting(state, view);
+  if (!shown || !shown->front.found) return true;  // it has no automatic points there
+  std::vector<const imaging::Front*> fronts;
+  std::size_t shown_at = 0;
+  for (const fit::CmeMeasurement& cme : state.measured->cmes)
+    for (const fit::ViewMeasurement& v : cme.views)
+      if (v.name == view && v.front.found) {
+        if (&v == shown) shown_at = fronts.size();
+        fronts.push_back(&v.front);
+      }
+  if (fronts.empty()) return true;  // a measurement without CMEs: its one front is the shown one
+  return fit::marked_front(fronts, marked) == shown_at;
+}
+
 }  // namespace
 
 ViewImagings imaging_of(const std::vector<ViewPictures>& views) {
@@ -94,6 +118,7 @@ action::FitDone run_fit(const WindowState& state, const Session& session, const 
                         const ViewImagings& imaged) {
   if (!session.input) return {nullptr, points, 0.0, "There is no event to measure: the window was opened without one."};
   const auto started = std::chrono::steady_clock::now();
+  std::string kept_apart;  // views where the shown CME's automatic points were not added
   fit::MeasurementInput input = *session.input;
   input.track_file.clear();
   if (points == "auto") {
@@ -101,11 +126,20 @@ action::FitDone run_fit(const WindowState& state, const Session& session, const 
   } else {
     fit::Track track = track_of(state);
     if (points == "both") {
-      // The automatic track's points the list does not hold already.
+      // The shown CME's automatic points the list does not hold already, in every view but
+      // those where the list's points are another CME's (shown_cme_joins).
       std::set<std::tuple<std::string, double, double>> held;
       for (const fit::TrackPoint& p : track.points) held.insert({p.view, p.utc_s, p.pa_deg});
-      for (const MarkedPoint& p : state.auto_points)
-        if (!held.count({p.view, p.utc_s, p.pa_deg})) track.points.push_back({p.view, p.utc_s, p.pa_deg, p.height_rs, "auto"});
+      const fit::Track listed = track;
+      for (const std::string& view : state.views) {
+        if (!shown_cme_joins(state, listed, view)) {
+          kept_apart += (kept_apart.empty() ? "" : ", ") + view;
+          continue;
+        }
+        for (const MarkedPoint& p : state.auto_points)
+          if (p.view == view && !held.count({p.view, p.utc_s, p.pa_deg}))
+            track.points.push_back({p.view, p.utc_s, p.pa_deg, p.height_rs, "auto"});
+      }
     }
     input.analyst = std::move(track);
   }
@@ -118,7 +152,12 @@ action::FitDone run_fit(const WindowState& state, const Session& session, const 
     std::snprintf(text, sizeof text, "Measured over the %s points in %.2f s: %s.",
                   points == "both" ? "analyst's and automatic" : (points == "auto" ? "automatic" : "analyst's"), seconds,
                   measured->status.c_str());
-    return {std::move(measured), points, seconds, text};
+    std::string said = text;
+    if (!kept_apart.empty())
+      said += " In " + kept_apart +
+              " the shown CME's automatic points were left out: the list's points there are another CME's, and the "
+              "two would have been fitted as one.";
+    return {std::move(measured), points, seconds, said};
   } catch (const imaging::InputError& e) {
     return {nullptr, points, 0.0, e.what()};
   }

@@ -154,6 +154,34 @@ TEST_CASE("window: two CMEs in the window — the list has both, and picking the
       return t.utc_s == p.utc_s && t.pa_deg == p.pa_deg && t.height_rs == p.height_rs;
     }));
   }
+  // "Fit both" while the second CME is shown and the list holds the first's points in one
+  // view: there the second's automatic points stay out (the measurement would give the
+  // list's points to the first CME, and one fit would mix the two); in the other view they
+  // join the list. No sighting fitted mixes the two CMEs' points (their PAs lie ~90° apart).
+  {
+    const occulta::fit::CmeMeasurement first = w.state.measured->cmes[0];
+    REQUIRE_FALSE(first.views[0].points.empty());
+    for (const occulta::fit::TrackPoint& p : first.views[0].points)
+      viewer::apply(w.state, viewer::action::AddPoint{first.views[0].name, p.utc_s, p.pa_deg, p.height_rs});
+    OpenWindow both = w;  // the same window, fitted over both kinds of points
+    run(both, json::parse(R"([{"do": "fit", "points": "both"}])"));
+    REQUIRE(both.state.measured);
+    CHECK(both.state.message.find("In " + first.views[0].name + " the shown CME's automatic points were left out") !=
+          std::string::npos);
+    int by_analyst = 0;
+    for (const occulta::fit::CmeMeasurement& cme : both.state.measured->cmes)
+      for (const occulta::fit::ViewMeasurement& v : cme.views) {
+        if (!v.by_analyst) continue;
+        ++by_analyst;
+        double widest = 0.0;
+        for (const occulta::fit::TrackPoint& p : v.points)
+          for (const occulta::fit::TrackPoint& q : v.points)
+            widest = std::max(widest, std::abs(std::remainder(p.pa_deg - q.pa_deg, 360.0)));
+        CAPTURE(v.name);
+        CHECK(widest < 60.0);
+      }
+    CHECK(by_analyst == 2);  // the first CME's points in one view, the second's in the other
+  }
   // A number the measurement does not have changes nothing; 0 is a fault of the script.
   run(w, json::parse(R"([{"do": "cme", "index": 3}])"));
   CHECK(viewer::shown_cme(w.state)->index == 2);
