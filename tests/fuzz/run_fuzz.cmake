@@ -1,9 +1,9 @@
 # tests/fuzz/run_fuzz.cmake — one deterministic fuzz step for CTest:
 #   cmake -DFUZZER=… -DWORK=… -DRUNS=… -DCORPORA="a;b" -P run_fuzz.cmake
-# Runs the fuzzer with a fixed -seed, a fixed -runs, no corpus reloading, no CMP mutations, no address-space
-# randomisation and inputs of at most 20 000 bytes (the regression step runs longer ones
-# whole) over one copy of the given corpora (read, never written: new inputs go to WORK,
-# emptied first), twice, and fails on a crash, a sanitizer report, a leak, a timeout, or
+# Runs the fuzzer with a fixed -seed, a fixed -runs, no corpus reloading, no CMP
+# mutations, no address-space randomisation and inputs of at most 20 000 bytes (the
+# regression step runs longer ones whole) over one copy of the given corpora (read, never
+# written: new inputs go to WORK, emptied first), twice, and fails on a crash, a sanitizer report, a leak, a timeout, or
 # when the two runs do not find the same new inputs (libFuzzer names each by its SHA-1, so
 # equal names mean equal inputs). Each pass's log is kept in WORK/passN/log.
 foreach(var FUZZER WORK RUNS CORPORA)
