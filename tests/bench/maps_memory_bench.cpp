@@ -12,10 +12,6 @@
 // resident set (ru_maxrss, getrusage(2): the child's own, in KiB on Linux). `--short` (the
 // test suite) uses 4 and 8 frames and fails only when a run fails. `--occulta PATH` runs
 // another build of occulta (e.g. one from before a change) on the same frames.
-#include <sys/resource.h>
-#include <sys/wait.h>
-#include <unistd.h>
-
 #include <algorithm>
 #include <cstdio>
 #include <cstring>
@@ -26,31 +22,12 @@
 #include <vector>
 
 #include "bench_frames.hpp"
+#include "peak_memory.hpp"
 
 namespace fs = std::filesystem;
+using occulta::bench::peak_rss_mib;
 
 namespace {
-
-// Peak resident memory of one run of `argv` (stdout and stderr to /dev/null), in MiB.
-double peak_rss_mib(const std::vector<std::string>& argv) {
-  std::vector<char*> args;
-  for (const auto& a : argv) args.push_back(const_cast<char*>(a.c_str()));
-  args.push_back(nullptr);
-  std::fflush(nullptr);  // or the child would flush our buffered lines a second time
-  const pid_t child = ::fork();
-  if (child < 0) throw std::runtime_error("fork failed");
-  if (child == 0) {
-    if (!std::freopen("/dev/null", "w", stdout) || !std::freopen("/dev/null", "w", stderr)) ::_exit(127);
-    ::execv(args[0], args.data());
-    ::_exit(127);
-  }
-  int status = 0;
-  rusage usage{};
-  if (::wait4(child, &status, 0, &usage) != child || !WIFEXITED(status) || WEXITSTATUS(status) != 0)
-    throw std::runtime_error("failed (status " + std::to_string(status) + "): " + argv[0] + " " + argv[1] + " " +
-                             argv[2]);
-  return usage.ru_maxrss / 1024.0;  // KiB on Linux (getrusage(2))
-}
 
 // A one-view event over the first `count` of `frames`, linked into DIR/v<count>/.
 fs::path write_event(const fs::path& dir, const std::vector<fs::path>& frames, int count) {

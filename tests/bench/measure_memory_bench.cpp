@@ -14,10 +14,6 @@
 // the child's own, in KiB on Linux). Full: N = 16, S = 512. `--short` (the test suite):
 // N = 3, S = 128, failing only when a run fails. `--occulta PATH` runs another build of
 // occulta (e.g. one from before a change) on the same frames.
-#include <sys/resource.h>
-#include <sys/wait.h>
-#include <unistd.h>
-
 #include <algorithm>
 #include <cstdio>
 #include <cstring>
@@ -27,33 +23,12 @@
 #include <string>
 #include <vector>
 
+#include "peak_memory.hpp"
+
 namespace fs = std::filesystem;
+using occulta::bench::peak_rss_mib;
 
 namespace {
-
-// Runs `argv` (stdout and stderr to /dev/null) and returns its peak resident memory in
-// MiB. Exit 0, or 1 when `problem_ok` (measure's "a problem met on the way", README "Exit
-// codes": a short window may hold no CME), count as done.
-double peak_rss_mib(const std::vector<std::string>& argv, bool problem_ok) {
-  std::vector<char*> args;
-  for (const auto& a : argv) args.push_back(const_cast<char*>(a.c_str()));
-  args.push_back(nullptr);
-  std::fflush(nullptr);  // or the child would flush our buffered lines a second time
-  const pid_t child = ::fork();
-  if (child < 0) throw std::runtime_error("fork failed");
-  if (child == 0) {
-    if (!std::freopen("/dev/null", "w", stdout) || !std::freopen("/dev/null", "w", stderr)) ::_exit(127);
-    ::execv(args[0], args.data());
-    ::_exit(127);
-  }
-  int status = 0;
-  rusage usage{};
-  const bool exited = ::wait4(child, &status, 0, &usage) == child && WIFEXITED(status);
-  if (!exited || !(WEXITSTATUS(status) == 0 || (problem_ok && WEXITSTATUS(status) == 1)))
-    throw std::runtime_error("failed (status " + std::to_string(status) + "): " + argv[0] + " " + argv[1] + " " +
-                             argv[2]);
-  return usage.ru_maxrss / 1024.0;  // KiB on Linux (getrusage(2))
-}
 
 // The scenario: one observer, `frames` frames of size² over the same 160 minutes whatever
 // their number, a 950 km/s CME from 2 R☉ (the sample scenario's shell, one view).
