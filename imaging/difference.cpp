@@ -98,6 +98,23 @@ void divide_by_rows(cv::Mat& polar, const std::vector<float>& sigma) {
   });
 }
 
+namespace {
+
+// Whether a row holds any value that is not NaN (x == x fails for NaN alone). No early
+// exit, so that the compiler vectorises it.
+bool any_value(const float* row, int n) {
+  int values = 0;
+  for (int x = 0; x < n; ++x) values |= row[x] == row[x];
+  return values != 0;
+}
+
+// out = in where in is NaN (no data stays no data), else the filtered value.
+void keep_no_data(const float* __restrict in, const float* __restrict filtered, float* __restrict out, int n) {
+  for (int x = 0; x < n; ++x) out[x] = in[x] != in[x] ? in[x] : filtered[x];
+}
+
+}  // namespace
+
 void median_filter(cv::Mat& image, int size, cv::Mat& scratch) {
   CV_Assert(image.type() == CV_32FC1 && (size == 3 || size == 5));
   // cv::medianBlur is single-threaded, so it runs on bands of rows in parallel, each band
@@ -108,33 +125,35 @@ void median_filter(cv::Mat& image, int size, cv::Mat& scratch) {
   // whose rows hold no finite value is NaN in and NaN out, and is skipped.
   const int half = size / 2;
   constexpr int kBand = 32;
+  if (!image.isContinuous()) image = image.clone();
   scratch.create(image.size(), CV_32FC1);
   cv::parallel_for_(cv::Range(0, (image.rows + kBand - 1) / kBand), [&](const cv::Range& bands) {
-    cv::Mat band, filtered;
+    // Each worker keeps room for a filtered band from frame to frame (a fresh one per
+    // band was allocated, and its pages faulted in, 32 times a frame); a band of fewer
+    // rows is written into its first rows (cv::Mat::create keeps a buffer of the same
+    // size and type).
+    thread_local cv::Mat room;
+    if (room.cols != image.cols || room.rows < kBand + 2 * half) room.create(kBand + 2 * half, image.cols, CV_32FC1);
     for (int b = bands.start; b < bands.end; ++b) {
       const int y0 = b * kBand, y1 = std::min(image.rows, y0 + kBand);
       bool any = false;
-      for (int y = y0; y < y1 && !any; ++y) {
-        const float* p = image.ptr<float>(y);
-        for (int x = 0; x < image.cols && !any; ++x) any = p[x] == p[x];
-      }
+      for (int y = y0; y < y1 && !any; ++y) any = any_value(image.ptr<float>(y), image.cols);
       if (!any) {
         for (int y = y0; y < y1; ++y) std::fill_n(scratch.ptr<float>(y), image.cols, kNaN);
         continue;
       }
-      const cv::Rect input(cv::Point(0, std::max(0, y0 - half)), cv::Point(image.cols, std::min(image.rows, y1 + half)));
-      // A continuous copy: OpenCV takes another code path for a submatrix, whose answer
-      // differs next to NaN from the one a whole frame gets.
-      image(input).copyTo(band);
+      // Whole rows of a continuous frame are themselves continuous, so the band is read
+      // in place: OpenCV takes another code path for a submatrix that is not, whose
+      // answer differs next to NaN from the one a whole frame gets.
+      const cv::Mat band = image.rowRange(std::max(0, y0 - half), std::min(image.rows, y1 + half));
+      cv::Mat filtered = room.rowRange(0, band.rows);
       cv::medianBlur(band, filtered, size);
+      CV_Assert(filtered.data == room.data);  // written in place, not reallocated
       // No data stays no data: a pixel whose input is NaN is NaN again (cv::compare does
       // not flag NaN in OpenCV 4, so this is a test per pixel).
-      for (int y = y0; y < y1; ++y) {
-        const float* in = image.ptr<float>(y);
-        const float* med = filtered.ptr<float>(y - input.y);
-        float* out = scratch.ptr<float>(y);
-        for (int x = 0; x < image.cols; ++x) out[x] = std::isnan(in[x]) ? in[x] : med[x];
-      }
+      for (int y = y0; y < y1; ++y)
+        keep_no_data(image.ptr<float>(y), filtered.ptr<float>(y - std::max(0, y0 - half)), scratch.ptr<float>(y),
+                     image.cols);
     }
   });
   std::swap(image, scratch);
