@@ -4,6 +4,9 @@
 
 #include <cmath>
 #include <cstdio>
+#include <exception>
+#include <functional>
+#include <future>
 #include <optional>
 #include <ostream>
 
@@ -102,56 +105,75 @@ std::string map_view(const fit::Event& event, const fit::EventView& view, const 
     add_change(f.polar_running, score);
     f.polar_running.copyTo(last_polar);
   });
-  const cv::Mat last_difference = imaging::sigma_difference(run.last_registered, run.last_previous_registered);
-  const cv::Mat& last_registered = run.last_registered;
   for (const auto& p : run.problems) problems.push_back("view " + view.name + ": " + p);
 
+  const std::string when = " · " + imaging::iso_from_utc_seconds(utc_s.back(), 3).substr(0, 16).replace(10, 1, " ") +
+                           " UTC";
+  const std::string difference = "running difference (σ)";
   const double strongest_pa = strongest_change_pa(score, run.polar);
   std::vector<double> pas = o.pa_deg;
   if (pas.empty()) pas.push_back(strongest_pa);
-  std::vector<imaging::TimeMap> time_maps;
+  std::vector<imaging::TimeMap> time_maps;  // one per PA, filled below, before its picture starts
+  const double t0 = utc_s.front(), t1 = utc_s.back();
+  const int columns = std::max<int>(360, int(utc_s.size()) * 16);  // real time across, gaps kept
+  // The pictures are drawn beside each other and beside the cube's completion: the
+  // stream's end leaves one core idle otherwise. Each writes its own file, and
+  // viewer::draw_headless keeps Dear ImGui to one thread at a time (viewer/headless.hpp),
+  // so the files are the same bytes as drawn one after another. Declared after what the
+  // tasks read, so that they are waited for (a future of std::async waits when
+  // destroyed) before any of it goes, also when one of them throws.
+  std::vector<std::future<void>> pictures;
+  const auto draw = [&pictures](std::function<void()> task) {
+    pictures.push_back(std::async(std::launch::async, std::move(task)));
+  };
+  draw([&] {
+    const cv::Mat last_difference = imaging::sigma_difference(run.last_registered, run.last_previous_registered);
+    QuicklookPanel sky{Plane::sky, last_difference, viewer::sky_extent(run.grid), sigma_scale(4.0, difference),
+                       view.name + " · running difference, north up" + when, run.radii, {}};
+    write_quicklook(dir / "running_difference.png", {&sky, 1});
+  });
+  draw([&] {
+    QuicklookPanel unwrapped{Plane::polar, last_polar, viewer::polar_extent(run.polar), sigma_scale(4.0, difference),
+                             view.name + " · running difference, unwrapped" + when, {}, {}};
+    write_quicklook(dir / "polar_running_difference.png", {&unwrapped, 1});
+  });
+  if (o.nrgf)
+    draw([&] {
+      const imaging::PolarMaps maps = imaging::make_polar_maps(run.grid, run.polar);
+      cv::Mat polar_frame;
+      imaging::to_polar(run.last_registered, maps, polar_frame);
+      QuicklookPanel filtered{Plane::polar, imaging::nrgf(polar_frame), viewer::polar_extent(run.polar),
+                              sigma_scale(3.0, "NRGF (σ)"),
+                              view.name + " · NRGF (Morgan et al. 2006), unwrapped" + when, {}, {}};
+      write_quicklook(dir / "nrgf.png", {&filtered, 1});
+    });
+
   for (double pa : pas)
     time_maps.push_back(imaging::time_height(run.polar, utc_s, [&](std::size_t k) { return cube->plane(long(k)); }, pa,
                                              2.0));
 
   std::vector<std::string> iso;
-  std::vector<double> steps;
-  for (size_t i = 0; i < utc_s.size(); ++i) {
-    iso.push_back(imaging::iso_from_utc_seconds(utc_s[i], 3));
-    steps.push_back(i == 0 ? NAN : utc_s[i] - utc_s[i - 1]);
-  }
-  steps[0] = steps.size() > 1 ? steps[1] : 0.0;  // the first difference's step is not known here: its neighbour's
+  for (const double t : utc_s) iso.push_back(imaging::iso_from_utc_seconds(t, 3));
   cube->finish("FRAMES", {{"TIME", "", {}, iso}, {"UTC_S", "s", utc_s, {}}});
 
-  const std::string when = " · " + iso.back().substr(0, 16).replace(10, 1, " ") + " UTC";
-  const std::string difference = "running difference (σ)";
-  QuicklookPanel sky{Plane::sky, last_difference, viewer::sky_extent(run.grid), sigma_scale(4.0, difference),
-                     view.name + " · running difference, north up" + when, run.radii, {}};
-  write_quicklook(dir / "running_difference.png", {&sky, 1});
-  QuicklookPanel unwrapped{Plane::polar, last_polar, viewer::polar_extent(run.polar),
-                           sigma_scale(4.0, difference), view.name + " · running difference, unwrapped" + when, {}, {}};
-  write_quicklook(dir / "polar_running_difference.png", {&unwrapped, 1});
-
-  const double t0 = utc_s.front(), t1 = utc_s.back();
-  const int columns = std::max<int>(360, int(utc_s.size()) * 16);  // real time across, gaps kept
-  for (std::size_t i = 0; i < pas.size(); ++i) {
-    const imaging::TimeMap& th = time_maps[i];
-    char title[160];
-    std::snprintf(title, sizeof title, "%s · time–height along PA %.0f° (median over ±2°) · running difference",
-                  view.name.c_str(), pas[i]);
-    QuicklookPanel map{Plane::time_height, imaging::render_on_time_axis(th, t0, t1, columns),
-                       viewer::time_map_extent(th, t0, t1), sigma_scale(4.0, difference), title, {}, {}};
-    write_quicklook(dir / ("time_height_pa" + pa_label(pas[i]) + ".png"), {&map, 1});
-  }
-  if (o.nrgf) {
-    const imaging::PolarMaps maps = imaging::make_polar_maps(run.grid, run.polar);
-    cv::Mat polar_frame;
-    imaging::to_polar(last_registered, maps, polar_frame);
-    QuicklookPanel filtered{Plane::polar, imaging::nrgf(polar_frame), viewer::polar_extent(run.polar),
-                            sigma_scale(3.0, "NRGF (σ)"),
-                            view.name + " · NRGF (Morgan et al. 2006), unwrapped" + when, {}, {}};
-    write_quicklook(dir / "nrgf.png", {&filtered, 1});
-  }
+  for (std::size_t i = 0; i < pas.size(); ++i)
+    draw([&, i] {
+      const imaging::TimeMap& th = time_maps[i];
+      char title[160];
+      std::snprintf(title, sizeof title, "%s · time–height along PA %.0f° (median over ±2°) · running difference",
+                    view.name.c_str(), pas[i]);
+      QuicklookPanel map{Plane::time_height, imaging::render_on_time_axis(th, t0, t1, columns),
+                         viewer::time_map_extent(th, t0, t1), sigma_scale(4.0, difference), title, {}, {}};
+      write_quicklook(dir / ("time_height_pa" + pa_label(pas[i]) + ".png"), {&map, 1});
+    });
+  // Every picture waited for, the first failure thrown after.
+  std::exception_ptr failure;
+  for (std::future<void>& picture : pictures) try {
+      picture.get();
+    } catch (...) {
+      if (!failure) failure = std::current_exception();
+    }
+  if (failure) std::rethrow_exception(failure);
 
   char line[200];
   std::snprintf(line, sizeof line, "%-8s %3d frames  %3zu differences  heights %.2f-%.2f R☉  strongest change at PA %.0f",
