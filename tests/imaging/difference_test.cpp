@@ -124,6 +124,55 @@ TEST_CASE("difference: a running difference scaled to a common time step") {
   CHECK(cv::norm(d1 - d2, cv::NORM_INF) == 0.0);
 }
 
+// Bit for bit, NaN as NaN: how many pixels of `filtered` differ from one cv::medianBlur of
+// the whole of `image` with its no-data pixels put back (difference.hpp), or gained data.
+int differences_from_whole_frame(const cv::Mat& image, const cv::Mat& filtered, int size) {
+  cv::Mat reference;
+  cv::medianBlur(image, reference, size);
+  int differ = 0;
+  for (int y = 0; y < image.rows; ++y)
+    for (int x = 0; x < image.cols; ++x) {
+      const float in = image.at<float>(y, x), a = filtered.at<float>(y, x), b = std::isnan(in) ? in : reference.at<float>(y, x);
+      if (!(a == b || (std::isnan(a) && std::isnan(b)))) ++differ;
+      if (std::isnan(in) && !std::isnan(a)) ++differ;  // no data never gains a value
+    }
+  return differ;
+}
+
+TEST_CASE("difference: the median filter cut to the columns with data equals one whole-frame cv::medianBlur") {
+  // Frames whose field stop leaves their corners without data, as a coronagraph's do: the
+  // filter leaves those columns out of each band (difference.cpp). Widths that put the
+  // data at every place in the vector lanes and the frame's last, partial vector; data
+  // that touch the left or right edge in some rows; NaN specks; a field stop near the
+  // edge and one well inside. Each must give exactly one whole-frame medianBlur.
+  cv::RNG rng(11);
+  int frames = 0;
+  for (const int width : {256, 301, 333, 512, 517}) {
+    for (const double stop : {0.47, 0.36}) {
+      cv::Mat image(290, width, CV_32FC1);
+      rng.fill(image, cv::RNG::NORMAL, 100.0, 10.0);
+      const double cx = 0.5 * width + 3.3, cy = 141.7, r_out = stop * width, r_in = 0.06 * width;
+      for (int y = 0; y < image.rows; ++y)
+        for (int x = 0; x < width; ++x) {
+          const double r = std::hypot(x - cx, y - cy);
+          if (r < r_in || r > r_out || rng.uniform(0, 300) == 0) image.at<float>(y, x) = std::numeric_limits<float>::quiet_NaN();
+        }
+      image(cv::Rect(0, 100, 7, 30)).setTo(55.0f);           // data at the left edge in some rows
+      image(cv::Rect(width - 5, 160, 5, 40)).setTo(66.0f);   // and at the right edge
+      for (int size : {3, 5}) {
+        cv::Mat filtered = image.clone();
+        oi::median_filter(filtered, size);
+        CAPTURE(width);
+        CAPTURE(stop);
+        CAPTURE(size);
+        CHECK(differences_from_whole_frame(image, filtered, size) == 0);
+        ++frames;
+      }
+    }
+  }
+  CHECK(frames == 20);
+}
+
 TEST_CASE("difference: the banded median filter equals one whole-frame cv::medianBlur, no data kept as NaN") {
   // A frame as the chain has it: data in an annulus, NaN inside the occulter and outside
   // the field stop, some NaN specks within; the banded filter must not change a value.
