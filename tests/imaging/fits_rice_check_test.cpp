@@ -457,6 +457,30 @@ TEST_CASE("fits_rice_check: integer Rice tiles decoded by the trace equal cfitsi
   CHECK(same_bits(read_fits(dir / "ours_float32.fits").pixels, cfitsio_pixels(dir / "ours_float32.fits")));
 }
 
+TEST_CASE("fits_rice_check: values scaled beyond float's range are counted as not finite, as cfitsio gives them") {
+  // to_physical counts blanks alone unless BSCALE/BZERO could take a value past float's
+  // range; with BSCALE = 1e30, 32-bit values above ~3.4e8 become ±Inf.
+  const fs::path dir = scratch_dir("fits-rice-check-overflow");
+  const fs::path path = dir / "scaled.fits";
+  write_tiled(path, LONG_IMG, 77, 45, 77, 1);
+  fitsfile* file = nullptr;
+  int status = 0;
+  fits_open_diskfile(&file, path.c_str(), READWRITE, &status);
+  fits_movabs_hdu(file, 2, nullptr, &status);
+  fits_update_key_dbl(file, "BSCALE", 1e30, -15, "huge, to overflow float", &status);
+  fits_close_file(file, &status);
+  REQUIRE(status == 0);
+  const cv::Mat expected = cfitsio_pixels(path);
+  const std::size_t infinite = count_nonfinite(expected);
+  CHECK(infinite > 0);
+  CHECK(infinite < expected.total());
+  const Decoded got = decoded_pixels(path);
+  CHECK(got.decoded);
+  CHECK(same_bits(got.pixels, expected));
+  CHECK(got.nonfinite == infinite);
+  CHECK(read_fits(path).nonfinite_count == infinite);
+}
+
 TEST_CASE("fits_rice_check: decode_rice gives the values of hand-coded streams") {
   // 16-bit, first value 0x1234, code 0001 (fs = 0), then "1" (mapped 0), "01"
   // (mapped 1 → −1), "001" (mapped 2 → +1), "1" (0): 0x1234, 0x1233, 0x1234, 0x1234.
