@@ -239,17 +239,23 @@ RiceTrace decode_rice(std::span<const unsigned char> bytes, long long pixels, in
   const int width = bytepix == 1 ? 1 : bytepix == 2 ? 2 : 4;
   std::uint32_t last = 0;
   for (int i = 0; i < width && i < static_cast<int>(bytes.size()); ++i) last = (last << 8) | bytes[static_cast<std::size_t>(i)];
-  const auto store = [width](std::uint32_t v) -> std::int32_t {
-    if (width == 1) return static_cast<std::int32_t>(v & 0xFFu);                     // unsigned 8-bit data
-    if (width == 2) return static_cast<std::int16_t>(static_cast<std::uint16_t>(v));  // signed 16-bit
-    return static_cast<std::int32_t>(v);                                               // signed 32-bit
+  // One walk per width, so that the width is a constant in the loop over pixels.
+  const auto walk = [&]<int kWidth>() {
+    long long at = 0;
+    return walk_rice<true>(bytes, pixels, blocksize, bytepix, [&](std::uint32_t mapped) {
+      const std::uint32_t difference = (mapped & 1u) ? ~(mapped >> 1) : (mapped >> 1);
+      last += difference;  // modulo 2^32; the store keeps the data's width
+      if constexpr (kWidth == 1)
+        values[at++] = static_cast<std::int32_t>(last & 0xFFu);  // unsigned 8-bit data
+      else if constexpr (kWidth == 2)
+        values[at++] = static_cast<std::int16_t>(static_cast<std::uint16_t>(last));  // signed 16-bit
+      else
+        values[at++] = static_cast<std::int32_t>(last);  // signed 32-bit
+    });
   };
-  long long at = 0;
-  return walk_rice<true>(bytes, pixels, blocksize, bytepix, [&](std::uint32_t mapped) {
-    const std::uint32_t difference = (mapped & 1u) ? ~(mapped >> 1) : (mapped >> 1);
-    last += difference;  // modulo 2^32; store() keeps the data's width
-    values[at++] = store(last);
-  });
+  if (width == 1) return walk.operator()<1>();
+  if (width == 2) return walk.operator()<2>();
+  return walk.operator()<4>();
 }
 
 namespace {
