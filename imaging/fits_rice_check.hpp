@@ -62,9 +62,11 @@ std::vector<TileCheck> check_compressed_tiles(fitsfile* file, const std::string&
 // (8, 16 or 32 bits), one plane, no quantisation or per-tile null column, each tile's
 // trace also decodes it and writes the image's pixels (width × height, NAXIS1 fastest) as
 // fits_read_img(TFLOAT) gives them — (float)(v · BSCALE + BZERO), NaN where v is the
-// BLANK/ZBLANK value — and returns true. Otherwise it only checks, writes nothing and
-// returns false: cfitsio then decodes the tiles it checked.
+// BLANK/ZBLANK value — and returns true, with the count of pixels written that are NaN
+// or ±Inf in `nonfinite` (counted as they are written, so the caller need not pass over
+// the image again). Otherwise it only checks, writes nothing and returns false: cfitsio
+// then decodes the tiles it checked.
 bool check_and_decode_tiles(fitsfile* file, const std::string& source, const std::string& where, float* pixels,
-                            long long width, long long height);
+                            long long width, long long height, std::size_t& nonfinite);
 
 }  // namespace occulta::imaging::fits_detail

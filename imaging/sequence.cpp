@@ -5,6 +5,8 @@
 #include <cmath>
 #include <cstdio>
 #include <exception>
+#include <optional>
+#include <thread>
 
 #include "imaging/constants.hpp"
 #include "imaging/input_error.hpp"
@@ -42,8 +44,22 @@ ViewSequence scan_view(const std::string& view, const std::vector<std::filesyste
   if (paths.size() > kMaxFramesPerView)
     throw InputError(view, "it has " + std::to_string(paths.size()) + " frames, more than occulta reads in one view (" +
                                std::to_string(kMaxFramesPerView) + "); narrow its globs or the event's window");
-  std::vector<std::string> identities;
-  for (const auto& path : paths) {
+  // Each frame's header, read on two threads (the headers are read before anything else
+  // can start, so they are on the run's critical path), then taken in the order given, so
+  // that frames and problems come out as read one after another. Both libraries allow it:
+  // Debian's cfitsio is built reentrant (fits_is_reentrant() is 1; the chain's reads
+  // ahead rely on it too), and WCSLIB's header and unit parsers are reentrant Flex
+  // scanners (wcspihlex_init, wcsutrnlex_init; geometry.cpp changes no global).
+  struct Scanned {
+    std::optional<SequenceFrame> frame;
+    std::string identity;  // OBSRVTRY/TELESCOP
+    std::vector<std::string> notes;  // problems of a usable frame
+    std::string fault;               // why the frame is skipped
+  };
+  std::vector<Scanned> scanned(paths.size());
+  const auto scan = [&](std::size_t k) {
+    const auto& path = paths[k];
+    Scanned& out = scanned[k];
     try {
       const Header header = read_fits_header(path);
       SequenceFrame frame;
@@ -58,13 +74,31 @@ ViewSequence scan_view(const std::string& view, const std::vector<std::filesyste
         throw InputError(path.string(), "its header gives no image size");
       frame.header_radii = header_occulter_radii(header);
       if (!frame.exposure_s)
-        sequence.problems.push_back(path.string() + ": it has no EXPTIME or XPOSURE; its pixels are taken as "
-                                                    "already per second.");
-      sequence.frames.push_back(std::move(frame));
-      identities.push_back(identity(header));
+        out.notes.push_back(path.string() + ": it has no EXPTIME or XPOSURE; its pixels are taken as "
+                                            "already per second.");
+      out.frame = std::move(frame);
+      out.identity = identity(header);
     } catch (const std::exception& e) {
-      sequence.problems.push_back(std::string(e.what()) + " The frame is skipped.");
+      out.fault = std::string(e.what()) + " The frame is skipped.";
     }
+  };
+  {
+    // The second thread takes the odd frames; scan() throws nothing.
+    std::thread odd([&] {
+      for (std::size_t k = 1; k < paths.size(); k += 2) scan(k);
+    });
+    for (std::size_t k = 0; k < paths.size(); k += 2) scan(k);
+    odd.join();
+  }
+  std::vector<std::string> identities;
+  for (Scanned& s : scanned) {
+    if (!s.frame) {
+      sequence.problems.push_back(std::move(s.fault));
+      continue;
+    }
+    for (std::string& note : s.notes) sequence.problems.push_back(std::move(note));
+    sequence.frames.push_back(std::move(*s.frame));
+    identities.push_back(std::move(s.identity));
   }
 
   // Two observers in one view: the instrument names first, then where they are.

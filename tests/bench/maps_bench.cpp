@@ -18,6 +18,9 @@
 // valgrind's callgrind (minutes; not in `./bootstrap bench`) and prints their ratio: unlike
 // times, the count does not change with the machine's load. (This machine's virtual CPU
 // has no hardware counters, so `perf stat -e instructions` cannot count them.)
+// `--paired OTHER` adds another build's executable to each round (its `maps`, default
+// median, on the same files and after the same read): its medians and the paired ratio
+// of this build to it, to compare two builds under the same load.
 #include <sys/resource.h>
 #include <unistd.h>
 
@@ -90,6 +93,7 @@ int main(int argc, char** argv) {
   }
   const bool short_mode = argc > 1 && std::strcmp(argv[1], "--short") == 0;
   const bool instructions = argc > 1 && std::strcmp(argv[1], "--instructions") == 0;
+  const std::string other = argc == 3 && std::strcmp(argv[1], "--paired") == 0 ? argv[2] : "";
   const int frames = short_mode ? 6 : 30;
   const int rounds = short_mode ? 1 : 5;
   const fs::path dir = fs::temp_directory_path() / ("occulta-maps-bench-" + std::to_string(::getpid()));
@@ -120,8 +124,16 @@ int main(int argc, char** argv) {
     std::printf("  load average before timing %.2f (1 min): others' work inflates wall times, not CPU times\n", load[0]);
     std::vector<double> read_wall, read_cpu, maps_wall, maps_cpu, plain_wall, plain_cpu;
     std::vector<double> ratio_wall, ratio_plain_wall, ratio_cpu, ratio_plain_cpu;
+    std::vector<double> other_wall, other_cpu, ratio_other_wall, ratio_other_cpu;
+    const std::string other_maps = "'" + other + "' maps '" + (dir / "bench.event.json").string() + "' --out '" +
+                                   (dir / "out").string() + "' > /dev/null";
     for (int r = 0; r < rounds; ++r) {
       const Cost c_read = run(read), c_maps = run(maps), c_plain = run(maps + " --median 0");
+      if (!other.empty()) {
+        const Cost c_other = run(other_maps);
+        other_wall.push_back(c_other.wall_s), other_cpu.push_back(c_other.cpu_s);
+        ratio_other_wall.push_back(c_maps.wall_s / c_other.wall_s), ratio_other_cpu.push_back(c_maps.cpu_s / c_other.cpu_s);
+      }
       read_wall.push_back(c_read.wall_s), read_cpu.push_back(c_read.cpu_s);
       maps_wall.push_back(c_maps.wall_s), maps_cpu.push_back(c_maps.cpu_s);
       plain_wall.push_back(c_plain.wall_s), plain_cpu.push_back(c_plain.cpu_s);
@@ -134,6 +146,10 @@ int main(int argc, char** argv) {
                 "CPU %.2f\n", median(maps_wall), median(maps_cpu), median(ratio_wall), median(ratio_cpu));
     std::printf("    occulta maps --median 0     wall %.3f s, CPU %.3f s; ratio to the read: wall %.2f (budget 1.5), "
                 "CPU %.2f\n", median(plain_wall), median(plain_cpu), median(ratio_plain_wall), median(ratio_plain_cpu));
+    if (!other.empty())
+      std::printf("    %s maps (5×5 median)   wall %.3f s, CPU %.3f s; this build over it: wall %.3f, CPU %.3f "
+                  "(medians of the paired ratios)\n", other.c_str(), median(other_wall), median(other_cpu),
+                  median(ratio_other_wall), median(ratio_other_cpu));
     double load_after[3] = {0, 0, 0};
     if (getloadavg(load_after, 3) < 0) load_after[0] = -1;
     // The figure the budget is about, on a line of its own (grep "wall ratio").

@@ -1,6 +1,8 @@
 // tests/imaging/difference_test.cpp — imaging/difference: running differences, MAD noise
 // normalisation, the median filter; and through the chain, identical frames difference to 0.
+#include <algorithm>
 #include <cmath>
+#include <cstring>
 #include <filesystem>
 #include <limits>
 #include <vector>
@@ -122,6 +124,111 @@ TEST_CASE("difference: a running difference scaled to a common time step") {
   oi::difference(t1, t0, 60.0 / 60.0, d1);
   oi::difference(t3, t1, 60.0 / 120.0, d2);
   CHECK(cv::norm(d1 - d2, cv::NORM_INF) == 0.0);
+}
+
+// Bit for bit, NaN as NaN: how many pixels of `filtered` differ from one cv::medianBlur of
+// the whole of `image` with its no-data pixels put back (difference.hpp), or gained data.
+int differences_from_whole_frame(const cv::Mat& image, const cv::Mat& filtered, int size) {
+  cv::Mat reference;
+  cv::medianBlur(image, reference, size);
+  int differ = 0;
+  for (int y = 0; y < image.rows; ++y)
+    for (int x = 0; x < image.cols; ++x) {
+      const float in = image.at<float>(y, x), a = filtered.at<float>(y, x), b = std::isnan(in) ? in : reference.at<float>(y, x);
+      if (!(a == b || (std::isnan(a) && std::isnan(b)))) ++differ;
+      if (std::isnan(in) && !std::isnan(a)) ++differ;  // no data never gains a value
+    }
+  return differ;
+}
+
+// The MAD σ̂ as it was computed before the radix selection (difference.cpp): two
+// std::nth_element, the RMS fallback summed in the order the first leaves.
+float mad_sigma_by_nth_element(std::vector<float> values) {
+  if (values.size() < 8) return std::numeric_limits<float>::quiet_NaN();
+  const auto mid = values.begin() + std::ptrdiff_t(values.size() / 2);
+  std::nth_element(values.begin(), mid, values.end());
+  const float median = *mid;
+  double sum2 = 0.0;
+  for (float& v : values) {
+    v = std::abs(v - median);
+    sum2 += double(v) * v;
+  }
+  std::nth_element(values.begin(), mid, values.end());
+  if (*mid > 0.0f) return 1.4826f * *mid;
+  return float(std::sqrt(sum2 / values.size()));
+}
+
+TEST_CASE("difference: σ̂ per ring and of an image are the same bits as with std::nth_element") {
+  // Rows of noise, of quantised values with ties, with negative and positive zeros, and
+  // with more than half their values equal (the RMS fallback); odd and even lengths.
+  cv::RNG rng(23);
+  int rows_checked = 0, fallbacks = 0;
+  for (const int cols : {8, 9, 240, 241, 720}) {
+    cv::Mat polar(60, cols, CV_32FC1);
+    rng.fill(polar, cv::RNG::NORMAL, 0.0, 3.0);
+    for (int y = 0; y < polar.rows; ++y) {
+      float* row = polar.ptr<float>(y);
+      for (int x = 0; x < cols; ++x) {
+        if (y % 4 == 1) row[x] = std::round(row[x]);                        // ties
+        if (y % 4 == 2) row[x] = x % 3 ? 0.0f : (x % 2 ? -0.0f : row[x]);   // mostly ±0: fallback
+        if (y % 4 == 3 && x % 5 == 0) row[x] = std::numeric_limits<float>::quiet_NaN();
+      }
+    }
+    const std::vector<float> got = oi::ring_sigma(polar, 0, 1);
+    for (int y = 0; y < polar.rows; ++y) {
+      std::vector<float> values;
+      for (int x = 0; x < cols; ++x)
+        if (std::isfinite(polar.at<float>(y, x))) values.push_back(polar.at<float>(y, x));
+      const float expected = mad_sigma_by_nth_element(values);
+      CAPTURE(cols);
+      CAPTURE(y);
+      CHECK(std::memcmp(&got[std::size_t(y)], &expected, sizeof expected) == 0);
+      ++rows_checked;
+      if (y % 4 == 2) ++fallbacks;
+    }
+    std::vector<float> all;
+    for (int y = 0; y < polar.rows; ++y)
+      for (int x = 0; x < cols; ++x)
+        if (std::isfinite(polar.at<float>(y, x))) all.push_back(polar.at<float>(y, x));
+    const float whole = oi::robust_sigma(polar), expected = mad_sigma_by_nth_element(all);
+    CHECK(std::memcmp(&whole, &expected, sizeof expected) == 0);
+  }
+  CHECK(rows_checked == 300);
+  CHECK(fallbacks == 75);
+}
+
+TEST_CASE("difference: the median filter cut to the columns with data equals one whole-frame cv::medianBlur") {
+  // Frames whose field stop leaves their corners without data, as a coronagraph's do: the
+  // filter leaves those columns out of each band (difference.cpp). Widths that put the
+  // data at every place in the vector lanes and the frame's last, partial vector; data
+  // that touch the left or right edge in some rows; NaN specks; a field stop near the
+  // edge and one well inside. Each must give exactly one whole-frame medianBlur.
+  cv::RNG rng(11);
+  int frames = 0;
+  for (const int width : {256, 301, 333, 512, 517}) {
+    for (const double stop : {0.47, 0.36}) {
+      cv::Mat image(290, width, CV_32FC1);
+      rng.fill(image, cv::RNG::NORMAL, 100.0, 10.0);
+      const double cx = 0.5 * width + 3.3, cy = 141.7, r_out = stop * width, r_in = 0.06 * width;
+      for (int y = 0; y < image.rows; ++y)
+        for (int x = 0; x < width; ++x) {
+          const double r = std::hypot(x - cx, y - cy);
+          if (r < r_in || r > r_out || rng.uniform(0, 300) == 0) image.at<float>(y, x) = std::numeric_limits<float>::quiet_NaN();
+        }
+      image(cv::Rect(0, 100, 7, 30)).setTo(55.0f);           // data at the left edge in some rows
+      image(cv::Rect(width - 5, 160, 5, 40)).setTo(66.0f);   // and at the right edge
+      for (int size : {3, 5}) {
+        cv::Mat filtered = image.clone();
+        oi::median_filter(filtered, size);
+        CAPTURE(width);
+        CAPTURE(stop);
+        CAPTURE(size);
+        CHECK(differences_from_whole_frame(image, filtered, size) == 0);
+        ++frames;
+      }
+    }
+  }
+  CHECK(frames == 20);
 }
 
 TEST_CASE("difference: the banded median filter equals one whole-frame cv::medianBlur, no data kept as NaN") {

@@ -21,6 +21,7 @@
 #include "tests/support/support.hpp"
 
 namespace fs = std::filesystem;
+using occulta::imaging::FitsImage;
 using occulta::imaging::FitsWriteOptions;
 using occulta::imaging::Header;
 using occulta::imaging::InputError;
@@ -365,8 +366,13 @@ cv::Mat cfitsio_pixels(const fs::path& path) {
   return pixels;
 }
 
-// What check_and_decode_tiles() decodes, and whether it did.
-std::pair<bool, cv::Mat> decoded_pixels(const fs::path& path) {
+// What check_and_decode_tiles() decodes, whether it did, and the pixels it counted not finite.
+struct Decoded {
+  bool decoded = false;
+  cv::Mat pixels;
+  std::size_t nonfinite = 0;
+};
+Decoded decoded_pixels(const fs::path& path) {
   fitsfile* file = nullptr;
   int status = 0;
   fits_open_diskfile(&file, path.c_str(), READONLY, &status);
@@ -376,15 +382,20 @@ std::pair<bool, cv::Mat> decoded_pixels(const fs::path& path) {
   REQUIRE(status == 0);
   cv::Mat pixels(static_cast<int>(size[1]), static_cast<int>(size[0]), CV_32FC1, cv::Scalar(-1.0));
   bool decoded = false;
+  std::size_t nonfinite = 0;
   try {
     decoded = occulta::imaging::fits_detail::check_and_decode_tiles(file, path.string(), "its image in HDU 2",
-                                                                    pixels.ptr<float>(), size[0], size[1]);
+                                                                    pixels.ptr<float>(), size[0], size[1], nonfinite);
   } catch (...) {
     fits_close_file(file, &status);
     throw;
   }
   fits_close_file(file, &status);
-  return {decoded, pixels};
+  return {decoded, pixels, nonfinite};
+}
+
+std::size_t count_nonfinite(const cv::Mat& m) {
+  return std::size_t(std::count_if(m.begin<float>(), m.end<float>(), [](float v) { return !std::isfinite(v); }));
 }
 
 // Bit for bit, NaN included (the same bytes).
@@ -425,10 +436,14 @@ TEST_CASE("fits_rice_check: integer Rice tiles decoded by the trace equal cfitsi
   for (const fs::path& path : paths) {
     CAPTURE(path);
     const cv::Mat expected = cfitsio_pixels(path);
-    const auto [decoded, pixels] = decoded_pixels(path);
-    CHECK(decoded);
-    CHECK(same_bits(pixels, expected));
-    CHECK(same_bits(read_fits(path).pixels, expected));
+    const Decoded got = decoded_pixels(path);
+    CHECK(got.decoded);
+    CHECK(same_bits(got.pixels, expected));
+    // The pixels not finite are counted as they are decoded (no second pass).
+    CHECK(got.nonfinite == count_nonfinite(expected));
+    const FitsImage image = read_fits(path);
+    CHECK(same_bits(image.pixels, expected));
+    CHECK(image.nonfinite_count == count_nonfinite(expected));
   }
   const cv::Mat with_blanks = cfitsio_pixels(paths.back());
   CHECK(std::count_if(with_blanks.begin<float>(), with_blanks.end<float>(), [](float v) { return std::isnan(v); }) > 0);
@@ -436,10 +451,34 @@ TEST_CASE("fits_rice_check: integer Rice tiles decoded by the trace equal cfitsi
   cv::Mat floats(30, 50, CV_32FC1);
   cv::randn(floats, 100.0, 5.0);
   write_fits(dir / "ours_float32.fits", floats, Header{}, FitsWriteOptions{FitsWriteOptions::Pixels::Float32, true});
-  const auto [decoded, untouched] = decoded_pixels(dir / "ours_float32.fits");
-  CHECK_FALSE(decoded);
-  CHECK(cv::countNonZero(untouched != -1.0f) == 0);
+  const Decoded left = decoded_pixels(dir / "ours_float32.fits");
+  CHECK_FALSE(left.decoded);
+  CHECK(cv::countNonZero(left.pixels != -1.0f) == 0);
   CHECK(same_bits(read_fits(dir / "ours_float32.fits").pixels, cfitsio_pixels(dir / "ours_float32.fits")));
+}
+
+TEST_CASE("fits_rice_check: values scaled beyond float's range are counted as not finite, as cfitsio gives them") {
+  // to_physical counts blanks alone unless BSCALE/BZERO could take a value past float's
+  // range; with BSCALE = 1e30, 32-bit values above ~3.4e8 become ±Inf.
+  const fs::path dir = scratch_dir("fits-rice-check-overflow");
+  const fs::path path = dir / "scaled.fits";
+  write_tiled(path, LONG_IMG, 77, 45, 77, 1);
+  fitsfile* file = nullptr;
+  int status = 0;
+  fits_open_diskfile(&file, path.c_str(), READWRITE, &status);
+  fits_movabs_hdu(file, 2, nullptr, &status);
+  fits_update_key_dbl(file, "BSCALE", 1e30, -15, "huge, to overflow float", &status);
+  fits_close_file(file, &status);
+  REQUIRE(status == 0);
+  const cv::Mat expected = cfitsio_pixels(path);
+  const std::size_t infinite = count_nonfinite(expected);
+  CHECK(infinite > 0);
+  CHECK(infinite < expected.total());
+  const Decoded got = decoded_pixels(path);
+  CHECK(got.decoded);
+  CHECK(same_bits(got.pixels, expected));
+  CHECK(got.nonfinite == infinite);
+  CHECK(read_fits(path).nonfinite_count == infinite);
 }
 
 TEST_CASE("fits_rice_check: decode_rice gives the values of hand-coded streams") {
