@@ -5,6 +5,7 @@
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
+#include <future>
 
 #include "fit/arrival_json.hpp"
 #include "fit/json_file.hpp"
@@ -359,12 +360,33 @@ Measurement measure_imaged(const MeasurementInput& in, const std::vector<ViewIma
     ViewMeasurement v = measure_view(imaged[i], part.problems);
     v.frames_outside_window = split.outside;
     frames_skipped = frames_skipped || v.frames_used < static_cast<int>(imaged[i].files.size());
-    report(progress, MeasurementStage::front, v.name, static_cast<int>(i), view_count);
-    sets[i] = imaging::find_fronts(v.polar);
-    report(progress, MeasurementStage::kinematics, v.name, static_cast<int>(i), view_count);
-    find_sightings(v, sets[i], in.analyst ? &*in.analyst : nullptr, part);
     part.measured = static_cast<int>(measured.size());
     measured.push_back(std::move(v));
+  }
+  // Each view's fronts and tracks need nothing of another view's, so the views are
+  // worked side by side: the first on this thread, each other on a thread of its own
+  // (find_fronts and find_sightings read the view's frames and write only its own set
+  // and part; PolarFrames reads are safe from several threads). Each view's result is
+  // the same on any thread; the progress reports stay on this thread, in view order.
+  const Track* analyst = in.analyst ? &*in.analyst : nullptr;
+  const auto find_view = [&](std::size_t i) {
+    const ViewMeasurement& v = measured[std::size_t(parts[i].measured)];
+    sets[i] = imaging::find_fronts(v.polar);
+    find_sightings(v, sets[i], analyst, parts[i]);
+  };
+  std::vector<std::size_t> found_views;  // event view indices with a measured view
+  for (std::size_t i = 0; i < parts.size(); ++i)
+    if (parts[i].measured >= 0) found_views.push_back(i);
+  std::vector<std::future<void>> beside(found_views.size());
+  for (std::size_t j = 1; j < found_views.size(); ++j)
+    beside[j] = std::async(std::launch::async, find_view, found_views[j]);
+  for (std::size_t j = 0; j < found_views.size(); ++j) {
+    const std::size_t i = found_views[j];
+    const std::string& name = measured[std::size_t(parts[i].measured)].name;
+    report(progress, MeasurementStage::front, name, static_cast<int>(i), view_count);
+    if (j == 0) find_view(i);
+    else beside[j].get();
+    report(progress, MeasurementStage::kinematics, name, static_cast<int>(i), view_count);
   }
   if (!in.analyst) keep_doubtful(measured, sets, parts);
 
