@@ -192,3 +192,29 @@ TEST_CASE("measurement: the checksum policy in the options refuses or reads a fr
   CHECK(east_frames_used(read) == 16);
   occulta::imaging::set_checksum_policy(occulta::imaging::ChecksumPolicy::Refuse);
 }
+
+// measure_event finds each view's fronts on a thread of its own as soon as that view's
+// imaging is done, beside the next view's imaging; the window runs the two parts apart
+// (image_event, then measure_imaged, which finds the views' fronts side by side). Both
+// must give the same measurement, word for word and bit for bit.
+TEST_CASE("measurement: measure_event equals image_event then measure_imaged, to the bit") {
+  const fs::path event = occulta::test::source_path("sample_frames/sample-2031-03-14.event.json");
+  const occulta::fit::MeasurementInput input = occulta::fit::load_measurement_input(event);
+  occulta::fit::MeasurementOptions options;
+  const occulta::fit::Measurement whole = occulta::fit::measure_event(input, options);
+  const occulta::fit::Measurement parts =
+      occulta::fit::measure_imaged(input, occulta::fit::image_event(input, options), options);
+  REQUIRE(whole.views.size() == 2);
+  CHECK(whole.shell.fit.has_value());
+  // dump() writes every double to its shortest round-trip text: equal text, equal bits.
+  CHECK(occulta::fit::result_json(whole).dump() == occulta::fit::result_json(parts).dump());
+  CHECK(occulta::fit::result_csv(whole) == occulta::fit::result_csv(parts));
+  const occulta::fit::Track whole_track = occulta::fit::used_track(whole), parts_track = occulta::fit::used_track(parts);
+  REQUIRE(whole_track.points.size() == parts_track.points.size());
+  CHECK(!whole_track.points.empty());
+  for (std::size_t k = 0; k < whole_track.points.size(); ++k) {
+    CHECK(whole_track.points[k].utc_s == parts_track.points[k].utc_s);
+    CHECK(whole_track.points[k].pa_deg == parts_track.points[k].pa_deg);
+    CHECK(whole_track.points[k].height_rs == parts_track.points[k].height_rs);
+  }
+}
