@@ -6,7 +6,9 @@
 #include <array>
 #include <cstdint>
 #include <cmath>
+#include <future>
 #include <random>
+#include <thread>
 
 #include <Eigen/Eigenvalues>
 
@@ -190,18 +192,31 @@ std::vector<TargetArrival> arrivals_of_members(const std::vector<ArrivalMember>&
     out[k].times_utc_s.reserve(members.size());
     speeds[k].reserve(members.size());
   }
-  // Members outer, targets inner: each member's rotation and shape are made once.
-  for (const ArrivalMember& m : members) {
-    const ShellParams shell = unit_shell(m.launch);
-    const Eigen::Matrix3d heeq_R_shell_m = heeq_R_shell(shell);
-    const ShellShape shape = shell_shape(shell);
-    for (size_t k = 0; k < targets.size(); ++k) {
-      const std::optional<MemberArrival> a = arrive(m, heeq_R_shell_m, shape, targets[k].heeq_p_km);
-      if (!a) continue;
-      out[k].times_utc_s.push_back(a->utc_s);
-      speeds[k].push_back(a->speed_km_s);
+  // Members outer, targets inner: each member's rotation and shape are made once. Each
+  // member's arrivals depend on it alone, so the later half of the members is done on a
+  // second thread (on a machine with more than one core); they are gathered in member
+  // order, as one thread would have them.
+  std::vector<std::optional<MemberArrival>> arrivals(members.size() * targets.size());
+  const auto arrive_members = [&](size_t from, size_t to) {
+    for (size_t i = from; i < to; ++i) {
+      const ShellParams shell = unit_shell(members[i].launch);
+      const Eigen::Matrix3d heeq_R_shell_m = heeq_R_shell(shell);
+      const ShellShape shape = shell_shape(shell);
+      for (size_t k = 0; k < targets.size(); ++k)
+        arrivals[i * targets.size() + k] = arrive(members[i], heeq_R_shell_m, shape, targets[k].heeq_p_km);
     }
-  }
+  };
+  const size_t half = std::thread::hardware_concurrency() > 1 ? members.size() / 2 : members.size();
+  std::future<void> later;
+  if (half < members.size()) later = std::async(std::launch::async, arrive_members, half, members.size());
+  arrive_members(0, half);
+  if (later.valid()) later.get();
+  for (size_t i = 0; i < members.size(); ++i)
+    for (size_t k = 0; k < targets.size(); ++k)
+      if (const std::optional<MemberArrival>& a = arrivals[i * targets.size() + k]) {
+        out[k].times_utc_s.push_back(a->utc_s);
+        speeds[k].push_back(a->speed_km_s);
+      }
   for (size_t k = 0; k < targets.size(); ++k) {
     TargetArrival& t = out[k];
     t.hits = static_cast<int>(t.times_utc_s.size());

@@ -5,6 +5,7 @@
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
+#include <future>
 
 #include "fit/arrival_json.hpp"
 #include "fit/json_file.hpp"
@@ -237,6 +238,29 @@ void keep_doubtful(const std::vector<ViewMeasurement>& measured, std::vector<ima
   }
 }
 
+// One view's fronts and its sightings (find_fronts, find_sightings): what a view's
+// measurement needs of no other view, so it may run on any thread as soon as the view's
+// imaging is done.
+struct ViewFronts {
+  imaging::FrontSet set;
+  ViewSightings part;  // sightings and sighting_problems only
+};
+
+ViewFronts find_view_fronts(const ViewMeasurement& v, const Track* analyst) {
+  ViewFronts found;
+  found.set = imaging::find_fronts(v.polar);
+  find_sightings(v, found.set, analyst, found.part);
+  return found;
+}
+
+// A measured view (measure_view) of a usable view's imaging, with the frames the window
+// left out; the chain's sentences go to `problems`.
+ViewMeasurement measured_view(const ViewImaging& imaged, const WindowSplit& split, std::vector<std::string>& problems) {
+  ViewMeasurement v = measure_view(imaged, problems);
+  v.frames_outside_window = split.outside;
+  return v;
+}
+
 }  // namespace
 
 const char* to_string(MeasurementStage stage) {
@@ -262,11 +286,16 @@ MeasurementInput load_measurement_input(const fs::path& input, const fs::path& t
     in.track_file = track_file;
   }
   // The event's window, from each frame's header time; the frames' spans check the track.
+  // Each view's headers are read on a thread of its own but the first's, which are read
+  // on this one: a header read touches only its own file.
+  std::vector<std::future<WindowSplit>> later;
+  for (std::size_t i = 1; i < in.event.views.size(); ++i)
+    later.push_back(std::async(std::launch::async, apply_window, std::cref(in.event), std::cref(in.event.views[i])));
+  if (!in.event.views.empty()) in.windows.push_back(apply_window(in.event, in.event.views.front()));
+  for (std::future<WindowSplit>& split : later) in.windows.push_back(split.get());
   std::vector<ViewSpan> spans;
-  for (const EventView& view : in.event.views) {
-    in.windows.push_back(apply_window(in.event, view));
-    spans.push_back({view.name, in.windows.back().first_utc_s, in.windows.back().last_utc_s});
-  }
+  for (std::size_t i = 0; i < in.event.views.size(); ++i)
+    spans.push_back({in.event.views[i].name, in.windows[i].first_utc_s, in.windows[i].last_utc_s});
   if (in.analyst) check_track_matches(*in.analyst, track_file.string(), in.event.id, spans);
   return in;
 }
@@ -295,43 +324,66 @@ ViewImaging image_view(const std::string& name, const std::vector<fs::path>& fil
   return v;
 }
 
+namespace {
+
+// View i's imaging as image_event makes it (progress: its chain stage).
+ViewImaging image_event_view(const MeasurementInput& in, const MeasurementOptions& o, std::size_t i,
+                             const MeasurementProgressCallback& progress) {
+  const Event& event = in.event;
+  const int view_count = static_cast<int>(event.views.size());
+  const EventView& listed = event.views[i];
+  const WindowSplit& split = in.windows[i];
+  ViewImaging v;
+  v.name = listed.name;
+  if (listed.files.empty()) {
+    v.unusable = "view " + listed.name + ": no files match " + listed.globs.front() + ".";
+    return v;
+  }
+  if (split.inside.empty()) {
+    v.unusable = "view " + listed.name + ": none of its " + std::to_string(split.outside.size()) +
+                 " frames lies in the event's window " + imaging::iso_from_utc_seconds((*event.window_s)[0], 3) +
+                 " to " + imaging::iso_from_utc_seconds((*event.window_s)[1], 3) + ".";
+    return v;
+  }
+  const int view_index = static_cast<int>(i), frame_count = static_cast<int>(split.inside.size());
+  report(progress, MeasurementStage::chain, listed.name, view_index, view_count, 0, frame_count);
+  int frames = 0;
+  try {
+    v = image_view(listed.name, split.inside, chain_options(event, listed, o.median), [&](const imaging::ChainFrame&) {
+      report(progress, MeasurementStage::chain, listed.name, view_index, view_count, ++frames, frame_count);
+    }, o.polar_scratch_dir);
+  } catch (const imaging::InputError& e) {
+    v.unusable = "view " + listed.name + ": " + e.what();
+  }
+  return v;
+}
+
+// measure_imaged, given the views' fronts where they were started already (a valid
+// future per view; the others are found here).
+Measurement measure_imaged_with(const MeasurementInput& in, const std::vector<ViewImaging>& imaged,
+                                const MeasurementOptions& o, const MeasurementProgressCallback& progress,
+                                std::vector<std::future<ViewFronts>> started);
+
+}  // namespace
+
 std::vector<ViewImaging> image_event(const MeasurementInput& in, const MeasurementOptions& o,
                                      const MeasurementProgressCallback& progress) {
   if (o.checksum_policy) imaging::set_checksum_policy(*o.checksum_policy);
-  const Event& event = in.event;
-  const int view_count = static_cast<int>(event.views.size());
   std::vector<ViewImaging> imaged;
-  for (std::size_t i = 0; i < event.views.size(); ++i) {
-    const EventView& listed = event.views[i];
-    const WindowSplit& split = in.windows[i];
-    ViewImaging& v = imaged.emplace_back();
-    v.name = listed.name;
-    if (listed.files.empty()) {
-      v.unusable = "view " + listed.name + ": no files match " + listed.globs.front() + ".";
-      continue;
-    }
-    if (split.inside.empty()) {
-      v.unusable = "view " + listed.name + ": none of its " + std::to_string(split.outside.size()) +
-                   " frames lies in the event's window " + imaging::iso_from_utc_seconds((*event.window_s)[0], 3) +
-                   " to " + imaging::iso_from_utc_seconds((*event.window_s)[1], 3) + ".";
-      continue;
-    }
-    const int view_index = static_cast<int>(i), frame_count = static_cast<int>(split.inside.size());
-    report(progress, MeasurementStage::chain, listed.name, view_index, view_count, 0, frame_count);
-    int frames = 0;
-    try {
-      v = image_view(listed.name, split.inside, chain_options(event, listed, o.median), [&](const imaging::ChainFrame&) {
-        report(progress, MeasurementStage::chain, listed.name, view_index, view_count, ++frames, frame_count);
-      }, o.polar_scratch_dir);
-    } catch (const imaging::InputError& e) {
-      v.unusable = "view " + listed.name + ": " + e.what();
-    }
-  }
+  for (std::size_t i = 0; i < in.event.views.size(); ++i) imaged.push_back(image_event_view(in, o, i, progress));
   return imaged;
 }
 
 Measurement measure_imaged(const MeasurementInput& in, const std::vector<ViewImaging>& imaged,
                            const MeasurementOptions& o, const MeasurementProgressCallback& progress) {
+  return measure_imaged_with(in, imaged, o, progress, std::vector<std::future<ViewFronts>>(in.event.views.size()));
+}
+
+namespace {
+
+Measurement measure_imaged_with(const MeasurementInput& in, const std::vector<ViewImaging>& imaged,
+                                const MeasurementOptions& o, const MeasurementProgressCallback& progress,
+                                std::vector<std::future<ViewFronts>> started) {
   const Event& event = in.event;
   Measurement m;
   m.event_id = event.id;
@@ -354,15 +406,35 @@ Measurement measure_imaged(const MeasurementInput& in, const std::vector<ViewIma
       part.problems.push_back(imaged[i].unusable);
       continue;
     }
-    ViewMeasurement v = measure_view(imaged[i], part.problems);
-    v.frames_outside_window = split.outside;
+    ViewMeasurement v = measured_view(imaged[i], split, part.problems);
     frames_skipped = frames_skipped || v.frames_used < static_cast<int>(imaged[i].files.size());
-    report(progress, MeasurementStage::front, v.name, static_cast<int>(i), view_count);
-    sets[i] = imaging::find_fronts(v.polar);
-    report(progress, MeasurementStage::kinematics, v.name, static_cast<int>(i), view_count);
-    find_sightings(v, sets[i], in.analyst ? &*in.analyst : nullptr, part);
     part.measured = static_cast<int>(measured.size());
     measured.push_back(std::move(v));
+  }
+  // Each view's fronts and tracks need nothing of another view's, so the views are
+  // worked side by side: those not started already (measure_event starts each as its
+  // imaging ends) each on a thread of its own but the first, which runs on this one
+  // (find_fronts and find_sightings read the view's frames and write only its own
+  // result; PolarFrames reads are safe from several threads). Each view's result is the
+  // same on any thread; the progress reports stay on this thread, in view order.
+  const Track* analyst = in.analyst ? &*in.analyst : nullptr;
+  std::vector<std::size_t> found_views;  // event view indices with a measured view
+  for (std::size_t i = 0; i < parts.size(); ++i)
+    if (parts[i].measured >= 0) found_views.push_back(i);
+  std::size_t here = parts.size();  // the view found on this thread
+  for (const std::size_t i : found_views) {
+    if (started[i].valid()) continue;
+    if (here == parts.size()) here = i;
+    else started[i] = std::async(std::launch::async, find_view_fronts, std::cref(measured[std::size_t(parts[i].measured)]), analyst);
+  }
+  for (const std::size_t i : found_views) {
+    const std::string& name = measured[std::size_t(parts[i].measured)].name;
+    report(progress, MeasurementStage::front, name, static_cast<int>(i), view_count);
+    ViewFronts found = i == here ? find_view_fronts(measured[std::size_t(parts[i].measured)], analyst) : started[i].get();
+    sets[i] = std::move(found.set);
+    parts[i].sightings = std::move(found.part.sightings);
+    parts[i].sighting_problems = std::move(found.part.sighting_problems);
+    report(progress, MeasurementStage::kinematics, name, static_cast<int>(i), view_count);
   }
   if (!in.analyst) keep_doubtful(measured, sets, parts);
 
@@ -386,9 +458,27 @@ Measurement measure_imaged(const MeasurementInput& in, const std::vector<ViewIma
   return m;
 }
 
+}  // namespace
+
 Measurement measure_event(const MeasurementInput& in, const MeasurementOptions& o,
                           const MeasurementProgressCallback& progress) {
-  return measure_imaged(in, image_event(in, o, progress), o, progress);
+  // image_event, then measure_imaged, but each view's fronts start on a thread of their
+  // own as soon as its imaging is done, beside the next views' imaging (whose start — the
+  // headers, the occulter radii, the polar sampling — leaves a core free). The results
+  // are measure_imaged's: the same function finds them from the same imaging.
+  if (o.checksum_policy) imaging::set_checksum_policy(*o.checksum_policy);
+  const Track* analyst = in.analyst ? &*in.analyst : nullptr;
+  std::vector<ViewImaging> imaged;
+  std::vector<std::future<ViewFronts>> started(in.event.views.size());
+  for (std::size_t i = 0; i < in.event.views.size(); ++i) {
+    imaged.push_back(image_event_view(in, o, i, progress));
+    if (!imaged.back().unusable.empty() || i + 1 == in.event.views.size()) continue;  // the last is found beside none
+    std::vector<std::string> unused;  // measure_imaged_with says the chain's sentences
+    started[i] = std::async(std::launch::async, [v = measured_view(imaged.back(), in.windows[i], unused), analyst] {
+      return find_view_fronts(v, analyst);
+    });
+  }
+  return measure_imaged_with(in, imaged, o, progress, std::move(started));
 }
 
 Measurement measure_event(const fs::path& event_or_folder, const fs::path& track_file, const MeasurementOptions& options,

@@ -18,11 +18,7 @@ namespace {
 
 // The automatic points: the bright ridge just inside the front's leading edge in every
 // PA column of every frame of the front's chain (imaging/front_ridge.hpp says why the
-// ridge). The fit thins them to max_points_per_frame per frame.
-void add_front_ridge(const ViewMeasurement& v, int view_index, std::vector<EdgePoint>& points) {
-  for (const imaging::RidgePoint& p : imaging::front_ridge(v.polar, v.front))
-    points.push_back({view_index, p.utc_s, p.pa_deg, p.height_rs});
-}
+// ridge), imaging::front_ridge. The fit thins them to max_points_per_frame per frame.
 
 // The outer edges: the leading edge per PA column of every frame of the front's chain
 // (the outermost pixel above the detection threshold, imaging/front.hpp).
@@ -148,31 +144,43 @@ void name_views_without_cme(const std::vector<ViewMeasurement>& views, const std
   }
 }
 
-}  // namespace
-
-ShellMeasurement measure_shell(const std::vector<ViewMeasurement>& views,
-                               const std::optional<std::array<double, 2>>& source_deg, const std::string& apex_law,
-                               std::vector<std::string>& problems) {
-  ShellMeasurement report;
+// What the shell fit is given, gathered over the views: the fitted views, the points
+// (rims or the analyst's) and the outer edges, and the views' own height–time choices.
+struct ShellInputs {
   std::vector<ShellView> fit_views;
   std::vector<const ViewMeasurement*> used;
   std::vector<EdgePoint> points, edge_points;  // rims (or the analyst's), and outer edges
-  bool automatic = false;                            // some view's points are the finder's
+  bool automatic = false;                      // some view's points are the finder's
   int quadratic = 0, fitted = 0;
-  for (const ViewMeasurement& v : views) {
+};
+
+// `ridges[k]`: view k's rim (front_ridge) when it has a found front and no analyst points.
+// Without `ridges`, every found front is taken to have a rim and `points` gets none of
+// them: what the outer-edge fit needs is then known before the rims are (measure_shell).
+ShellInputs gather_shell_inputs(const std::vector<ViewMeasurement>& views,
+                                const std::vector<std::vector<imaging::RidgePoint>>* ridges) {
+  ShellInputs in;
+  std::vector<ShellView>& fit_views = in.fit_views;
+  std::vector<EdgePoint>& points = in.points;
+  for (std::size_t k = 0; k < views.size(); ++k) {
+    const ViewMeasurement& v = views[k];
     const int index = static_cast<int>(fit_views.size());
     const std::size_t before = points.size();
+    bool has_points = false;
     if (v.by_analyst && !v.points.empty()) {  // the analyst's points replace the automatic ones
       for (const TrackPoint& p : v.points) {
         points.push_back({index, p.utc_s, p.pa_deg, p.height_rs});
-        edge_points.push_back(points.back());
+        in.edge_points.push_back(points.back());
       }
+      has_points = true;
     } else if (v.front.found) {
-      add_front_ridge(v, index, points);
-      add_leading_edge(v, index, edge_points);
-      automatic = true;
+      if (ridges)
+        for (const imaging::RidgePoint& p : (*ridges)[k]) points.push_back({index, p.utc_s, p.pa_deg, p.height_rs});
+      add_leading_edge(v, index, in.edge_points);
+      in.automatic = true;
+      has_points = ridges ? points.size() > before : true;
     }
-    if (points.size() == before) continue;
+    if (!has_points) continue;
     ShellView sv;
     sv.name = v.name;
     sv.observer = v.observer;
@@ -195,28 +203,66 @@ ShellMeasurement measure_shell(const std::vector<ViewMeasurement>& views,
       sv.width_deg = hi - lo;
     }
     fit_views.push_back(sv);
-    used.push_back(&v);
+    in.used.push_back(&v);
     // The view's own height–time choice, for the apex law "auto".
-    if (v.kinematics_ok()) ++fitted, quadratic += v.kinematics->model == HeightTimeModel::quadratic;
+    if (v.kinematics_ok()) ++in.fitted, in.quadratic += v.kinematics->model == HeightTimeModel::quadratic;
   }
-  if (fit_views.empty()) {
-    problems.push_back("no shell fit: no view found a CME or has analyst points.");
-    return report;
-  }
+  return in;
+}
+
+ShellFitOptions shell_options(const ShellInputs& in, const std::optional<std::array<double, 2>>& source_deg,
+                              const std::string& apex_law) {
   ShellFitOptions options;
   options.source_lon_lat_deg = source_deg;
   // auto: a quadratic apex law only when every view's own height–time fit chose one
   // (AICc); otherwise the straight line, whose speed is the mean over the frames.
-  if (apex_law == "quadratic" || (apex_law == "auto" && fitted > 0 && quadratic == fitted))
+  if (apex_law == "quadratic" || (apex_law == "auto" && in.fitted > 0 && in.quadratic == in.fitted))
     options.law = ApexLawKind::quadratic;
   else if (apex_law == "free")
     options.law = ApexLawKind::free_per_time;
-  // The same fit to the fronts' outer edges (the threshold edge of imaging/front) needs
-  // nothing of the rim fit, so it runs on a second thread beside it: the same inputs give
-  // the same fit on any thread (fit_shell's only state is a per-thread cache of values it
-  // would compute the same way). It is used only when the rim fit succeeds.
+  return options;
+}
+
+}  // namespace
+
+ShellMeasurement measure_shell(const std::vector<ViewMeasurement>& views,
+                               const std::optional<std::array<double, 2>>& source_deg, const std::string& apex_law,
+                               std::vector<std::string>& problems) {
+  ShellMeasurement report;
+  // The fit to the fronts' outer edges (the threshold edge of imaging/front) needs nothing
+  // of the rim fit, and of the rims only which views have one, so it starts on a second
+  // thread before the rims are found, taking every found front to have one; the rims,
+  // then the rim fit, run on this thread beside it. The same inputs give the same fit on
+  // any thread (fit_shell's only state is a per-thread cache of values it would compute
+  // the same way). Should a front have no rim, the views fitted differ from those taken:
+  // that outer fit is dropped and made again from the real inputs. It is used only when
+  // the rim fit succeeds.
+  const ShellInputs taken = gather_shell_inputs(views, nullptr);
+  const ShellFitOptions taken_options = shell_options(taken, source_deg, apex_law);
   std::future<ShellFit> outer_fit;
-  if (automatic) outer_fit = std::async(std::launch::async, [&] { return fit_shell(fit_views, edge_points, options); });
+  if (taken.automatic)
+    outer_fit = std::async(std::launch::async, [&] { return fit_shell(taken.fit_views, taken.edge_points, taken_options); });
+  std::vector<std::vector<imaging::RidgePoint>> ridges(views.size());
+  for (std::size_t k = 0; k < views.size(); ++k)
+    if (!(views[k].by_analyst && !views[k].points.empty()) && views[k].front.found)
+      ridges[k] = imaging::front_ridge(views[k].polar, views[k].front);
+  const ShellInputs in = gather_shell_inputs(views, &ridges);
+  const std::vector<ShellView>& fit_views = in.fit_views;
+  const std::vector<const ViewMeasurement*>& used = in.used;
+  const std::vector<EdgePoint>& points = in.points;
+  const bool automatic = in.automatic;
+  const ShellFitOptions options = shell_options(in, source_deg, apex_law);
+  if (fit_views.empty()) {
+    problems.push_back("no shell fit: no view found a CME or has analyst points.");
+    return report;
+  }
+  if (automatic && in.used != taken.used) {
+    outer_fit.wait();
+    // Its own copies: this thread may return (the rim fit failed) before it ends.
+    outer_fit = std::async(std::launch::async, [fit_views, edge_points = in.edge_points, options] {
+      return fit_shell(fit_views, edge_points, options);
+    });
+  }
   ShellFit fit = fit_shell(fit_views, points, options);
   if (!fit.ok) {
     problems.push_back("no shell fit: " + fit.problem + ".");

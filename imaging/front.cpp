@@ -4,9 +4,11 @@
 #include <algorithm>
 #include <cmath>
 #include <cstdint>
+#include <future>
 #include <limits>
 #include <map>
 #include <numeric>
+#include <thread>
 
 #include <opencv2/imgproc.hpp>
 
@@ -696,12 +698,21 @@ Scene find_regions(const PolarSequence& s, const FrontOptions& o, std::string& w
     return scene;
   }
   // Steps 1–2: significant regions per frame.
+  // Each frame's regions depend on that frame alone: the later half of the frames is
+  // done on a second thread (on a machine with more than one core), each frame's regions
+  // the same on either (PolarFrames reads are safe from several threads).
   scene.regions.resize(frames);
+  const auto regions_of = [&](int from, int to) {
+    for (int k = from; k < to; ++k)
+      scene.regions[k] = frame_regions(smooth_sigma(s.frames[k], o, s.polar), k, scene.rows, o, s.polar);
+  };
+  const int half = std::thread::hardware_concurrency() > 1 ? frames / 2 : frames;
+  std::future<void> later;
+  if (half < frames) later = std::async(std::launch::async, regions_of, half, frames);
+  regions_of(0, half);
+  if (later.valid()) later.get();
   int any = 0;
-  for (int k = 0; k < frames; ++k) {
-    scene.regions[k] = frame_regions(smooth_sigma(s.frames[k], o, s.polar), k, scene.rows, o, s.polar);
-    any += int(scene.regions[k].size());
-  }
+  for (int k = 0; k < frames; ++k) any += int(scene.regions[k].size());
   if (any == 0)
     why_not = "no CME found: no frame has a significant region large enough (" +
               std::to_string(o.threshold_sigma).substr(0, 4) + "σ).";

@@ -13,6 +13,7 @@
 
 #include "fit/json_file.hpp"
 #include "fit/measurement.hpp"
+#include "fit/measurement_shell.hpp"
 #include "fit/result_file.hpp"
 #include "tests/support/support.hpp"
 
@@ -191,4 +192,58 @@ TEST_CASE("measurement: the checksum policy in the options refuses or reads a fr
   CHECK(!names_damaged(read));
   CHECK(east_frames_used(read) == 16);
   occulta::imaging::set_checksum_policy(occulta::imaging::ChecksumPolicy::Refuse);
+}
+
+// measure_event finds each view's fronts on a thread of its own as soon as that view's
+// imaging is done, beside the next view's imaging; the window runs the two parts apart
+// (image_event, then measure_imaged, which finds the views' fronts side by side). Both
+// must give the same measurement, word for word and bit for bit.
+TEST_CASE("measurement: measure_event equals image_event then measure_imaged, to the bit") {
+  const fs::path event = occulta::test::source_path("sample_frames/sample-2031-03-14.event.json");
+  const occulta::fit::MeasurementInput input = occulta::fit::load_measurement_input(event);
+  occulta::fit::MeasurementOptions options;
+  const occulta::fit::Measurement whole = occulta::fit::measure_event(input, options);
+  const occulta::fit::Measurement parts =
+      occulta::fit::measure_imaged(input, occulta::fit::image_event(input, options), options);
+  REQUIRE(whole.views.size() == 2);
+  CHECK(whole.shell.fit.has_value());
+  // dump() writes every double to its shortest round-trip text: equal text, equal bits.
+  CHECK(occulta::fit::result_json(whole).dump() == occulta::fit::result_json(parts).dump());
+  CHECK(occulta::fit::result_csv(whole) == occulta::fit::result_csv(parts));
+  const occulta::fit::Track whole_track = occulta::fit::used_track(whole), parts_track = occulta::fit::used_track(parts);
+  REQUIRE(whole_track.points.size() == parts_track.points.size());
+  CHECK(!whole_track.points.empty());
+  for (std::size_t k = 0; k < whole_track.points.size(); ++k) {
+    CHECK(whole_track.points[k].utc_s == parts_track.points[k].utc_s);
+    CHECK(whole_track.points[k].pa_deg == parts_track.points[k].pa_deg);
+    CHECK(whole_track.points[k].height_rs == parts_track.points[k].height_rs);
+  }
+}
+
+// The shell's outer-edge fit starts before the fronts' rims are found, taking every found
+// front to have one (fit/measurement_shell.cpp). A found front without a rim must leave
+// that fit to the views that have one, as if the view were not there: made again, never
+// the fit started over both views.
+TEST_CASE("measurement: a found front without a rim leaves the shell to the views that have one") {
+  const fs::path event = occulta::test::source_path("sample_frames/sample-2031-03-14.event.json");
+  const occulta::fit::MeasurementInput input = occulta::fit::load_measurement_input(event);
+  const occulta::fit::Measurement measured = occulta::fit::measure_event(input, {});
+  REQUIRE(measured.views.size() == 2);
+  std::vector<occulta::fit::ViewMeasurement> views = measured.views;
+  REQUIRE(views[0].front.found);
+  REQUIRE(views[1].front.found);
+  views[0].front.last_frame = views[0].front.onset_frame - 1;  // no frames of the chain: no rim, no outer edge
+  std::vector<std::string> problems_both, problems_alone;
+  const occulta::fit::ShellMeasurement both = occulta::fit::measure_shell(views, std::nullopt, "auto", problems_both);
+  const occulta::fit::ShellMeasurement alone =
+      occulta::fit::measure_shell({views[1]}, std::nullopt, "auto", problems_alone);
+  REQUIRE(both.fit.has_value());
+  REQUIRE(alone.fit.has_value());
+  CHECK(both.views == std::vector<std::string>{views[1].name});
+  CHECK(both.points.size() == alone.points.size());
+  // The merged fit carries the outer fit's part in its systematic σ and its law: equal bits.
+  CHECK(both.fit->systematic == alone.fit->systematic);
+  CHECK(both.fit->sigma == alone.fit->sigma);
+  CHECK(both.fit->covariance == alone.fit->covariance);
+  CHECK(both.fit->law.speed_km_s == alone.fit->law.speed_km_s);
 }
