@@ -165,7 +165,7 @@ ShellInputs gather_shell_inputs(const std::vector<ViewMeasurement>& views,
   for (std::size_t k = 0; k < views.size(); ++k) {
     const ViewMeasurement& v = views[k];
     const int index = static_cast<int>(fit_views.size());
-    const std::size_t before = points.size();
+    const std::size_t before = points.size(), edges_before = in.edge_points.size();
     bool has_points = false;
     if (v.by_analyst && !v.points.empty()) {  // the analyst's points replace the automatic ones
       for (const TrackPoint& p : v.points) {
@@ -177,10 +177,15 @@ ShellInputs gather_shell_inputs(const std::vector<ViewMeasurement>& views,
       if (ridges)
         for (const imaging::RidgePoint& p : (*ridges)[k]) points.push_back({index, p.utc_s, p.pa_deg, p.height_rs});
       add_leading_edge(v, index, in.edge_points);
-      in.automatic = true;
       has_points = ridges ? points.size() > before : true;
+      in.automatic = in.automatic || has_points;
     }
-    if (!has_points) continue;
+    if (!has_points) {
+      // Not fitted: its outer edges go too, or they would be counted as the next fitted
+      // view's (numbered `index`), or as a view that does not exist.
+      in.edge_points.resize(edges_before);
+      continue;
+    }
     ShellView sv;
     sv.name = v.name;
     sv.observer = v.observer;

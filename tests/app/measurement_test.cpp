@@ -246,4 +246,28 @@ TEST_CASE("measurement: a found front without a rim leaves the shell to the view
   CHECK(both.fit->sigma == alone.fit->sigma);
   CHECK(both.fit->covariance == alone.fit->covariance);
   CHECK(both.fit->law.speed_km_s == alone.fit->law.speed_km_s);
+
+  // The same when the rim-less front has outer edges: its frames hold no data, so no rim
+  // is found, but its leading edges remain. They belong to no view fitted and must not
+  // be credited to another (nor, when it comes last, to a view that does not exist).
+  for (const bool last : {false, true}) {
+    CAPTURE(last);
+    std::vector<occulta::fit::ViewMeasurement> blind{measured.views[0], measured.views[1]};
+    occulta::fit::ViewMeasurement& ruined = blind[last ? 1 : 0];
+    const occulta::fit::ViewMeasurement& kept = blind[last ? 0 : 1];
+    occulta::imaging::PolarFrames empty_frames;
+    for (const cv::Mat& frame : ruined.polar.frames)
+      empty_frames.push_back(cv::Mat(frame.size(), frame.type(), cv::Scalar(std::numeric_limits<float>::quiet_NaN())));
+    ruined.polar.frames = std::move(empty_frames);
+    REQUIRE(ruined.front.found);
+    std::vector<std::string> problems_blind, problems_kept;
+    const occulta::fit::ShellMeasurement with = occulta::fit::measure_shell(blind, std::nullopt, "auto", problems_blind);
+    const occulta::fit::ShellMeasurement without = occulta::fit::measure_shell({kept}, std::nullopt, "auto", problems_kept);
+    REQUIRE(with.fit.has_value());
+    REQUIRE(without.fit.has_value());
+    CHECK(with.views == std::vector<std::string>{kept.name});
+    CHECK(with.fit->systematic == without.fit->systematic);
+    CHECK(with.fit->sigma == without.fit->sigma);
+    CHECK(with.fit->law.speed_km_s == without.fit->law.speed_km_s);
+  }
 }
