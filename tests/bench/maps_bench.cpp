@@ -21,11 +21,9 @@
 // `--paired OTHER` adds another build's executable to each round (its `maps`, default
 // median, on the same files and after the same read): its medians and the paired ratio
 // of this build to it, to compare two builds under the same load.
-#include <sys/resource.h>
 #include <unistd.h>
 
 #include <algorithm>
-#include <chrono>
 #include <cstdio>
 #include <cstdlib>
 #include <cstring>
@@ -36,49 +34,14 @@
 #include <vector>
 
 #include "bench_frames.hpp"
+#include "whole_process.hpp"
 
 namespace fs = std::filesystem;
-
-namespace {
-
-struct Cost {
-  double wall_s = 0.0, cpu_s = 0.0;
-};
-
-double children_cpu_s() {
-  rusage usage{};
-  getrusage(RUSAGE_CHILDREN, &usage);
-  return usage.ru_utime.tv_sec + usage.ru_stime.tv_sec + 1e-6 * (usage.ru_utime.tv_usec + usage.ru_stime.tv_usec);
-}
-
-Cost run(const std::string& command) {
-  const double cpu0 = children_cpu_s();
-  const auto t0 = std::chrono::steady_clock::now();
-  const int status = std::system(command.c_str());
-  const double wall = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
-  if (status != 0) throw std::runtime_error("failed (status " + std::to_string(status) + "): " + command);
-  return {wall, children_cpu_s() - cpu0};
-}
-
-// Instructions of `command` (its words already quoted) under callgrind: its "summary:"
-// line. The child's output goes to /dev/null.
-double callgrind_instructions(const std::string& command, const fs::path& scratch) {
-  const fs::path out = scratch / "callgrind.out";
-  const std::string run = "valgrind --tool=callgrind --callgrind-out-file='" + out.string() + "' " + command +
-                          " > /dev/null 2>&1";
-  if (std::system(run.c_str()) != 0) throw std::runtime_error("failed under callgrind: " + command);
-  std::ifstream in(out);
-  for (std::string line; std::getline(in, line);)
-    if (line.rfind("summary:", 0) == 0) return std::stod(line.substr(8));
-  throw std::runtime_error("no instruction count from callgrind for: " + command);
-}
-
-double median(std::vector<double> v) {
-  std::sort(v.begin(), v.end());
-  return v.size() % 2 ? v[v.size() / 2] : 0.5 * (v[v.size() / 2 - 1] + v[v.size() / 2]);
-}
-
-}  // namespace
+using occulta::bench::callgrind_instructions;
+using occulta::bench::Cost;
+using occulta::bench::load_average;
+using occulta::bench::median;
+using occulta::bench::run;
 
 static void write_event(const fs::path& dir, int frames) {
   fs::create_directories(dir / "view");
@@ -119,9 +82,8 @@ int main(int argc, char** argv) {
       std::printf("  instructions (callgrind), %d frames: read floor %.3g, occulta maps (5×5 median) %.3g; ratio %.2f "
                   "(budget 1.5)\n", frames, read_count, maps_count, maps_count / read_count);
     }
-    double load[3] = {0, 0, 0};
-    if (getloadavg(load, 3) < 0) load[0] = -1;
-    std::printf("  load average before timing %.2f (1 min): others' work inflates wall times, not CPU times\n", load[0]);
+    const double load_before = load_average();
+    std::printf("  load average before timing %.2f (1 min): others' work inflates wall times, not CPU times\n", load_before);
     std::vector<double> read_wall, read_cpu, maps_wall, maps_cpu, plain_wall, plain_cpu;
     std::vector<double> ratio_wall, ratio_plain_wall, ratio_cpu, ratio_plain_cpu;
     std::vector<double> other_wall, other_cpu, ratio_other_wall, ratio_other_cpu;
@@ -150,12 +112,11 @@ int main(int argc, char** argv) {
       std::printf("    %s maps (5×5 median)   wall %.3f s, CPU %.3f s; this build over it: wall %.3f, CPU %.3f "
                   "(medians of the paired ratios)\n", other.c_str(), median(other_wall), median(other_cpu),
                   median(ratio_other_wall), median(ratio_other_cpu));
-    double load_after[3] = {0, 0, 0};
-    if (getloadavg(load_after, 3) < 0) load_after[0] = -1;
+    const double load_after = load_average();
     // The figure the budget is about, on a line of its own (grep "wall ratio").
     std::printf("  maps wall ratio %.2f × the read (budget 1.5, goal 1.0): occulta maps, whole process, default "
                 "median, %d frames, median of %d paired rounds; load average %.2f before, %.2f after (quote it only "
-                "from a quiet machine; CPU ratio %.2f)\n", median(ratio_wall), frames, rounds, load[0], load_after[0],
+                "from a quiet machine; CPU ratio %.2f)\n", median(ratio_wall), frames, rounds, load_before, load_after,
                 median(ratio_cpu));
   } catch (const std::exception& e) {
     std::fprintf(stderr, "maps_bench: %s\n", e.what());

@@ -22,7 +22,7 @@
 #include <vector>
 
 #include "bench_frames.hpp"
-#include "peak_memory.hpp"
+#include "whole_process.hpp"
 
 namespace fs = std::filesystem;
 using occulta::bench::peak_rss_mib;

@@ -12,10 +12,8 @@
 // pictures on both cores shortens); on a loaded machine it includes others' work, CPU time
 // does not. `--instructions` also counts one run of each under valgrind's callgrind
 // (minutes; unaffected by the load) and prints their ratio.
-#include <sys/resource.h>
 
 #include <algorithm>
-#include <chrono>
 #include <cstdio>
 #include <cstdlib>
 #include <cstring>
@@ -29,50 +27,16 @@
 
 #include "app/measure.hpp"
 #include "tests/bench/best_of.hpp"
+#include "tests/bench/whole_process.hpp"
 
 namespace fs = std::filesystem;
+using occulta::bench::callgrind_instructions;
+using occulta::bench::Cost;
+using occulta::bench::load_average;
+using occulta::bench::median;
+using occulta::bench::run;
 
 namespace {
-
-struct Cost {
-  double wall_s = 0.0, cpu_s = 0.0;
-};
-
-double children_cpu_s() {
-  rusage usage{};
-  getrusage(RUSAGE_CHILDREN, &usage);
-  return double(usage.ru_utime.tv_sec + usage.ru_stime.tv_sec) + 1e-6 * double(usage.ru_utime.tv_usec + usage.ru_stime.tv_usec);
-}
-
-Cost run(const std::string& command) {
-  const double cpu0 = children_cpu_s();
-  const auto t0 = std::chrono::steady_clock::now();
-  const int status = std::system(command.c_str());
-  const double wall = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
-  if (status != 0) throw std::runtime_error("failed (status " + std::to_string(status) + "): " + command);
-  return {wall, children_cpu_s() - cpu0};
-}
-
-// Instructions of `command` under callgrind (all its threads): its "summary:" line.
-double callgrind_instructions(const std::string& command, const fs::path& scratch) {
-  const fs::path out = scratch / "callgrind.out";
-  const std::string line_of = "valgrind --tool=callgrind --callgrind-out-file='" + out.string() + "' " + command;
-  if (std::system(line_of.c_str()) != 0) throw std::runtime_error("failed under callgrind: " + command);
-  std::ifstream in(out);
-  for (std::string line; std::getline(in, line);)
-    if (line.rfind("summary:", 0) == 0) return std::stod(line.substr(8));
-  throw std::runtime_error("no instruction count from callgrind for: " + command);
-}
-
-double median(std::vector<double> v) {
-  std::sort(v.begin(), v.end());
-  return v.size() % 2 ? v[v.size() / 2] : 0.5 * (v[v.size() / 2 - 1] + v[v.size() / 2]);
-}
-
-double load_average() {
-  double load[3] = {-1, -1, -1};
-  return getloadavg(load, 3) < 0 ? -1 : load[0];
-}
 
 int paired(const std::vector<std::string>& others, int rounds, bool instructions, const fs::path& event) {
   std::vector<std::string> builds = {OCCULTA_EXECUTABLE};

@@ -23,7 +23,7 @@
 #include <string>
 #include <vector>
 
-#include "peak_memory.hpp"
+#include "whole_process.hpp"
 
 namespace fs = std::filesystem;
 using occulta::bench::peak_rss_mib;
