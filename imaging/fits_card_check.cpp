@@ -128,9 +128,17 @@ void check_card_values(std::string_view cards, bool ascii_table, const std::stri
       // ffc2j overflowed its message buffer on it). A typed keyword written so is refused.
       const std::size_t name_end = std::min(card.find_first_of(" ="), card.size());
       const std::size_t equals = card.find_first_not_of(' ', name_end);
-      if (name_end == 0 || equals == std::string_view::npos || card[equals] != '=') continue;
+      if (name_end == 0 || equals == std::string_view::npos) continue;
       const std::string_view name = card.substr(0, name_end);
       if (type_of(name, ascii_table) == Type::Other) continue;
+      // cfitsio also takes a name field with a space inside it ("ZTILE2 S…") as the
+      // keyword before the space, with no value, and 4.2 then divided by a tile size of
+      // 0 (fits_fuzz: SIGFPE in imcomp_get_compressed_image_par). A keyword name holds
+      // no space (FITS Standard 4.0 §4.1.2.1).
+      if (equals < 8 && card[equals] != '=')
+        throw InputError(source, hdu + "the keyword name \"" + shown(card.substr(0, 8)) + "\" holds a space after " +
+                                     std::string(name) + " (FITS Standard 4.0 §4.1.2.1)");
+      if (card[equals] != '=') continue;
       throw InputError(source, hdu + std::string(name) + " has its value indicator \"=\" in column " +
                                    std::to_string(equals + 1) + ", not in column 9 (FITS Standard 4.0 §4.1.2.2)");
     }

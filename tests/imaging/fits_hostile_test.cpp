@@ -218,6 +218,20 @@ TEST_CASE("fits hostile: a table's column name with its \"=\" out of place is re
   // The same fault with "=" in column 9: tests/imaging/fits_test.cpp.
 }
 
+TEST_CASE("fits hostile: a keyword name with a space inside it is refused before cfitsio divides by it") {
+  // fits_fuzz found cfitsio 4.2 taking the card "ZTILE2 SIMPLE  = ." as ZTILE2 (the name
+  // up to the space) without a value, and dividing by a tile size of 0 in
+  // imcomp_get_compressed_image_par: SIGFPE, in the Release build too
+  // (tests/fuzz/corpus/fits_fuzz/fuzz-ztile-space-in-name.fits).
+  const fs::path found = occulta::test::source_path("tests/fuzz/corpus/fits_fuzz/fuzz-ztile-space-in-name.fits");
+  const std::string message = refusal(found);
+  INFO(message);
+  check_one_sentence(message, found.string());
+  CHECK(message.find("the keyword name \"ZTILE2 S\" holds a space after ZTILE2") != std::string::npos);
+  const std::string found_bytes = slurp(found);
+  CHECK_THROWS_AS(read_fits_memory(std::as_bytes(std::span(found_bytes)), "memory"), InputError);
+}
+
 TEST_CASE("fits hostile: checksums are verified, a mismatch refused unless the policy says warn") {
   const fs::path dir = scratch_dir("fits_hostile_checksum");
   // Float32 in the primary HDU: one pixel's bytes changed.
