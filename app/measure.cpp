@@ -11,6 +11,7 @@
 #include "app/output_set.hpp"
 #include "app/provenance.hpp"
 #include "fit/json_file.hpp"
+#include "imaging/frame_memory.hpp"
 #include "fit/result_file.hpp"
 
 namespace occulta::app {
@@ -19,6 +20,7 @@ using nlohmann::json;
 
 json run_measure(const MeasureOptions& o, std::ostream& err) {
   const auto started = std::chrono::steady_clock::now();
+  imaging::set_frame_memory();
   const fit::MeasurementInput input = fit::load_measurement_input(o.input, o.track);
   const fit::Event& event = input.event;
   // What a run writes: checked against the inputs' globs before any work; the previous

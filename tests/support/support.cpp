@@ -9,6 +9,8 @@
 #include <stdexcept>
 #include <sys/wait.h>
 
+#include "imaging/frame_memory.hpp"
+
 namespace occulta::test {
 
 std::filesystem::path scratch_dir(const std::string& name) {
@@ -22,20 +24,7 @@ std::filesystem::path scratch_dir(const std::string& name) {
   return dir;
 }
 
-// GCC defines __SANITIZE_ADDRESS__; clang answers __has_feature(address_sanitizer).
-bool sanitized_build() {
-#if defined(__SANITIZE_ADDRESS__)
-  return true;
-#elif defined(__has_feature)
-#if __has_feature(address_sanitizer)
-  return true;
-#else
-  return false;
-#endif
-#else
-  return false;
-#endif
-}
+bool sanitized_build() { return imaging::kAddressSanitized; }
 
 std::filesystem::path source_path(const std::string& relative) {
   return std::filesystem::path(OCCULTA_SOURCE_DIR) / relative;
