@@ -108,6 +108,20 @@ std::pair<long long, long long> data_span(const fs::path& path, int hdu) {
   return {data_start, data_end};
 }
 
+// A reproducer in the fuzzers' regression corpus (tests/fuzz/corpus/fits_fuzz/NAME):
+// refused with one sentence naming the file by the disk reader, refused by the memory
+// reader too. Returns the disk reader's sentence.
+std::string check_reproducer_refused(const std::string& name) {
+  const fs::path path = occulta::test::source_path("tests/fuzz/corpus/fits_fuzz/" + name);
+  const std::string message = refusal(path);
+  INFO(name << ": " << message);
+  REQUIRE(!message.empty());
+  check_one_sentence(message, path.string());
+  const std::string bytes = slurp(path);
+  CHECK_THROWS_AS(read_fits_memory(std::as_bytes(std::span(bytes)), "memory"), InputError);
+  return message;
+}
+
 }  // namespace
 
 TEST_CASE("fits hostile: every FITS reproducer is refused with one sentence, through the disk and memory readers") {
@@ -115,22 +129,15 @@ TEST_CASE("fits hostile: every FITS reproducer is refused with one sentence, thr
   // cfitsio's ffc2j overflow its message buffer (exit 134 in the Release build).
   for (const char* name : {"repro-fits-crash-cfitsio-ffc2j.fits", "repro-fits-zblank-long-value-fuzz.fits",
                            "repro-fits-zbitpix-long-value.fits", "repro-fits-blank-long-value.fits"}) {
+    check_reproducer_refused(name);
     const fs::path path = occulta::test::source_path(std::string("tests/fuzz/corpus/fits_fuzz/") + name);
-    const std::string message = refusal(path);
-    INFO(name);
-    REQUIRE(!message.empty());
-    check_one_sentence(message, path.string());
-    const std::string bytes = slurp(path);
-    CHECK_THROWS_AS(read_fits_memory(std::as_bytes(std::span(bytes)), "memory"), InputError);
     // The command line: one line on standard error, exit 1 (not 134).
     const auto run = occulta::test::run_command(occulta::test::shell_quote(occulta::test::occulta_binary().string()) +
                                                 " inspect " + occulta::test::shell_quote(path.string()));
     INFO(run.output);
     CHECK(run.exit_code == 1);
   }
-  const fs::path long_zbitpix =
-      occulta::test::source_path("tests/fuzz/corpus/fits_fuzz/repro-fits-zbitpix-long-value.fits");
-  CHECK(refusal(long_zbitpix).find("ZBITPIX is \"9999") != std::string::npos);
+  CHECK(check_reproducer_refused("repro-fits-zbitpix-long-value.fits").find("ZBITPIX is \"9999") != std::string::npos);
 }
 
 TEST_CASE("fits hostile: GZIP tiles whose stream is damaged or unpacks past its tile are refused before cfitsio") {
@@ -139,14 +146,7 @@ TEST_CASE("fits hostile: GZIP tiles whose stream is damaged or unpacks past its 
   // GZIP tile whose stream unpacks far past the tile's pixels. imaging/fits_rice_check
   // now inflates each GZIP tile first, bounded by 8 bytes a pixel.
   for (const char* name : {"fuzz-gzip2-tile-damaged-leak.fits", "fuzz-gzip-tile-unbounded.fits"}) {
-    const fs::path path = occulta::test::source_path(std::string("tests/fuzz/corpus/fits_fuzz/") + name);
-    const std::string message = refusal(path);
-    INFO(name << ": " << message);
-    REQUIRE(!message.empty());
-    check_one_sentence(message, path.string());
-    CHECK(message.find("gzip stream") != std::string::npos);
-    const std::string bytes = slurp(path);
-    CHECK_THROWS_AS(read_fits_memory(std::as_bytes(std::span(bytes)), "memory"), InputError);
+    CHECK(check_reproducer_refused(name).find("gzip stream") != std::string::npos);
   }
 }
 
@@ -189,8 +189,8 @@ TEST_CASE("fits hostile: an integer card cfitsio converts must hold an integer w
       CHECK(std::string(e.what()).find("BLANK has its value indicator \"=\" in column ") != std::string::npos);
     }
   }
-  CHECK(refusal(occulta::test::source_path("tests/fuzz/corpus/fits_fuzz/fuzz-blank-equals-in-column-8.fits"))
-            .find("has its value indicator") != std::string::npos);
+  CHECK(check_reproducer_refused("fuzz-blank-equals-in-column-8.fits").find("has its value indicator") !=
+        std::string::npos);
   // −2⁶³ is a 64-bit integer (FITS Standard 4.0 §4.2.3 sets no range; cfitsio reads long long).
   std::string edge = good;
   const std::string lowest = "-9223372036854775808";
@@ -207,13 +207,8 @@ TEST_CASE("fits hostile: a table's column name with its \"=\" out of place is re
   // its 70-byte column name (fitsio.h's tcolumn::ttype), one past the end: glibc's fortify
   // check ended the process (tests/fuzz/corpus/fits_fuzz/fuzz-ttype-equals-in-column-10.fits,
   // whose "=" stands in column 10).
-  const fs::path found = occulta::test::source_path("tests/fuzz/corpus/fits_fuzz/fuzz-ttype-equals-in-column-10.fits");
-  const std::string message = refusal(found);
-  INFO(message);
-  check_one_sentence(message, found.string());
-  CHECK(message.find("TTYPE1 has its value indicator \"=\" in column 10") != std::string::npos);
-  const std::string found_bytes = slurp(found);
-  CHECK_THROWS_AS(read_fits_memory(std::as_bytes(std::span(found_bytes)), "memory"), InputError);
+  CHECK(check_reproducer_refused("fuzz-ttype-equals-in-column-10.fits")
+            .find("TTYPE1 has its value indicator \"=\" in column 10") != std::string::npos);
 
   // The same fault with "=" in column 9: tests/imaging/fits_test.cpp.
 }
@@ -223,13 +218,8 @@ TEST_CASE("fits hostile: a keyword name with a space inside it is refused before
   // up to the space) without a value, and dividing by a tile size of 0 in
   // imcomp_get_compressed_image_par: SIGFPE, in the Release build too
   // (tests/fuzz/corpus/fits_fuzz/fuzz-ztile-space-in-name.fits).
-  const fs::path found = occulta::test::source_path("tests/fuzz/corpus/fits_fuzz/fuzz-ztile-space-in-name.fits");
-  const std::string message = refusal(found);
-  INFO(message);
-  check_one_sentence(message, found.string());
-  CHECK(message.find("the keyword name \"ZTILE2 S\" holds a space after ZTILE2") != std::string::npos);
-  const std::string found_bytes = slurp(found);
-  CHECK_THROWS_AS(read_fits_memory(std::as_bytes(std::span(found_bytes)), "memory"), InputError);
+  CHECK(check_reproducer_refused("fuzz-ztile-space-in-name.fits")
+            .find("the keyword name \"ZTILE2 S\" holds a space after ZTILE2") != std::string::npos);
 }
 
 TEST_CASE("fits hostile: checksums are verified, a mismatch refused unless the policy says warn") {
