@@ -210,13 +210,7 @@ int maps(const MapsOptions& o, std::ostream& out, std::ostream& err) {
       problems.push_back("view " + listed.name + ": no files match " + listed.globs.front() + ".");
       continue;
     }
-    // Without a window every frame is inside it; apply_window would read every header
-    // only to learn the times, which the chain reads again (serial work before the stream).
-    fit::WindowSplit split;
-    if (event.window_s)
-      split = fit::apply_window(event, listed);
-    else
-      split.inside = listed.files;
+    const fit::WindowSplit split = fit::apply_window(event, listed);
     if (split.inside.empty()) {
       problems.push_back("view " + listed.name + ": none of its " + std::to_string(split.outside.size()) +
                          " frames lies in the event's window.");

@@ -168,8 +168,12 @@ Event read_event(const fs::path& path) {
   return event;
 }
 
-WindowSplit apply_window(const Event& event, const EventView& view) {
+WindowSplit apply_window(const Event& event, const EventView& view, bool with_span) {
   WindowSplit split;
+  if (!event.window_s && !with_span) {
+    split.inside = view.files;
+    return split;
+  }
   for (const fs::path& f : view.files) {
     std::optional<double> utc_s;
     try {

@@ -53,12 +53,15 @@ Event read_event(const std::filesystem::path& path);
 
 // A view's files split by the event's window (all inside when there is none), from each
 // frame's header time (imaging::read_frame_time). A file whose time cannot be read stays
-// inside: the imaging chain reports it. first/last: the span of the inside frames' times.
+// inside: the imaging chain reports it. first/last: the span of the inside frames' times,
+// known when `with_span` or when the event has a window. Without a window and without
+// `with_span` no header is read (the chain reads them again: serial work before the
+// stream) and every file is inside.
 struct WindowSplit {
   std::vector<std::filesystem::path> inside, outside;
   std::optional<double> first_utc_s, last_utc_s;
 };
-WindowSplit apply_window(const Event& event, const EventView& view);
+WindowSplit apply_window(const Event& event, const EventView& view, bool with_span = false);
 
 // A folder of frames as an event: views grouped by who observed (OBSRVTRY, else TELESCOP,
 // else the observer's Stonyhurst position rounded to 1°), named by that. InputError when

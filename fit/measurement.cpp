@@ -285,13 +285,16 @@ MeasurementInput load_measurement_input(const fs::path& input, const fs::path& t
     in.analyst = read_track(track_file);
     in.track_file = track_file;
   }
-  // The event's window, from each frame's header time; the frames' spans check the track.
-  // Each view's headers are read on a thread of its own but the first's, which are read
-  // on this one: a header read touches only its own file.
+  // The event's window, from each frame's header time; the frames' spans check the track
+  // (without a window or a track no header is read here). Each view's headers are read on
+  // a thread of its own but the first's, which are read on this one: a header read
+  // touches only its own file.
+  const bool with_span = in.analyst.has_value();
   std::vector<std::future<WindowSplit>> later;
   for (std::size_t i = 1; i < in.event.views.size(); ++i)
-    later.push_back(std::async(std::launch::async, apply_window, std::cref(in.event), std::cref(in.event.views[i])));
-  if (!in.event.views.empty()) in.windows.push_back(apply_window(in.event, in.event.views.front()));
+    later.push_back(std::async(std::launch::async, apply_window, std::cref(in.event), std::cref(in.event.views[i]),
+                               with_span));
+  if (!in.event.views.empty()) in.windows.push_back(apply_window(in.event, in.event.views.front(), with_span));
   for (std::future<WindowSplit>& split : later) in.windows.push_back(split.get());
   std::vector<ViewSpan> spans;
   for (std::size_t i = 0; i < in.event.views.size(); ++i)
