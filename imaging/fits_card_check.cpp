@@ -128,7 +128,7 @@ void check_card_values(std::string_view cards, bool ascii_table, const std::stri
       // ffc2j overflowed its message buffer on it). A typed keyword written so is refused.
       const std::size_t name_end = std::min(card.find_first_of(" ="), card.size());
       const std::size_t equals = card.find_first_not_of(' ', name_end);
-      if (name_end == 0 || equals == std::string_view::npos) continue;
+      if (name_end == 0) continue;
       const std::string_view name = card.substr(0, name_end);
       if (type_of(name, ascii_table) == Type::Other) continue;
       // cfitsio also takes a name field with a space inside it ("ZTILE2 S…") as the
@@ -138,9 +138,16 @@ void check_card_values(std::string_view cards, bool ascii_table, const std::stri
       if (equals < 8 && card[equals] != '=')
         throw InputError(source, hdu + "the keyword name \"" + shown(card.substr(0, 8)) + "\" holds a space after " +
                                      std::string(name) + " (FITS Standard 4.0 §4.1.2.1)");
-      if (card[equals] != '=') continue;
-      throw InputError(source, hdu + std::string(name) + " has its value indicator \"=\" in column " +
-                                   std::to_string(equals + 1) + ", not in column 9 (FITS Standard 4.0 §4.1.2.2)");
+      if (equals != std::string_view::npos && card[equals] == '=')
+        throw InputError(source, hdu + std::string(name) + " has its value indicator \"=\" in column " +
+                                     std::to_string(equals + 1) + ", not in column 9 (FITS Standard 4.0 §4.1.2.2)");
+      // Without "=" in column 9 the card is commentary by the standard, but cfitsio still
+      // finds it by name and reads the value after a later "=" on it: fits_disk_fuzz's
+      // "ZVAL1 <spaces> CRVAL2 = 0.0" gave a Rice BLOCKSIZE of 0, and 4.2 divided by it on
+      // entering the HDU (SIGFPE in imcomp_calc_max_elem). With no "=" at all it reports
+      // the value undefined. A keyword cfitsio reads as a value needs its indicator.
+      throw InputError(source, hdu + std::string(name) + " has no value indicator \"= \" in columns 9–10, and " +
+                                   "cfitsio would read it as a value (FITS Standard 4.0 §4.1.2.2)");
     }
     const Type type = type_of(key, ascii_table);
     if (type == Type::Other) continue;

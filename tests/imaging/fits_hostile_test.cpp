@@ -222,6 +222,25 @@ TEST_CASE("fits hostile: a keyword name with a space inside it is refused before
             .find("the keyword name \"ZTILE2 S\" holds a space after ZTILE2") != std::string::npos);
 }
 
+TEST_CASE("fits hostile: a keyword cfitsio reads as a value needs \"=\" in column 9, even when another \"=\" follows") {
+  // fits_disk_fuzz found cfitsio 4.2 reading "ZVAL1 <spaces> CRVAL2 = 0.0" as ZVAL1 = 0:
+  // the Rice block size of a tile-compressed image (ZNAME1 = 'BLOCKSIZE'), which it divided
+  // by on entering the HDU (SIGFPE in imcomp_calc_max_elem; Release `inspect` exited 136).
+  CHECK(check_reproducer_refused("fuzz-zval-value-after-later-equals.fits")
+            .find("ZVAL1 has no value indicator \"= \" in columns 9–10") != std::string::npos);
+  // The same card with the value indicator in place and a positive block size is read
+  // past this check (the file has other faults, so only the sentence is compared).
+  std::string bytes = slurp(occulta::test::source_path("tests/fuzz/corpus/fits_fuzz/fuzz-zval-value-after-later-equals.fits"));
+  const std::size_t card = bytes.find("ZVAL1 ");
+  REQUIRE(card != std::string::npos);
+  bytes.replace(card, 80, (std::string("ZVAL1   =                   32") + std::string(80, ' ')).substr(0, 80));
+  try {
+    read_fits_memory(std::as_bytes(std::span(bytes)), "memory");
+  } catch (const InputError& e) {
+    CHECK(std::string(e.what()).find("ZVAL1") == std::string::npos);
+  }
+}
+
 TEST_CASE("fits hostile: checksums are verified, a mismatch refused unless the policy says warn") {
   const fs::path dir = scratch_dir("fits_hostile_checksum");
   // Float32 in the primary HDU: one pixel's bytes changed.
