@@ -119,6 +119,25 @@ void check_card_values(std::string_view cards, bool ascii_table, const std::stri
   for (std::size_t at = 0; at + 80 <= cards.size(); at += 80) {
     const std::string_view card = cards.substr(at, 80);
     if (card.starts_with("END     ")) return;
+    // A keyword name holds no space (FITS Standard 4.0 §4.1.2.1), whatever the keyword.
+    // cfitsio takes a name field with a space inside it as the keyword before the space:
+    // "ZTILE2 S…" as ZTILE2 without a value, and 4.2 divided by a tile size of 0
+    // (fits_fuzz: SIGFPE in imcomp_get_compressed_image_par); "ZNAME2 $= 'BYTEPIX'" as
+    // ZNAME2, so that it read ZVAL2 as the Rice BYTEPIX, an integer, which the checks
+    // here did not know it would (fits_disk_fuzz: a 56-digit ZVAL2 overflowed ffc2j's
+    // message buffer).
+    const std::string_view field = card.substr(0, 8);
+    if (const std::size_t first = field.find_first_not_of(' '); first != std::string_view::npos) {
+      // The name as cfitsio reads it runs to the first space or "="; an "=" early is the
+      // value indicator's fault, below.
+      const std::size_t gap = field.find_first_of(" =", first);
+      const std::size_t next = gap == std::string_view::npos || field[gap] == '='
+                                   ? std::string_view::npos
+                                   : field.find_first_not_of(' ', gap);
+      if (next != std::string_view::npos && field[next] != '=')
+        throw InputError(source, hdu + "the keyword name \"" + shown(field) + "\" holds a space after " +
+                                     shown(field.substr(first, gap - first)) + " (FITS Standard 4.0 §4.1.2.1)");
+    }
     std::string_view key = card.substr(0, 8);
     while (!key.empty() && key.back() == ' ') key.remove_suffix(1);
     if (card[8] != '=') {
@@ -131,13 +150,6 @@ void check_card_values(std::string_view cards, bool ascii_table, const std::stri
       if (name_end == 0) continue;
       const std::string_view name = card.substr(0, name_end);
       if (type_of(name, ascii_table) == Type::Other) continue;
-      // cfitsio also takes a name field with a space inside it ("ZTILE2 S…") as the
-      // keyword before the space, with no value, and 4.2 then divided by a tile size of
-      // 0 (fits_fuzz: SIGFPE in imcomp_get_compressed_image_par). A keyword name holds
-      // no space (FITS Standard 4.0 §4.1.2.1).
-      if (equals < 8 && card[equals] != '=')
-        throw InputError(source, hdu + "the keyword name \"" + shown(card.substr(0, 8)) + "\" holds a space after " +
-                                     std::string(name) + " (FITS Standard 4.0 §4.1.2.1)");
       if (equals != std::string_view::npos && card[equals] == '=')
         throw InputError(source, hdu + std::string(name) + " has its value indicator \"=\" in column " +
                                      std::to_string(equals + 1) + ", not in column 9 (FITS Standard 4.0 §4.1.2.2)");
