@@ -1,6 +1,9 @@
 // imaging/fits_write.cpp — writing one image as FITS with cfitsio: float32 or int16 with
 // BSCALE/BZERO, optionally Rice tile-compressed; and float32 cubes, whole or plane by
 // plane (FitsCubeWriter). Every file appears whole or not at all.
+#include <fcntl.h>
+#include <unistd.h>
+
 #include <bit>
 #include <cmath>
 #include <cstdint>
@@ -376,11 +379,32 @@ struct FitsCubeWriter::State {
   PendingFile pending;  // declared before `file`: the file is closed before the temporary is removed
   FitsHandle file;
   Writer writer;
+  // The temporary opened a second time, read-only, only to start the kernel writing its
+  // pages to the disk as the planes come (writeback, below); -1 when it could not be.
+  int writeback_fd = -1;
 
   State(const std::filesystem::path& target, cv::Size plane_size, long max)
       : path(target), source(target.string()), size(plane_size), max_planes(max), pending(pending_path(target)),
-        file(create_pending(target, pending.path())), writer(file.get(), source) {}
+        file(create_pending(target, pending.path())), writer(file.get(), source),
+        writeback_fd(::open(pending.path().c_str(), O_RDONLY | O_CLOEXEC)) {}
+  ~State() {
+    if (writeback_fd >= 0) ::close(writeback_fd);
+  }
+  State(const State&) = delete;
+  State& operator=(const State&) = delete;
   LONGLONG per_plane() const { return static_cast<LONGLONG>(size.area()); }
+
+  // The file is made whole on the disk when it is finished (fsync in commit_pending),
+  // which waits for every page not yet written: for a cube of 30 1024² planes' polar
+  // differences, 35 MB written in the run's last tens of milliseconds, while everything
+  // else waits for it. So each plane, once added, starts the kernel writing what is
+  // dirty so far (sync_file_range(2) SYNC_FILE_RANGE_WRITE: starts writeback and does
+  // not wait for it; any descriptor of the file will do, the pages are the file's), and
+  // the final fsync finds most of the file on the disk already. Advice only: the bytes
+  // written are the same, and the fsync still makes the file durable.
+  void writeback() const {
+    if (writeback_fd >= 0) ::sync_file_range(writeback_fd, 0, 0, SYNC_FILE_RANGE_WRITE);
+  }
 };
 
 FitsCubeWriter::FitsCubeWriter(const std::filesystem::path& path, cv::Size plane_size, long max_planes,
@@ -429,6 +453,7 @@ void FitsCubeWriter::add(const cv::Mat& plane) {
   while (sum >> 32) sum = (sum & 0xffffffffu) + (sum >> 32);
   s.data_sum = sum;
   ++s.added;
+  s.writeback();
 }
 
 cv::Mat FitsCubeWriter::plane(long k) const {
