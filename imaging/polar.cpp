@@ -63,7 +63,12 @@ cv::Mat grid_pixels(const RegisteredGrid& grid, const PolarGrid& polar) {
 PolarMaps polar_tables(const RegisteredGrid& grid, const PolarGrid& polar, const cv::Mat& xy, const cv::Matx23d& a,
                        cv::Size source) {
   PolarMaps maps{grid, polar, {}, {}, source, {}};
-  cv::Mat map(xy.size(), CV_32FC2);
+  // The float tables before cv::convertMaps, kept from call to call on each thread: a
+  // view whose pointing moves makes them every frame, and a fresh 2.4 MB matrix each time
+  // (720 PAs × 423 heights) was a fresh mapping whose pages the kernel faulted in and
+  // zeroed every frame (frame_memory.hpp), ~5 % of `maps`' CPU time.
+  thread_local cv::Mat map;
+  map.create(xy.size(), CV_32FC2);
   for (int i = 0; i < xy.rows; ++i) {
     const auto* p = xy.ptr<cv::Vec2d>(i);
     auto* m = map.ptr<cv::Vec2f>(i);
