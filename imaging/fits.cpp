@@ -491,18 +491,24 @@ bool is_gzip(std::span<const std::byte> bytes) {
   return bytes.size() >= 2 && bytes[0] == std::byte{0x1f} && bytes[1] == std::byte{0x8b};
 }
 
+struct PaddedBytes {
+  std::unique_ptr<std::byte[]> data;  // not value-initialised: only the padding is zeroed
+  std::size_t padded_size = 0;
+};
+
 // A file's bytes, read whole: `size` bytes (fewer if the file shrank meanwhile; `size`
 // then says how many) followed by zeros up to whole 2880-byte blocks, the form cfitsio's
 // memory driver takes. False when the file cannot be read so (the disk reader then says
 // why, in its words).
-bool read_whole(const std::filesystem::path& path, std::size_t& size, std::vector<std::byte>& padded) {
+bool read_whole(const std::filesystem::path& path, std::size_t& size, PaddedBytes& padded) {
   const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
   if (fd < 0) return false;
-  padded.assign((size + kBlock - 1) / kBlock * kBlock, std::byte{0});
+  padded.padded_size = (size + kBlock - 1) / kBlock * kBlock;
+  padded.data.reset(new std::byte[padded.padded_size]);
   std::size_t got = 0;
   bool ok = true;
   while (got < size) {
-    const ssize_t n = ::read(fd, padded.data() + got, size - got);
+    const ssize_t n = ::read(fd, padded.data.get() + got, size - got);
     if (n < 0 && errno == EINTR) continue;
     if (n <= 0) {
       ok = n == 0;  // 0: the end came early (the file shrank): what there is is read
@@ -512,17 +518,19 @@ bool read_whole(const std::filesystem::path& path, std::size_t& size, std::vecto
   }
   ::close(fd);
   size = got;
+  std::fill(padded.data.get() + got, padded.data.get() + padded.padded_size, std::byte{0});
   return ok;
 }
 
-// The image in `padded` (read_whole's form: `size` bytes, then zeros to whole blocks),
-// read as read_fits_memory reads bytes. cfitsio takes the buffer as writable and may
+// The image in `padded` (read_whole's form: `size` bytes, then zeros to `padded_size`,
+// whole blocks), read as read_fits_memory reads bytes. cfitsio takes the buffer as writable and may
 // reallocate it, so it is the caller's own copy, alive until the file is closed here.
-FitsImage read_padded(std::vector<std::byte>& padded, std::size_t size, const std::string& name, cv::Mat reuse = {}) {
-  const std::span<const std::byte> bytes(padded.data(), size);
+FitsImage read_padded(std::byte* padded, std::size_t padded_size, std::size_t size, const std::string& name,
+                      cv::Mat reuse = {}) {
+  const std::span<const std::byte> bytes(padded, size);
   check_mandatory_cards(memory_reader(bytes), 0, 1, name);
-  void* buffer = padded.data();
-  std::size_t buffer_size = padded.size();
+  void* buffer = padded;
+  std::size_t buffer_size = padded_size;
   fitsfile* raw = nullptr;
   int status = 0;
   fits_open_memfile(&raw, name.c_str(), READONLY, &buffer, &buffer_size, 0, nullptr, &status);
@@ -566,11 +574,11 @@ FitsImage read_fits(const std::filesystem::path& path, cv::Mat reuse) {
   // tests hold to the disk reader's. A file too large for that is read from the disk.
   if (size <= kReadWholeBytes) {
     std::size_t whole = static_cast<std::size_t>(size);
-    std::vector<std::byte> padded;
+    PaddedBytes padded;
     if (read_whole(path, whole, padded)) {
-      check_start(std::string_view(reinterpret_cast<const char*>(padded.data()), std::min(whole, kBlock)), whole,
+      check_start(std::string_view(reinterpret_cast<const char*>(padded.data.get()), std::min(whole, kBlock)), whole,
                   path.string());
-      return read_padded(padded, whole, path.string(), std::move(reuse));
+      return read_padded(padded.data.get(), padded.padded_size, whole, path.string(), std::move(reuse));
     }
   }
   FitsHandle file = open_disk(path);
@@ -599,7 +607,7 @@ FitsImage read_fits_memory(std::span<const std::byte> bytes, std::string name) {
   // padded with zeros to the next block; the truncation checks use the true size.
   std::vector<std::byte> copy((bytes.size() + kBlock - 1) / kBlock * kBlock, std::byte{0});
   std::copy(bytes.begin(), bytes.end(), copy.begin());
-  return read_padded(copy, bytes.size(), name);
+  return read_padded(copy.data(), copy.size(), bytes.size(), name);
 }
 
 }  // namespace occulta::imaging
