@@ -14,6 +14,7 @@
 #include <cstdio>
 #include <cstring>
 #include <memory>
+#include <mutex>
 #include <fstream>
 #include <limits>
 #include <optional>
@@ -494,7 +495,44 @@ bool is_gzip(std::span<const std::byte> bytes) {
 struct PaddedBytes {
   std::unique_ptr<std::byte[]> data;  // not value-initialised: only the padding is zeroed
   std::size_t padded_size = 0;
+  std::size_t capacity = 0;
 };
+
+// Buffers for files read whole go round from read to read, on whatever thread reads next
+// (the chain reads each frame on a thread of its own; freed, a buffer would stay in the
+// heap arena of the thread that freed it, one per arena). At most kKept are kept (a
+// frame's size each, for the rest of the process): the chain has three reads in flight
+// at most.
+class ByteBuffers {
+ public:
+  PaddedBytes take(std::size_t padded_size) {
+    {
+      const std::lock_guard lock(mutex_);
+      for (auto it = kept_.begin(); it != kept_.end(); ++it)
+        if (it->capacity >= padded_size) {
+          PaddedBytes bytes = std::move(*it);
+          kept_.erase(it);
+          bytes.padded_size = padded_size;
+          return bytes;
+        }
+    }
+    return PaddedBytes{std::unique_ptr<std::byte[]>(new std::byte[padded_size]), padded_size, padded_size};
+  }
+  void give(PaddedBytes bytes) {
+    if (!bytes.data) return;
+    const std::lock_guard lock(mutex_);
+    if (kept_.size() < kKept) kept_.push_back(std::move(bytes));
+  }
+
+ private:
+  static constexpr std::size_t kKept = 3;
+  std::mutex mutex_;
+  std::vector<PaddedBytes> kept_;
+};
+ByteBuffers& byte_buffers() {
+  static ByteBuffers buffers;
+  return buffers;
+}
 
 // A file's bytes, read whole: `size` bytes (fewer if the file shrank meanwhile; `size`
 // then says how many) followed by zeros up to whole 2880-byte blocks, the form cfitsio's
@@ -503,8 +541,7 @@ struct PaddedBytes {
 bool read_whole(const std::filesystem::path& path, std::size_t& size, PaddedBytes& padded) {
   const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
   if (fd < 0) return false;
-  padded.padded_size = (size + kBlock - 1) / kBlock * kBlock;
-  padded.data.reset(new std::byte[padded.padded_size]);
+  padded = byte_buffers().take((size + kBlock - 1) / kBlock * kBlock);
   std::size_t got = 0;
   bool ok = true;
   while (got < size) {
@@ -575,7 +612,11 @@ FitsImage read_fits(const std::filesystem::path& path, cv::Mat reuse) {
   if (size <= kReadWholeBytes) {
     std::size_t whole = static_cast<std::size_t>(size);
     PaddedBytes padded;
-    if (read_whole(path, whole, padded)) {
+    const bool read = read_whole(path, whole, padded);
+    // Back into the round however the read ends (a refused file throws).
+    const std::unique_ptr<PaddedBytes, void (*)(PaddedBytes*)> give_back(
+        &padded, [](PaddedBytes* bytes) { byte_buffers().give(std::move(*bytes)); });
+    if (read) {
       check_start(std::string_view(reinterpret_cast<const char*>(padded.data.get()), std::min(whole, kBlock)), whole,
                   path.string());
       return read_padded(padded.data.get(), padded.padded_size, whole, path.string(), std::move(reuse));
