@@ -44,6 +44,11 @@ struct FrameLoader {
   // unwrapped): built at the first to_polar_frame, after the cache got the view's mask.
   std::optional<PolarSampling> sampling;
   int maps_built_for = 0;  // cache.builds() when source_maps were made
+  // make_polar_maps' float tables, kept from pointing to pointing; on the heap, in 4 KiB
+  // pages (a matrix of 2.4 MB would be a 2 MiB-page mapping of 4 MiB, frame_memory.hpp,
+  // resident for the whole stream).
+  std::vector<cv::Vec2f> table_floats;
+  cv::Mat table_scratch;
   cv::Mat background, grid_background;  // polar and registered grid; empty: none
   std::mutex buffers_mutex;
   std::vector<cv::Mat> buffers;  // finished frames' pixel buffers, for the next reads
@@ -112,8 +117,12 @@ struct FrameLoader {
     const Registration& registration = cache.for_geometry(frame.geometry);
     if (cache.builds() != maps_built_for) {
       // Every registration of one cache carries the same drop mask (the cache's keep-mask).
-      if (!sampling) sampling = make_polar_sampling(cache.grid(), polar, registration.drop);
-      source_maps = make_polar_maps(registration, *sampling);
+      if (!sampling) {
+        sampling = make_polar_sampling(cache.grid(), polar, registration.drop);
+        table_floats.resize(std::size_t(polar.height_count) * std::size_t(polar.pa_count));
+        table_scratch = cv::Mat(polar.height_count, polar.pa_count, CV_32FC2, table_floats.data());
+      }
+      source_maps = make_polar_maps(registration, *sampling, table_scratch);
       maps_built_for = cache.builds();
     }
     to_polar(image.pixels, source_maps, out);

@@ -398,18 +398,20 @@ std::vector<TileCheck> check_tiles(fitsfile* file, const std::string& source, co
   checks.reserve(static_cast<std::size_t>(tiles));
   std::vector<unsigned char> bytes;
   // A tile's bytes in `column`, read the way cfitsio reads them for its decoders.
-  const auto read_bytes = [&](int column, long long row, LONGLONG length, const std::string& tile) {
+  // A tile's name in sentences, made only for a sentence (a frame has ~1000 tiles).
+  const auto tile_name = [&](long long row) { return "tile " + std::to_string(row) + " of " + where; };
+  const auto read_bytes = [&](int column, long long row, LONGLONG length) {
     bytes.resize(static_cast<std::size_t>(length));
     unsigned char null = 0;
     int any_null = 0;
     fits_read_col(file, TBYTE, column, row, 1, length, &null, bytes.data(), &any_null, &status);
-    if (status != 0) fail(source, "the compressed bytes of " + tile + " cannot be read", status);
+    if (status != 0) fail(source, "the compressed bytes of " + tile_name(row) + " cannot be read", status);
   };
   // A gzip stream inflated and counted before cfitsio inflates it: at most 8 bytes a
   // pixel, the widest values a tile holds (64-bit integers or floats).
-  const auto check_gzip = [&](const std::string& tile, long long tile_pixels) {
+  const auto check_gzip = [&](long long row, long long tile_pixels) {
     const std::string problem = check_gzip_tile(bytes, 8 * tile_pixels);
-    if (!problem.empty()) throw InputError(source, "the file is damaged: " + tile + ": " + problem);
+    if (!problem.empty()) throw InputError(source, "the file is damaged: " + tile_name(row) + ": " + problem);
   };
   decoded = pixels != nullptr && decodable(layout);
   std::vector<std::int32_t> values;
@@ -432,13 +434,12 @@ std::vector<TileCheck> check_tiles(fitsfile* file, const std::string& source, co
       extent[d] = std::min<long long>(layout.tilesize[d], layout.znaxis[d] - corner[d]);
       check.pixels *= extent[d];
     }
-    const std::string tile = "tile " + std::to_string(row) + " of " + where;
     LONGLONG length = 0, offset = 0;
     fits_read_descriptll(file, layout.cn_compressed, row, &length, &offset, &status);
-    if (status != 0) fail(source, "the place of " + tile + " cannot be read", status);
+    if (status != 0) fail(source, "the place of " + tile_name(row) + " cannot be read", status);
     check.stored_bytes = length;
     if (length > 0) {
-      read_bytes(layout.cn_compressed, row, length, tile);
+      read_bytes(layout.cn_compressed, row, length);
       if (type == RICE_1) {
         if (decoded && check.pixels > static_cast<long long>(values.size())) values.resize(static_cast<std::size_t>(check.pixels));
         const RiceTrace trace = decoded ? decode_rice(bytes, check.pixels, blocksize, bytepix, values.data())
@@ -457,27 +458,27 @@ std::vector<TileCheck> check_tiles(fitsfile* file, const std::string& source, co
                                      pixels + y * image_width + corner[0]);
         }
       }
-      if (type == GZIP_1 || type == GZIP_2) check_gzip(tile, check.pixels);
+      if (type == GZIP_1 || type == GZIP_2) check_gzip(row, check.pixels);
     } else if (layout.cn_uncompressed > 0) {
       // A tile the writer could not compress, stored as plain values (the convention's
       // UNCOMPRESSED_DATA); cfitsio copies as many as the descriptor says into the
       // tile's place, so there must be exactly one per pixel.
       fits_read_descriptll(file, layout.cn_uncompressed, row, &length, &offset, &status);
-      if (status != 0) fail(source, "the place of " + tile + " cannot be read", status);
+      if (status != 0) fail(source, "the place of " + tile_name(row) + " cannot be read", status);
       if (length != check.pixels)
-        throw InputError(source, "the file is damaged: " + tile + " is stored uncompressed with " +
+        throw InputError(source, "the file is damaged: " + tile_name(row) + " is stored uncompressed with " +
                                      std::to_string(length) + " values for its " + std::to_string(check.pixels) +
                                      " pixels");
     } else if (layout.cn_gzip_data > 0) {
       // Stored gzip-compressed instead (GZIP_COMPRESSED_DATA, for tiles that cannot be
       // quantised): its stream is checked as a GZIP_1 tile's.
       fits_read_descriptll(file, layout.cn_gzip_data, row, &length, &offset, &status);
-      if (status != 0) fail(source, "the place of " + tile + " cannot be read", status);
-      if (length < 1) throw InputError(source, "the file is damaged: " + tile + " holds no data in any column");
-      read_bytes(layout.cn_gzip_data, row, length, tile);
-      check_gzip(tile, check.pixels);
+      if (status != 0) fail(source, "the place of " + tile_name(row) + " cannot be read", status);
+      if (length < 1) throw InputError(source, "the file is damaged: " + tile_name(row) + " holds no data in any column");
+      read_bytes(layout.cn_gzip_data, row, length);
+      check_gzip(row, check.pixels);
     } else {
-      throw InputError(source, "the file is damaged: " + tile + " holds no data in any column");
+      throw InputError(source, "the file is damaged: " + tile_name(row) + " holds no data in any column");
     }
     checks.push_back(check);
   }

@@ -1,7 +1,11 @@
 // imaging/fits_write.cpp — writing one image as FITS with cfitsio: float32 or int16 with
 // BSCALE/BZERO, optionally Rice tile-compressed; and float32 cubes, whole or plane by
 // plane (FitsCubeWriter). Every file appears whole or not at all.
+#include <fcntl.h>
+#include <unistd.h>
+
 #include <bit>
+#include <cerrno>
 #include <cmath>
 #include <cstdint>
 #include <cstdio>
@@ -376,11 +380,32 @@ struct FitsCubeWriter::State {
   PendingFile pending;  // declared before `file`: the file is closed before the temporary is removed
   FitsHandle file;
   Writer writer;
+  // The temporary opened a second time, read-only, only to start the kernel writing its
+  // pages to the disk as the planes come (writeback, below); -1 when it could not be.
+  int writeback_fd = -1;
 
   State(const std::filesystem::path& target, cv::Size plane_size, long max)
       : path(target), source(target.string()), size(plane_size), max_planes(max), pending(pending_path(target)),
-        file(create_pending(target, pending.path())), writer(file.get(), source) {}
+        file(create_pending(target, pending.path())), writer(file.get(), source),
+        writeback_fd(::open(pending.path().c_str(), O_RDONLY | O_CLOEXEC)) {}
+  ~State() {
+    if (writeback_fd >= 0) ::close(writeback_fd);
+  }
+  State(const State&) = delete;
+  State& operator=(const State&) = delete;
   LONGLONG per_plane() const { return static_cast<LONGLONG>(size.area()); }
+
+  // The file is made whole on the disk when it is finished (fsync in commit_pending),
+  // which waits for every page not yet written: for a cube of 30 1024² planes' polar
+  // differences, 35 MB written in the run's last tens of milliseconds, while everything
+  // else waits for it. So each plane, once added, starts the kernel writing what is
+  // dirty so far (sync_file_range(2) SYNC_FILE_RANGE_WRITE: starts writeback and does
+  // not wait for it; any descriptor of the file will do, the pages are the file's), and
+  // the final fsync finds most of the file on the disk already. Advice only: the bytes
+  // written are the same, and the fsync still makes the file durable.
+  void writeback() const {
+    if (writeback_fd >= 0) ::sync_file_range(writeback_fd, 0, 0, SYNC_FILE_RANGE_WRITE);
+  }
 };
 
 FitsCubeWriter::FitsCubeWriter(const std::filesystem::path& path, cv::Size plane_size, long max_planes,
@@ -429,6 +454,7 @@ void FitsCubeWriter::add(const cv::Mat& plane) {
   while (sum >> 32) sum = (sum & 0xffffffffu) + (sum >> 32);
   s.data_sum = sum;
   ++s.added;
+  s.writeback();
 }
 
 cv::Mat FitsCubeWriter::plane(long k) const {
@@ -436,8 +462,34 @@ cv::Mat FitsCubeWriter::plane(long k) const {
   if (!s.file || k < 0 || k >= s.added)
     throw InputError(s.source, "plane " + std::to_string(k) + " is not in the cube being written");
   cv::Mat out(s.size, CV_32FC1);
+  int status = 0;
+  // Read straight from the file (pread(2) on the read-only descriptor, after cfitsio's
+  // buffers are flushed to it) and turned from big-endian (FITS Standard 4.0 §5.3) to the
+  // machine's order: the values as stored, NaN included, as fits_read_img gives them with
+  // no null check, without cfitsio's 2880-byte buffers in between. The time–height maps
+  // of `maps` read every plane back at the end, on the run's critical path.
+  LONGLONG header_start = 0, data_start = 0, data_end = 0;
+  fits_flush_buffer(s.file.get(), 0, &status);
+  fits_get_hduaddrll(s.file.get(), &header_start, &data_start, &data_end, &status);
+  if (status == 0 && s.writeback_fd >= 0 && std::endian::native == std::endian::little) {
+    const std::size_t bytes = out.total() * sizeof(float);
+    const off_t at = static_cast<off_t>(data_start) + static_cast<off_t>(k) * static_cast<off_t>(bytes);
+    auto* words = reinterpret_cast<std::uint32_t*>(out.data);
+    std::size_t got = 0;
+    while (got < bytes) {
+      const ssize_t n = ::pread(s.writeback_fd, out.data + got, bytes - got, at + static_cast<off_t>(got));
+      if (n < 0 && errno == EINTR) continue;
+      if (n <= 0) break;
+      got += static_cast<std::size_t>(n);
+    }
+    if (got == bytes) {
+      for (std::size_t i = 0, n = out.total(); i < n; ++i) words[i] = __builtin_bswap32(words[i]);
+      return out;
+    }
+  }
+  status = 0;  // not read so: through cfitsio, which says why when it cannot either
   float no_null_check = 0.0f;  // 0: values come back as stored, NaN included (cfitsio's convention)
-  int any_null = 0, status = 0;
+  int any_null = 0;
   fits_read_img(s.file.get(), TFLOAT, 1 + k * s.per_plane(), s.per_plane(), &no_null_check, out.ptr<float>(),
                 &any_null, &status);
   s.writer.check(status, "reading a plane back");

@@ -60,10 +60,12 @@ cv::Mat grid_pixels(const RegisteredGrid& grid, const PolarGrid& polar) {
 }
 
 // Tables for polar samples at grid pixels `xy` read from image pixel A · (x, y, 1).
+// `map` holds the float tables before cv::convertMaps (reallocated only when its size or
+// type differ).
 PolarMaps polar_tables(const RegisteredGrid& grid, const PolarGrid& polar, const cv::Mat& xy, const cv::Matx23d& a,
-                       cv::Size source) {
+                       cv::Size source, cv::Mat& map) {
   PolarMaps maps{grid, polar, {}, {}, source, {}};
-  cv::Mat map(xy.size(), CV_32FC2);
+  map.create(xy.size(), CV_32FC2);
   for (int i = 0; i < xy.rows; ++i) {
     const auto* p = xy.ptr<cv::Vec2d>(i);
     auto* m = map.ptr<cv::Vec2f>(i);
@@ -79,8 +81,9 @@ PolarMaps polar_tables(const RegisteredGrid& grid, const PolarGrid& polar, const
 }  // namespace
 
 PolarMaps make_polar_maps(const RegisteredGrid& grid, const PolarGrid& polar) {
+  cv::Mat map;
   return polar_tables(grid, polar, grid_pixels(grid, polar), cv::Matx23d(1, 0, 0, 0, 1, 0),
-                      cv::Size(grid.width, grid.height));
+                      cv::Size(grid.width, grid.height), map);
 }
 
 PolarSampling make_polar_sampling(const RegisteredGrid& grid, const PolarGrid& polar, const cv::Mat& drop_on_grid) {
@@ -88,21 +91,26 @@ PolarSampling make_polar_sampling(const RegisteredGrid& grid, const PolarGrid& p
   if (!drop_on_grid.empty()) {
     // The mask unwrapped the way a masked registered frame is: NaN on the masked grid
     // pixels, through the grid's own tables, so the same samples come out NaN.
-    cv::Mat pattern(grid.height, grid.width, CV_32FC1, cv::Scalar(0.0)), unwrapped;
+    cv::Mat pattern(grid.height, grid.width, CV_32FC1, cv::Scalar(0.0)), unwrapped, map;
     pattern.setTo(std::numeric_limits<double>::quiet_NaN(), drop_on_grid);
     to_polar(pattern, polar_tables(grid, polar, sampling.grid_xy, cv::Matx23d(1, 0, 0, 0, 1, 0),
-                                   cv::Size(grid.width, grid.height)),
+                                   cv::Size(grid.width, grid.height), map),
              unwrapped);
     cv::compare(unwrapped, unwrapped, sampling.drop, cv::CMP_NE);  // NaN ≠ NaN
   }
   return sampling;
 }
 
-PolarMaps make_polar_maps(const Registration& registration, const PolarSampling& sampling) {
+PolarMaps make_polar_maps(const Registration& registration, const PolarSampling& sampling, cv::Mat& scratch) {
   PolarMaps maps = polar_tables(sampling.grid, sampling.polar, sampling.grid_xy, registration.grid_to_source,
-                                cv::Size(registration.source.width, registration.source.height));
+                                cv::Size(registration.source.width, registration.source.height), scratch);
   maps.drop = sampling.drop;
   return maps;
+}
+
+PolarMaps make_polar_maps(const Registration& registration, const PolarSampling& sampling) {
+  cv::Mat scratch;
+  return make_polar_maps(registration, sampling, scratch);
 }
 
 PolarMaps make_polar_maps(const Registration& registration, const RegisteredGrid& grid, const PolarGrid& polar) {
