@@ -483,6 +483,25 @@ TEST_CASE("fits: float32 round trip is exact and the file passes fitsverify") {
   CHECK(reference["header"]["NSUM"].get<long long>() == 9007199254740993LL);
 }
 
+TEST_CASE("fits: a file too large to read whole is read from the disk, the same pixels") {
+  // read_fits reads a file of up to 64 MiB whole and decodes it from memory; a larger one
+  // goes through cfitsio's disk driver (imaging/fits.cpp). 4100 × 4100 float32 is 67.2 MB.
+  const fs::path dir = scratch_dir("fits-beyond-whole-read");
+  cv::Mat pixels(4100, 4100, CV_32FC1);
+  for (int y = 0; y < pixels.rows; ++y) {
+    float* row = pixels.ptr<float>(y);
+    for (int x = 0; x < pixels.cols; ++x) row[x] = float(y % 97) * 0.5f - float(x % 89);
+  }
+  pixels.at<float>(17, 4000) = NAN;
+  write_fits(dir / "large.fits", pixels, test_header());
+  REQUIRE(fs::file_size(dir / "large.fits") > (std::uintmax_t{64} << 20));
+  const FitsImage back = read_fits(dir / "large.fits");
+  CHECK(back.nonfinite_count == 1);
+  CHECK(same_pixels(back.pixels, pixels));
+  CHECK(back.header.number("NAXIS1") == 4100.0);
+  fs::remove_all(dir);
+}
+
 TEST_CASE("fits: a compressed image whose header cfitsio cannot rebuild is refused without a leak") {
   // Regression case from fits_fuzz: an unquoted 70-character ZTENSION in a Rice frame's
   // table makes cfitsio fail to rebuild the image header, and the text it had allocated
