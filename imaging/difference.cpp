@@ -1,4 +1,4 @@
-// imaging/difference.cpp — differences, MAD noise, normalisation, median filter.
+// imaging/difference.cpp — differences, MAD noise, normalisation (the median filter: median_filter.cpp).
 #include "imaging/difference.hpp"
 
 #include <algorithm>
@@ -8,7 +8,7 @@
 #include <cstdint>
 #include <limits>
 
-#include <opencv2/imgproc.hpp>
+#include <opencv2/core.hpp>
 
 namespace occulta::imaging {
 
@@ -140,108 +140,6 @@ void divide_by_rows(cv::Mat& polar, const std::vector<float>& sigma) {
       divide_by(row, sigma[i]);
     }
   });
-}
-
-namespace {
-
-// Whether a row holds any value that is not NaN (x == x fails for NaN alone). No early
-// exit, so that the compiler vectorises it.
-bool any_value(const float* row, int n) {
-  int values = 0;
-  for (int x = 0; x < n; ++x) values |= row[x] == row[x];
-  return values != 0;
-}
-
-// out = in where in is NaN (no data stays no data), else the filtered value.
-void keep_no_data(const float* __restrict in, const float* __restrict filtered, float* __restrict out, int n) {
-  for (int x = 0; x < n; ++x) out[x] = in[x] != in[x] ? in[x] : filtered[x];
-}
-
-}  // namespace
-
-void median_filter(cv::Mat& image, int size, cv::Mat& scratch) {
-  CV_Assert(image.type() == CV_32FC1 && (size == 3 || size == 5));
-  // cv::medianBlur is single-threaded, so it runs on bands of rows in parallel, each band
-  // read with the filter's half-width of rows above and below: every output row's window
-  // lies inside its band's input, so the result equals one medianBlur of the whole frame.
-  // A band whose rows hold no finite value is NaN in and NaN out, and is skipped.
-  //
-  // Near NaN the sorting network's answer depends on how a column is computed: OpenCV
-  // takes the first two columns and the last few (fewer than two vectors' width) one by
-  // one with std::min/std::max, the rest a vector at a time with SIMD min/max, and the two
-  // treat NaN differently. So a band is cut to narrower columns only where that changes
-  // nothing: the columns left out hold no data in the band's input rows (their pixels
-  // stay NaN), and every pixel with data lies at least kMargin columns inside the cut
-  // (and inside the frame's edge on a side that is cut), where both the frame and the cut
-  // compute it a vector at a time; the cut starts at a multiple of kAlign columns, so each
-  // column even keeps its place in the vector lanes. Outside a coronagraph's field stop a
-  // frame's corners hold no data: the cut leaves them out (on maps_bench's 1024² frames,
-  // whose field stop nears the edge, the network does 13 % fewer instructions).
-  const int half = size / 2;
-  constexpr int kBand = 32, kMargin = 48, kAlign = 32;
-  if (!image.isContinuous()) image = image.clone();
-  scratch.create(image.size(), CV_32FC1);
-  const int width = image.cols;
-  cv::parallel_for_(cv::Range(0, (image.rows + kBand - 1) / kBand), [&](const cv::Range& bands) {
-    // Each worker keeps room for a band and its filtered copy from frame to frame (fresh
-    // ones per band were allocated, and their pages faulted in, 32 times a frame); a
-    // smaller band is written into the first rows (cv::Mat::create keeps a buffer of the
-    // same size and type).
-    thread_local cv::Mat room_in, room_out;
-    if (room_out.cols != width || room_out.rows < kBand + 2 * half) {
-      room_in.create(kBand + 2 * half, width, CV_32FC1);
-      room_out.create(kBand + 2 * half, width, CV_32FC1);
-    }
-    for (int b = bands.start; b < bands.end; ++b) {
-      const int y0 = b * kBand, y1 = std::min(image.rows, y0 + kBand);
-      const int in0 = std::max(0, y0 - half), in1 = std::min(image.rows, y1 + half);
-      // The columns with data in the band's input rows: [first, last).
-      int first = width, last = 0;
-      for (int y = in0; y < in1; ++y) {
-        const float* row = image.ptr<float>(y);
-        int a = 0, z = width;
-        while (a < std::min(first, z) && row[a] != row[a]) ++a;
-        while (z > std::max(last, a) && row[z - 1] != row[z - 1]) --z;
-        if (a < z) first = std::min(first, a), last = std::max(last, z);
-      }
-      bool any = false;
-      for (int y = y0; y < y1 && !any; ++y) any = any_value(image.ptr<float>(y), width);
-      if (!any || first >= last) {
-        for (int y = y0; y < y1; ++y) std::fill_n(scratch.ptr<float>(y), width, kNaN);
-        continue;
-      }
-      const int x0 = first >= kMargin ? (first - kMargin) / kAlign * kAlign : 0;
-      const int x1 = width - last >= kMargin ? last + kMargin : width;
-      cv::Mat band;
-      if (x0 == 0 && x1 == width) {
-        // Whole rows of a continuous frame are themselves continuous: read in place.
-        band = image.rowRange(in0, in1);
-      } else {
-        // A continuous copy of the cut, as a whole frame's rows are.
-        band = cv::Mat(in1 - in0, x1 - x0, CV_32FC1, room_in.data);
-        image(cv::Rect(x0, in0, x1 - x0, in1 - in0)).copyTo(band);
-      }
-      cv::Mat filtered(band.rows, band.cols, CV_32FC1, room_out.data);
-      cv::medianBlur(band, filtered, size);
-      CV_Assert(filtered.data == room_out.data);  // written in place, not reallocated
-      // No data stays no data: a pixel whose input is NaN is NaN again (cv::compare does
-      // not flag NaN in OpenCV 4, so this is a test per pixel). Outside the cut every
-      // pixel is NaN, and stays the NaN it was.
-      for (int y = y0; y < y1; ++y) {
-        const float* in = image.ptr<float>(y);
-        float* out = scratch.ptr<float>(y);
-        std::copy(in, in + x0, out);
-        keep_no_data(in + x0, filtered.ptr<float>(y - in0), out + x0, x1 - x0);
-        std::copy(in + x1, in + width, out + x1);
-      }
-    }
-  });
-  std::swap(image, scratch);
-}
-
-void median_filter(cv::Mat& image, int size) {
-  cv::Mat scratch;
-  median_filter(image, size, scratch);
 }
 
 }  // namespace occulta::imaging

@@ -1,5 +1,6 @@
 // tests/imaging/difference_test.cpp — imaging/difference: running differences, MAD noise
-// normalisation, the median filter; and through the chain, identical frames difference to 0.
+// normalisation; and through the chain, identical frames difference to 0 (the median
+// filter: median_filter_test.cpp).
 #include <algorithm>
 #include <cmath>
 #include <cstring>
@@ -106,16 +107,6 @@ TEST_CASE("difference: noise normalisation gives unit variance on pure noise") {
   CHECK(oi::robust_sigma(flat) == doctest::Approx(3.7).epsilon(0.02));
 }
 
-TEST_CASE("difference: median filter removes an isolated hit and keeps no-data as NaN") {
-  cv::Mat image(32, 32, CV_32FC1, cv::Scalar(5.0));
-  image.at<float>(10, 10) = 1e5f;  // a cosmic-ray hit
-  image.rowRange(20, 24).setTo(std::numeric_limits<float>::quiet_NaN());
-  oi::median_filter(image, 3);
-  CHECK(image.at<float>(10, 10) == 5.0f);
-  CHECK(std::isnan(image.at<float>(21, 5)));
-  CHECK(image.at<float>(5, 5) == 5.0f);
-}
-
 TEST_CASE("difference: a running difference scaled to a common time step") {
   // A brightness rising linearly in time: scaled to one step, differences over uneven
   // steps are equal.
@@ -124,21 +115,6 @@ TEST_CASE("difference: a running difference scaled to a common time step") {
   oi::difference(t1, t0, 60.0 / 60.0, d1);
   oi::difference(t3, t1, 60.0 / 120.0, d2);
   CHECK(cv::norm(d1 - d2, cv::NORM_INF) == 0.0);
-}
-
-// Bit for bit, NaN as NaN: how many pixels of `filtered` differ from one cv::medianBlur of
-// the whole of `image` with its no-data pixels put back (difference.hpp), or gained data.
-int differences_from_whole_frame(const cv::Mat& image, const cv::Mat& filtered, int size) {
-  cv::Mat reference;
-  cv::medianBlur(image, reference, size);
-  int differ = 0;
-  for (int y = 0; y < image.rows; ++y)
-    for (int x = 0; x < image.cols; ++x) {
-      const float in = image.at<float>(y, x), a = filtered.at<float>(y, x), b = std::isnan(in) ? in : reference.at<float>(y, x);
-      if (!(a == b || (std::isnan(a) && std::isnan(b)))) ++differ;
-      if (std::isnan(in) && !std::isnan(a)) ++differ;  // no data never gains a value
-    }
-  return differ;
 }
 
 // The MAD σ̂ as it was computed before the radix selection (difference.cpp): two
@@ -195,69 +171,4 @@ TEST_CASE("difference: σ̂ per ring and of an image are the same bits as with s
   }
   CHECK(rows_checked == 300);
   CHECK(fallbacks == 75);
-}
-
-TEST_CASE("difference: the median filter cut to the columns with data equals one whole-frame cv::medianBlur") {
-  // Frames whose field stop leaves their corners without data, as a coronagraph's do: the
-  // filter leaves those columns out of each band (difference.cpp). Widths that put the
-  // data at every place in the vector lanes and the frame's last, partial vector; data
-  // that touch the left or right edge in some rows; NaN specks; a field stop near the
-  // edge and one well inside. Each must give exactly one whole-frame medianBlur.
-  cv::RNG rng(11);
-  int frames = 0;
-  for (const int width : {256, 301, 333, 512, 517}) {
-    for (const double stop : {0.47, 0.36}) {
-      cv::Mat image(290, width, CV_32FC1);
-      rng.fill(image, cv::RNG::NORMAL, 100.0, 10.0);
-      const double cx = 0.5 * width + 3.3, cy = 141.7, r_out = stop * width, r_in = 0.06 * width;
-      for (int y = 0; y < image.rows; ++y)
-        for (int x = 0; x < width; ++x) {
-          const double r = std::hypot(x - cx, y - cy);
-          if (r < r_in || r > r_out || rng.uniform(0, 300) == 0) image.at<float>(y, x) = std::numeric_limits<float>::quiet_NaN();
-        }
-      image(cv::Rect(0, 100, 7, 30)).setTo(55.0f);           // data at the left edge in some rows
-      image(cv::Rect(width - 5, 160, 5, 40)).setTo(66.0f);   // and at the right edge
-      for (int size : {3, 5}) {
-        cv::Mat filtered = image.clone();
-        oi::median_filter(filtered, size);
-        CAPTURE(width);
-        CAPTURE(stop);
-        CAPTURE(size);
-        CHECK(differences_from_whole_frame(image, filtered, size) == 0);
-        ++frames;
-      }
-    }
-  }
-  CHECK(frames == 20);
-}
-
-TEST_CASE("difference: the banded median filter equals one whole-frame cv::medianBlur, no data kept as NaN") {
-  // A frame as the chain has it: data in an annulus, NaN inside the occulter and outside
-  // the field stop, some NaN specks within; the banded filter must not change a value.
-  cv::Mat image(300, 260, CV_32FC1);
-  cv::RNG rng(7);
-  rng.fill(image, cv::RNG::NORMAL, 100.0, 10.0);
-  for (int y = 0; y < image.rows; ++y)
-    for (int x = 0; x < image.cols; ++x) {
-      const double r = std::hypot(x - 131.3, y - 148.6);
-      if (r < 30.0 || r > 125.0 || rng.uniform(0, 200) == 0) image.at<float>(y, x) = std::numeric_limits<float>::quiet_NaN();
-    }
-  image.col(0).setTo(42.0f);  // data touching the frame's edge: the replicated border
-  for (int size : {3, 5}) {
-    cv::Mat reference;
-    cv::medianBlur(image, reference, size);
-    for (int y = 0; y < image.rows; ++y)  // no data stays no data (difference.hpp)
-      for (int x = 0; x < image.cols; ++x)
-        if (std::isnan(image.at<float>(y, x))) reference.at<float>(y, x) = image.at<float>(y, x);
-    cv::Mat banded = image.clone();
-    oi::median_filter(banded, size);
-    int differ = 0;
-    for (int y = 0; y < image.rows; ++y)
-      for (int x = 0; x < image.cols; ++x) {
-        const float a = banded.at<float>(y, x), b = reference.at<float>(y, x);
-        if (!(a == b || (std::isnan(a) && std::isnan(b)))) ++differ;
-        if (std::isnan(image.at<float>(y, x)) && !std::isnan(a)) ++differ;  // no data never gains a value
-      }
-    CHECK(differ == 0);
-  }
 }
