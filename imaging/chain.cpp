@@ -122,7 +122,7 @@ struct FrameLoader {
         table_floats.resize(std::size_t(polar.height_count) * std::size_t(polar.pa_count));
         table_scratch = cv::Mat(polar.height_count, polar.pa_count, CV_32FC2, table_floats.data());
       }
-      source_maps = make_polar_maps(registration, *sampling, table_scratch);
+      make_polar_maps(registration, *sampling, table_scratch, source_maps);
       maps_built_for = cache.builds();
     }
     to_polar(image.pixels, source_maps, out);

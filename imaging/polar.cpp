@@ -59,12 +59,16 @@ cv::Mat grid_pixels(const RegisteredGrid& grid, const PolarGrid& polar) {
   return xy;
 }
 
-// Tables for polar samples at grid pixels `xy` read from image pixel A · (x, y, 1).
-// `map` holds the float tables before cv::convertMaps (reallocated only when its size or
-// type differ).
-PolarMaps polar_tables(const RegisteredGrid& grid, const PolarGrid& polar, const cv::Mat& xy, const cv::Matx23d& a,
-                       cv::Size source, cv::Mat& map) {
-  PolarMaps maps{grid, polar, {}, {}, source, {}};
+// Tables for polar samples at grid pixels `xy` read from image pixel A · (x, y, 1), into
+// `maps` (its fixed-point tables' buffers kept when their size and type match). `map`
+// holds the float tables before cv::convertMaps (reallocated only when its size or type
+// differ).
+void polar_tables(const RegisteredGrid& grid, const PolarGrid& polar, const cv::Mat& xy, const cv::Matx23d& a,
+                  cv::Size source, cv::Mat& map, PolarMaps& maps) {
+  maps.grid = grid;
+  maps.polar = polar;
+  maps.source = source;
+  maps.drop.release();
   map.create(xy.size(), CV_32FC2);
   for (int i = 0; i < xy.rows; ++i) {
     const auto* p = xy.ptr<cv::Vec2d>(i);
@@ -75,6 +79,12 @@ PolarMaps polar_tables(const RegisteredGrid& grid, const PolarGrid& polar, const
     }
   }
   cv::convertMaps(map, cv::noArray(), maps.map_xy, maps.map_frac, CV_16SC2);
+}
+
+PolarMaps polar_tables(const RegisteredGrid& grid, const PolarGrid& polar, const cv::Mat& xy, const cv::Matx23d& a,
+                       cv::Size source, cv::Mat& map) {
+  PolarMaps maps;
+  polar_tables(grid, polar, xy, a, source, map, maps);
   return maps;
 }
 
@@ -101,16 +111,18 @@ PolarSampling make_polar_sampling(const RegisteredGrid& grid, const PolarGrid& p
   return sampling;
 }
 
-PolarMaps make_polar_maps(const Registration& registration, const PolarSampling& sampling, cv::Mat& scratch) {
-  PolarMaps maps = polar_tables(sampling.grid, sampling.polar, sampling.grid_xy, registration.grid_to_source,
-                                cv::Size(registration.source.width, registration.source.height), scratch);
+void make_polar_maps(const Registration& registration, const PolarSampling& sampling, cv::Mat& scratch,
+                     PolarMaps& maps) {
+  polar_tables(sampling.grid, sampling.polar, sampling.grid_xy, registration.grid_to_source,
+               cv::Size(registration.source.width, registration.source.height), scratch, maps);
   maps.drop = sampling.drop;
-  return maps;
 }
 
 PolarMaps make_polar_maps(const Registration& registration, const PolarSampling& sampling) {
   cv::Mat scratch;
-  return make_polar_maps(registration, sampling, scratch);
+  PolarMaps maps;
+  make_polar_maps(registration, sampling, scratch, maps);
+  return maps;
 }
 
 PolarMaps make_polar_maps(const Registration& registration, const RegisteredGrid& grid, const PolarGrid& polar) {

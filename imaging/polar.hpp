@@ -79,10 +79,13 @@ struct PolarSampling {
 };
 PolarSampling make_polar_sampling(const RegisteredGrid& grid, const PolarGrid& polar, const cv::Mat& drop_on_grid);
 PolarMaps make_polar_maps(const Registration& registration, const PolarSampling& sampling);
-// The same, with the float tables made in `scratch` (CV_32FC2 on the polar grid, kept by a
-// caller that makes tables for every frame: a fresh 2.4 MB matrix per frame was a fresh
-// mapping the kernel faulted in and zeroed each time, frame_memory.hpp).
-PolarMaps make_polar_maps(const Registration& registration, const PolarSampling& sampling, cv::Mat& scratch);
+// The same into `maps`, for a caller that makes tables for every frame: the float tables
+// are made in `scratch` (CV_32FC2 on the polar grid) and the fixed-point ones in the
+// buffers `maps` holds (kept when their size and type match), so that no frame takes
+// fresh memory (each fresh page a fault into the kernel, frame_memory.hpp). Nothing else
+// may share maps' tables.
+void make_polar_maps(const Registration& registration, const PolarSampling& sampling, cv::Mat& scratch,
+                     PolarMaps& maps);
 
 // `image` is what the tables sample (maps.source). `out` reallocated only when its size or
 // type differ.
