@@ -14,7 +14,7 @@
 #include <vector>
 
 #include <opencv2/core.hpp>
-#include <opencv2/imgproc.hpp>
+#include <opencv2/core.hpp>
 
 #include "imaging/input_error.hpp"
 #include "imaging/output_file.hpp"
@@ -179,12 +179,9 @@ Framebuffer draw_headless(int width, int height, const std::function<void()>& fr
 }
 
 void write_png(const Framebuffer& picture, const std::filesystem::path& path) {
-  // OpenCV wants B, G, R(, A) channel order.
   const cv::Mat rgba_view(picture.height, picture.width, CV_8UC4, const_cast<std::uint32_t*>(picture.pixels.data()));
   const bool opaque = std::all_of(picture.pixels.begin(), picture.pixels.end(), [](std::uint32_t p) { return (p >> 24) == 255; });
-  cv::Mat encoded;
-  cv::cvtColor(rgba_view, encoded, opaque ? cv::COLOR_RGBA2BGR : cv::COLOR_RGBA2BGRA);
-  const std::vector<unsigned char> bytes = encode_png(encoded);
+  const std::vector<unsigned char> bytes = encode_png_rgba(rgba_view, opaque);
   if (bytes.empty()) throw imaging::InputError(path.string(), "cannot be encoded as PNG");
   // Whole or not at all (imaging/output_file.hpp): a killed run never leaves a truncated
   // picture under its final name.

@@ -17,7 +17,13 @@
 
 namespace occulta::viewer {
 
-// Empty when the picture has another type or stb fails.
+// Empty when the picture has another type or libpng fails.
 std::vector<unsigned char> encode_png(const cv::Mat& picture);
+
+// A CV_8UC4 picture whose bytes are R,G,B,A (a Framebuffer's), as RGB when `opaque` (the
+// alpha bytes left out as libpng writes each row) and RGBA otherwise: the same bytes as
+// encode_png of the picture converted to OpenCV's B,G,R(,A), without that conversion's
+// copy of the picture. Empty when the picture has another type or libpng fails.
+std::vector<unsigned char> encode_png_rgba(const cv::Mat& rgba, bool opaque);
 
 }  // namespace occulta::viewer
