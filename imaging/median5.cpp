@@ -19,9 +19,8 @@
 // every 0–1 input and the whole against cv::medianBlur
 // (tests/imaging/median_filter_test.cpp).
 //
-// Each step runs on a row's columns in SIMD lanes (GCC/clang vector extensions, built
-// for AVX2 and AVX-512F and chosen when the process starts), a chunk of 128 columns at a
-// time so that the sorted columns stay in the first-level cache.
+// Each step runs on a row's columns in SIMD lanes of 16 floats (AVX-512), a chunk of 128
+// columns at a time so that the sorted columns stay in the first-level cache.
 #include "imaging/median5.hpp"
 
 #include "imaging/sorting_network.hpp"
@@ -41,36 +40,6 @@ constexpr Network kSortColumn = sorting_network::sort5();           // step 1: 1
 constexpr Network kMergePair = sorting_network::merge(5, 0, 10);    // step 2: 26
 constexpr Network kMergeMiddle = sorting_network::merge(10, 7, 6);  // step 3: ranks 8 … 13 of 20, 36
 
-template <class V>
-[[gnu::always_inline]] inline void set_min(V& out, const V& a, const V& b) {
-  out = a < b ? a : b;
-}
-template <class V>
-[[gnu::always_inline]] inline void set_max(V& out, const V& a, const V& b) {
-  out = a < b ? b : a;
-}
-
-template <const Network& net, class V, std::size_t... I>
-[[gnu::always_inline]] inline void run_ops(V* v, std::index_sequence<I...>) {
-  ((net.ops[I].max ? set_max(v[net.inputs + int(I)], v[net.ops[I].a], v[net.ops[I].b])
-                   : set_min(v[net.inputs + int(I)], v[net.ops[I].a], v[net.ops[I].b])),
-   ...);
-}
-// Runs `net` on v[0, net.inputs) (the inputs) and v[net.inputs, …) (the results).
-template <const Network& net, class V>
-[[gnu::always_inline]] inline void run(V* v) {
-  run_ops<net>(v, std::make_index_sequence<std::size_t(net.count)>{});
-}
-
-template <class V>
-[[gnu::always_inline]] inline void load(V& v, const float* p) {
-  std::memcpy(&v, p, sizeof v);
-}
-template <class V>
-[[gnu::always_inline]] inline void store(float* p, const V& v) {
-  std::memcpy(p, &v, sizeof v);
-}
-
 struct Args {
   const cv::Mat& image;
   int y0, y1, x0, x1;
@@ -82,27 +51,73 @@ struct Args {
 constexpr int kChunk = 128;  // columns a chunk
 constexpr int kHalo = 16;    // padding columns on each side of a padded row
 
-// Vectors of W floats and of W lane masks (GCC's vector extensions, which clang shares;
-// a comparison gives −1 in a lane where it holds, 0 where not). Spelled out per width:
-// GCC drops vector_size from a typedef whose size depends on a template parameter.
-template <int W>
-struct Lanes;
-template <>
-struct Lanes<8> {
-  typedef float V __attribute__((vector_size(32)));
-  typedef std::int32_t Mask __attribute__((vector_size(32)));
-};
-template <>
-struct Lanes<16> {
-  typedef float V __attribute__((vector_size(64)));
-  typedef std::int32_t Mask __attribute__((vector_size(64)));
-};
+// The kernel is compiled wholly for AVX-512 (F, DQ, BW and VL: x86-64-v4), helpers and
+// all: GCC lowers a vector operation in the function it is written in, before inlining,
+// so a helper compiled for the baseline comes out lane by lane (measured: 3.1 ms a 1024²
+// frame instead of 1.8). An AVX2 copy was tried: GCC 12 spills its 16 registers and
+// takes 8.5 ms, slower than cv::medianBlur, so without AVX-512 cv::medianBlur does it.
+// GCC's vector extensions (which clang shares): a comparison gives −1 in a lane where it
+// holds, 0 where not.
+#if defined(__clang__)
+#pragma clang attribute push(__attribute__((target("avx512f,avx512dq,avx512bw,avx512vl"))), apply_to = function)
+#else
+#pragma GCC push_options
+#pragma GCC target("avx512f,avx512dq,avx512bw,avx512vl")
+#endif
 
-// The kernel with W lanes a vector. Inlined into a function built for AVX2 or AVX-512F.
-template <int W>
-[[gnu::always_inline]] inline void rows_w(const Args& args) {
-  using V = typename Lanes<W>::V;
-  using Mask = typename Lanes<W>::Mask;
+constexpr int W = 16;  // floats a vector
+typedef float V __attribute__((vector_size(64)));
+typedef std::int32_t Mask __attribute__((vector_size(64)));
+
+[[gnu::always_inline]] inline void set_min(V& out, const V& a, const V& b) {
+  out = a < b ? a : b;
+}
+[[gnu::always_inline]] inline void set_max(V& out, const V& a, const V& b) {
+  out = a < b ? b : a;
+}
+
+// One operation, its operands and kind fixed when compiled (a constexpr copy: read
+// through the Network at run time they would be loads and branches).
+template <const Network& net, std::size_t I>
+[[gnu::always_inline]] inline void run_op(V* v) {
+  constexpr sorting_network::Op op = net.ops[I];
+  if constexpr (op.max)
+    set_max(v[net.inputs + int(I)], v[op.a], v[op.b]);
+  else
+    set_min(v[net.inputs + int(I)], v[op.a], v[op.b]);
+}
+template <const Network& net, std::size_t... I>
+[[gnu::always_inline]] inline void run_ops(V* v, std::index_sequence<I...>) {
+  (run_op<net, I>(v), ...);
+}
+// Runs `net` on v[0, net.inputs) (the inputs) and v[net.inputs, …) (the results).
+template <const Network& net>
+[[gnu::always_inline]] inline void run(V* v) {
+  run_ops<net>(v, std::make_index_sequence<std::size_t(net.count)>{});
+}
+
+// Output K of `net` in v, its place fixed when compiled (a place read from the table at
+// run time would keep all of v in memory).
+template <const Network& net, int K>
+[[gnu::always_inline]] inline const V& output(const V* v) {
+  constexpr int at = net.out[std::size_t(K)];
+  return v[at];
+}
+// Outputs 0 … count − 1 of `net` in v, stored `stride` floats apart from p.
+template <const Network& net, std::size_t... K>
+[[gnu::always_inline]] inline void store_outputs(float* p, int stride, const V* v, std::index_sequence<K...>) {
+  (std::memcpy(p + int(K) * stride, &output<net, int(K)>(v), sizeof(V)), ...);
+}
+
+[[gnu::always_inline]] inline void load(V& v, const float* p) {
+  std::memcpy(&v, p, sizeof v);
+}
+[[gnu::always_inline]] inline void store(float* p, const V& v) {
+  std::memcpy(p, &v, sizeof v);
+}
+
+// The kernel, W lanes a vector.
+void kernel(const Args& args) {
   const cv::Mat& image = args.image;
   const int width = image.cols, height = image.rows, x0 = args.x0, x1 = args.x1;
   const int in0 = std::max(0, args.y0 - 2), in1 = std::min(height, args.y1 + 2);
@@ -122,13 +137,14 @@ template <int W>
   }
 
   // Per chunk: the sorted columns s₀ … s₄, each column's sum (NaN when it holds a NaN),
-  // and the merged pairs m₀ … m₉, column x at index x − c0 + 8.
+  // and the merged pairs m₀ … m₉, column x at index x − c0 + 8; then a flag per pixel.
   constexpr int kPlane = kChunk + 2 * W + 24;
   std::vector<float>& planes = args.scratch.planes;
-  if (planes.size() < std::size_t(16 * kPlane)) planes.assign(std::size_t(16 * kPlane), 0.0f);
+  if (planes.size() < std::size_t(17 * kPlane)) planes.assign(std::size_t(17 * kPlane), 0.0f);
   float* const sorted = planes.data();
   float* const sums = sorted + 5 * kPlane;
   float* const pairs = sums + kPlane;
+  std::int32_t* const flags = reinterpret_cast<std::int32_t*>(pairs + 10 * kPlane);  // per pixel: next to no data
 
   args.next_to_nan.resize(std::size_t(args.y1 - args.y0));
   for (auto& columns : args.next_to_nan) columns.clear();
@@ -148,7 +164,7 @@ template <int W>
         const V sum = v[0] + v[1] + v[2] + v[3] + v[4];
         run<kSortColumn>(v);
         float* s = sorted + (x - c0 + 8);
-        for (int k = 0; k < 5; ++k) store(s + k * kPlane, v[kSortColumn.out[k]]);
+        store_outputs<kSortColumn>(s, kPlane, v, std::make_index_sequence<5>{});
         store(sums + (x - c0 + 8), sum);
       }
       // Step 2: the pair (x, x + 1) for x in [c0 − 1, c1 + 1).
@@ -161,9 +177,10 @@ template <int W>
         }
         run<kMergePair>(v);
         float* p = pairs + (x - c0 + 8);
-        for (int k = 0; k < 10; ++k) store(p + k * kPlane, v[kMergePair.out[k]]);
+        store_outputs<kMergePair>(p, kPlane, v, std::make_index_sequence<10>{});
       }
       // Steps 3 and 4 for the pixels [c0, c1). Lanes past c1 hold what no one reads.
+      Mask any_near{};
       for (int x = c0; x < c1; x += W) {
         V v[kMergeMiddle.inputs + kMergeMiddle.count];
         const float* left = pairs + (x - 1 - c0 + 8);  // columns x − 1, x
@@ -173,8 +190,8 @@ template <int W>
           load(v[10 + k], right + k * kPlane);
         }
         run<kMergeMiddle>(v);
-        std::array<V, 6> c;
-        for (int k = 0; k < 6; ++k) c[std::size_t(k)] = v[kMergeMiddle.out[k]];
+        const std::array<V, 6> c{output<kMergeMiddle, 0>(v), output<kMergeMiddle, 1>(v), output<kMergeMiddle, 2>(v),
+                                 output<kMergeMiddle, 3>(v), output<kMergeMiddle, 4>(v), output<kMergeMiddle, 5>(v)};
         std::array<V, 5> e;  // column x − 2, sorted
         for (int k = 0; k < 5; ++k) load(e[std::size_t(k)], sorted + (x - 2 - c0 + 8) + k * kPlane);
         V median = c[5], term;
@@ -189,9 +206,10 @@ template <int W>
           window_sum += column_sum;
         }
         load(centre, row[2] + (x - x0 + kHalo));
-        const Mask no_data = centre != centre;
-        const Mask near_nan = (window_sum != window_sum) & ~no_data;
-        const V result = no_data ? centre : median;
+        // NaN is the value that is not equal to itself (v == v: an ordered compare, one
+        // vector instruction; GCC 12 spells v != v lane by lane).
+        const Mask has_data = centre == centre;
+        const V result = has_data ? median : centre;
         if (x + W <= c1) {
           store(out + x, result);
         } else {
@@ -199,39 +217,44 @@ template <int W>
           store(tail.data(), result);
           std::copy_n(tail.data(), c1 - x, out + x);
         }
-        std::array<std::uint64_t, W / 2> words;
-        std::memcpy(words.data(), &near_nan, sizeof near_nan);
-        std::uint64_t any = 0;
-        for (const std::uint64_t word : words) any |= word;
-        if (any)
-          for (int l = 0; l < W && x + l < c1; ++l)
-            if (near_nan[l]) near.push_back(x + l);
+        const Mask near_nan = has_data & ~(window_sum == window_sum);
+        std::memcpy(flags + (x - c0), &near_nan, sizeof near_nan);
+        any_near |= near_nan;
       }
+      // The chunk's pixels next to no data, if any (rare: the occulter's and the field
+      // stop's edges).
+      std::array<std::uint64_t, W / 2> words;
+      std::memcpy(words.data(), &any_near, sizeof any_near);
+      std::uint64_t any = 0;
+      for (const std::uint64_t word : words) any |= word;
+      if (any)
+        for (int x = c0; x < c1; ++x)
+          if (flags[x - c0]) near.push_back(x);
     }
   }
 }
 
-[[gnu::target("avx512f")]] void rows_avx512(const Args& args) { rows_w<16>(args); }
-[[gnu::target("avx2")]] void rows_avx2(const Args& args) { rows_w<8>(args); }
+
+#if defined(__clang__)
+#pragma clang attribute pop
+#else
+#pragma GCC pop_options
+#endif
 
 }  // namespace
 
-int lanes() {
-  static const int widest = __builtin_cpu_supports("avx512f") ? 16 : __builtin_cpu_supports("avx2") ? 8 : 0;
-  return widest;
+bool available() {
+  static const bool avx512 = __builtin_cpu_supports("avx512f") && __builtin_cpu_supports("avx512dq") &&
+                             __builtin_cpu_supports("avx512bw") && __builtin_cpu_supports("avx512vl");
+  return avx512;
 }
 
 void rows(const cv::Mat& image, int y0, int y1, int x0, int x1, cv::Mat& out, Scratch& scratch,
-          std::vector<std::vector<int>>& next_to_nan, int lanes_wanted) {
+          std::vector<std::vector<int>>& next_to_nan) {
   CV_Assert(image.type() == CV_32FC1 && image.isContinuous() && out.size() == image.size() && out.type() == CV_32FC1);
   CV_Assert(0 <= y0 && y0 <= y1 && y1 <= image.rows && 0 <= x0 && x0 <= x1 && x1 <= image.cols);
-  const int use = lanes_wanted ? lanes_wanted : lanes();
-  CV_Assert((use == 16 || use == 8) && use <= lanes());
-  const Args args{image, y0, y1, x0, x1, out, scratch, next_to_nan};
-  if (use == 16)
-    rows_avx512(args);
-  else
-    rows_avx2(args);
+  CV_Assert(available());
+  kernel(Args{image, y0, y1, x0, x1, out, scratch, next_to_nan});
 }
 
 }  // namespace occulta::imaging::median5

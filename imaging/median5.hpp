@@ -5,9 +5,8 @@
 // column of 5 is sorted once for the five windows that hold it, each pair of neighbouring
 // sorted columns is merged once for the two windows that hold it, and a window's median
 // comes from merging what it shares with its neighbours (median5.cpp shows the steps):
-// about 45 compare-exchanges a pixel, in SIMD lanes along the row (AVX2 or AVX-512,
-// chosen when the process runs). Measured on one core, 1024² floats: 1.7 ms against
-// cv::medianBlur's 4.6 ms.
+// about 45 compare-exchanges a pixel, in SIMD lanes along the row (AVX-512). Measured on
+// one core, 1024² floats: 1.8 ms against cv::medianBlur's 4.6 ms.
 //
 // The median is a selection, so where the window holds no NaN the value is exactly
 // cv::medianBlur's (BORDER_REPLICATE, as cv::medianBlur uses). Next to a NaN there is no
@@ -24,9 +23,9 @@
 
 namespace occulta::imaging::median5 {
 
-// The widest vectors this CPU runs the kernel with, in floats: 16 (AVX-512F), 8 (AVX2),
-// or 0 (neither: then cv::medianBlur is the faster of the two).
-int lanes();
+// Whether this CPU has the vector instructions the kernel is built for (AVX-512 F, DQ,
+// BW and VL). Without them cv::medianBlur is the faster of the two.
+bool available();
 
 // Room a thread keeps between calls (padded rows and the sorted columns), so that a
 // stream of frames allocates nothing new.
@@ -39,9 +38,8 @@ struct Scratch {
 // pixels untouched). A pixel whose own value is NaN gets that NaN (no data stays no
 // data). A pixel with data whose window holds a NaN, or +∞ and −∞ together, is left for
 // the caller: its column is appended to next_to_nan[y − y0] (in increasing order; the
-// vector is resized to y1 − y0 and cleared first). Runs with `lanes_wanted` floats a
-// vector (8 or 16, at most lanes(); 0: lanes()), so that the tests can try both.
+// vector is resized to y1 − y0 and cleared first). Needs available().
 void rows(const cv::Mat& image, int y0, int y1, int x0, int x1, cv::Mat& out, Scratch& scratch,
-          std::vector<std::vector<int>>& next_to_nan, int lanes_wanted = 0);
+          std::vector<std::vector<int>>& next_to_nan);
 
 }  // namespace occulta::imaging::median5

@@ -120,10 +120,9 @@ void median_filter(cv::Mat& image, int size, cv::Mat& scratch) {
   // half-width of rows above and below: every output row's window lies inside its band's
   // input. A band whose rows hold no finite value is NaN in and NaN out, and is skipped.
   //
-  // 5×5 on a CPU with AVX2 or AVX-512 (and a frame of at least 64 × 8): median5 computes
-  // the band's columns with data, and cv::medianBlur the pixels next to no data
-  // (next_to_no_data). 1024² frames: 1.7 ms a frame on one core, with the pixels next
-  // to no data, against 4.6 ms for cv::medianBlur (median5.hpp).
+  // 5×5 on a CPU with AVX-512 (and a frame of at least 64 × 8): median5 computes the
+  // band's columns with data, and cv::medianBlur the pixels next to no data
+  // (next_to_no_data).
   //
   // Otherwise cv::medianBlur (single-threaded) runs on each band, cut to narrower columns
   // only where that changes nothing: the columns left out hold no data in the band's
@@ -137,7 +136,7 @@ void median_filter(cv::Mat& image, int size, cv::Mat& scratch) {
   if (!image.isContinuous()) image = image.clone();
   scratch.create(image.size(), CV_32FC1);
   const int width = image.cols;
-  const bool shared_networks = size == 5 && median5::lanes() > 0 && width >= 64 && image.rows >= 8;
+  const bool shared_networks = size == 5 && median5::available() && width >= 64 && image.rows >= 8;
   cv::parallel_for_(cv::Range(0, (image.rows + kBand - 1) / kBand), [&](const cv::Range& bands) {
     // Each worker keeps its room from frame to frame (fresh buffers per band were
     // allocated, and their pages faulted in, 32 times a frame); a smaller band is written
