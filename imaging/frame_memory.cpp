@@ -137,6 +137,12 @@ void set_frame_memory() {
     // Peak memory stays the same: what is kept is what the next frame needs.
     mallopt(M_MMAP_THRESHOLD, 64 << 20);
     mallopt(M_TRIM_THRESHOLD, 256 << 20);
+    // One heap for every thread: a block one thread frees is there for the next thread's
+    // (the read-ahead threads, OpenCV's workers and the pictures' threads each had an arena
+    // of their own, each faulted in anew). A maps run of 30 frames: page faults 9.2 k →
+    // 6.3 k, CPU −7 % (paired runs); the threads allocate a few large blocks a frame, so
+    // the one arena's lock is not contended.
+    mallopt(M_ARENA_MAX, 1);
     // Made once and never destroyed: matrices it allocated may be freed as late as the
     // process's exit.
     if (!kAddressSanitized) cv::Mat::setDefaultAllocator(new HugePageAllocator);

@@ -23,8 +23,10 @@ inline constexpr bool kAddressSanitized = false;
 #endif
 
 // For the rest of the process: large heap blocks are kept for reuse instead of handed
-// back to the system (glibc mallopt(3)), and OpenCV matrices of 2 MiB or more go in
-// transparent huge pages (frame_memory.cpp says why and what was measured). The huge
+// back to the system, every thread allocates from one heap (glibc mallopt(3)), and
+// OpenCV matrices of 2 MiB or more go in transparent huge pages, freed ones kept for the
+// next of the same size (frame_memory.cpp says why and what was measured). Call it
+// before the process starts its threads. The huge
 // pages are left out under AddressSanitizer: a matrix in a mapping of its own has no
 // redzones, and the sanitized tests would not see a read past its end. Safe to call
 // more than once and from several threads.
