@@ -150,10 +150,18 @@ std::string map_view(const fit::Event& event, const fit::EventView& view, const 
       write_quicklook(dir / "nrgf.png", {&filtered, 1});
     });
 
+  // The cube is finished (its table written, the file flushed to the disk and renamed:
+  // the fsync waits for the disk) on a thread of its own, beside the time–height maps,
+  // which read its planes back through a descriptor of their own (freeze_planes).
+  std::vector<std::string> iso;
+  for (const double t : utc_s) iso.push_back(imaging::iso_from_utc_seconds(t, 3));
+  cube->freeze_planes();
+  std::future<void> finishing = std::async(std::launch::async, [&] {
+    cube->finish("FRAMES", {{"TIME", "", {}, iso}, {"UTC_S", "s", utc_s, {}}});
+  });
   for (double pa : pas)
     time_maps.push_back(imaging::time_height(run.polar, utc_s, [&](std::size_t k) { return cube->plane(long(k)); }, pa,
                                              2.0));
-  // Drawn while the cube is finished (its fsync waits for the disk), not after.
   for (std::size_t i = 0; i < pas.size(); ++i)
     draw([&, i] {
       const imaging::TimeMap& th = time_maps[i];
@@ -165,11 +173,9 @@ std::string map_view(const fit::Event& event, const fit::EventView& view, const 
       write_quicklook(dir / ("time_height_pa" + pa_label(pas[i]) + ".png"), {&map, 1});
     });
 
-  std::vector<std::string> iso;
-  for (const double t : utc_s) iso.push_back(imaging::iso_from_utc_seconds(t, 3));
-  cube->finish("FRAMES", {{"TIME", "", {}, iso}, {"UTC_S", "s", utc_s, {}}});
-  // Every picture waited for, the first failure thrown after.
+  // The cube and every picture waited for, the first failure thrown after.
   std::exception_ptr failure;
+  pictures.push_back(std::move(finishing));
   for (std::future<void>& picture : pictures) try {
       picture.get();
     } catch (...) {

@@ -142,6 +142,10 @@ class FitsCubeWriter {
   void add(const cv::Mat& plane);  // CV_32FC1 of plane_size; at most max_planes of them
   long planes() const;             // added so far
   cv::Mat plane(long k) const;     // plane k < planes(), read back from the file as written
+  // After this no plane may be added, and plane() reads the planes added so far straight
+  // from the file's bytes through a descriptor of its own: safe on one thread while
+  // finish() runs on another, and after it.
+  void freeze_planes();
   void finish(const std::string& table_name = "", const std::vector<FitsTableColumn>& columns = {});
 
  private:

@@ -383,6 +383,8 @@ struct FitsCubeWriter::State {
   // The temporary opened a second time, read-only, only to start the kernel writing its
   // pages to the disk as the planes come (writeback, below); -1 when it could not be.
   int writeback_fd = -1;
+  // Set by freeze_planes(): where the data unit starts in the file (-1: not frozen).
+  LONGLONG frozen_data_start = -1;
 
   State(const std::filesystem::path& target, cv::Size plane_size, long max)
       : path(target), source(target.string()), size(plane_size), max_planes(max), pending(pending_path(target)),
@@ -429,6 +431,7 @@ long FitsCubeWriter::planes() const { return state_->added; }
 void FitsCubeWriter::add(const cv::Mat& plane) {
   State& s = *state_;
   if (!s.file) throw InputError(s.source, "it cannot be written: a plane came after the cube was finished");
+  if (s.frozen_data_start >= 0) throw InputError(s.source, "it cannot be written: a plane came after its planes were frozen");
   if (plane.type() != CV_32FC1 || plane.size() != s.size)
     throw InputError(s.source, "it cannot be written: the cube's planes are not equal-size float32 images");
   if (s.added >= s.max_planes)
@@ -457,11 +460,57 @@ void FitsCubeWriter::add(const cv::Mat& plane) {
   s.writeback();
 }
 
+namespace {
+
+// `bytes` from `fd` at `at` (pread(2), short reads continued); false when they cannot all
+// be read.
+bool read_at(int fd, void* out, std::size_t bytes, off_t at) {
+  std::size_t got = 0;
+  while (got < bytes) {
+    const ssize_t n = ::pread(fd, static_cast<char*>(out) + got, bytes - got, at + static_cast<off_t>(got));
+    if (n < 0 && errno == EINTR) continue;
+    if (n <= 0) return false;
+    got += static_cast<std::size_t>(n);
+  }
+  return true;
+}
+
+// Big-endian floats (FITS Standard 4.0 §5.3) to the machine's order, in place.
+void from_big_endian(cv::Mat& floats) {
+  if constexpr (std::endian::native == std::endian::little) {
+    auto* words = reinterpret_cast<std::uint32_t*>(floats.data);
+    for (std::size_t i = 0, n = floats.total(); i < n; ++i) words[i] = __builtin_bswap32(words[i]);
+  }
+}
+
+}  // namespace
+
+void FitsCubeWriter::freeze_planes() {
+  State& s = *state_;
+  if (!s.file) throw InputError(s.source, "its planes cannot be read: the cube was finished already");
+  int status = 0;
+  LONGLONG header_start = 0, data_end = 0;
+  fits_flush_buffer(s.file.get(), 0, &status);
+  fits_get_hduaddrll(s.file.get(), &header_start, &s.frozen_data_start, &data_end, &status);
+  s.writer.check(status, "flushing its planes to the file");
+  if (s.writeback_fd < 0)
+    throw InputError(s.source, "its planes cannot be read back: the file could not be opened a second time");
+}
+
 cv::Mat FitsCubeWriter::plane(long k) const {
   const State& s = *state_;
-  if (!s.file || k < 0 || k >= s.added)
+  if ((s.frozen_data_start < 0 && !s.file) || k < 0 || k >= s.added)  // frozen: s.file not read (finish may be resetting it)
     throw InputError(s.source, "plane " + std::to_string(k) + " is not in the cube being written");
   cv::Mat out(s.size, CV_32FC1);
+  if (s.frozen_data_start >= 0) {
+    // freeze_planes(): the planes' bytes do not move again (finish() only rewrites
+    // header cards and appends the table), and cfitsio is not touched here.
+    const std::size_t bytes = out.total() * sizeof(float);
+    if (!read_at(s.writeback_fd, out.data, bytes, static_cast<off_t>(s.frozen_data_start) + static_cast<off_t>(k) * static_cast<off_t>(bytes)))
+      throw InputError(s.source, "plane " + std::to_string(k) + " cannot be read back (" + std::generic_category().message(errno) + ")");
+    from_big_endian(out);
+    return out;
+  }
   int status = 0;
   // Read straight from the file (pread(2) on the read-only descriptor, after cfitsio's
   // buffers are flushed to it) and turned from big-endian (FITS Standard 4.0 §5.3) to the
@@ -471,19 +520,10 @@ cv::Mat FitsCubeWriter::plane(long k) const {
   LONGLONG header_start = 0, data_start = 0, data_end = 0;
   fits_flush_buffer(s.file.get(), 0, &status);
   fits_get_hduaddrll(s.file.get(), &header_start, &data_start, &data_end, &status);
-  if (status == 0 && s.writeback_fd >= 0 && std::endian::native == std::endian::little) {
+  if (status == 0 && s.writeback_fd >= 0) {
     const std::size_t bytes = out.total() * sizeof(float);
-    const off_t at = static_cast<off_t>(data_start) + static_cast<off_t>(k) * static_cast<off_t>(bytes);
-    auto* words = reinterpret_cast<std::uint32_t*>(out.data);
-    std::size_t got = 0;
-    while (got < bytes) {
-      const ssize_t n = ::pread(s.writeback_fd, out.data + got, bytes - got, at + static_cast<off_t>(got));
-      if (n < 0 && errno == EINTR) continue;
-      if (n <= 0) break;
-      got += static_cast<std::size_t>(n);
-    }
-    if (got == bytes) {
-      for (std::size_t i = 0, n = out.total(); i < n; ++i) words[i] = __builtin_bswap32(words[i]);
+    if (read_at(s.writeback_fd, out.data, bytes, static_cast<off_t>(data_start) + static_cast<off_t>(k) * static_cast<off_t>(bytes))) {
+      from_big_endian(out);
       return out;
     }
   }

@@ -2,6 +2,7 @@
 #include <cmath>
 #include <cstring>
 #include <filesystem>
+#include <future>
 #include <iterator>
 #include <string>
 
@@ -184,4 +185,40 @@ TEST_CASE("fits: a cube's DATASUM summed plane by plane equals cfitsio's, cards 
   CHECK(ours.size() == theirs.size());
   CHECK(without_dates(ours) == without_dates(theirs));
   CHECK(ours.find("DATASUM") != std::string::npos);
+}
+
+TEST_CASE("fits: a cube's frozen planes read back while it is finished on another thread, and after") {
+  // maps reads the planes for its time–height maps while the cube is finished beside it
+  // (app/maps.cpp). The planes must come back bit for bit during and after finish(), the
+  // file must be the one written without freezing, and no plane may come after.
+  using occulta::imaging::FitsCubeWriter;
+  const auto dir = occulta::test::scratch_dir("fits_cube_frozen");
+  std::vector<cv::Mat> planes;
+  for (int k = 0; k < 4; ++k) {
+    cv::Mat plane(64, 200, CV_32FC1);
+    cv::randu(plane, -3.0f * k, 2.0f + k);
+    plane.at<float>(k, 2 * k) = NAN;
+    planes.push_back(plane);
+  }
+  occulta::imaging::Header header;
+  header.set_text("CTYPE3", "FRAME", "plane index");
+  const occulta::imaging::FitsTableColumn utc{"UTC_S", "s", {1.0e9, 1.0e9 + 60.0, 1.0e9 + 120.0, 1.0e9 + 180.0}, {}};
+  occulta::imaging::write_fits_cube(dir / "whole.fits", planes, header, "FRAMES", {utc});
+  FitsCubeWriter cube(dir / "frozen.fits", planes.front().size(), 6, header);
+  for (const cv::Mat& plane : planes) cube.add(plane);
+  cube.freeze_planes();
+  CHECK_THROWS_WITH_AS(cube.add(planes[0]), doctest::Contains("frozen.fits"), occulta::imaging::InputError);
+  std::future<void> finishing = std::async(std::launch::async, [&] { cube.finish("FRAMES", {utc}); });
+  int same = 0;
+  for (int round = 0; round < 50; ++round)  // during finish() (and, as it ends, after)
+    for (long k = 0; k < 4; ++k) {
+      const cv::Mat back = cube.plane(k);
+      same += std::memcmp(back.data, planes[std::size_t(k)].data, planes[std::size_t(k)].total() * sizeof(float)) == 0;
+    }
+  finishing.get();
+  CHECK(same == 200);
+  const cv::Mat after = cube.plane(3);
+  CHECK(std::memcmp(after.data, planes[3].data, planes[3].total() * sizeof(float)) == 0);
+  CHECK_THROWS_WITH_AS(cube.plane(4), doctest::Contains("frozen.fits"), occulta::imaging::InputError);
+  CHECK(without_dates(occulta::test::slurp(dir / "whole.fits")) == without_dates(occulta::test::slurp(dir / "frozen.fits")));
 }
