@@ -74,10 +74,13 @@ TimeMap time_height(const PolarGrid& polar, const std::vector<double>& utc_s,
   map.axis_start = polar.height_min_rs;
   map.axis_step = polar.height_step_rs;
   map.values.create(polar.height_count, int(utc_s.size()), CV_32FC1);
-  for (std::size_t k = 0; k < utc_s.size(); ++k) {
-    const auto profile = band_profile(frame(k), polar, pa_deg, half_width_deg);
-    for (int i = 0; i < map.values.rows; ++i) map.values.at<float>(i, int(k)) = profile[i];
-  }
+  // Frames in parallel (each its own column): `frame` may read each from a file.
+  cv::parallel_for_(cv::Range(0, int(utc_s.size())), [&](const cv::Range& frames) {
+    for (int k = frames.start; k < frames.end; ++k) {
+      const auto profile = band_profile(frame(std::size_t(k)), polar, pa_deg, half_width_deg);
+      for (int i = 0; i < map.values.rows; ++i) map.values.at<float>(i, k) = profile[i];
+    }
+  });
   return map;
 }
 

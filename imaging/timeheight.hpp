@@ -42,7 +42,8 @@ struct TimeMap {
 
 TimeMap time_height(const PolarSequence& sequence, double pa_deg, double half_width_deg);
 // The same for frames not held together (maps reads them back from its cube one at a
-// time): frame(k) is frame k of utc_s.size(), on `polar`.
+// time): frame(k) is frame k of utc_s.size(), on `polar`. Frames are taken on several
+// threads at once: `frame` must be safe so.
 TimeMap time_height(const PolarGrid& polar, const std::vector<double>& utc_s,
                     const std::function<cv::Mat(std::size_t)>& frame, double pa_deg, double half_width_deg);
 TimeMap time_pa(const PolarSequence& sequence, double height_rs, double half_band_rs);
