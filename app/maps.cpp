@@ -6,6 +6,7 @@
 #include <exception>
 #include <functional>
 #include <future>
+#include <mutex>
 #include <optional>
 #include <ostream>
 
@@ -152,16 +153,20 @@ std::string map_view(const fit::Event& event, const fit::EventView& view, const 
 
   // The cube is finished (its table written, the file flushed to the disk and renamed:
   // the fsync waits for the disk) on a thread of its own, beside the time–height maps,
-  // which read its planes back through a descriptor of their own (freeze_planes).
+  // which read its planes back through a descriptor of their own (freeze_planes); after
+  // them when the planes cannot be frozen.
   std::vector<std::string> iso;
   for (const double t : utc_s) iso.push_back(imaging::iso_from_utc_seconds(t, 3));
-  cube->freeze_planes();
-  std::future<void> finishing = std::async(std::launch::async, [&] {
-    cube->finish("FRAMES", {{"TIME", "", {}, iso}, {"UTC_S", "s", utc_s, {}}});
-  });
-  for (double pa : pas)
-    time_maps.push_back(imaging::time_height(run.polar, utc_s, [&](std::size_t k) { return cube->plane(long(k)); }, pa,
-                                             2.0));
+  const auto finish = [&] { cube->finish("FRAMES", {{"TIME", "", {}, iso}, {"UTC_S", "s", utc_s, {}}}); };
+  const bool frozen = cube->freeze_planes();
+  std::future<void> finishing = std::async(frozen ? std::launch::async : std::launch::deferred, finish);
+  std::mutex plane_mutex;  // not frozen, plane() goes through cfitsio: one thread at a time
+  const auto plane = [&](std::size_t k) {
+    if (frozen) return cube->plane(long(k));
+    const std::lock_guard lock(plane_mutex);
+    return cube->plane(long(k));
+  };
+  for (double pa : pas) time_maps.push_back(imaging::time_height(run.polar, utc_s, plane, pa, 2.0));
   for (std::size_t i = 0; i < pas.size(); ++i)
     draw([&, i] {
       const imaging::TimeMap& th = time_maps[i];

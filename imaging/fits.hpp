@@ -144,8 +144,9 @@ class FitsCubeWriter {
   cv::Mat plane(long k) const;     // plane k < planes(), read back from the file as written
   // After this no plane may be added, and plane() reads the planes added so far straight
   // from the file's bytes through a descriptor of its own: safe on one thread while
-  // finish() runs on another, and after it.
-  void freeze_planes();
+  // finish() runs on another, and after it. False when the file could not be opened a
+  // second time: then plane() reads through cfitsio, not beside finish().
+  bool freeze_planes();
   void finish(const std::string& table_name = "", const std::vector<FitsTableColumn>& columns = {});
 
  private:

@@ -485,16 +485,17 @@ void from_big_endian(cv::Mat& floats) {
 
 }  // namespace
 
-void FitsCubeWriter::freeze_planes() {
+bool FitsCubeWriter::freeze_planes() {
   State& s = *state_;
   if (!s.file) throw InputError(s.source, "its planes cannot be read: the cube was finished already");
+  if (s.writeback_fd < 0) return false;
   int status = 0;
-  LONGLONG header_start = 0, data_end = 0;
+  LONGLONG header_start = 0, data_start = 0, data_end = 0;
   fits_flush_buffer(s.file.get(), 0, &status);
-  fits_get_hduaddrll(s.file.get(), &header_start, &s.frozen_data_start, &data_end, &status);
+  fits_get_hduaddrll(s.file.get(), &header_start, &data_start, &data_end, &status);
   s.writer.check(status, "flushing its planes to the file");
-  if (s.writeback_fd < 0)
-    throw InputError(s.source, "its planes cannot be read back: the file could not be opened a second time");
+  s.frozen_data_start = data_start;
+  return true;
 }
 
 cv::Mat FitsCubeWriter::plane(long k) const {
@@ -507,7 +508,7 @@ cv::Mat FitsCubeWriter::plane(long k) const {
     // header cards and appends the table), and cfitsio is not touched here.
     const std::size_t bytes = out.total() * sizeof(float);
     if (!read_at(s.writeback_fd, out.data, bytes, static_cast<off_t>(s.frozen_data_start) + static_cast<off_t>(k) * static_cast<off_t>(bytes)))
-      throw InputError(s.source, "plane " + std::to_string(k) + " cannot be read back (" + std::generic_category().message(errno) + ")");
+      throw InputError(s.source, "plane " + std::to_string(k) + " cannot be read back from the file");
     from_big_endian(out);
     return out;
   }

@@ -2,7 +2,7 @@
 //
 // The result is defined as one cv::medianBlur of the whole frame (BORDER_REPLICATE) with
 // the no-data pixels put back as NaN; every path below gives exactly that, and the tests
-// compare each pixel (tests/imaging/difference_test.cpp).
+// compare each pixel (tests/imaging/median_filter_test.cpp).
 //
 // Near NaN the sorting network's answer depends on how a column is computed: OpenCV
 // takes the first two columns and the last few (fewer than two vectors' width) one by one
@@ -145,7 +145,7 @@ void median_filter(cv::Mat& image, int size, cv::Mat& scratch) {
     thread_local median5::Scratch room5;
     thread_local std::vector<std::vector<int>> next_to_nan;
     thread_local std::vector<int> columns;
-    if (room_out.cols != width || room_out.rows < kBand + 2 * half) {
+    if (!shared_networks && (room_out.cols != width || room_out.rows < kBand + 2 * half)) {
       room_in.create(kBand + 2 * half, width, CV_32FC1);
       room_out.create(kBand + 2 * half, width, CV_32FC1);
     }

@@ -206,7 +206,7 @@ TEST_CASE("fits: a cube's frozen planes read back while it is finished on anothe
   occulta::imaging::write_fits_cube(dir / "whole.fits", planes, header, "FRAMES", {utc});
   FitsCubeWriter cube(dir / "frozen.fits", planes.front().size(), 6, header);
   for (const cv::Mat& plane : planes) cube.add(plane);
-  cube.freeze_planes();
+  REQUIRE(cube.freeze_planes());
   CHECK_THROWS_WITH_AS(cube.add(planes[0]), doctest::Contains("frozen.fits"), occulta::imaging::InputError);
   std::future<void> finishing = std::async(std::launch::async, [&] { cube.finish("FRAMES", {utc}); });
   int same = 0;
