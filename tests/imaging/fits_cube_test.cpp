@@ -82,21 +82,28 @@ std::string without_dates(std::string bytes) {
   return bytes;
 }
 
+// `count` float32 planes of `size`: uniform noise in [k − 5, k + 5) for plane k, and one
+// NaN at row 7, column 11 of each (size at least 8 × 12).
+std::vector<cv::Mat> noisy_planes(int count, cv::Size size) {
+  std::vector<cv::Mat> planes;
+  for (int k = 0; k < count; ++k) {
+    cv::Mat plane(size, CV_32FC1);
+    cv::randu(plane, -5.0f + k, 5.0f + k);
+    plane.at<float>(7, 11) = NAN;
+    planes.push_back(plane);
+  }
+  return planes;
+}
+
 }  // namespace
 
 TEST_CASE("fits: a cube written plane by plane with room to spare equals the cube written whole") {
   using occulta::imaging::FitsCubeWriter;
   using occulta::imaging::FitsTableColumn;
   const auto dir = occulta::test::scratch_dir("fits_cube_stream");
-  std::vector<cv::Mat> planes;
-  for (int k = 0; k < 3; ++k) {
-    // 150 × 40 float32 = 24 kB a plane: several 2880-byte blocks, so that the unused
-    // room (two planes) spans whole blocks that must be dropped.
-    cv::Mat plane(40, 150, CV_32FC1);
-    cv::randu(plane, -5.0f + k, 5.0f + k);
-    plane.at<float>(7, 11) = NAN;
-    planes.push_back(plane);
-  }
+  // 150 × 40 float32 = 24 kB a plane: several 2880-byte blocks, so that the unused room
+  // (two planes) spans whole blocks that must be dropped.
+  const std::vector<cv::Mat> planes = noisy_planes(3, cv::Size(150, 40));
   occulta::imaging::Header header;
   header.set_text("CTYPE3", "FRAME", "plane index");
   const FitsTableColumn utc{"UTC_S", "s", {1.0e9, 1.0e9 + 600.5, 1.0e9 + 1300.25}, {}};
@@ -193,13 +200,7 @@ TEST_CASE("fits: a cube's frozen planes read back while it is finished on anothe
   // file must be the one written without freezing, and no plane may come after.
   using occulta::imaging::FitsCubeWriter;
   const auto dir = occulta::test::scratch_dir("fits_cube_frozen");
-  std::vector<cv::Mat> planes;
-  for (int k = 0; k < 4; ++k) {
-    cv::Mat plane(64, 200, CV_32FC1);
-    cv::randu(plane, -3.0f * k, 2.0f + k);
-    plane.at<float>(k, 2 * k) = NAN;
-    planes.push_back(plane);
-  }
+  const std::vector<cv::Mat> planes = noisy_planes(4, cv::Size(200, 64));
   occulta::imaging::Header header;
   header.set_text("CTYPE3", "FRAME", "plane index");
   const occulta::imaging::FitsTableColumn utc{"UTC_S", "s", {1.0e9, 1.0e9 + 60.0, 1.0e9 + 120.0, 1.0e9 + 180.0}, {}};
