@@ -9,6 +9,7 @@
 #include <optional>
 #include <limits>
 
+#include "imaging/bilinear.hpp"
 #include "imaging/difference.hpp"
 #include "imaging/fits.hpp"
 #include "imaging/input_error.hpp"
@@ -108,24 +109,30 @@ struct FrameLoader {
     return image;
   }
 
-  // Straight from the raw frame to the polar grid: one remap whose tables compose the
-  // registration's affine with the unwrapping (polar.hpp), rebuilt only when the cache
-  // builds a new registration (the frame's geometry changed: real pointing moves every
-  // frame, so then only the affine part is redone — bit-identical tables, polar.hpp).
+  // Straight from the raw frame to the polar grid: one bilinear sampling at the points
+  // where the registration's affine sends the polar samples' grid pixels (polar.hpp). With
+  // AVX-512, in one pass with no tables (bilinear.hpp); otherwise through cv::remap's
+  // tables, rebuilt only when the cache builds a new registration (the frame's geometry
+  // changed: real pointing moves every frame, so then only the affine part is redone).
+  // Both give the same bits (bilinear_test, polar_test).
   void to_polar_frame(std::size_t k, const FitsImage& image, cv::Mat& out) {
     const SequenceFrame& frame = sequence.frames[k];
     const Registration& registration = cache.for_geometry(frame.geometry);
-    if (cache.builds() != maps_built_for) {
-      // Every registration of one cache carries the same drop mask (the cache's keep-mask).
-      if (!sampling) {
-        sampling = make_polar_sampling(cache.grid(), polar, registration.drop);
-        table_floats.resize(std::size_t(polar.height_count) * std::size_t(polar.pa_count));
-        table_scratch = cv::Mat(polar.height_count, polar.pa_count, CV_32FC2, table_floats.data());
+    // Every registration of one cache carries the same drop mask (the cache's keep-mask).
+    if (!sampling) sampling = make_polar_sampling(cache.grid(), polar, registration.drop);
+    if (bilinear::available(image.pixels)) {
+      bilinear::sample_affine(image.pixels, sampling->points, registration.grid_to_source, sampling->drop, out);
+    } else {
+      if (cache.builds() != maps_built_for) {
+        if (table_floats.empty()) {
+          table_floats.resize(std::size_t(polar.height_count) * std::size_t(polar.pa_count));
+          table_scratch = cv::Mat(polar.height_count, polar.pa_count, CV_32FC2, table_floats.data());
+        }
+        make_polar_maps(registration, *sampling, table_scratch, source_maps);
+        maps_built_for = cache.builds();
       }
-      make_polar_maps(registration, *sampling, table_scratch, source_maps);
-      maps_built_for = cache.builds();
+      to_polar(image.pixels, source_maps, out);
     }
-    to_polar(image.pixels, source_maps, out);
     // Scaling commutes with the (linear) resampling, so DN/s is applied on the polar grid.
     if (frame.exposure_s) to_rate(out, *frame.exposure_s);
     if (!background.empty()) subtract_background(out, background);

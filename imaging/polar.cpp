@@ -42,68 +42,65 @@ double grid_height_rs(const RegisteredGrid& grid, cv::Point2d pixel) {
 
 namespace {
 
-// Each polar sample's registered-grid pixel, in double (polar.hpp's formula).
-cv::Mat grid_pixels(const RegisteredGrid& grid, const PolarGrid& polar) {
-  cv::Mat xy(polar.height_count, polar.pa_count, CV_64FC2);
-  std::vector<double> sin_pa(polar.pa_count), cos_pa(polar.pa_count);
-  for (int j = 0; j < polar.pa_count; ++j) {
-    sin_pa[j] = std::sin(polar.pa_deg(j) * kRadPerDeg);
-    cos_pa[j] = std::cos(polar.pa_deg(j) * kRadPerDeg);
-  }
-  for (int i = 0; i < polar.height_count; ++i) {
-    const double r = polar.height_rs(i) / grid.rs_per_px;
-    auto* p = xy.ptr<cv::Vec2d>(i);
-    for (int j = 0; j < polar.pa_count; ++j)
-      p[j] = {grid.sun_center_px.x() - r * sin_pa[j], grid.sun_center_px.y() + r * cos_pa[j]};
-  }
-  return xy;
-}
-
-// Tables for polar samples at grid pixels `xy` read from image pixel A · (x, y, 1), into
+// Tables for polar samples at grid pixels `points` read from image pixel A · (x, y, 1), into
 // `maps` (its fixed-point tables' buffers kept when their size and type match). `map`
 // holds the float tables before cv::convertMaps (reallocated only when its size or type
-// differ).
-void polar_tables(const RegisteredGrid& grid, const PolarGrid& polar, const cv::Mat& xy, const cv::Matx23d& a,
-                  cv::Size source, cv::Mat& map, PolarMaps& maps) {
+// differ). Each grid pixel is bilinear.hpp's x = cx − ρ s, y = cy + ρ k, in double, then the
+// affine in double: the same operations as bilinear::sample_affine (this file is compiled
+// without fused multiply-adds, as that one is).
+void polar_tables(const RegisteredGrid& grid, const PolarGrid& polar, const bilinear::CirclePoints& points,
+                  const cv::Matx23d& a, cv::Size source, cv::Mat& map, PolarMaps& maps) {
   maps.grid = grid;
   maps.polar = polar;
   maps.source = source;
   maps.drop.release();
-  map.create(xy.size(), CV_32FC2);
-  for (int i = 0; i < xy.rows; ++i) {
-    const auto* p = xy.ptr<cv::Vec2d>(i);
+  map.create(points.rows(), points.cols(), CV_32FC2);
+  for (int i = 0; i < points.rows(); ++i) {
+    const double rho = points.radius[std::size_t(i)];
     auto* m = map.ptr<cv::Vec2f>(i);
-    for (int j = 0; j < xy.cols; ++j) {
-      const double x = p[j][0], y = p[j][1];
+    for (int j = 0; j < points.cols(); ++j) {
+      const double x = points.cx - rho * points.sin[std::size_t(j)], y = points.cy + rho * points.cos[std::size_t(j)];
       m[j] = {float(a(0, 0) * x + a(0, 1) * y + a(0, 2)), float(a(1, 0) * x + a(1, 1) * y + a(1, 2))};
     }
   }
   cv::convertMaps(map, cv::noArray(), maps.map_xy, maps.map_frac, CV_16SC2);
 }
 
-PolarMaps polar_tables(const RegisteredGrid& grid, const PolarGrid& polar, const cv::Mat& xy, const cv::Matx23d& a,
-                       cv::Size source, cv::Mat& map) {
+PolarMaps polar_tables(const RegisteredGrid& grid, const PolarGrid& polar, const bilinear::CirclePoints& points,
+                       const cv::Matx23d& a, cv::Size source, cv::Mat& map) {
   PolarMaps maps;
-  polar_tables(grid, polar, xy, a, source, map, maps);
+  polar_tables(grid, polar, points, a, source, map, maps);
   return maps;
 }
 
 }  // namespace
 
+bilinear::CirclePoints polar_points(const RegisteredGrid& grid, const PolarGrid& polar) {
+  bilinear::CirclePoints points;
+  points.cx = grid.sun_center_px.x();
+  points.cy = grid.sun_center_px.y();
+  for (int i = 0; i < polar.height_count; ++i) points.radius.push_back(polar.height_rs(i) / grid.rs_per_px);
+  for (int j = 0; j < polar.pa_count; ++j) {
+    points.sin.push_back(std::sin(polar.pa_deg(j) * kRadPerDeg));
+    points.cos.push_back(std::cos(polar.pa_deg(j) * kRadPerDeg));
+  }
+  return points;
+}
+
 PolarMaps make_polar_maps(const RegisteredGrid& grid, const PolarGrid& polar) {
   cv::Mat map;
-  return polar_tables(grid, polar, grid_pixels(grid, polar), cv::Matx23d(1, 0, 0, 0, 1, 0),
+  return polar_tables(grid, polar, polar_points(grid, polar), cv::Matx23d(1, 0, 0, 0, 1, 0),
                       cv::Size(grid.width, grid.height), map);
 }
 
 PolarSampling make_polar_sampling(const RegisteredGrid& grid, const PolarGrid& polar, const cv::Mat& drop_on_grid) {
-  PolarSampling sampling{grid, polar, grid_pixels(grid, polar), {}};
+  PolarSampling sampling{grid, polar, polar_points(grid, polar), {}};
   if (!drop_on_grid.empty()) {
     // The mask unwrapped the way a masked registered frame is: NaN on the masked grid
     // pixels, through the grid's own tables, so the same samples come out NaN.
     cv::Mat pattern(grid.height, grid.width, CV_32FC1, cv::Scalar(0.0)), unwrapped, map;
     pattern.setTo(std::numeric_limits<double>::quiet_NaN(), drop_on_grid);
-    to_polar(pattern, polar_tables(grid, polar, sampling.grid_xy, cv::Matx23d(1, 0, 0, 0, 1, 0),
+    to_polar(pattern, polar_tables(grid, polar, sampling.points, cv::Matx23d(1, 0, 0, 0, 1, 0),
                                    cv::Size(grid.width, grid.height), map),
              unwrapped);
     cv::compare(unwrapped, unwrapped, sampling.drop, cv::CMP_NE);  // NaN ≠ NaN
@@ -113,7 +110,7 @@ PolarSampling make_polar_sampling(const RegisteredGrid& grid, const PolarGrid& p
 
 void make_polar_maps(const Registration& registration, const PolarSampling& sampling, cv::Mat& scratch,
                      PolarMaps& maps) {
-  polar_tables(sampling.grid, sampling.polar, sampling.grid_xy, registration.grid_to_source,
+  polar_tables(sampling.grid, sampling.polar, sampling.points, registration.grid_to_source,
                cv::Size(registration.source.width, registration.source.height), scratch, maps);
   maps.drop = sampling.drop;
 }

@@ -16,13 +16,15 @@
 // The chain (chain.hpp) samples the RAW frame straight onto the polar grid: each polar
 // sample's grid pixel, sent through the registration's affine (register.hpp), is a raw
 // pixel, so one remap does both registration and unwrapping — one interpolation instead of
-// two, over the polar grid's pixels (720 × a few hundred) instead of the full frame.
+// two, over the polar grid's pixels (720 × a few hundred) instead of the full frame. With
+// AVX-512 it is bilinear::sample_affine (bilinear.hpp): the same bits with no tables.
 #pragma once
 
 #include <vector>
 
 #include <opencv2/core.hpp>
 
+#include "imaging/bilinear.hpp"
 #include "imaging/register.hpp"
 
 namespace occulta::imaging {
@@ -64,18 +66,24 @@ PolarMaps make_polar_maps(const RegisteredGrid& grid, const PolarGrid& polar);
 // a masked registered frame is unwrapped.
 PolarMaps make_polar_maps(const Registration& registration, const RegisteredGrid& grid, const PolarGrid& polar);
 
+// Each polar sample's registered-grid pixel (the formula above, in double), in factors:
+// row i on the circle of radius height_rs(i) / rs_per_px about Sun centre, column j at
+// PA pa_deg(j) (bilinear.hpp's CirclePoints).
+bilinear::CirclePoints polar_points(const RegisteredGrid& grid, const PolarGrid& polar);
+
 // What make_polar_maps(registration, grid, polar) computes that does not depend on the
-// registration's affine: each polar sample's grid pixel (CV_64FC2, the formula above, in
-// double) and the polar drop mask of the grid's keep-mask. A view whose pointing moves
-// every frame builds this once; each new pointing then costs only the affine over the
-// samples and cv::convertMaps. make_polar_maps(registration, sampling) gives tables
-// bit-identical to make_polar_maps(registration, grid, polar) when `drop_on_grid` equals
-// registration.drop (the same doubles go through the same operations).
+// registration's affine: each polar sample's grid pixel (polar_points) and the polar drop
+// mask of the grid's keep-mask. A view whose pointing moves every frame builds this once;
+// each new pointing then costs only the affine over the samples and cv::convertMaps, or
+// bilinear::sample_affine straight from the points. make_polar_maps(registration,
+// sampling) gives tables bit-identical to make_polar_maps(registration, grid, polar) when
+// `drop_on_grid` equals registration.drop (the same doubles go through the same
+// operations).
 struct PolarSampling {
   RegisteredGrid grid;
   PolarGrid polar;
-  cv::Mat grid_xy;  // CV_64FC2 on the polar grid
-  cv::Mat drop;     // CV_8UC1 on the polar grid (empty: none)
+  bilinear::CirclePoints points;
+  cv::Mat drop;  // CV_8UC1 on the polar grid (empty: none)
 };
 PolarSampling make_polar_sampling(const RegisteredGrid& grid, const PolarGrid& polar, const cv::Mat& drop_on_grid);
 PolarMaps make_polar_maps(const Registration& registration, const PolarSampling& sampling);

@@ -34,6 +34,7 @@
 #include <opencv2/core.hpp>
 
 #include "imaging/calibrate.hpp"
+#include "imaging/bilinear.hpp"
 #include "imaging/chain.hpp"
 #include "imaging/constants.hpp"
 #include "imaging/difference.hpp"
@@ -96,9 +97,12 @@ void print_stage_times(const std::vector<fs::path>& paths, int passes) {
   // the median runs on the raw frame first.
   const oi::PolarSampling sampling =
       oi::make_polar_sampling(grid, polar, cache.for_geometry(sequence.frames.front().geometry).drop);
-  enum { kRead, kTables, kPolar, kRate, kMedian, kDifference, kSigma, kDivide, kStages };
-  const char* names[kStages] = {"read_fits", "tables (new pointing)", "register+polar", "DN/s", "median 5 (raw frame)",
-                                "difference", "ring σ", "÷σ"};
+  // The unwrap both ways: cv::remap's (tables for each new pointing, then the remap), and
+  // imaging/bilinear's one pass with no tables (the chain's with AVX-512; the same bits).
+  enum { kRead, kTables, kPolar, kBilinear, kRate, kMedian, kDifference, kSigma, kDivide, kStages };
+  const char* names[kStages] = {"read_fits", "tables (new pointing)", "remap to polar", "bilinear to polar (no tables)",
+                                "DN/s", "median 5 (raw frame)", "difference", "ring σ", "÷σ"};
+  const bool one_pass = oi::bilinear::available(oi::read_fits(paths.front()).pixels);
   std::vector<double> best(kStages, 1e30);
   for (int p = 0; p < passes; ++p) {
     std::vector<double> sum(kStages, 0.0);
@@ -115,10 +119,15 @@ void print_stage_times(const std::vector<fs::path>& paths, int passes) {
       // detector pixels (imaging/chain.cpp), then one remap to the polar grid.
       oi::median_filter(image.pixels, 5, median_scratch);
       lap(kMedian);
-      const oi::PolarMaps maps = oi::make_polar_maps(cache.for_geometry(sequence.frames[k].geometry), sampling);
+      const oi::Registration& registration = cache.for_geometry(sequence.frames[k].geometry);
+      const oi::PolarMaps maps = oi::make_polar_maps(registration, sampling);
       lap(kTables);
       oi::to_polar(image.pixels, maps, current);
       lap(kPolar);
+      if (one_pass) {
+        oi::bilinear::sample_affine(image.pixels, sampling.points, registration.grid_to_source, sampling.drop, current);
+        lap(kBilinear);
+      }
       oi::to_rate(current, *sequence.frames[k].exposure_s);
       lap(kRate);
       if (!previous.empty()) {
@@ -134,7 +143,8 @@ void print_stage_times(const std::vector<fs::path>& paths, int passes) {
     for (int s = 0; s < kStages; ++s) best[s] = std::min(best[s], sum[s] / paths.size());
   }
   std::printf("    stages alone, ms/frame:");
-  for (int s = 0; s < kStages; ++s) std::printf(" %s %.2f%s", names[s], 1e3 * best[s], s + 1 < kStages ? "," : "\n");
+  for (int s = 0; s < kStages; ++s)
+    if (s != kBilinear || one_pass) std::printf(" %s %.2f%s", names[s], 1e3 * best[s], s + 1 < kStages ? "," : "\n");
 }
 
 long child_peak_rss_kb(const fs::path& dir, int frames, bool keep_cube) {
