@@ -2,6 +2,7 @@
 #include "imaging/polar.hpp"
 
 #include <cmath>
+#include <cstdint>
 #include <limits>
 #include <vector>
 
@@ -103,7 +104,15 @@ PolarSampling make_polar_sampling(const RegisteredGrid& grid, const PolarGrid& p
     to_polar(pattern, polar_tables(grid, polar, sampling.points, cv::Matx23d(1, 0, 0, 0, 1, 0),
                                    cv::Size(grid.width, grid.height), map),
              unwrapped);
-    cv::compare(unwrapped, unwrapped, sampling.drop, cv::CMP_NE);  // NaN ≠ NaN
+    // NaN tested sample by sample: cv::compare(CMP_NE) of a frame with itself flags NaN in
+    // its scalar tail only (OpenCV 4.6's vector compare is an ordered one), which left this
+    // mask all but empty until 2026-12 (a 720-column grid: 0 of its 4 796 NaN samples).
+    sampling.drop.create(unwrapped.size(), CV_8UC1);
+    for (int i = 0; i < unwrapped.rows; ++i) {
+      const float* u = unwrapped.ptr<float>(i);
+      std::uint8_t* d = sampling.drop.ptr<std::uint8_t>(i);
+      for (int j = 0; j < unwrapped.cols; ++j) d[j] = std::isnan(u[j]) ? 255 : 0;
+    }
   }
   return sampling;
 }

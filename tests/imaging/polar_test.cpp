@@ -1,6 +1,7 @@
 // tests/imaging/polar_test.cpp — imaging/polar: rings become flat lines, PA counts
 // counter-clockwise from solar north through east whatever the roll, and the NRGF.
 #include <cmath>
+#include <cstdint>
 #include <limits>
 #include <optional>
 #include <tuple>
@@ -149,7 +150,9 @@ TEST_CASE("polar: tables from a shared sampling equal tables built from scratch,
     pattern.setTo(std::numeric_limits<double>::quiet_NaN(), r.drop);
     cv::remap(pattern, unwrapped, grid_maps.map_xy, grid_maps.map_frac, cv::INTER_LINEAR, cv::BORDER_CONSTANT,
               cv::Scalar(std::numeric_limits<double>::quiet_NaN()));
-    cv::compare(unwrapped, unwrapped, maps.drop, cv::CMP_NE);
+    maps.drop = cv::Mat(unwrapped.size(), CV_8UC1);
+    for (int i = 0; i < unwrapped.rows; ++i)
+      for (int j = 0; j < unwrapped.cols; ++j) maps.drop.at<std::uint8_t>(i, j) = std::isnan(unwrapped.at<float>(i, j)) ? 255 : 0;
     return maps;
   };
   const auto same = [](const cv::Mat& a, const cv::Mat& b) {
@@ -168,8 +171,37 @@ TEST_CASE("polar: tables from a shared sampling equal tables built from scratch,
     CHECK(same(fast.map_xy, expected.map_xy));
     CHECK(same(fast.map_frac, expected.map_frac));
     CHECK(same(fast.drop, expected.drop));
-    CHECK(cv::countNonZero(fast.drop) > 0);  // the mask does cut samples here
+    CHECK(cv::countNonZero(fast.drop) > polar.pa_count);  // the mask does cut samples here
     ++checked;
   }
   CHECK(cache.builds() == checked);  // a new pointing each time
+}
+
+TEST_CASE("polar: the keep-mask drops the samples within a pixel of the occulter and the field stop, whole rings") {
+  // A registered frame masked outside the annulus is NaN there, and a bilinear sample that
+  // reads a masked grid pixel is NaN: so every sample below the inner radius or above the
+  // outer one (by more than a pixel) is dropped, and none well inside. Until 2026-12 the
+  // mask was all but empty (cv::compare's CMP_NE does not flag NaN in its vector code).
+  const oi::RegisteredGrid grid{400, 400, {199.5, 199.5}, 0.05};
+  const oi::OcculterRadii radii{2.5, 8.0, oi::OcculterRadii::Origin::Caller};
+  const cv::Mat keep = oi::annulus_keep_mask(grid, radii);
+  for (const double pa_step : {0.5, 0.7, 1.0}) {
+    const oi::PolarGrid polar = oi::make_polar_grid(grid, 2.2, 8.4, pa_step);
+    const oi::PolarSampling sampling = oi::make_polar_sampling(grid, polar, keep == 0);
+    REQUIRE(sampling.drop.size() == cv::Size(polar.pa_count, polar.height_count));
+    int outside = 0, inside = 0;
+    for (int i = 0; i < polar.height_count; ++i) {
+      const double h = polar.height_rs(i), pixel = grid.rs_per_px;
+      const int dropped = cv::countNonZero(sampling.drop.row(i));
+      if (h < radii.inner_rs - 1.5 * pixel || h > radii.outer_rs + 1.5 * pixel) {
+        CHECK(dropped == polar.pa_count);
+        ++outside;
+      } else if (h > radii.inner_rs + 1.5 * pixel && h < radii.outer_rs - 1.5 * pixel) {
+        CHECK(dropped == 0);
+        ++inside;
+      }
+    }
+    CHECK(outside >= 8);  // rows below 2.43 R☉ and above 8.07 R☉
+    CHECK(inside > 100);
+  }
 }
