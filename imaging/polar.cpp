@@ -98,12 +98,17 @@ PolarSampling make_polar_sampling(const RegisteredGrid& grid, const PolarGrid& p
   PolarSampling sampling{grid, polar, polar_points(grid, polar), {}};
   if (!drop_on_grid.empty()) {
     // The mask unwrapped the way a masked registered frame is: NaN on the masked grid
-    // pixels, through the grid's own tables, so the same samples come out NaN.
+    // pixels, through the grid's own tables (or bilinear.hpp's pass, the same bits with
+    // no tables: this is on the way to a view's first frame), so the same samples come
+    // out NaN.
     cv::Mat pattern(grid.height, grid.width, CV_32FC1, cv::Scalar(0.0)), unwrapped, map;
     pattern.setTo(std::numeric_limits<double>::quiet_NaN(), drop_on_grid);
-    to_polar(pattern, polar_tables(grid, polar, sampling.points, cv::Matx23d(1, 0, 0, 0, 1, 0),
-                                   cv::Size(grid.width, grid.height), map),
-             unwrapped);
+    const cv::Matx23d identity(1, 0, 0, 0, 1, 0);
+    if (bilinear::available(pattern))
+      bilinear::sample_affine(pattern, sampling.points, identity, {}, unwrapped);
+    else
+      to_polar(pattern, polar_tables(grid, polar, sampling.points, identity, cv::Size(grid.width, grid.height), map),
+               unwrapped);
     // NaN tested sample by sample: cv::compare(CMP_NE) of a frame with itself flags NaN in
     // its scalar tail only (OpenCV 4.6's vector compare is an ordered one), which left this
     // mask all but empty until 2026-12 (a 720-column grid: 0 of its 4 796 NaN samples).
