@@ -25,6 +25,7 @@
 #include <cstring>
 #include <limits>
 
+#include <cpuid.h>
 #include <zlib.h>
 
 #include "imaging/fits_cfitsio.hpp"
@@ -43,7 +44,7 @@ class BitReader {
   std::uint64_t position() const { return std::uint64_t{next_} * 8 - static_cast<std::uint64_t>(available_); }
 
   // Makes at least 56 bits available, or all that remain.
-  void refill() {
+  [[gnu::always_inline]] void refill() {
     if (next_ + 8 <= size_) {
       std::uint64_t word = 0;
       std::memcpy(&word, data_ + next_, 8);
@@ -90,8 +91,12 @@ namespace {
 // decoding carries every check the trace makes. `put` receives each pixel's mapped
 // difference (0 for a low-entropy block's pixels); the trace passes a sink that does
 // nothing, and the compiler drops the arithmetic that feeds it.
+// `put` is taken by value: its state (the decoder's last value and place) is then the
+// walk's own, held in registers, rather than read and written through a reference for
+// every pixel (measured: the decoder 2.3 → 1.6 ms a 1024² frame).
 template <bool kValues, typename Put>
-RiceTrace walk_rice(std::span<const unsigned char> bytes, long long pixels, int blocksize, int bytepix, Put&& put) {
+[[gnu::always_inline]] inline RiceTrace walk_rice(std::span<const unsigned char> bytes, long long pixels, int blocksize,
+                                                  int bytepix, Put put) {
   // cfitsio's decoders: fits_rdecomp_byte for BYTEPIX 1, fits_rdecomp_short for 2, and
   // fits_rdecomp (32-bit) for anything else; the code widths and fsmax are the paper's.
   int fsbits = 5, fsmax = 25, bbits = 32;
@@ -113,22 +118,27 @@ RiceTrace walk_rice(std::span<const unsigned char> bytes, long long pixels, int 
   BitReader bits(bytes.data() + first, bytes.size() - first);
   const std::uint64_t widest = (std::uint64_t{1} << bbits) - 1;  // largest mapped difference
   long long done = 0;                                              // values traced so far
-  auto fail = [&](std::string problem) {
-    trace.bytes_used = first + static_cast<std::size_t>((bits.position() + 7) / 8);
+  // The failures are told the reader's position rather than shown the reader: a reader
+  // whose address a (not inlined) lambda holds lives in memory, and its buffer was stored
+  // and loaded again for every pixel.
+  auto fail = [&](std::string problem, std::uint64_t position) {
+    trace.bytes_used = first + static_cast<std::size_t>((position + 7) / 8);
     trace.problem = std::move(problem);
     return trace;
   };
-  auto past_end = [&] {
+  auto past_end = [&](std::uint64_t position) {
     return fail("its codes run past the end of its " + count_of(static_cast<long long>(bytes.size()), "byte", "bytes") +
-                " at pixel " + std::to_string(done + 1) + " of " + std::to_string(pixels));
+                    " at pixel " + std::to_string(done + 1) + " of " + std::to_string(pixels),
+                position);
   };
-  auto too_wide = [&](long long index) {
+  auto too_wide = [&](long long index, std::uint64_t position) {
     return fail("pixel " + std::to_string(index + 1) + " has a difference wider than the " + std::to_string(bbits) +
-                " bits of its data");
+                    " bits of its data",
+                position);
   };
 
   // Skips `count` bits, or says they are not there.
-  auto skip = [&](std::uint64_t count) {
+  auto skip = [&](std::uint64_t count) __attribute__((always_inline)) {
     while (count > 0) {
       bits.refill();
       const int take = static_cast<int>(std::min<std::uint64_t>(count, static_cast<std::uint64_t>(bits.available())));
@@ -139,7 +149,7 @@ RiceTrace walk_rice(std::span<const unsigned char> bytes, long long pixels, int 
     return true;
   };
   // Reads the next `count` (≤ 32) bits as a number, or says they are not there.
-  auto take = [&](int count, std::uint64_t& value) {
+  auto take = [&](int count, std::uint64_t& value) __attribute__((always_inline)) {
     if (count == 0) return value = 0, true;
     bits.refill();
     if (bits.available() < count) return false;
@@ -151,7 +161,7 @@ RiceTrace walk_rice(std::span<const unsigned char> bytes, long long pixels, int 
   while (done < pixels) {
     const long long block = std::min<long long>(blocksize, pixels - done);
     bits.refill();
-    if (bits.available() < fsbits) return past_end();
+    if (bits.available() < fsbits) return past_end(bits.position());
     const int fs = static_cast<int>(bits.bits() >> (64 - fsbits)) - 1;
     bits.consume(fsbits);
     if (fs < 0) {
@@ -162,17 +172,18 @@ RiceTrace walk_rice(std::span<const unsigned char> bytes, long long pixels, int 
       if constexpr (kValues) {
         for (long long i = 0; i < block; ++i) {
           std::uint64_t raw = 0;
-          if (!take(bbits, raw)) return past_end();
+          if (!take(bbits, raw)) return past_end(bits.position());
           put(static_cast<std::uint32_t>(raw));
         }
       } else if (!skip(static_cast<std::uint64_t>(block) * static_cast<std::uint64_t>(bbits))) {
-        return past_end();
+        return past_end(bits.position());
       }
     } else if (fs > fsmax) {
       // Only 32-bit codes have room for this (5 bits hold up to 30).
       return fail("the block at pixel " + std::to_string(done + 1) + " asks for " + std::to_string(fs) +
-                  " low bits, more than the " + std::to_string(fsmax) + " a Rice code of " + std::to_string(bbits) +
-                  "-bit data can have");
+                      " low bits, more than the " + std::to_string(fsmax) + " a Rice code of " + std::to_string(bbits) +
+                      "-bit data can have",
+                  bits.position());
     } else {
       const std::uint64_t most_zeros = widest >> fs;  // (zeros << fs) | low bits ≤ widest
       const int tail = fs + 1;                         // the unary code's 1, then fs bits
@@ -182,7 +193,7 @@ RiceTrace walk_rice(std::span<const unsigned char> bytes, long long pixels, int 
         if (const std::uint64_t word = bits.bits(); word != 0) {
           const int zeros = std::countl_zero(word);
           if (zeros + tail <= bits.available()) {
-            if (static_cast<std::uint64_t>(zeros) > most_zeros) return too_wide(done + i);
+            if (static_cast<std::uint64_t>(zeros) > most_zeros) return too_wide(done + i, bits.position());
             if constexpr (kValues) {
               // zeros + 1 ≤ 63 here, so both shifts are defined.
               const std::uint64_t low = fs == 0 ? 0 : (word << (zeros + 1)) >> (64 - fs);
@@ -197,7 +208,7 @@ RiceTrace walk_rice(std::span<const unsigned char> bytes, long long pixels, int 
         for (;;) {
           bits.refill();
           const int available = bits.available();
-          if (available == 0) return past_end();
+          if (available == 0) return past_end(bits.position());
           const int leading = std::countl_zero(bits.bits());  // 64 when the buffer is 0
           if (leading < available) {
             zeros += static_cast<std::uint64_t>(leading);
@@ -206,15 +217,15 @@ RiceTrace walk_rice(std::span<const unsigned char> bytes, long long pixels, int 
           }
           zeros += static_cast<std::uint64_t>(available);
           bits.consume(available);
-          if (zeros > most_zeros) return too_wide(done + i);
+          if (zeros > most_zeros) return too_wide(done + i, bits.position());
         }
-        if (zeros > most_zeros) return too_wide(done + i);
+        if (zeros > most_zeros) return too_wide(done + i, bits.position());
         if constexpr (kValues) {
           std::uint64_t low = 0;
-          if (!take(fs, low)) return past_end();
+          if (!take(fs, low)) return past_end(bits.position());
           put(static_cast<std::uint32_t>((zeros << fs) | low));
         } else if (!skip(static_cast<std::uint64_t>(fs))) {
-          return past_end();
+          return past_end(bits.position());
         }
       }
     }
@@ -230,8 +241,12 @@ RiceTrace trace_rice(std::span<const unsigned char> bytes, long long pixels, int
   return walk_rice<false>(bytes, pixels, blocksize, bytepix, [](std::uint32_t) {});
 }
 
-RiceTrace decode_rice(std::span<const unsigned char> bytes, long long pixels, int blocksize, int bytepix,
-                      std::int32_t* values) {
+namespace {
+
+// The decoder, whole (decode_rice says what it does). Always inlined, with walk_rice, into
+// the two builds of it below.
+[[gnu::always_inline]] inline RiceTrace decode(std::span<const unsigned char> bytes, long long pixels, int blocksize,
+                                               int bytepix, std::int32_t* values) {
   // The first value, big-endian in BYTEPIX bytes (4 for anything but 1 and 2, as above);
   // then each pixel is the one before plus its difference, in the data's width: the
   // zig-zag map undone (even d → d/2, odd d → −(d+1)/2, i.e. ~(d >> 1)) and the sum taken
@@ -240,22 +255,45 @@ RiceTrace decode_rice(std::span<const unsigned char> bytes, long long pixels, in
   std::uint32_t last = 0;
   for (int i = 0; i < width && i < static_cast<int>(bytes.size()); ++i) last = (last << 8) | bytes[static_cast<std::size_t>(i)];
   // One walk per width, so that the width is a constant in the loop over pixels.
-  const auto walk = [&]<int kWidth>() {
-    long long at = 0;
-    return walk_rice<true>(bytes, pixels, blocksize, bytepix, [&](std::uint32_t mapped) {
+  const auto walk = [&]<int kWidth>() __attribute__((always_inline)) {
+    return walk_rice<true>(bytes, pixels, blocksize, bytepix, [last, value = values](std::uint32_t mapped) mutable {
       const std::uint32_t difference = (mapped & 1u) ? ~(mapped >> 1) : (mapped >> 1);
       last += difference;  // modulo 2^32; the store keeps the data's width
       if constexpr (kWidth == 1)
-        values[at++] = static_cast<std::int32_t>(last & 0xFFu);  // unsigned 8-bit data
+        *value++ = static_cast<std::int32_t>(last & 0xFFu);  // unsigned 8-bit data
       else if constexpr (kWidth == 2)
-        values[at++] = static_cast<std::int16_t>(static_cast<std::uint16_t>(last));  // signed 16-bit
+        *value++ = static_cast<std::int16_t>(static_cast<std::uint16_t>(last));  // signed 16-bit
       else
-        values[at++] = static_cast<std::int32_t>(last);  // signed 32-bit
+        *value++ = static_cast<std::int32_t>(last);  // signed 32-bit
     });
   };
   if (width == 1) return walk.operator()<1>();
   if (width == 2) return walk.operator()<2>();
   return walk.operator()<4>();
+}
+
+// The same, built with LZCNT (a code's leading zeros counted in one instruction, where the
+// baseline's BSR takes several) and BMI2's shifts by a register: 3.6 → 3.25 ms to read a
+// 1024² Rice frame. Integer steps only, so the same values.
+[[gnu::target("lzcnt,bmi,bmi2")]] RiceTrace decode_lzcnt(std::span<const unsigned char> bytes, long long pixels,
+                                                        int blocksize, int bytepix, std::int32_t* values) {
+  return decode(bytes, pixels, blocksize, bytepix, values);
+}
+
+// Whether the CPU has LZCNT (CPUID leaf 0x80000001, ECX bit 5; on a CPU without it the
+// instruction runs as BSR, which counts from the other end) and BMI1/BMI2.
+bool has_lzcnt_bmi2() {
+  unsigned a = 0, b = 0, c = 0, d = 0;
+  const bool lzcnt = __get_cpuid(0x80000001u, &a, &b, &c, &d) && (c & (1u << 5)) != 0;
+  return lzcnt && __builtin_cpu_supports("bmi") && __builtin_cpu_supports("bmi2");
+}
+
+}  // namespace
+
+RiceTrace decode_rice(std::span<const unsigned char> bytes, long long pixels, int blocksize, int bytepix,
+                      std::int32_t* values) {
+  static const bool fast = has_lzcnt_bmi2();
+  return fast ? decode_lzcnt(bytes, pixels, blocksize, bytepix, values) : decode(bytes, pixels, blocksize, bytepix, values);
 }
 
 namespace {
