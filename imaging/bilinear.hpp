@@ -6,18 +6,19 @@
 // The OpenCV way (polar.cpp, make_polar_maps then to_polar) makes, for each new pointing,
 // float tables float(A · xy), turns them into fixed-point ones (cv::convertMaps, CV_16SC2:
 // the point rounded to 1/32 pixel) and then samples (cv::remap, INTER_LINEAR,
-// BORDER_CONSTANT NaN): ~2.3 ms a 720 × 423 polar frame on this machine, most of it
-// waiting for the frame's pixels. Here the same numbers are formed in SIMD lanes of 16
-// (AVX-512) with no tables, and the pixels of a row's points are asked for (prefetched)
-// a few rows before they are needed. For row r and column c:
-//   x = cx − ρ_r s_c,   y = cy + ρ_r k_c                  (the point; double)
+// BORDER_CONSTANT NaN): ~2.5 ms a 720 × 423 polar frame on one core of this machine, much
+// of it waiting for the frame's pixels. Here the same numbers are formed in SIMD lanes of
+// 16 (AVX-512) with no tables (1.0 ms), and the pixels of a row's points are asked for
+// (prefetched) a few rows before they are needed. For row r and column c:
+//   x = cx − ρ_r s_c,   y = cy + ρ_r k_c     (the point, in double; s_c, k_c: sin[c], cos[c])
 //   u = float((a₀₀ x + a₀₁ y) + a₀₂),  v = float((a₁₀ x + a₁₁ y) + a₁₂)
 //   U = round(32 u),  V = round(32 v)    (to the nearest integer, ties to even, as
 //                                          cv::convertMaps' cvRound)
 //   i = U >> 5, j = V >> 5 (source column and row), p = (U & 31) / 32, q = (V & 31) / 32
 //   out = ((S(j, i) w₀ + S(j, i+1) w₁) + S(j+1, i) w₂) + S(j+1, i+1) w₃
 //   w₀ = (1 − q)(1 − p), w₁ = (1 − q) p, w₂ = q (1 − p), w₃ = q p
-// (cv::remap's weight table for INTER_LINEAR: the products are exact in float), every
+// (cv::remap's weight table for INTER_LINEAR, as OpenCV 4.6's source builds it — from
+// memory; the tests confirm it bit for bit: the products are exact in float), every
 // product and sum rounded in that order, none fused; NaN where any of the four pixels lies
 // outside the frame (0 ≤ i < width − 1 and 0 ≤ j < height − 1 hold data: with a NaN
 // border cv::remap gives NaN there too). The tests hold it to the OpenCV steps on every
