@@ -12,6 +12,8 @@
 #include <cstdint>
 #include <limits>
 
+#include "imaging/avx512.hpp"
+
 namespace occulta::imaging::bilinear {
 
 namespace {
@@ -27,14 +29,8 @@ struct Frame {
   std::int32_t last_y;  // height − 1
 };
 
-// Compiled wholly for AVX-512 (as median5.cpp, for the same reason: GCC lowers vector
-// code in the function it is written in).
-#if defined(__clang__)
-#pragma clang attribute push(__attribute__((target("avx512f,avx512dq,avx512bw,avx512vl"))), apply_to = function)
-#else
-#pragma GCC push_options
-#pragma GCC target("avx512f,avx512dq,avx512bw,avx512vl")
-#endif
+// Compiled wholly for AVX-512, helpers and all (avx512.hpp says why).
+OCCULTA_AVX512_BEGIN
 
 // Where 16 points fall: their fixed-point coordinates (1/32 pixel), the offset of each
 // one's top-left pixel, and the lanes whose four pixels all lie in the frame.
@@ -130,17 +126,7 @@ void sample_row(const Frame& f, const bilinear::CirclePoints& points, int r, con
   }
 }
 
-#if defined(__clang__)
-#pragma clang attribute pop
-#else
-#pragma GCC pop_options
-#endif
-
-bool has_avx512() {
-  static const bool avx512 = __builtin_cpu_supports("avx512f") && __builtin_cpu_supports("avx512dq") &&
-                             __builtin_cpu_supports("avx512bw") && __builtin_cpu_supports("avx512vl");
-  return avx512;
-}
+OCCULTA_AVX512_END
 
 }  // namespace
 

@@ -23,6 +23,7 @@
 // columns at a time so that the sorted columns stay in the first-level cache.
 #include "imaging/median5.hpp"
 
+#include "imaging/avx512.hpp"
 #include "imaging/sorting_network.hpp"
 
 #include <algorithm>
@@ -52,18 +53,11 @@ constexpr int kChunk = 128;  // columns a chunk
 constexpr int kHalo = 16;    // padding columns on each side of a padded row
 
 // The kernel is compiled wholly for AVX-512 (F, DQ, BW and VL: x86-64-v4), helpers and
-// all: GCC lowers a vector operation in the function it is written in, before inlining,
-// so a helper compiled for the baseline comes out lane by lane (measured: 3.1 ms a 1024²
-// frame instead of 1.8). An AVX2 copy was tried: GCC 12 spills its 16 registers and
+// all (avx512.hpp says why). An AVX2 copy was tried: GCC 12 spills its 16 registers and
 // takes 8.5 ms, slower than cv::medianBlur, so without AVX-512 cv::medianBlur does it.
 // GCC's vector extensions (which clang shares): a comparison gives −1 in a lane where it
 // holds, 0 where not.
-#if defined(__clang__)
-#pragma clang attribute push(__attribute__((target("avx512f,avx512dq,avx512bw,avx512vl"))), apply_to = function)
-#else
-#pragma GCC push_options
-#pragma GCC target("avx512f,avx512dq,avx512bw,avx512vl")
-#endif
+OCCULTA_AVX512_BEGIN
 
 constexpr int W = 16;  // floats a vector
 typedef float V __attribute__((vector_size(64)));
@@ -234,20 +228,11 @@ void kernel(const Args& args) {
   }
 }
 
-
-#if defined(__clang__)
-#pragma clang attribute pop
-#else
-#pragma GCC pop_options
-#endif
+OCCULTA_AVX512_END
 
 }  // namespace
 
-bool available() {
-  static const bool avx512 = __builtin_cpu_supports("avx512f") && __builtin_cpu_supports("avx512dq") &&
-                             __builtin_cpu_supports("avx512bw") && __builtin_cpu_supports("avx512vl");
-  return avx512;
-}
+bool available() { return has_avx512(); }
 
 void rows(const cv::Mat& image, int y0, int y1, int x0, int x1, cv::Mat& out, Scratch& scratch,
           std::vector<std::vector<int>>& next_to_nan) {
