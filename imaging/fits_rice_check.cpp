@@ -93,7 +93,7 @@ namespace {
 // nothing, and the compiler drops the arithmetic that feeds it.
 // `put` is taken by value: its state (the decoder's last value and place) is then the
 // walk's own, held in registers, rather than read and written through a reference for
-// every pixel (measured: the decoder 2.3 → 1.6 ms a 1024² frame).
+// every pixel (measured: read_fits of a 1024² Rice frame 4.0 → 3.6 ms).
 template <bool kValues, typename Put>
 [[gnu::always_inline]] inline RiceTrace walk_rice(std::span<const unsigned char> bytes, long long pixels, int blocksize,
                                                   int bytepix, Put put) {
