@@ -72,7 +72,7 @@ int batch(const BatchOptions& o, std::ostream& out, std::ostream& err) {
         try {
           running.push_back(start_event(settings, *row));
         } catch (const imaging::InputError& e) {
-          err << "occulta: problem: " << e.what() << '\n';
+          err << ("occulta: problem: " + std::string(e.what()) + '\n');  // one write(2), as batch_mpi.cpp
           progress.not_started(row->id, e.what());
         }
         break;

@@ -107,7 +107,9 @@ int coordinate(const BatchOptions& o, const BatchSettings& settings, const Shard
       progress.count(m.text.substr(0, tab), m.text.substr(tab + 1));
     } else {
       const std::string sentence = m.text.substr(second + 1);
-      err << "occulta: problem: " << sentence << '\n';
+      // One insertion, so one write(2) into unbuffered stderr: under mpirun the progress
+      // line on stdout was seen forwarded in the middle of a line written in pieces.
+      err << ("occulta: problem: " + sentence + '\n');
       progress.not_started(m.text.substr(0, tab), sentence);
     }
   };
