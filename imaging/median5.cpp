@@ -232,13 +232,11 @@ OCCULTA_AVX512_END
 
 }  // namespace
 
-bool available() { return has_avx512(); }
-
 void rows(const cv::Mat& image, int y0, int y1, int x0, int x1, cv::Mat& out, Scratch& scratch,
           std::vector<std::vector<int>>& next_to_nan) {
   CV_Assert(image.type() == CV_32FC1 && image.isContinuous() && out.size() == image.size() && out.type() == CV_32FC1);
   CV_Assert(0 <= y0 && y0 <= y1 && y1 <= image.rows && 0 <= x0 && x0 <= x1 && x1 <= image.cols);
-  CV_Assert(available());
+  CV_Assert(has_avx512());
   kernel(Args{image, y0, y1, x0, x1, out, scratch, next_to_nan});
 }
 

@@ -23,9 +23,8 @@
 
 namespace occulta::imaging::median5 {
 
-// Whether this CPU has the vector instructions the kernel is built for (AVX-512 F, DQ,
-// BW and VL). Without them cv::medianBlur is the faster of the two.
-bool available();
+// The kernel is built for AVX-512 (imaging/avx512.hpp: has_avx512() says whether this CPU
+// runs it). Without it cv::medianBlur is the faster of the two.
 
 // Room a thread keeps between calls (padded rows and the sorted columns), so that a
 // stream of frames allocates nothing new.
@@ -38,7 +37,7 @@ struct Scratch {
 // pixels untouched). A pixel whose own value is NaN gets that NaN (no data stays no
 // data). A pixel with data whose window holds a NaN, or +∞ and −∞ together, is left for
 // the caller: its column is appended to next_to_nan[y − y0] (in increasing order; the
-// vector is resized to y1 − y0 and cleared first). Needs available().
+// vector is resized to y1 − y0 and cleared first). Needs has_avx512().
 void rows(const cv::Mat& image, int y0, int y1, int x0, int x1, cv::Mat& out, Scratch& scratch,
           std::vector<std::vector<int>>& next_to_nan);
 

@@ -19,6 +19,7 @@
 
 #include <opencv2/imgproc.hpp>
 
+#include "imaging/avx512.hpp"
 #include "imaging/median5.hpp"
 
 namespace occulta::imaging {
@@ -159,7 +160,7 @@ void median_filter(cv::Mat& image, int size, cv::Mat& scratch) {
   if (!image.isContinuous()) image = image.clone();
   scratch.create(image.size(), CV_32FC1);
   const int width = image.cols;
-  const bool shared_networks = size == 5 && median5::available() && width >= 64 && image.rows >= 8;
+  const bool shared_networks = size == 5 && has_avx512() && width >= 64 && image.rows >= 8;
   cv::parallel_for_(cv::Range(0, (image.rows + kBand - 1) / kBand), [&](const cv::Range& bands) {
     // Each worker keeps its room from frame to frame (fresh buffers per band were
     // allocated, and their pages faulted in, 32 times a frame); a smaller band is written

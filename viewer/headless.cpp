@@ -14,7 +14,6 @@
 #include <vector>
 
 #include <opencv2/core.hpp>
-#include <opencv2/core.hpp>
 
 #include "imaging/input_error.hpp"
 #include "imaging/output_file.hpp"
